@@ -1,0 +1,87 @@
+/* ulk/link.h - the parameters of a link profile, shared by every stage.
+ *
+ * Why: the encoder, modulator, timing table and decoder must agree exactly on rates and
+ * patterns, so rates are kept as exact rationals (62.5 bit/s is 125/2) parsed from the
+ * decimal text of the dictionary, never as rounded doubles.
+ */
+#ifndef ULK_LINK_H
+#define ULK_LINK_H
+
+#include <stdint.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* An exact positive rational num/den, kept reduced. den > 0. */
+typedef struct {
+    int64_t num;
+    int64_t den;
+} ulk_ratio;
+
+/* Parses a decimal literal ("62.5", "2000", "1e3", "0x10") into an exact rational.
+ * Returns 0, or ULK_EPARSE when text is not a finite decimal, ULK_ELIMIT when it does not fit
+ * (numerator and denominator must fit in 62 bits after reduction). */
+int ulk_ratio_parse(const char *text, ulk_ratio *out);
+ulk_ratio ulk_ratio_make(int64_t num, int64_t den); /* reduces; den != 0 */
+double ulk_ratio_to_double(ulk_ratio r);
+/* r * k; returns 0 or ULK_ELIMIT on overflow. */
+int ulk_ratio_mul_int(ulk_ratio r, int64_t k, ulk_ratio *out);
+/* a / b; returns 0 or ULK_ELIMIT on overflow, ULK_EINVAL when b is zero. */
+int ulk_ratio_div(ulk_ratio a, ulk_ratio b, ulk_ratio *out);
+/* Formats r as a decimal when it is one ("62.5"), else "num/den". */
+void ulk_ratio_format(ulk_ratio r, char *buf, int len);
+
+typedef enum { ULK_PROFILE_SUBBIT = 0, ULK_PROFILE_CCSDS_TC = 1 } ulk_profile;
+typedef enum { ULK_LINE_NRZL = 0, ULK_LINE_NRZM = 1 } ulk_line_code;
+typedef enum { ULK_WAVE_SINE = 0, ULK_WAVE_SQUARE = 1 } ulk_waveform;
+typedef enum {
+    ULK_CHECK_NONE = 0,
+    ULK_CHECK_PARITY_EVEN,
+    ULK_CHECK_PARITY_ODD,
+    ULK_CHECK_CRC8,
+    ULK_CHECK_CRC16
+} ulk_check_kind;
+
+#define ULK_MAX_SUBBITS 16
+#define ULK_MAX_WORD_BITS 128 /* 16 + 16 + 16 + 64 + 16 */
+
+/* The sub-bit profile of shared/design/subbit-profile.md section 1. */
+typedef struct {
+    ulk_profile profile;
+    ulk_ratio bit_rate;        /* R_b, bit/s */
+    int n_subbits;             /* n, 1..16 */
+    uint8_t zero[ULK_MAX_SUBBITS]; /* Z, values 0/1, n used */
+    uint8_t one[ULK_MAX_SUBBITS];  /* O */
+    uint8_t idle[ULK_MAX_SUBBITS]; /* I */
+    ulk_line_code line_code;
+    ulk_ratio fsc;             /* f_sc, Hz */
+    ulk_waveform waveform;
+    double amplitude;          /* A, 0 < A <= 1 */
+    int has_pilot;
+    ulk_ratio fp;              /* f_p, Hz */
+    double pilot_amplitude;    /* A_p */
+    int preamble, gap, postamble; /* P, G, T in idle patterns */
+    int vehicle_bits;          /* A_v */
+    uint32_t vehicle_value;    /* v */
+    int system_bits;           /* A_s */
+    int opcode_bits;           /* O_b */
+    int argument_bits;         /* D */
+    ulk_check_kind check;
+    int check_bits;            /* C */
+    int word_bits;             /* W = A_v + A_s + O_b + D + C */
+} ulk_link;
+
+/* Number of check bits of a check kind (0, 1, 8, 16). */
+int ulk_check_bits(ulk_check_kind k);
+const char *ulk_check_name(ulk_check_kind k);   /* "none", "parity-even", ... */
+const char *ulk_line_code_name(ulk_line_code c); /* "nrz-l", "nrz-m" */
+const char *ulk_waveform_name(ulk_waveform w);   /* "sine", "square" */
+
+/* R_s = n * R_b. */
+ulk_ratio ulk_link_subbit_rate(const ulk_link *l);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

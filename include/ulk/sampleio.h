@@ -1,0 +1,62 @@
+/* ulk/sampleio.h - sample files in chunks: WAV (libsndfile), raw little-endian f32/s16
+ * with a SigMF metadata file beside them.
+ *
+ * Why: captures can be hour-long; readers and writers move chunks, keep a sticky error,
+ * and writers produce a temporary file that is renamed only when everything is written.
+ */
+#ifndef ULK_SAMPLEIO_H
+#define ULK_SAMPLEIO_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include "ulk/error.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef enum { ULK_FMT_F32 = 0, ULK_FMT_S16 = 1 } ulk_sample_format;
+typedef enum { ULK_CONTAINER_WAV = 0, ULK_CONTAINER_RAW = 1 } ulk_container;
+
+/* What a writer records and a reader finds. */
+typedef struct {
+    double fs_hz;              /* sample rate */
+    ulk_sample_format format;
+    ulk_container container;
+    int channels;              /* 1 = real; readers mix nothing: see ulk_reader_open */
+    /* SigMF annotations (writer: written when non-zero/non-NULL; reader: read when present) */
+    double fsc_hz, bit_rate, subbit_rate;
+    const char *description;   /* e.g. upload identity */
+    const char *extra_json;    /* extra "ulk:" global fields as JSON object members, or NULL */
+} ulk_sample_info;
+
+typedef struct ulk_writer ulk_writer;
+/* Opens path for writing (container from the extension: .wav, .f32, .s16; .f32/.s16 also
+ * write path-with-.sigmf-meta). Data goes to a temporary file until ulk_writer_commit(). */
+int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **out, ulk_diag *diag);
+/* Writes n samples (float, full scale 1.0). s16 output rounds round(32767*x), halves away from
+ * zero, and fails with ULK_ELIMIT if |x| > 1 would clip. Sticky errors: after one failure every
+ * call returns it. */
+int ulk_writer_write(ulk_writer *w, const float *x, size_t n);
+/* Flushes, closes, renames into place. Returns 0 or the sticky error (then nothing is left). */
+int ulk_writer_commit(ulk_writer *w, ulk_diag *diag);
+/* Abandons: closes and removes the temporary files. NULL does nothing. */
+void ulk_writer_abort(ulk_writer *w);
+
+typedef struct ulk_reader ulk_reader;
+/* Opens a capture. For raw files hint supplies rate and format (fs_hz 0 = take them from the
+ * .sigmf-meta beside the file). channel: which channel of a multi-channel WAV (0-based);
+ * -1 refuses multi-channel files with a message saying so. */
+int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel,
+                    ulk_reader **out, ulk_diag *diag);
+const ulk_sample_info *ulk_reader_info(const ulk_reader *r);
+/* Total frames when known, else -1. */
+int64_t ulk_reader_length(const ulk_reader *r);
+/* Reads up to n samples as float; returns count (0 at end) or a negative status. */
+long ulk_reader_read(ulk_reader *r, float *x, size_t n);
+void ulk_reader_close(ulk_reader *r);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,89 @@
+/* src/stream.c - expands an upload into its sub-bit stream, chunk by chunk
+ * (subbit-profile.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern. */
+#include <string.h>
+
+#include "ulk/subbit.h"
+#include "util.h"
+
+struct ulk_stream {
+    const ulk_upload *u;
+    uint64_t total;
+    size_t cmd;          /* current command (0-based); n_cmds = postamble */
+    int in_word;         /* 0: in the idles before cmd, 1: in its word */
+    uint64_t pos;        /* idle pattern or bit index within the current part */
+    int sub;             /* sub-bit within the pattern */
+};
+
+uint64_t ulk_upload_n_subbits(const ulk_upload *u)
+{
+    uint64_t patterns = u->idles_after;
+    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + (uint64_t)u->link.word_bits;
+    return patterns * (uint64_t)u->link.n_subbits;
+}
+
+ulk_stream *ulk_stream_create(const ulk_upload *u)
+{
+    ulk_stream *s = ulk_calloc(1, sizeof *s);
+    if (!s) return NULL;
+    s->u = u;
+    s->total = ulk_upload_n_subbits(u);
+    return s;
+}
+
+void ulk_stream_destroy(ulk_stream *s) { ulk_free(s); }
+uint64_t ulk_stream_length(const ulk_stream *s) { return s->total; }
+
+size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, size_t max)
+{
+    const ulk_link *l = &s->u->link;
+    const int n = l->n_subbits;
+    size_t got = 0;
+    while (got < max) {
+        uint64_t part_len;
+        int is_word;
+        if (s->cmd > s->u->n_cmds) break;
+        if (s->cmd == s->u->n_cmds) { part_len = s->u->idles_after; is_word = 0; }
+        else if (!s->in_word) { part_len = s->u->cmds[s->cmd].idles_before; is_word = 0; }
+        else { part_len = (uint64_t)l->word_bits; is_word = 1; }
+        if (s->pos >= part_len) {
+            /* next part */
+            if (s->cmd == s->u->n_cmds) { s->cmd++; break; }
+            if (!s->in_word) s->in_word = 1;
+            else { s->in_word = 0; s->cmd++; }
+            s->pos = 0;
+            s->sub = 0;
+            continue;
+        }
+        const uint8_t *pat;
+        int bitv = -1;
+        if (is_word) {
+            bitv = s->u->cmds[s->cmd].word.bits[s->pos];
+            pat = bitv ? l->one : l->zero;
+        } else {
+            pat = l->idle;
+        }
+        while (s->sub < n && got < max) {
+            subbits[got] = pat[s->sub];
+            if (info) {
+                info[got].word = is_word ? (uint32_t)(s->cmd + 1) : 0;
+                info[got].bit = is_word ? (int32_t)s->pos : -1;
+                info[got].bit_value = (int8_t)bitv;
+            }
+            got++;
+            s->sub++;
+        }
+        if (s->sub == n) { s->sub = 0; s->pos++; }
+    }
+    return got;
+}
+
+double ulk_stream_word_start_s(const ulk_upload *u, size_t k)
+{
+    uint64_t patterns = 0;
+    for (size_t i = 0; i < k && i < u->n_cmds; i++) {
+        patterns += u->cmds[i].idles_before;
+        if (i + 1 < k) patterns += (uint64_t)u->link.word_bits;
+    }
+    /* one pattern lasts 1/R_b */
+    return (double)patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;
+}

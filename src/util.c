@@ -1,0 +1,197 @@
+/* src/util.c - allocation with failure injection, did-you-mean, atomic files. */
+#include "util.h"
+
+#include <errno.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "ulk/error.h"
+
+static long g_alloc_count;
+static long g_fail_at = -1; /* -1: not yet read from the environment */
+
+static int alloc_should_fail(void)
+{
+    if (g_fail_at < 0) {
+        const char *e = getenv("ULK_FAIL_ALLOC");
+        g_fail_at = e ? atol(e) : 0;
+    }
+    g_alloc_count++;
+    return g_fail_at > 0 && g_alloc_count >= g_fail_at;
+}
+
+void ulk_alloc_fail_at(long n) { g_fail_at = n; g_alloc_count = 0; }
+long ulk_alloc_count(void) { return g_alloc_count; }
+
+void *ulk_malloc(size_t n) { return alloc_should_fail() ? NULL : malloc(n ? n : 1); }
+void *ulk_calloc(size_t n, size_t size)
+{
+    return alloc_should_fail() ? NULL : calloc(n ? n : 1, size ? size : 1);
+}
+void *ulk_realloc(void *p, size_t n) { return alloc_should_fail() ? NULL : realloc(p, n ? n : 1); }
+void ulk_free(void *p) { free(p); }
+char *ulk_strndup(const char *s, size_t n)
+{
+    char *r = ulk_malloc(n + 1);
+    if (!r) return NULL;
+    memcpy(r, s, n);
+    r[n] = 0;
+    return r;
+}
+char *ulk_strdup(const char *s) { return s ? ulk_strndup(s, strlen(s)) : NULL; }
+
+int ulk_edit_distance(const char *a, const char *b, int cap)
+{
+    size_t la = strlen(a), lb = strlen(b);
+    if (la > 64 || lb > 64) return cap + 1;
+    int prev[66], cur[66];
+    for (size_t j = 0; j <= lb; j++) prev[j] = (int)j;
+    for (size_t i = 1; i <= la; i++) {
+        cur[0] = (int)i;
+        int best = cur[0];
+        for (size_t j = 1; j <= lb; j++) {
+            char ca = a[i - 1], cb = b[j - 1];
+            if (ca >= 'A' && ca <= 'Z') ca = (char)(ca - 'A' + 'a');
+            if (cb >= 'A' && cb <= 'Z') cb = (char)(cb - 'A' + 'a');
+            int c = prev[j - 1] + (ca != cb);
+            if (prev[j] + 1 < c) c = prev[j] + 1;
+            if (cur[j - 1] + 1 < c) c = cur[j - 1] + 1;
+            cur[j] = c;
+            if (c < best) best = c;
+        }
+        if (best > cap) return cap + 1;
+        memcpy(prev, cur, sizeof(int) * (lb + 1));
+    }
+    return prev[lb] > cap ? cap + 1 : prev[lb];
+}
+
+const char *ulk_suggest(const char *word, const char *const *cands, size_t n)
+{
+    /* A likely misspelling: at most a third of the letters wrong, and at least one right. */
+    int len = (int)strlen(word);
+    int cap = len / 3 < 1 ? 1 : len / 3;
+    if (cap > 3) cap = 3;
+    const char *best = NULL;
+    int bestd = cap + 1;
+    for (size_t i = 0; i < n; i++) {
+        if (!cands[i]) continue;
+        int d = ulk_edit_distance(word, cands[i], cap);
+        if (d < bestd) { bestd = d; best = cands[i]; }
+    }
+    return best;
+}
+
+int ulk_afile_open(ulk_afile *f, const char *path, struct ulk_diag *diag)
+{
+    memset(f, 0, sizeof *f);
+    size_t n = strlen(path);
+    f->path = ulk_strdup(path);
+    f->tmp = ulk_malloc(n + 16);
+    if (!f->path || !f->tmp) {
+        ulk_free(f->path); ulk_free(f->tmp);
+        memset(f, 0, sizeof *f);
+        return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
+    }
+    memcpy(f->tmp, path, n);
+    memcpy(f->tmp + n, ".tmp.XXXXXX", 12);
+    int fd = mkstemp(f->tmp);
+    if (fd < 0) {
+        int e = errno;
+        ulk_free(f->path); ulk_free(f->tmp);
+        memset(f, 0, sizeof *f);
+        return ulk_fail(diag, ULK_EIO, "%s: cannot create output file: %s", path, strerror(e));
+    }
+    fchmod(fd, 0644);
+    f->fp = fdopen(fd, "wb");
+    if (!f->fp) {
+        close(fd);
+        unlink(f->tmp);
+        ulk_free(f->path); ulk_free(f->tmp);
+        memset(f, 0, sizeof *f);
+        return ulk_fail(diag, ULK_EIO, "%s: cannot open output file", path);
+    }
+    return 0;
+}
+
+int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
+{
+    int bad = ferror(f->fp) != 0;
+    int e = errno;
+    if (fflush(f->fp) != 0) { bad = 1; e = errno; }
+    if (fclose(f->fp) != 0) { bad = 1; e = errno; }
+    f->fp = NULL;
+    int rc = 0;
+    if (bad) {
+        rc = ulk_fail(diag, ULK_EIO, "%s: write failed: %s; no output written", f->path, strerror(e));
+        unlink(f->tmp);
+    } else if (rename(f->tmp, f->path) != 0) {
+        e = errno;
+        rc = ulk_fail(diag, ULK_EIO, "%s: cannot rename into place: %s; no output written", f->path,
+                      strerror(e));
+        unlink(f->tmp);
+    }
+    ulk_free(f->path); ulk_free(f->tmp);
+    memset(f, 0, sizeof *f);
+    return rc;
+}
+
+void ulk_afile_abort(ulk_afile *f)
+{
+    if (!f || !f->tmp) return;
+    if (f->fp) fclose(f->fp);
+    unlink(f->tmp);
+    ulk_free(f->path); ulk_free(f->tmp);
+    memset(f, 0, sizeof *f);
+}
+
+int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, struct ulk_diag *diag)
+{
+    *out = NULL;
+    *len = 0;
+    FILE *fp = fopen(path, "rb");
+    if (!fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
+    size_t cap = 65536, n = 0;
+    char *buf = ulk_malloc(cap + 1);
+    if (!buf) { fclose(fp); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+    for (;;) {
+        if (n == cap) {
+            if (cap >= max_bytes) {
+                ulk_free(buf); fclose(fp);
+                return ulk_fail(diag, ULK_ELIMIT, "%s: file is larger than the limit of %zu bytes", path,
+                                max_bytes);
+            }
+            size_t ncap = cap * 2 > max_bytes ? max_bytes : cap * 2;
+            char *nb = ulk_realloc(buf, ncap + 1);
+            if (!nb) { ulk_free(buf); fclose(fp); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+            buf = nb;
+            cap = ncap;
+        }
+        size_t got = fread(buf + n, 1, cap - n, fp);
+        n += got;
+        if (got == 0) break;
+    }
+    if (ferror(fp)) {
+        int e = errno;
+        ulk_free(buf); fclose(fp);
+        return ulk_fail(diag, ULK_EIO, "%s: read error: %s", path, strerror(e));
+    }
+    if (n == cap && fgetc(fp) != EOF) {
+        ulk_free(buf); fclose(fp);
+        return ulk_fail(diag, ULK_ELIMIT, "%s: file is larger than the limit of %zu bytes", path, max_bytes);
+    }
+    fclose(fp);
+    buf[n] = 0;
+    *out = buf;
+    *len = n;
+    return 0;
+}
+
+void ulk_fmt_double(double v, char *buf, size_t len)
+{
+    for (int p = 1; p <= 17; p++) {
+        snprintf(buf, len, "%.*g", p, v);
+        if (strtod(buf, NULL) == v) return;
+    }
+}
