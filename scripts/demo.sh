@@ -1,0 +1,26 @@
+#!/usr/bin/env bash
+# scripts/demo.sh ULK - the whole job on the bundled demo: validate, compile, inspect,
+# modulate (samples and timing table), impair (noise, clock error, delay, inversion),
+# decode and verify. Outputs go to out/demo/. Exits non-zero when any step fails.
+set -euo pipefail
+ulk=${1:-build/ulk}
+here=$(cd "$(dirname "$0")/.." && pwd)
+cd "$here"
+out=out/demo
+mkdir -p "$out"
+dict=dictionaries/demo-subbit.yaml
+list=dictionaries/demo-subbit.cmd
+step() { printf '\n== %s\n$ %s\n' "$1" "${*:2}"; "${@:2}"; }
+
+step "validate the demo dictionary (YAML and JSON)" "$ulk" validate "$dict" dictionaries/demo-subbit.json
+step "compile the demo command list" "$ulk" compile --dict "$dict" "$list" -o "$out/demo.ulku"
+step "inspect the upload (first words)" bash -c "\"$ulk\" inspect \"$out/demo.ulku\" | head -n 40"
+step "modulate to a 48 kHz WAV and write the timing table" \
+  "$ulk" modulate "$out/demo.ulku" -o "$out/demo.wav" --rate 48000 --timing "$out/demo-timing.csv"
+step "impair: Eb/N0 12 dB, +150 ppm clock, 0.3 s leading noise, -20 dB level, inverted" \
+  "$ulk" impair "$out/demo.wav" "$out/demo-rx.wav" --dict "$dict" --ebn0 12 --ppm 150 --delay 0.3 \
+  --amplitude 0.1 --invert --seed 1
+step "decode the impaired capture blind" bash -c "\"$ulk\" decode --dict \"$dict\" \"$out/demo-rx.wav\" | head -n 40"
+step "verify the capture against the upload" "$ulk" verify --dict "$dict" --upload "$out/demo.ulku" "$out/demo-rx.wav"
+echo
+echo "demo outputs are in $out/"
