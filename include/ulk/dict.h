@@ -51,6 +51,10 @@ typedef struct {
     char *default_text;        /* scalar text of the default, NULL when none */
     ulk_loc default_loc;
     ulk_loc loc;
+    /* Set by the loader once the default has been converted (ulk_arg_from_text): */
+    int has_default;
+    uint64_t default_raw;      /* raw field of the default */
+    double default_eng;        /* its engineering value */
 } ulk_arg;
 
 typedef struct {
@@ -93,10 +97,20 @@ int ulk_dict_load_mem(const char *name, const char *text, size_t len, int is_jso
                       ulk_dict **out, ulk_diag *diag);
 void ulk_dict_destroy(ulk_dict *d);
 
-/* Lookups; NULL / -1 when absent. */
+/* Lookups; NULL / -1 when absent (also when d or a name is NULL). Mnemonics are
+ * case-sensitive. find_command and find_opcode are O(log n) (sorted indexes built at load). */
 const ulk_command *ulk_dict_find_command(const ulk_dict *d, const char *mnemonic);
 const ulk_command *ulk_dict_find_opcode(const ulk_dict *d, uint32_t system_address, uint32_t opcode);
 int ulk_dict_find_system_addr(const ulk_dict *d, uint32_t address);
+int ulk_dict_find_system(const ulk_dict *d, const char *name);           /* index by name */
+const ulk_arg *ulk_command_find_arg(const ulk_command *c, const char *name);
+
+/* The canonical content whose SHA-256 is d->sha256 (docs/dictionary.md): compact JSON of
+ * the model with sorted keys, defaults applied, numbers normalised, so that a YAML and a
+ * JSON file describing the same dictionary give the same text. Returns 0 with *out (NUL
+ * terminated, caller frees with free()) and *len (may be NULL); ULK_ENOMEM; ULK_EINVAL when
+ * d is NULL. */
+int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len);
 
 /* ---- argument values: engineering <-> raw, the rules of subbit-profile.md section 2 ---- */
 

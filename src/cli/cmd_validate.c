@@ -1,9 +1,202 @@
-/* src/cli/cmd_validate.c - placeholder until the stage lands; refuses with exit 2. */
+/* src/cli/cmd_validate.c - `ulk validate [--json] DICT...`: load and check dictionaries,
+ * print every finding and a summary of each dictionary that loaded.
+ *
+ * Exit: 0 when every dictionary is clean (warnings allowed), 1 when any has errors, 2 on a
+ * usage error or when a file cannot be read (I/O outranks findings).
+ */
+#include <getopt.h>
 #include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <cjson/cJSON.h>
+
 #include "cli.h"
+#include "ulk/dict.h"
+#include "ulk/error.h"
+
+static void usage(FILE *out)
+{
+    fprintf(out,
+            "usage: ulk validate [--json] DICT...\n"
+            "\n"
+            "Loads each command dictionary (YAML, or JSON when the name ends in .json) and checks\n"
+            "it against the dictionary rules and the link profile. Every finding is printed as\n"
+            "  FILE:LINE:COL: error|warning: MESSAGE [TREE.PATH]\n"
+            "followed by a summary of each dictionary that loaded: name and version, systems,\n"
+            "commands, word length W, word duration W/R_b, sub-bit rate R_s, k = f_sc/R_s,\n"
+            "critical commands and the SHA-256 of its canonical content.\n"
+            "\n"
+            "options:\n"
+            "  --json      one JSON document on stdout: findings and summaries\n"
+            "  -h, --help  this text\n"
+            "\n"
+            "exit status: 0 clean (warnings allowed), 1 errors found, 2 usage or I/O error\n");
+}
+
+typedef struct {
+    ulk_ratio rs, k;
+    int k_ok;
+    double word_s;
+    char word_txt[64], rs_txt[64], k_txt[64], rb_txt[64];
+} figures;
+
+static void compute(const ulk_dict *d, figures *f)
+{
+    memset(f, 0, sizeof *f);
+    const ulk_link *L = &d->link;
+    f->rs = ulk_link_subbit_rate(L);
+    ulk_ratio_format(f->rs, f->rs_txt, sizeof f->rs_txt);
+    ulk_ratio_format(L->bit_rate, f->rb_txt, sizeof f->rb_txt);
+    f->k_ok = ulk_ratio_div(L->fsc, f->rs, &f->k) == 0;
+    if (f->k_ok) ulk_ratio_format(f->k, f->k_txt, sizeof f->k_txt);
+    ulk_ratio w;
+    if (ulk_ratio_div(ulk_ratio_make(L->word_bits, 1), L->bit_rate, &w) == 0) {
+        ulk_ratio_format(w, f->word_txt, sizeof f->word_txt);
+        f->word_s = ulk_ratio_to_double(w);
+    }
+}
+
+static int n_critical(const ulk_dict *d)
+{
+    int n = 0;
+    for (int i = 0; i < d->n_commands; i++) n += d->commands[i].critical != 0;
+    return n;
+}
+
+static void print_summary(const ulk_dict *d, FILE *out)
+{
+    figures f;
+    compute(d, &f);
+    const ulk_link *L = &d->link;
+    fprintf(out, "%s: dictionary %s version %s\n", d->file, d->name, d->version);
+    fprintf(out, "  systems:        %d\n", d->n_systems);
+    fprintf(out, "  commands:       %d (%d critical)\n", d->n_commands, n_critical(d));
+    fprintf(out, "  word length W:  %d bits (vehicle %d + system %d + opcode %d + arguments %d + %s %d)\n",
+            L->word_bits, L->vehicle_bits, L->system_bits, L->opcode_bits, L->argument_bits,
+            ulk_check_name(L->check), L->check_bits);
+    fprintf(out, "  word duration:  %s s = W / R_b (R_b = %s bit/s)\n", f.word_txt, f.rb_txt);
+    fprintf(out, "  sub-bit rate:   R_s = %s sub-bit/s (n = %d)\n", f.rs_txt, L->n_subbits);
+    fprintf(out, "  subcarrier:     k = f_sc / R_s = %s\n", f.k_ok ? f.k_txt : "?");
+    fprintf(out, "  critical:      ");
+    int any = 0;
+    for (int i = 0; i < d->n_commands; i++)
+        if (d->commands[i].critical) { fprintf(out, " %s", d->commands[i].mnemonic); any = 1; }
+    fprintf(out, "%s\n", any ? "" : " (none)");
+    fprintf(out, "  sha256:         %s\n", d->sha256);
+}
+
+static cJSON *summary_json(const ulk_dict *d)
+{
+    figures f;
+    compute(d, &f);
+    const ulk_link *L = &d->link;
+    cJSON *s = cJSON_CreateObject();
+    cJSON_AddStringToObject(s, "name", d->name);
+    cJSON_AddStringToObject(s, "version", d->version);
+    cJSON_AddNumberToObject(s, "systems", d->n_systems);
+    cJSON_AddNumberToObject(s, "commands", d->n_commands);
+    cJSON_AddNumberToObject(s, "word_bits", L->word_bits);
+    cJSON_AddNumberToObject(s, "word_duration_s", f.word_s);
+    cJSON_AddStringToObject(s, "word_duration_exact_s", f.word_txt);
+    cJSON_AddNumberToObject(s, "bit_rate", ulk_ratio_to_double(L->bit_rate));
+    cJSON_AddNumberToObject(s, "subbits_per_bit", L->n_subbits);
+    cJSON_AddNumberToObject(s, "subbit_rate", ulk_ratio_to_double(f.rs));
+    cJSON_AddStringToObject(s, "subbit_rate_exact", f.rs_txt);
+    if (f.k_ok) {
+        cJSON_AddNumberToObject(s, "subcarrier_k", ulk_ratio_to_double(f.k));
+        cJSON_AddStringToObject(s, "subcarrier_k_exact", f.k_txt);
+    }
+    cJSON *crit = cJSON_AddArrayToObject(s, "critical");
+    for (int i = 0; i < d->n_commands; i++)
+        if (d->commands[i].critical) cJSON_AddItemToArray(crit, cJSON_CreateString(d->commands[i].mnemonic));
+    cJSON_AddStringToObject(s, "sha256", d->sha256);
+    return s;
+}
+
+static cJSON *findings_json(const ulk_diag *dg)
+{
+    static const char *sev[] = {"error", "warning", "note"};
+    cJSON *a = cJSON_CreateArray();
+    for (size_t i = 0; i < ulk_diag_count(dg); i++) {
+        const ulk_finding *f = ulk_diag_get(dg, i);
+        cJSON *o = cJSON_CreateObject();
+        if (f->file) cJSON_AddStringToObject(o, "file", f->file);
+        else cJSON_AddNullToObject(o, "file");
+        cJSON_AddNumberToObject(o, "line", f->line);
+        cJSON_AddNumberToObject(o, "col", f->col);
+        cJSON_AddStringToObject(o, "severity", sev[f->sev]);
+        cJSON_AddStringToObject(o, "message", f->msg);
+        if (f->path) cJSON_AddStringToObject(o, "path", f->path);
+        else cJSON_AddNullToObject(o, "path");
+        cJSON_AddItemToArray(a, o);
+    }
+    return a;
+}
+
 int cmd_validate(int argc, char **argv)
 {
-    (void)argc; (void)argv;
-    fprintf(stderr, "ulk validate: not available in this build\n");
-    return 2;
+    static const struct option opts[] = {{"json", no_argument, NULL, 'j'}, {"help", no_argument, NULL, 'h'}, {0, 0, 0, 0}};
+    int json = 0, c;
+    optind = 1;
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, "+hj", opts, NULL)) != -1) {
+        if (c == 'j') json = 1;
+        else if (c == 'h') { usage(stdout); return 0; }
+        else {
+            fprintf(stderr, "ulk validate: unknown option '%s'\n", argv[optind - 1]);
+            usage(stderr);
+            return 2;
+        }
+    }
+    if (optind >= argc) {
+        fprintf(stderr, "ulk validate: no dictionary given\n");
+        usage(stderr);
+        return 2;
+    }
+    int worst = 0;
+    cJSON *root = json ? cJSON_CreateObject() : NULL;
+    cJSON *arr = json ? cJSON_AddArrayToObject(root, "dictionaries") : NULL;
+    size_t tot_err = 0, tot_warn = 0;
+    for (int i = optind; i < argc; i++) {
+        ulk_diag *dg = ulk_diag_create();
+        if (!dg) { fprintf(stderr, "ulk validate: out of memory\n"); cJSON_Delete(root); return 2; }
+        ulk_dict *d = NULL;
+        int rc = ulk_dict_load(argv[i], &d, dg);
+        int code = rc == 0 ? 0 : (rc == ULK_EPARSE || rc == ULK_ELIMIT) ? 1 : 2;
+        if (code > worst) worst = code;
+        tot_err += ulk_diag_errors(dg);
+        tot_warn += ulk_diag_warnings(dg);
+        if (json) {
+            cJSON *o = cJSON_CreateObject();
+            cJSON_AddStringToObject(o, "file", argv[i]);
+            cJSON_AddStringToObject(o, "status", code == 0 ? "ok" : code == 1 ? "invalid" : "unreadable");
+            cJSON_AddNumberToObject(o, "errors", (double)ulk_diag_errors(dg));
+            cJSON_AddNumberToObject(o, "warnings", (double)ulk_diag_warnings(dg));
+            cJSON_AddItemToObject(o, "findings", findings_json(dg));
+            if (d) cJSON_AddItemToObject(o, "summary", summary_json(d));
+            else cJSON_AddNullToObject(o, "summary");
+            cJSON_AddItemToArray(arr, o);
+        } else {
+            ulk_diag_print(dg, code == 2 ? stderr : stdout);
+            if (d) print_summary(d, stdout);
+            else if (code == 1)
+                printf("%s: refused: %zu error%s, %zu warning%s\n", argv[i], ulk_diag_errors(dg),
+                       ulk_diag_errors(dg) == 1 ? "" : "s", ulk_diag_warnings(dg), ulk_diag_warnings(dg) == 1 ? "" : "s");
+            if (d && ulk_diag_warnings(dg))
+                printf("  %zu warning%s\n", ulk_diag_warnings(dg), ulk_diag_warnings(dg) == 1 ? "" : "s");
+        }
+        ulk_dict_destroy(d);
+        ulk_diag_destroy(dg);
+    }
+    if (json) {
+        cJSON_AddNumberToObject(root, "errors", (double)tot_err);
+        cJSON_AddNumberToObject(root, "warnings", (double)tot_warn);
+        cJSON_AddNumberToObject(root, "exit", worst);
+        char *txt = cJSON_Print(root);
+        if (txt) { printf("%s\n", txt); free(txt); }
+        else { fprintf(stderr, "ulk validate: out of memory\n"); worst = 2; }
+        cJSON_Delete(root);
+    }
+    return worst;
 }

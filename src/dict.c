@@ -1,0 +1,1592 @@
+/* src/dict.c - the command dictionary: from the document tree to the model, with every rule
+ * of subbit-profile.md section 1 and the dictionary tree of interfaces.md checked.
+ *
+ * Why one pass that keeps going: an operator fixing a dictionary wants every problem in one
+ * run, each pointing at its line. So each section is read into the model as far as it can
+ * be, a broken field is reported and left "unknown", and rules that depend on it are
+ * skipped rather than reported twice. The loader returns a model only when no error was
+ * found.
+ *
+ * The model's strings live in an arena owned by the dictionary (one free for all), and the
+ * document tree is dropped after loading, so a large dictionary costs little once loaded.
+ * Lookups by mnemonic and by (system address, opcode) use sorted indexes built here.
+ */
+#include <ctype.h>
+#include <float.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <openssl/evp.h>
+
+#include "doc.h"
+#include "ulk/dict.h"
+#include "util.h"
+
+/* ---------------------------------------------------------------- arena */
+
+typedef struct ablk {
+    struct ablk *next;
+    size_t used, cap;
+    max_align_t data[];
+} ablk;
+
+typedef struct {
+    ulk_dict pub;            /* first: a ulk_dict * is a dict_impl * */
+    ablk *arena;
+    int *by_mnemonic;        /* command indexes sorted by mnemonic */
+    int *by_opcode;          /* command indexes sorted by (system address, opcode) */
+} dict_impl;
+
+static void *arena_alloc(dict_impl *di, size_t n)
+{
+    n = (n + sizeof(max_align_t) - 1) / sizeof(max_align_t) * sizeof(max_align_t);
+    if (n == 0) n = sizeof(max_align_t);
+    ablk *b = di->arena;
+    if (!b || b->cap - b->used < n) {
+        size_t cap = n > 60000 ? n : 60000;
+        b = ulk_malloc(sizeof(ablk) + cap);
+        if (!b) return NULL;
+        b->next = di->arena;
+        b->used = 0;
+        b->cap = cap;
+        di->arena = b;
+    }
+    void *p = (char *)b->data + b->used;
+    b->used += n;
+    memset(p, 0, n);
+    return p;
+}
+
+static char *arena_strdup(dict_impl *di, const char *s)
+{
+    if (!s) return NULL;
+    size_t n = strlen(s);
+    char *p = arena_alloc(di, n + 1);
+    if (p) memcpy(p, s, n + 1);
+    return p;
+}
+
+void ulk_dict_destroy(ulk_dict *d)
+{
+    if (!d) return;
+    dict_impl *di = (dict_impl *)d;
+    for (ablk *b = di->arena, *nx; b; b = nx) {
+        nx = b->next;
+        ulk_free(b);
+    }
+    ulk_free(di->by_mnemonic);
+    ulk_free(di->by_opcode);
+    ulk_free(di);
+}
+
+/* ---------------------------------------------------------------- build context */
+
+typedef struct {
+    dict_impl *di;
+    ulk_dict *d;
+    ulk_doc *doc;
+    ulk_diag *diag;
+    int oom;
+    /* Link fields known to be valid (-1 = broken or missing: dependent rules are skipped). */
+    int n_ok, patterns_ok, rb_ok, fsc_ok, amp_ok, vbits, sbits, obits, dbits, check_ok;
+    ulk_ratio amp_exact;
+} bctx;
+
+static void vfinding(bctx *c, ulk_severity sev, ulk_node *n, const char *fmt, va_list ap)
+{
+    ulk_loc l = ulk_node_loc(c->doc, n);
+    ulk_diag_vadd(c->diag, sev, &l, fmt, ap);
+}
+
+static void err(bctx *c, ulk_node *n, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+static void err(bctx *c, ulk_node *n, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vfinding(c, ULK_SEV_ERROR, n, fmt, ap);
+    va_end(ap);
+}
+
+static void warn(bctx *c, ulk_node *n, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+static void warn(bctx *c, ulk_node *n, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vfinding(c, ULK_SEV_WARNING, n, fmt, ap);
+    va_end(ap);
+}
+
+/* A model location: file and path copied into the arena, so they outlive the tree. */
+static ulk_loc model_loc(bctx *c, ulk_node *n)
+{
+    ulk_loc l = {c->d->file, n ? n->line : 0, n ? n->col : 0, NULL};
+    if (n) {
+        l.path = arena_strdup(c->di, ulk_node_path(n));
+        if (!l.path) c->oom = 1;
+    }
+    return l;
+}
+
+static char *adup(bctx *c, const char *s)
+{
+    char *p = arena_strdup(c->di, s);
+    if (!p && s) c->oom = 1;
+    return p;
+}
+
+/* ---------------------------------------------------------------- shape helpers */
+
+static int want_map(bctx *c, ulk_node *n, const char *what)
+{
+    if (n && n->kind == ULK_NODE_MAP) return 1;
+    err(c, n, "%s must be a mapping, not %s", what, ulk_node_type_name(n));
+    return 0;
+}
+
+static int want_seq(bctx *c, ulk_node *n, const char *what)
+{
+    if (n && n->kind == ULK_NODE_SEQ) return 1;
+    err(c, n, "%s must be a list, not %s", what, ulk_node_type_name(n));
+    return 0;
+}
+
+static int in_list(const char *s, const char *const *list)
+{
+    for (int i = 0; list && list[i]; i++)
+        if (!strcmp(s, list[i])) return 1;
+    return 0;
+}
+
+/* Unknown keys (with did-you-mean) and missing required keys of a mapping. */
+static void check_keys(bctx *c, ulk_node *map, const char *what, const char *const *allowed,
+                       const char *const *required)
+{
+    size_t na = 0;
+    while (allowed[na]) na++;
+    for (int i = 0; i < map->n; i++) {
+        const char *k = map->keys[i]->text;
+        if (in_list(k, allowed)) continue;
+        const char *sug = ulk_suggest(k, allowed, na);
+        if (sug) {
+            err(c, map->keys[i], "unknown key '%s' in %s (did you mean '%s'?)", k, what, sug);
+        } else {
+            char list[400] = "";
+            size_t used = 0;
+            for (size_t j = 0; j < na && used + 40 < sizeof list; j++)
+                used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", j ? ", " : "", allowed[j]);
+            err(c, map->keys[i], "unknown key '%s' in %s (expected one of: %s)", k, what, list);
+        }
+    }
+    for (int i = 0; required && required[i]; i++)
+        if (!ulk_node_get(map, required[i])) err(c, map, "%s has no '%s' (required)", what, required[i]);
+}
+
+static const char *key_name(ulk_node *n)
+{
+    return n && n->key ? n->key : "value";
+}
+
+/* An integer: YAML core int (decimal, 0x, 0o, 0b), or a quoted 0x/0b literal (JSON has no
+ * other way to write hex). Returns 1 with *neg and *mag, else reports and returns 0. */
+static int get_intx(bctx *c, ulk_node *n, int *neg, uint64_t *mag)
+{
+    if (!n || n->kind != ULK_NODE_SCALAR) {
+        err(c, n, "'%s' must be an integer, not %s", key_name(n), ulk_node_type_name(n));
+        return 0;
+    }
+    ulk_scalar_type t = ulk_scalar_resolve(n);
+    int rc;
+    if (t == ULK_SC_INT) {
+        rc = ulk_parse_int_text(n->text, neg, mag);
+    } else if (t == ULK_SC_STRING && n->quoted && strlen(n->text) == n->len) {
+        const char *p = n->text + (n->text[0] == '+' || n->text[0] == '-');
+        if (!(p[0] == '0' && strchr("xXbB", p[1]) && p[1])) {
+            err(c, n, "'%s' must be an integer, not a string ('%.40s')", key_name(n), n->text);
+            return 0;
+        }
+        rc = ulk_parse_int_text(n->text, neg, mag);
+        if (rc == ULK_EPARSE) {
+            err(c, n, "'%s': '%.40s' is not a hex or binary integer", key_name(n), n->text);
+            return 0;
+        }
+    } else {
+        err(c, n, "'%s' must be an integer, not %s%s%.40s%s", key_name(n), ulk_node_type_name(n),
+            t == ULK_SC_FLOAT ? " (" : "", t == ULK_SC_FLOAT ? n->text : "", t == ULK_SC_FLOAT ? ")" : "");
+        return 0;
+    }
+    if (rc == ULK_ELIMIT) {
+        err(c, n, "'%s': integer %.40s does not fit in 64 bits", key_name(n), n->text);
+        return 0;
+    }
+    if (*neg && *mag == 0) *neg = 0;
+    return 1;
+}
+
+/* An integer in [lo, hi] (both within int64). Returns 1 with *out, else reports, 0. */
+static int get_int(bctx *c, ulk_node *n, int64_t lo, int64_t hi, int64_t *out, const char *what)
+{
+    int neg;
+    uint64_t mag;
+    if (!get_intx(c, n, &neg, &mag)) return 0;
+    int ok;
+    int64_t v = 0;
+    if (neg) {
+        ok = mag <= (uint64_t)INT64_MAX + 1;
+        if (ok) v = mag == (uint64_t)INT64_MAX + 1 ? INT64_MIN : -(int64_t)mag;
+    } else {
+        ok = mag <= (uint64_t)INT64_MAX;
+        v = (int64_t)mag;
+    }
+    if (!ok || v < lo || v > hi) {
+        err(c, n, "%s must be %lld..%lld, not %.40s", what, (long long)lo, (long long)hi, n->text);
+        return 0;
+    }
+    *out = v;
+    return 1;
+}
+
+/* A finite number (YAML core int or float; quoted hex accepted like get_intx). */
+static int get_num(bctx *c, ulk_node *n, double *out)
+{
+    if (!n || n->kind != ULK_NODE_SCALAR) {
+        err(c, n, "'%s' must be a number, not %s", key_name(n), ulk_node_type_name(n));
+        return 0;
+    }
+    ulk_scalar_type t = ulk_scalar_resolve(n);
+    if (t == ULK_SC_NAN_INF) {
+        err(c, n, "'%s': NaN and infinity are not accepted (%.20s)", key_name(n), n->text);
+        return 0;
+    }
+    int neg;
+    uint64_t mag;
+    if (t == ULK_SC_INT || (t == ULK_SC_STRING && n->quoted && ulk_parse_int_text(n->text, &neg, &mag) != ULK_EPARSE &&
+                            strpbrk(n->text, "xXbB"))) {
+        if (!get_intx(c, n, &neg, &mag)) return 0;
+        *out = neg ? -(double)mag : (double)mag;
+        return 1;
+    }
+    if (t != ULK_SC_FLOAT) {
+        err(c, n, "'%s' must be a number, not %s", key_name(n), ulk_node_type_name(n));
+        return 0;
+    }
+    double v = strtod(n->text, NULL);
+    if (!isfinite(v)) {
+        err(c, n, "'%s': number %.40s is beyond the range of a double", key_name(n), n->text);
+        return 0;
+    }
+    *out = v;
+    return 1;
+}
+
+/* An exact rational from the number's text. */
+static int get_ratio(bctx *c, ulk_node *n, ulk_ratio *out)
+{
+    double dummy;
+    if (!get_num(c, n, &dummy)) return 0;
+    int rc = ulk_ratio_parse(n->text, out);
+    if (rc == ULK_ELIMIT) {
+        err(c, n, "'%s': %.40s has too many digits to be kept exactly", key_name(n), n->text);
+        return 0;
+    }
+    if (rc) {
+        err(c, n, "'%s': %.40s is not a decimal number", key_name(n), n->text);
+        return 0;
+    }
+    return 1;
+}
+
+static int get_bool(bctx *c, ulk_node *n, int *out)
+{
+    if (n && n->kind == ULK_NODE_SCALAR && ulk_scalar_resolve(n) == ULK_SC_BOOL) {
+        *out = n->text[0] == 't' || n->text[0] == 'T';
+        return 1;
+    }
+    err(c, n, "'%s' must be true or false, not %s%s%.40s%s", key_name(n), ulk_node_type_name(n),
+        n && n->kind == ULK_NODE_SCALAR ? " '" : "", n && n->kind == ULK_NODE_SCALAR ? n->text : "",
+        n && n->kind == ULK_NODE_SCALAR ? "'" : "");
+    return 0;
+}
+
+/* A string (quoted, or plain that YAML 1.2 core reads as a string). */
+static int get_str(bctx *c, ulk_node *n, const char **out)
+{
+    if (n && n->kind == ULK_NODE_SCALAR && ulk_scalar_resolve(n) == ULK_SC_STRING) {
+        if (strlen(n->text) != n->len) {
+            err(c, n, "'%s' holds a NUL character", key_name(n));
+            return 0;
+        }
+        *out = n->text;
+        return 1;
+    }
+    if (n && n->kind == ULK_NODE_SCALAR && ulk_scalar_resolve(n) != ULK_SC_NULL)
+        err(c, n, "'%s' must be a string, not %s (quote it: \"%.40s\")", key_name(n), ulk_node_type_name(n),
+            n->text);
+    else
+        err(c, n, "'%s' must be a string, not %s", key_name(n), ulk_node_type_name(n));
+    return 0;
+}
+
+/* A name: letters, digits and '_', not starting with a digit (what command lists can write). */
+static int get_ident(bctx *c, ulk_node *n, const char *what, const char **out)
+{
+    if (!get_str(c, n, out)) return 0;
+    const char *s = *out;
+    int ok = (isalpha((unsigned char)s[0]) || s[0] == '_');
+    for (const char *p = s; ok && *p; p++) ok = isalnum((unsigned char)*p) || *p == '_';
+    if (!ok) {
+        err(c, n, "%s '%.60s' is not a valid name (letters, digits and '_', starting with a letter or '_')",
+            what, s);
+        return 0;
+    }
+    return 1;
+}
+
+/* One of a fixed set of words; reports with did-you-mean. Returns the index or -1. */
+static int get_choice(bctx *c, ulk_node *n, const char *const *names, size_t count, const char *what)
+{
+    const char *s;
+    if (!get_str(c, n, &s)) return -1;
+    for (size_t i = 0; i < count; i++)
+        if (!strcmp(s, names[i])) return (int)i;
+    char list[200] = "";
+    size_t used = 0;
+    for (size_t i = 0; i < count; i++)
+        used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", i ? ", " : "", names[i]);
+    const char *sug = ulk_suggest(s, names, count);
+    if (sug)
+        err(c, n, "unknown %s '%.40s' (did you mean '%s'? expected %s)", what, s, sug, list);
+    else
+        err(c, n, "unknown %s '%.40s' (expected %s)", what, s, list);
+    return -1;
+}
+
+/* ---------------------------------------------------------------- link */
+
+static int get_pattern(bctx *c, ulk_node *n, uint8_t *out, int *len)
+{
+    if (n && n->kind == ULK_NODE_SCALAR && !n->quoted) {
+        err(c, n,
+            "sub-bit pattern '%s' must be a quoted string: unquoted, %s reads it as %s; write %s: \"%.20s\"",
+            key_name(n), c->doc->is_json ? "JSON" : "YAML", ulk_node_type_name(n), key_name(n), n->text);
+        return 0;
+    }
+    const char *s;
+    if (!get_str(c, n, &s)) return 0;
+    size_t l = strlen(s);
+    if (l < 1 || l > ULK_MAX_SUBBITS || strspn(s, "01") != l) {
+        err(c, n, "sub-bit pattern '%s' must be 1 to %d characters 0 or 1, not \"%.40s\"", key_name(n),
+            ULK_MAX_SUBBITS, s);
+        return 0;
+    }
+    for (size_t i = 0; i < l; i++) out[i] = (uint8_t)(s[i] - '0');
+    *len = (int)l;
+    return 1;
+}
+
+static void fmt_pattern(const uint8_t *p, int n, char *buf)
+{
+    for (int i = 0; i < n; i++) buf[i] = (char)('0' + p[i]);
+    buf[n] = 0;
+}
+
+static void build_subbits(bctx *c, ulk_node *sb)
+{
+    ulk_link *L = &c->d->link;
+    static const char *const keys[] = {"zero", "one", "idle", NULL};
+    if (!want_map(c, sb, "link.subbits")) return;
+    check_keys(c, sb, "link.subbits", keys, keys);
+    ulk_node *nz = ulk_node_get(sb, "zero"), *no = ulk_node_get(sb, "one"), *ni = ulk_node_get(sb, "idle");
+    int lz = 0, lo = 0, li = 0;
+    int okz = nz && get_pattern(c, nz, L->zero, &lz);
+    int oko = no && get_pattern(c, no, L->one, &lo);
+    int oki = ni && get_pattern(c, ni, L->idle, &li);
+    if (!okz || !oko || !oki) return;
+    if (lo != lz) { err(c, no, "pattern 'one' has %d sub-bits but 'zero' has %d: all patterns need the same length n", lo, lz); return; }
+    if (li != lz) { err(c, ni, "pattern 'idle' has %d sub-bits but 'zero' has %d: all patterns need the same length n", li, lz); return; }
+    int n = lz;
+    L->n_subbits = n;
+    c->n_ok = 1;
+    char bz[20], bo[20], bi[20], bc[20];
+    fmt_pattern(L->zero, n, bz);
+    fmt_pattern(L->one, n, bo);
+    fmt_pattern(L->idle, n, bi);
+    uint8_t comp[ULK_MAX_SUBBITS];
+    for (int i = 0; i < n; i++) comp[i] = (uint8_t)(1 - L->idle[i]);
+    fmt_pattern(comp, n, bc);
+    int bad = 0;
+    int d = 0;
+    for (int i = 0; i < n; i++) d += L->zero[i] != L->one[i];
+    if (d == 0) { err(c, no, "patterns 'zero' and 'one' are equal (\"%s\"): bits could not be told apart", bz); bad = 1; }
+    if (!memcmp(L->idle, L->zero, (size_t)n)) { err(c, ni, "idle pattern equals 'zero' (\"%s\")", bi); bad = 1; }
+    if (!memcmp(L->idle, L->one, (size_t)n)) { err(c, ni, "idle pattern equals 'one' (\"%s\")", bi); bad = 1; }
+    /* The decoder resolves the 180 degree ambiguity from the idle preamble: the inverted idle
+     * must not look like idle, a zero or a one. */
+    if (!memcmp(comp, L->idle, (size_t)n)) {
+        err(c, ni, "the complement of the idle pattern (\"%s\") equals the idle pattern: a 180 degree phase ambiguity could not be resolved", bc);
+        bad = 1;
+    }
+    if (!memcmp(comp, L->zero, (size_t)n)) {
+        err(c, ni, "the complement of the idle pattern (\"%s\") equals 'zero': a 180 degree phase ambiguity could not be resolved", bc);
+        bad = 1;
+    }
+    if (!memcmp(comp, L->one, (size_t)n)) {
+        err(c, ni, "the complement of the idle pattern (\"%s\") equals 'one': a 180 degree phase ambiguity could not be resolved", bc);
+        bad = 1;
+    }
+    if (d > 0 && d < n)
+        warn(c, no, "Hamming distance between 'zero' (\"%s\") and 'one' (\"%s\") is %d, below n = %d: sensitivity loss %.2f dB (10*log10(n/d))",
+             bz, bo, d, n, 10.0 * log10((double)n / d));
+    c->patterns_ok = !bad;
+}
+
+static int positive_ratio(bctx *c, ulk_node *n, ulk_ratio *out, const char *what)
+{
+    if (!n || !get_ratio(c, n, out)) return 0;
+    if (out->num <= 0) {
+        err(c, n, "%s must be > 0, not %.40s", what, n->text);
+        return 0;
+    }
+    return 1;
+}
+
+/* Amplitude in (0, 1], kept exact for A + A_p <= 1. */
+static int get_amplitude(bctx *c, ulk_node *n, double *out, ulk_ratio *exact, const char *what)
+{
+    if (!get_num(c, n, out) || !get_ratio(c, n, exact)) return 0;
+    if (exact->num <= 0 || exact->num > exact->den) {
+        err(c, n, "%s must be in (0, 1], not %.40s", what, n->text);
+        return 0;
+    }
+    return 1;
+}
+
+static void build_link(bctx *c, ulk_node *ln)
+{
+    ulk_link *L = &c->d->link;
+    static const char *const keys[] = {"profile", "bit_rate", "subbits", "line_code", "subcarrier",
+                                       "pilot", "framing", "word", NULL};
+    static const char *const req[] = {"profile", "bit_rate", "subbits", "subcarrier", "framing", "word", NULL};
+    L->amplitude = 1.0;
+    c->amp_exact = ulk_ratio_make(1, 1);
+    c->vbits = c->sbits = c->obits = c->dbits = -1;
+    if (!want_map(c, ln, "link")) return;
+    ulk_node *pn = ulk_node_get(ln, "profile");
+    if (pn) {
+        static const char *const prof[] = {"subbit", "ccsds-tc"};
+        int p = get_choice(c, pn, prof, 2, "link profile");
+        if (p == 1) {
+            err(c, pn, "link profile 'ccsds-tc' is not supported by this build (only 'subbit')");
+            return;
+        }
+        if (p < 0) return;
+    }
+    check_keys(c, ln, "link", keys, req);
+    L->profile = ULK_PROFILE_SUBBIT;
+
+    c->rb_ok = positive_ratio(c, ulk_node_get(ln, "bit_rate"), &L->bit_rate, "bit_rate");
+    ulk_node *sb = ulk_node_get(ln, "subbits");
+    if (sb) build_subbits(c, sb);
+
+    ulk_node *lc = ulk_node_get(ln, "line_code");
+    if (lc) {
+        static const char *const codes[] = {"nrz-l", "nrz-m"};
+        int k = get_choice(c, lc, codes, 2, "line code");
+        if (k >= 0) L->line_code = (ulk_line_code)k;
+    }
+
+    ulk_node *sc = ulk_node_get(ln, "subcarrier");
+    ulk_node *fsc_node = NULL;
+    if (sc && want_map(c, sc, "link.subcarrier")) {
+        static const char *const sk[] = {"frequency", "waveform", "amplitude", NULL};
+        static const char *const sr[] = {"frequency", NULL};
+        check_keys(c, sc, "link.subcarrier", sk, sr);
+        fsc_node = ulk_node_get(sc, "frequency");
+        c->fsc_ok = positive_ratio(c, fsc_node, &L->fsc, "subcarrier frequency");
+        ulk_node *wf = ulk_node_get(sc, "waveform");
+        if (wf) {
+            static const char *const w[] = {"sine", "square"};
+            int k = get_choice(c, wf, w, 2, "waveform");
+            if (k >= 0) L->waveform = (ulk_waveform)k;
+        }
+        ulk_node *am = ulk_node_get(sc, "amplitude");
+        c->amp_ok = am ? get_amplitude(c, am, &L->amplitude, &c->amp_exact, "subcarrier amplitude") : 1;
+    }
+
+    ulk_node *pl = ulk_node_get(ln, "pilot");
+    ulk_node *fp_node = NULL, *ap_node = NULL;
+    int fp_ok = 0, ap_ok = 0;
+    ulk_ratio ap_exact = {0, 1};
+    if (pl && want_map(c, pl, "link.pilot")) {
+        static const char *const pk[] = {"frequency", "amplitude", NULL};
+        check_keys(c, pl, "link.pilot", pk, pk);
+        L->has_pilot = 1;
+        fp_node = ulk_node_get(pl, "frequency");
+        ap_node = ulk_node_get(pl, "amplitude");
+        fp_ok = positive_ratio(c, fp_node, &L->fp, "pilot frequency");
+        ap_ok = ap_node && get_amplitude(c, ap_node, &L->pilot_amplitude, &ap_exact, "pilot amplitude");
+    }
+
+    ulk_node *fr = ulk_node_get(ln, "framing");
+    if (fr && want_map(c, fr, "link.framing")) {
+        static const char *const fk[] = {"preamble", "gap", "postamble", NULL};
+        check_keys(c, fr, "link.framing", fk, fk);
+        int64_t v;
+        ulk_node *pn2 = ulk_node_get(fr, "preamble");
+        /* 10^8 idle patterns is over a day at 1 kbit/s: beyond it is a typing error. */
+        if (pn2 && get_int(c, pn2, 0, 100000000, &v, "preamble (idle patterns)")) {
+            L->preamble = (int)v;
+            if (v < 16)
+                warn(c, pn2, "preamble of %lld idle patterns is short (P < 16): the decoder may not acquire the signal before the first word",
+                     (long long)v);
+        }
+        ulk_node *gn = ulk_node_get(fr, "gap");
+        if (gn && get_int(c, gn, 0, 100000000, &v, "gap (idle patterns)")) L->gap = (int)v;
+        ulk_node *tn = ulk_node_get(fr, "postamble");
+        if (tn && get_int(c, tn, 0, 100000000, &v, "postamble (idle patterns)")) L->postamble = (int)v;
+    }
+
+    ulk_node *wn = ulk_node_get(ln, "word");
+    if (wn && want_map(c, wn, "link.word")) {
+        static const char *const wk[] = {"vehicle_address", "system_address_bits", "opcode_bits",
+                                         "argument_bits", "check", NULL};
+        check_keys(c, wn, "link.word", wk, wk);
+        int64_t v;
+        ulk_node *va = ulk_node_get(wn, "vehicle_address");
+        if (va && want_map(c, va, "link.word.vehicle_address")) {
+            static const char *const vk[] = {"bits", "value", NULL};
+            check_keys(c, va, "link.word.vehicle_address", vk, vk);
+            ulk_node *vb = ulk_node_get(va, "bits"), *vv = ulk_node_get(va, "value");
+            if (vb && get_int(c, vb, 0, 16, &v, "vehicle address width (bits)")) {
+                L->vehicle_bits = (int)v;
+                c->vbits = (int)v;
+            }
+            if (vv && get_int(c, vv, 0, INT64_MAX, &v, "vehicle address")) {
+                if (c->vbits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->vbits))
+                    err(c, vv, "vehicle address %lld does not fit in %d bits (must be below %llu)", (long long)v,
+                        c->vbits, (unsigned long long)1 << c->vbits);
+                else
+                    L->vehicle_value = (uint32_t)v;
+            }
+        }
+        ulk_node *n2;
+        if ((n2 = ulk_node_get(wn, "system_address_bits")) && get_int(c, n2, 0, 16, &v, "system_address_bits"))
+            c->sbits = L->system_bits = (int)v;
+        if ((n2 = ulk_node_get(wn, "opcode_bits")) && get_int(c, n2, 1, 16, &v, "opcode_bits"))
+            c->obits = L->opcode_bits = (int)v;
+        if ((n2 = ulk_node_get(wn, "argument_bits")) && get_int(c, n2, 0, 64, &v, "argument_bits"))
+            c->dbits = L->argument_bits = (int)v;
+        if ((n2 = ulk_node_get(wn, "check"))) {
+            static const char *const ck[] = {"none", "parity-even", "parity-odd", "crc8", "crc16"};
+            int k = get_choice(c, n2, ck, 5, "check");
+            if (k >= 0) {
+                L->check = (ulk_check_kind)k;
+                L->check_bits = ulk_check_bits(L->check);
+                c->check_ok = 1;
+            }
+        }
+        if (c->vbits >= 0 && c->sbits >= 0 && c->obits >= 0 && c->dbits >= 0 && c->check_ok) {
+            L->word_bits = L->vehicle_bits + L->system_bits + L->opcode_bits + L->argument_bits + L->check_bits;
+            if (L->word_bits > ULK_MAX_WORD_BITS)
+                err(c, wn, "word length W = %d bits exceeds %d", L->word_bits, ULK_MAX_WORD_BITS);
+        }
+    }
+
+    /* Rates: f_sc = k * R_s with k whole >= 1; f_sc < 2 R_s warns. */
+    if (c->rb_ok && c->n_ok && c->fsc_ok) {
+        ulk_ratio rs, k;
+        if (ulk_ratio_mul_int(L->bit_rate, L->n_subbits, &rs) || ulk_ratio_div(L->fsc, rs, &k)) {
+            err(c, fsc_node, "subcarrier frequency and sub-bit rate are too large to relate exactly");
+        } else {
+            char bf[64], brs[64], bk[64];
+            ulk_ratio_format(L->fsc, bf, sizeof bf);
+            ulk_ratio_format(rs, brs, sizeof brs);
+            ulk_ratio_format(k, bk, sizeof bk);
+            if (k.den != 1 || k.num < 1)
+                err(c, fsc_node, "subcarrier frequency %s Hz is not a whole multiple of the sub-bit rate R_s = n * R_b = %s Hz (f_sc / R_s = %s)",
+                    bf, brs, bk);
+            else if (k.num < 2)
+                warn(c, fsc_node, "subcarrier frequency %s Hz is below 2 * R_s = 2 * %s Hz: the data sidebands overlap the carrier",
+                     bf, brs);
+        }
+    }
+    if (L->has_pilot && fp_ok && c->rb_ok && c->n_ok) {
+        ulk_ratio rs, q1, q2;
+        if (ulk_ratio_mul_int(L->bit_rate, L->n_subbits, &rs) || ulk_ratio_div(L->fp, rs, &q1) ||
+            ulk_ratio_div(rs, L->fp, &q2)) {
+            err(c, fp_node, "pilot frequency and sub-bit rate are too large to relate exactly");
+        } else if (q1.den != 1 && q2.den != 1) {
+            char bf[64], brs[64];
+            ulk_ratio_format(L->fp, bf, sizeof bf);
+            ulk_ratio_format(rs, brs, sizeof brs);
+            err(c, fp_node, "pilot frequency %s Hz must be a whole multiple or a whole fraction of R_s = %s Hz", bf, brs);
+        }
+    }
+    if (L->has_pilot && ap_ok && c->amp_ok) {
+        /* A + A_p <= 1, exactly: a/b + c/d <= 1  <=>  a*d + c*b <= b*d. */
+        __int128 lhs = (__int128)c->amp_exact.num * ap_exact.den + (__int128)ap_exact.num * c->amp_exact.den;
+        __int128 rhs = (__int128)c->amp_exact.den * ap_exact.den;
+        if (lhs > rhs)
+            err(c, ap_node, "data amplitude %g plus pilot amplitude %g exceeds full scale 1 (A + A_p <= 1)",
+                L->amplitude, L->pilot_amplitude);
+    }
+}
+
+/* ---------------------------------------------------------------- systems */
+
+typedef struct {
+    const char *k;
+    uint64_t a, b;
+    int i;
+} sortref;
+
+static int sortref_cmp_str(const void *x, const void *y)
+{
+    const sortref *p = x, *q = y;
+    int c = strcmp(p->k, q->k);
+    return c ? c : (p->i > q->i) - (p->i < q->i);
+}
+
+static int sortref_cmp_num(const void *x, const void *y)
+{
+    const sortref *p = x, *q = y;
+    if (p->a != q->a) return p->a < q->a ? -1 : 1;
+    if (p->b != q->b) return p->b < q->b ? -1 : 1;
+    return (p->i > q->i) - (p->i < q->i);
+}
+
+static void build_systems(bctx *c, ulk_node *sn)
+{
+    ulk_dict *d = c->d;
+    if (!want_seq(c, sn, "systems")) return;
+    if (sn->n == 0) {
+        err(c, sn, "systems is empty: at least one system is needed");
+        return;
+    }
+    d->systems = arena_alloc(c->di, (size_t)sn->n * sizeof *d->systems);
+    ulk_node **names = ulk_calloc((size_t)sn->n, sizeof *names);
+    if (!d->systems || !names) { c->oom = 1; ulk_free(names); return; }
+    d->n_systems = sn->n;
+    static const char *const keys[] = {"name", "address", NULL};
+    for (int i = 0; i < sn->n; i++) {
+        ulk_node *s = sn->items[i];
+        ulk_system *y = &d->systems[i];
+        y->loc = model_loc(c, s);
+        y->address = UINT32_MAX;
+        if (!want_map(c, s, "a system")) continue;
+        check_keys(c, s, "a system", keys, keys);
+        const char *name;
+        ulk_node *nn = ulk_node_get(s, "name");
+        if (nn && get_ident(c, nn, "system name", &name)) {
+            y->name = adup(c, name);
+            names[i] = nn;
+        }
+        ulk_node *an = ulk_node_get(s, "address");
+        int64_t v;
+        if (an && get_int(c, an, 0, INT64_MAX, &v, "system address")) {
+            if (c->sbits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->sbits))
+                err(c, an, "system address %lld does not fit in system_address_bits = %d (must be below %llu)",
+                    (long long)v, c->sbits, (unsigned long long)1 << c->sbits);
+            else if (v > 0xFFFF)
+                err(c, an, "system address %lld is wider than 16 bits", (long long)v);
+            else
+                y->address = (uint32_t)v;
+        }
+    }
+    sortref *v = ulk_malloc((size_t)sn->n * sizeof *v);
+    if (!v) { c->oom = 1; ulk_free(names); return; }
+    /* Duplicate names. */
+    int m = 0;
+    for (int i = 0; i < sn->n; i++)
+        if (d->systems[i].name) v[m++] = (sortref){d->systems[i].name, 0, 0, i};
+    qsort(v, (size_t)m, sizeof *v, sortref_cmp_str);
+    for (int i = 1; i < m; i++)
+        if (!strcmp(v[i].k, v[i - 1].k)) {
+            int j = i - 1;
+            while (j > 0 && !strcmp(v[j - 1].k, v[i].k)) j--;
+            err(c, names[v[i].i], "duplicate system name '%s' (first at line %d)", v[i].k, d->systems[v[j].i].loc.line);
+        }
+    /* Duplicate addresses, and addresses one bit apart (a single bit error would turn one
+     * system's word into the other's). Addresses are below 2^16: a table is cheapest. */
+    int *first = ulk_malloc(sizeof(int) * 65536);
+    if (!first) { c->oom = 1; ulk_free(v); ulk_free(names); return; }
+    for (int i = 0; i < 65536; i++) first[i] = -1;
+    for (int i = 0; i < sn->n; i++) {
+        uint32_t a = d->systems[i].address;
+        if (a > 0xFFFF) continue;
+        ulk_node *an = ulk_node_get(sn->items[i], "address");
+        if (first[a] >= 0) {
+            err(c, an, "duplicate system address %u: '%s' has it too (line %d)", a,
+                d->systems[first[a]].name ? d->systems[first[a]].name : "?", d->systems[first[a]].loc.line);
+            continue;
+        }
+        for (int b = 0; b < 16; b++) {
+            uint32_t o = a ^ (1u << b);
+            if (first[o] >= 0)
+                warn(c, an, "system addresses of '%s' (0x%X) and '%s' (0x%X) differ in one bit (Hamming distance 1): one bit error turns a word for one into a word for the other",
+                     d->systems[first[o]].name ? d->systems[first[o]].name : "?", o,
+                     d->systems[i].name ? d->systems[i].name : "?", a);
+        }
+        first[a] = i;
+    }
+    ulk_free(first);
+    ulk_free(v);
+    ulk_free(names);
+}
+
+int ulk_dict_find_system(const ulk_dict *d, const char *name)
+{
+    if (!d || !name) return -1;
+    for (int i = 0; i < d->n_systems; i++)
+        if (d->systems[i].name && !strcmp(d->systems[i].name, name)) return i;
+    return -1;
+}
+
+/* ---------------------------------------------------------------- arguments */
+
+static void raw_bounds(const ulk_arg *a, long double *lo, long double *hi)
+{
+    if (a->type == ULK_ARG_SIGNED) {
+        *lo = -ldexpl(1.0L, a->bits - 1);
+        *hi = ldexpl(1.0L, a->bits - 1) - 1.0L;
+    } else {
+        *lo = 0.0L;
+        *hi = ldexpl(1.0L, a->bits) - 1.0L;
+    }
+}
+
+static long double cal_f(const ulk_arg *a, long double x)
+{
+    if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_offset + (long double)a->cal_scale * x;
+    long double acc = 0.0L;
+    for (int k = a->n_poly - 1; k >= 0; k--) acc = acc * x + (long double)a->poly[k];
+    return acc;
+}
+
+static long double cal_df(const ulk_arg *a, long double x)
+{
+    if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_scale;
+    long double acc = 0.0L;
+    for (int k = a->n_poly - 1; k >= 1; k--) acc = acc * x + (long double)k * (long double)a->poly[k];
+    return acc;
+}
+
+/* Checks that the calibration is strictly monotonic over the raw range, so that every
+ * engineering value has one nearest raw. Up to 2^16 raws every neighbour pair is compared;
+ * wider fields are sampled at 65537 points (value and derivative sign): a degree-d
+ * polynomial's derivative has at most d-1 roots, and a turn between two samples of a field
+ * that wide would need a polynomial no calibration table uses. Returns 1 when monotonic. */
+static int check_monotonic(bctx *c, ulk_node *cn, const ulk_arg *a)
+{
+    long double lo, hi;
+    raw_bounds(a, &lo, &hi);
+    if (a->cal == ULK_CAL_LINEAR) {
+        if (a->cal_scale == 0.0) {
+            err(c, cn, "calibration scale is 0: every raw value gives the same engineering value");
+            return 0;
+        }
+        long double f0 = cal_f(a, lo), f1 = cal_f(a, hi);
+        if (!isfinite(f0) || !isfinite(f1)) {
+            err(c, cn, "calibration overflows over the raw range");
+            return 0;
+        }
+        return 1;
+    }
+    long double span = hi - lo;
+    int exhaustive = span <= 65536.0L;
+    long n = exhaustive ? (long)span : 65536;
+    int dir = 0;
+    long double prev = cal_f(a, lo);
+    if (!isfinite(prev)) { err(c, cn, "calibration overflows over the raw range"); return 0; }
+    for (long i = 1; i <= n; i++) {
+        long double x = exhaustive ? lo + (long double)i : lo + span * (long double)i / (long double)n;
+        if (!exhaustive) x = roundl(x);
+        long double f = cal_f(a, x);
+        if (!isfinite(f)) { err(c, cn, "calibration overflows near raw %.0Lf", x); return 0; }
+        int s = f > prev ? 1 : f < prev ? -1 : 0;
+        if (!exhaustive && s != 0) {
+            long double dv = cal_df(a, x);
+            int ds = dv > 0 ? 1 : dv < 0 ? -1 : 0;
+            if (ds != s && i < n) s = 0; /* the derivative says it is turning here */
+        }
+        if (s == 0 || (dir && s != dir)) {
+            char blo[48], bhi[48];
+            snprintf(blo, sizeof blo, "%.0Lf", lo);
+            snprintf(bhi, sizeof bhi, "%.0Lf", hi);
+            if (s == 0)
+                err(c, cn, "calibration is not strictly monotonic over the raw range [%s, %s]: it is flat near raw %.0Lf",
+                    blo, bhi, x);
+            else
+                err(c, cn, "calibration is not monotonic over the raw range [%s, %s]: it turns near raw %.0Lf",
+                    blo, bhi, x);
+            return 0;
+        }
+        dir = s;
+        prev = f;
+    }
+    return 1;
+}
+
+static void build_calibration(bctx *c, ulk_node *cn, ulk_arg *a)
+{
+    if (!want_map(c, cn, "calibration")) return;
+    ulk_node *sc = ulk_node_get(cn, "scale"), *of = ulk_node_get(cn, "offset"), *po = ulk_node_get(cn, "polynomial");
+    if (po && (sc || of)) {
+        err(c, cn, "calibration is either {scale, offset} or {polynomial}, not both");
+        return;
+    }
+    if (po) {
+        static const char *const k[] = {"polynomial", NULL};
+        check_keys(c, cn, "calibration", k, k);
+        if (!want_seq(c, po, "calibration polynomial")) return;
+        if (po->n < 2 || po->n > 16) {
+            err(c, po, "calibration polynomial needs 2 to 16 coefficients [c0, c1, ...], not %d", po->n);
+            return;
+        }
+        double *p = arena_alloc(c->di, (size_t)po->n * sizeof *p);
+        if (!p) { c->oom = 1; return; }
+        for (int i = 0; i < po->n; i++)
+            if (!get_num(c, po->items[i], &p[i])) return;
+        a->poly = p;
+        a->n_poly = po->n;
+        a->cal = ULK_CAL_POLY;
+        return;
+    }
+    static const char *const k[] = {"scale", "offset", NULL};
+    static const char *const r[] = {"scale", NULL};
+    check_keys(c, cn, "calibration", k, r);
+    if (!sc) return;
+    a->cal_offset = 0.0;
+    if (!get_num(c, sc, &a->cal_scale)) return;
+    if (of && !get_num(c, of, &a->cal_offset)) return;
+    a->cal = ULK_CAL_LINEAR;
+}
+
+/* Range endpoints against what the raw width and calibration can represent. */
+static void check_range_representable(bctx *c, ulk_node *rn, const ulk_arg *a)
+{
+    long double lo, hi, flo, fhi;
+    const char *how;
+    if (a->type == ULK_ARG_FLOAT32) {
+        flo = -(long double)FLT_MAX;
+        fhi = (long double)FLT_MAX;
+        how = "float32";
+    } else {
+        raw_bounds(a, &lo, &hi);
+        if (a->cal != ULK_CAL_NONE) {
+            flo = cal_f(a, lo);
+            fhi = cal_f(a, hi);
+            if (flo > fhi) { long double t = flo; flo = fhi; fhi = t; }
+            how = "the calibrated raw range";
+        } else {
+            flo = lo;
+            fhi = hi;
+            how = a->type == ULK_ARG_SIGNED ? "signed raw" : "unsigned raw";
+        }
+    }
+    /* The range as written, in long double so that 2^64 - 1 is exact. */
+    long double rlo = strtold(rn->items[0]->text, NULL), rhi = strtold(rn->items[1]->text, NULL);
+    int neg;
+    uint64_t mag;
+    if (ulk_parse_int_text(rn->items[0]->text, &neg, &mag) == 0) rlo = neg ? -(long double)mag : (long double)mag;
+    if (ulk_parse_int_text(rn->items[1]->text, &neg, &mag) == 0) rhi = neg ? -(long double)mag : (long double)mag;
+    long double tol = a->cal != ULK_CAL_NONE ? 1e-9L * fmaxl(fmaxl(fabsl(flo), fabsl(fhi)), 1.0L) : 0.0L;
+    if (rlo < flo - tol || rhi > fhi + tol) {
+        char b1[48], b2[48];
+        ulk_fmt_double((double)flo, b1, sizeof b1);
+        ulk_fmt_double((double)fhi, b2, sizeof b2);
+        if (a->type == ULK_ARG_FLOAT32)
+            err(c, rn, "range [%s, %s] is beyond what float32 can represent", rn->items[0]->text, rn->items[1]->text);
+        else
+            err(c, rn, "range [%s, %s] cannot be represented: %d-bit %s gives [%s, %s]", rn->items[0]->text,
+                rn->items[1]->text, a->bits, how, b1, b2);
+    }
+}
+
+static void build_enum_values(bctx *c, ulk_node *vn, ulk_arg *a, int bits_ok)
+{
+    if (!want_map(c, vn, "values")) return;
+    if (vn->n == 0) { err(c, vn, "an enum needs at least one label in values"); return; }
+    a->values = arena_alloc(c->di, (size_t)vn->n * sizeof *a->values);
+    sortref *v = ulk_malloc((size_t)vn->n * sizeof *v);
+    if (!a->values || !v) { c->oom = 1; ulk_free(v); return; }
+    int m = 0, bad = 0;
+    for (int i = 0; i < vn->n; i++) {
+        ulk_node *kn = vn->keys[i], *cn = vn->items[i];
+        const char *lab = kn->text;
+        int ok = isalpha((unsigned char)lab[0]) || lab[0] == '_';
+        for (const char *p = lab; ok && *p; p++) ok = isalnum((unsigned char)*p) || *p == '_';
+        if (!ok) {
+            err(c, kn, "enum label '%.60s' is not a valid name (letters, digits and '_', starting with a letter or '_')", lab);
+            bad = 1;
+        }
+        int neg;
+        uint64_t mag;
+        if (!get_intx(c, cn, &neg, &mag)) { bad = 1; continue; }
+        if (neg) { err(c, cn, "enum code of '%s' must not be negative (%.40s)", lab, cn->text); bad = 1; continue; }
+        if (bits_ok && a->bits < 64 && mag >= ((uint64_t)1 << a->bits)) {
+            err(c, cn, "enum code %.40s of '%s' does not fit in %d bits (must be below %llu)", cn->text, lab, a->bits,
+                (unsigned long long)1 << a->bits);
+            bad = 1;
+        }
+        ulk_enum_value *e = &a->values[a->n_values++];
+        e->label = adup(c, lab);
+        e->code = (int64_t)mag;
+        e->loc = model_loc(c, kn);
+        v[m++] = (sortref){NULL, mag, 0, i};
+    }
+    qsort(v, (size_t)m, sizeof *v, sortref_cmp_num);
+    for (int i = 1; i < m; i++)
+        if (v[i].a == v[i - 1].a) {
+            int j = i - 1;
+            while (j > 0 && v[j - 1].a == v[i].a) j--;
+            err(c, vn->items[v[i].i], "enum code %llu of '%s' is already used by '%s'", (unsigned long long)v[i].a,
+                vn->keys[v[i].i]->text, vn->keys[v[j].i]->text);
+            bad = 1;
+        }
+    ulk_free(v);
+    (void)bad;
+}
+
+/* Builds one argument; returns 1 when it is fully valid (so that its default can be checked). */
+static int build_arg(bctx *c, ulk_node *an, ulk_arg *a, ulk_node *cmd_args, int idx)
+{
+    static const char *const keys[] = {"name", "type", "bits", "range", "units", "calibration", "values",
+                                       "default", "description", NULL};
+    static const char *const req[] = {"name", "type", NULL};
+    a->loc = model_loc(c, an);
+    if (!want_map(c, an, "an argument")) return 0;
+    size_t before = ulk_diag_errors(c->diag);
+    check_keys(c, an, "an argument", keys, req);
+    const char *s;
+    ulk_node *nn = ulk_node_get(an, "name");
+    if (nn && get_ident(c, nn, "argument name", &s)) {
+        a->name = adup(c, s);
+        for (int j = 0; j < idx; j++) {
+            ulk_node *o = ulk_node_get(cmd_args->items[j], "name");
+            if (o && o->kind == ULK_NODE_SCALAR && !strcmp(o->text, s)) {
+                err(c, nn, "duplicate argument name '%s' (first at line %d)", s, o->line);
+                break;
+            }
+        }
+    }
+    ulk_node *tn = ulk_node_get(an, "type");
+    int type = -1;
+    if (tn) {
+        static const char *const types[] = {"unsigned", "signed", "boolean", "enum", "float32"};
+        type = get_choice(c, tn, types, 5, "argument type");
+    }
+    if (type < 0) return 0;
+    a->type = (ulk_arg_type)type;
+    const char *tname = ulk_arg_type_name(a->type);
+
+    ulk_node *bn = ulk_node_get(an, "bits");
+    int bits_ok = 0;
+    int64_t v;
+    if (bn) {
+        if (get_int(c, bn, 1, 64, &v, "argument width (bits)")) {
+            if (a->type == ULK_ARG_BOOLEAN && v != 1)
+                err(c, bn, "a boolean argument has 1 bit, not %lld", (long long)v);
+            else if (a->type == ULK_ARG_FLOAT32 && v != 32)
+                err(c, bn, "a float32 argument has 32 bits, not %lld", (long long)v);
+            else {
+                a->bits = (int)v;
+                bits_ok = 1;
+            }
+        }
+    } else if (a->type == ULK_ARG_BOOLEAN) {
+        a->bits = 1;
+        bits_ok = 1;
+    } else if (a->type == ULK_ARG_FLOAT32) {
+        a->bits = 32;
+        bits_ok = 1;
+    } else {
+        err(c, an, "a%s %s argument needs 'bits' (its raw width, 1..64)", a->type == ULK_ARG_ENUM ? "n" : "", tname);
+    }
+
+    ulk_node *cn = ulk_node_get(an, "calibration");
+    if (cn) {
+        if (a->type == ULK_ARG_UNSIGNED || a->type == ULK_ARG_SIGNED) build_calibration(c, cn, a);
+        else err(c, cn, "calibration does not apply to %s arguments", tname);
+    }
+    ulk_node *un = ulk_node_get(an, "units");
+    if (un && get_str(c, un, &s)) {
+        if (a->type == ULK_ARG_BOOLEAN || a->type == ULK_ARG_ENUM)
+            err(c, un, "units do not apply to %s arguments", tname);
+        else if (!*s || strpbrk(s, " \t#="))
+            err(c, un, "units '%.40s' must be a non-empty word without spaces, '#' or '='", s);
+        else
+            a->units = adup(c, s);
+    }
+    ulk_node *vn = ulk_node_get(an, "values");
+    if (a->type == ULK_ARG_ENUM) {
+        if (vn) build_enum_values(c, vn, a, bits_ok);
+        else err(c, an, "an enum argument needs 'values' (its labels and codes)");
+    } else if (vn) {
+        err(c, vn, "values (enum labels) do not apply to %s arguments", tname);
+    }
+    if (bits_ok && a->cal != ULK_CAL_NONE) {
+        if (!check_monotonic(c, cn, a)) a->cal = ULK_CAL_NONE, a->n_poly = 0, a->poly = NULL;
+    }
+    ulk_node *rn = ulk_node_get(an, "range");
+    if (rn) {
+        if (a->type == ULK_ARG_BOOLEAN || a->type == ULK_ARG_ENUM) {
+            err(c, rn, "range does not apply to %s arguments", tname);
+        } else if (rn->kind != ULK_NODE_SEQ || rn->n != 2) {
+            err(c, rn, "range must be a list [MIN, MAX] of two numbers, not %s%s", ulk_node_type_name(rn),
+                rn->kind == ULK_NODE_SEQ ? " of another length" : "");
+        } else if (get_num(c, rn->items[0], &a->range_min) && get_num(c, rn->items[1], &a->range_max)) {
+            if (a->range_min > a->range_max) {
+                err(c, rn, "range [%s, %s] has MIN above MAX", rn->items[0]->text, rn->items[1]->text);
+            } else {
+                a->has_range = 1;
+                if (bits_ok) check_range_representable(c, rn, a);
+            }
+        }
+    }
+    ulk_node *dn = ulk_node_get(an, "default");
+    if (dn) {
+        if (dn->kind != ULK_NODE_SCALAR || ulk_scalar_resolve(dn) == ULK_SC_NULL) {
+            err(c, dn, "default must be a value (number, label or boolean), not %s", ulk_node_type_name(dn));
+        } else if (ulk_scalar_resolve(dn) == ULK_SC_NAN_INF) {
+            err(c, dn, "default: NaN and infinity are not accepted (%.20s)", dn->text);
+        } else {
+            a->default_text = adup(c, dn->text);
+            a->default_loc = model_loc(c, dn);
+        }
+    }
+    return bits_ok && ulk_diag_errors(c->diag) == before;
+}
+
+/* ---------------------------------------------------------------- commands */
+
+static void build_commands(bctx *c, ulk_node *cn)
+{
+    ulk_dict *d = c->d;
+    if (!want_seq(c, cn, "commands")) return;
+    if (cn->n == 0) {
+        err(c, cn, "commands is empty: at least one command is needed");
+        return;
+    }
+    d->commands = arena_alloc(c->di, (size_t)cn->n * sizeof *d->commands);
+    if (!d->commands) { c->oom = 1; return; }
+    d->n_commands = cn->n;
+    const char **sysnames = ulk_calloc((size_t)(d->n_systems + 1), sizeof *sysnames);
+    if (!sysnames) { c->oom = 1; return; }
+    for (int i = 0; i < d->n_systems; i++) sysnames[i] = d->systems[i].name;
+    /* System names sorted, for the lookup of each command's system. */
+    sortref *sys = ulk_malloc((size_t)(d->n_systems + 1) * sizeof *sys);
+    if (!sys) { c->oom = 1; ulk_free(sysnames); return; }
+    int nsys = 0;
+    for (int i = 0; i < d->n_systems; i++)
+        if (d->systems[i].name) sys[nsys++] = (sortref){d->systems[i].name, 0, 0, i};
+    qsort(sys, (size_t)nsys, sizeof *sys, sortref_cmp_str);
+
+    static const char *const keys[] = {"mnemonic", "system", "opcode", "critical", "description", "arguments", NULL};
+    static const char *const req[] = {"mnemonic", "system", "opcode", NULL};
+    for (int i = 0; i < cn->n; i++) {
+        ulk_node *m = cn->items[i];
+        ulk_command *k = &d->commands[i];
+        k->loc = model_loc(c, m);
+        k->system_index = -1;
+        k->opcode = UINT32_MAX;
+        if (!want_map(c, m, "a command")) continue;
+        check_keys(c, m, "a command", keys, req);
+        const char *s;
+        ulk_node *n;
+        if ((n = ulk_node_get(m, "mnemonic")) && get_ident(c, n, "mnemonic", &s)) {
+            if (!strcmp(s, "wait") || !strcmp(s, "confirm"))
+                err(c, n, "mnemonic '%s' is a reserved word of command lists", s);
+            k->mnemonic = adup(c, s);
+        }
+        if ((n = ulk_node_get(m, "system")) && get_str(c, n, &s)) {
+            k->system = adup(c, s);
+            sortref key = {s, 0, 0, -1};
+            sortref *hit = NULL;
+            /* bsearch for the first entry with this name */
+            int lo = 0, hi = nsys;
+            while (lo < hi) {
+                int mid = (lo + hi) / 2;
+                if (sortref_cmp_str(&sys[mid], &key) < 0) lo = mid + 1;
+                else hi = mid;
+            }
+            if (lo < nsys && !strcmp(sys[lo].k, s)) hit = &sys[lo];
+            if (hit) {
+                k->system_index = hit->i;
+            } else {
+                const char *sug = ulk_suggest(s, sysnames, (size_t)d->n_systems);
+                if (sug) err(c, n, "command names unknown system '%.60s' (did you mean '%s'?)", s, sug);
+                else err(c, n, "command names unknown system '%.60s' (not in systems)", s);
+            }
+        }
+        int64_t v;
+        if ((n = ulk_node_get(m, "opcode")) && get_int(c, n, 0, INT64_MAX, &v, "opcode")) {
+            if (c->obits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->obits))
+                err(c, n, "opcode %lld does not fit in opcode_bits = %d (must be below %llu)", (long long)v, c->obits,
+                    (unsigned long long)1 << c->obits);
+            else if (v > 0xFFFF)
+                err(c, n, "opcode %lld is wider than 16 bits", (long long)v);
+            else
+                k->opcode = (uint32_t)v;
+        }
+        if ((n = ulk_node_get(m, "critical"))) get_bool(c, n, &k->critical);
+        if ((n = ulk_node_get(m, "description")) && get_str(c, n, &s)) k->description = adup(c, s);
+        ulk_node *args = ulk_node_get(m, "arguments");
+        if (args && want_seq(c, args, "arguments") && args->n > 0) {
+            k->args = arena_alloc(c->di, (size_t)args->n * sizeof *k->args);
+            if (!k->args) { c->oom = 1; continue; }
+            k->n_args = args->n;
+            int all_bits = 1;
+            for (int j = 0; j < args->n; j++) {
+                ulk_arg *a = &k->args[j];
+                int ok = build_arg(c, args->items[j], a, args, j);
+                if (a->bits <= 0) all_bits = 0;
+                k->packed_bits += a->bits;
+                /* The default must be a value the argument accepts: the command-list
+                 * conversion itself decides (range, calibration step, labels). */
+                if (ok && a->default_text) {
+                    ulk_argval av;
+                    char why[300];
+                    if (ulk_arg_from_text(a, a->default_text, 1.0, &av, why, sizeof why) == 0) {
+                        a->has_default = 1;
+                        a->default_raw = av.raw;
+                        a->default_eng = av.eng;
+                    } else {
+                        err(c, ulk_node_get(args->items[j], "default"), "default is not a valid value: %s", why);
+                    }
+                }
+            }
+            if (all_bits && c->dbits >= 0 && k->packed_bits > c->dbits)
+                err(c, args, "arguments take %d bits, more than argument_bits D = %d", k->packed_bits, c->dbits);
+        }
+    }
+    ulk_free(sys);
+    ulk_free(sysnames);
+
+    /* Duplicate mnemonics and (system, opcode) pairs, sorted: large dictionaries stay fast. */
+    sortref *v = ulk_malloc((size_t)cn->n * sizeof *v);
+    if (!v) { c->oom = 1; return; }
+    int m = 0;
+    for (int i = 0; i < cn->n; i++)
+        if (d->commands[i].mnemonic) v[m++] = (sortref){d->commands[i].mnemonic, 0, 0, i};
+    qsort(v, (size_t)m, sizeof *v, sortref_cmp_str);
+    for (int i = 1; i < m; i++)
+        if (!strcmp(v[i].k, v[i - 1].k)) {
+            int j = i - 1;
+            while (j > 0 && !strcmp(v[j - 1].k, v[i].k)) j--;
+            err(c, ulk_node_get(cn->items[v[i].i], "mnemonic"), "duplicate mnemonic '%s' (first at line %d)", v[i].k,
+                d->commands[v[j].i].loc.line);
+        }
+    m = 0;
+    for (int i = 0; i < cn->n; i++)
+        if (d->commands[i].system_index >= 0 && d->commands[i].opcode != UINT32_MAX)
+            v[m++] = (sortref){NULL, (uint64_t)d->commands[i].system_index, d->commands[i].opcode, i};
+    qsort(v, (size_t)m, sizeof *v, sortref_cmp_num);
+    for (int i = 1; i < m; i++)
+        if (v[i].a == v[i - 1].a && v[i].b == v[i - 1].b) {
+            int j = i - 1;
+            while (j > 0 && v[j - 1].a == v[i].a && v[j - 1].b == v[i].b) j--;
+            const ulk_command *f = &d->commands[v[j].i];
+            err(c, ulk_node_get(cn->items[v[i].i], "opcode"),
+                "duplicate opcode %llu in system '%s': '%s' (line %d) has it too", (unsigned long long)v[i].b,
+                d->systems[v[i].a].name ? d->systems[v[i].a].name : "?", f->mnemonic ? f->mnemonic : "?", f->loc.line);
+        }
+    ulk_free(v);
+}
+
+/* ---------------------------------------------------------------- indexes and lookups */
+
+static const ulk_dict *g_sort_dict; /* only during ulk_dict_load's index build */
+
+static int idx_cmp_mnemonic(const void *x, const void *y)
+{
+    return strcmp(g_sort_dict->commands[*(const int *)x].mnemonic, g_sort_dict->commands[*(const int *)y].mnemonic);
+}
+
+static int idx_cmp_opcode(const void *x, const void *y)
+{
+    const ulk_command *p = &g_sort_dict->commands[*(const int *)x], *q = &g_sort_dict->commands[*(const int *)y];
+    uint32_t ap = g_sort_dict->systems[p->system_index].address, aq = g_sort_dict->systems[q->system_index].address;
+    if (ap != aq) return ap < aq ? -1 : 1;
+    return (p->opcode > q->opcode) - (p->opcode < q->opcode);
+}
+
+/* qsort has no context argument; the sort runs on a private copy of the index arrays, and
+ * the pointer is set and cleared around it. Loading is not meant to run concurrently from
+ * threads sharing this pointer; lookups afterwards are read-only and thread-safe. */
+static int build_indexes(dict_impl *di)
+{
+    ulk_dict *d = &di->pub;
+    di->by_mnemonic = ulk_malloc((size_t)(d->n_commands + 1) * sizeof(int));
+    di->by_opcode = ulk_malloc((size_t)(d->n_commands + 1) * sizeof(int));
+    if (!di->by_mnemonic || !di->by_opcode) return ULK_ENOMEM;
+    for (int i = 0; i < d->n_commands; i++) di->by_mnemonic[i] = di->by_opcode[i] = i;
+    g_sort_dict = d;
+    qsort(di->by_mnemonic, (size_t)d->n_commands, sizeof(int), idx_cmp_mnemonic);
+    qsort(di->by_opcode, (size_t)d->n_commands, sizeof(int), idx_cmp_opcode);
+    g_sort_dict = NULL;
+    return 0;
+}
+
+const ulk_command *ulk_dict_find_command(const ulk_dict *d, const char *mnemonic)
+{
+    if (!d || !mnemonic) return NULL;
+    const dict_impl *di = (const dict_impl *)d;
+    int lo = 0, hi = d->n_commands;
+    while (lo < hi) {
+        int mid = (lo + hi) / 2;
+        int c = strcmp(d->commands[di->by_mnemonic[mid]].mnemonic, mnemonic);
+        if (c == 0) return &d->commands[di->by_mnemonic[mid]];
+        if (c < 0) lo = mid + 1;
+        else hi = mid;
+    }
+    return NULL;
+}
+
+const ulk_command *ulk_dict_find_opcode(const ulk_dict *d, uint32_t system_address, uint32_t opcode)
+{
+    if (!d) return NULL;
+    const dict_impl *di = (const dict_impl *)d;
+    int lo = 0, hi = d->n_commands;
+    while (lo < hi) {
+        int mid = (lo + hi) / 2;
+        const ulk_command *k = &d->commands[di->by_opcode[mid]];
+        uint32_t a = d->systems[k->system_index].address;
+        if (a == system_address && k->opcode == opcode) return k;
+        if (a < system_address || (a == system_address && k->opcode < opcode)) lo = mid + 1;
+        else hi = mid;
+    }
+    return NULL;
+}
+
+int ulk_dict_find_system_addr(const ulk_dict *d, uint32_t address)
+{
+    if (!d) return -1;
+    for (int i = 0; i < d->n_systems; i++)
+        if (d->systems[i].address == address) return i;
+    return -1;
+}
+
+const ulk_arg *ulk_command_find_arg(const ulk_command *c, const char *name)
+{
+    if (!c || !name) return NULL;
+    for (int i = 0; i < c->n_args; i++)
+        if (c->args[i].name && !strcmp(c->args[i].name, name)) return &c->args[i];
+    return NULL;
+}
+
+/* ---------------------------------------------------------------- canonical form and hash */
+
+typedef struct {
+    char *p;
+    size_t n, cap;
+    int oom;
+} sbuf;
+
+static void sb_put(sbuf *b, const char *s, size_t n)
+{
+    if (b->oom) return;
+    if (b->n + n + 1 > b->cap) {
+        size_t nc = b->cap ? b->cap : 4096;
+        while (nc < b->n + n + 1) nc *= 2;
+        char *np = ulk_realloc(b->p, nc);
+        if (!np) { b->oom = 1; return; }
+        b->p = np;
+        b->cap = nc;
+    }
+    memcpy(b->p + b->n, s, n);
+    b->n += n;
+    b->p[b->n] = 0;
+}
+
+static void sb_puts(sbuf *b, const char *s) { sb_put(b, s, strlen(s)); }
+
+static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void sb_printf(sbuf *b, const char *fmt, ...)
+{
+    char tmp[128];
+    va_list ap;
+    va_start(ap, fmt);
+    int n = vsnprintf(tmp, sizeof tmp, fmt, ap);
+    va_end(ap);
+    if (n > 0) sb_put(b, tmp, (size_t)n < sizeof tmp ? (size_t)n : sizeof tmp - 1);
+}
+
+/* A JSON string: quote, backslash and control characters escaped (\uXXXX), bytes >= 0x80 as is. */
+static void sb_str(sbuf *b, const char *s)
+{
+    if (!s) { sb_puts(b, "null"); return; }
+    sb_puts(b, "\"");
+    for (const unsigned char *p = (const unsigned char *)s; *p; p++) {
+        if (*p == '"' || *p == '\\') { char e[2] = {'\\', (char)*p}; sb_put(b, e, 2); }
+        else if (*p < 0x20) sb_printf(b, "\\u%04x", *p);
+        else sb_put(b, (const char *)p, 1);
+    }
+    sb_puts(b, "\"");
+}
+
+static void sb_double(sbuf *b, double v)
+{
+    char t[40];
+    ulk_fmt_double(v == 0.0 ? 0.0 : v, t, sizeof t); /* -0 and 0 are one value here */
+    sb_puts(b, t);
+}
+
+static void sb_ratio(sbuf *b, ulk_ratio r)
+{
+    char t[64];
+    ulk_ratio_format(r, t, sizeof t);
+    sb_str(b, t);
+}
+
+static void sb_pattern(sbuf *b, const uint8_t *p, int n)
+{
+    char t[20];
+    fmt_pattern(p, n, t);
+    sb_str(b, t);
+}
+
+static int enum_label_cmp(const void *x, const void *y)
+{
+    return strcmp((*(const ulk_enum_value *const *)x)->label, (*(const ulk_enum_value *const *)y)->label);
+}
+
+int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
+{
+    *out = NULL;
+    if (len) *len = 0;
+    if (!d) return ULK_EINVAL;
+    sbuf b = {0};
+    const ulk_link *L = &d->link;
+    sb_puts(&b, "{\"commands\":[");
+    for (int i = 0; i < d->n_commands; i++) {
+        const ulk_command *k = &d->commands[i];
+        sb_puts(&b, i ? ",{\"arguments\":[" : "{\"arguments\":[");
+        for (int j = 0; j < k->n_args; j++) {
+            const ulk_arg *a = &k->args[j];
+            sb_puts(&b, j ? ",{\"bits\":" : "{\"bits\":");
+            sb_printf(&b, "%d", a->bits);
+            if (a->cal == ULK_CAL_LINEAR) {
+                sb_puts(&b, ",\"calibration\":{\"offset\":");
+                sb_double(&b, a->cal_offset);
+                sb_puts(&b, ",\"scale\":");
+                sb_double(&b, a->cal_scale);
+                sb_puts(&b, "}");
+            } else if (a->cal == ULK_CAL_POLY) {
+                sb_puts(&b, ",\"calibration\":{\"polynomial\":[");
+                for (int t = 0; t < a->n_poly; t++) {
+                    if (t) sb_puts(&b, ",");
+                    sb_double(&b, a->poly[t]);
+                }
+                sb_puts(&b, "]}");
+            }
+            if (a->has_default) sb_printf(&b, ",\"default\":%llu", (unsigned long long)a->default_raw);
+            sb_puts(&b, ",\"name\":");
+            sb_str(&b, a->name);
+            if (a->has_range) {
+                sb_puts(&b, ",\"range\":[");
+                sb_double(&b, a->range_min);
+                sb_puts(&b, ",");
+                sb_double(&b, a->range_max);
+                sb_puts(&b, "]");
+            }
+            sb_puts(&b, ",\"type\":");
+            sb_str(&b, ulk_arg_type_name(a->type));
+            if (a->units) {
+                sb_puts(&b, ",\"units\":");
+                sb_str(&b, a->units);
+            }
+            if (a->type == ULK_ARG_ENUM) {
+                /* A mapping has no order: labels sorted by their bytes. */
+                const ulk_enum_value **ev = ulk_malloc((size_t)(a->n_values + 1) * sizeof *ev);
+                if (!ev) { b.oom = 1; break; }
+                for (int t = 0; t < a->n_values; t++) ev[t] = &a->values[t];
+                qsort(ev, (size_t)a->n_values, sizeof *ev, enum_label_cmp);
+                sb_puts(&b, ",\"values\":{");
+                for (int t = 0; t < a->n_values; t++) {
+                    if (t) sb_puts(&b, ",");
+                    sb_str(&b, ev[t]->label);
+                    sb_printf(&b, ":%llu", (unsigned long long)ev[t]->code);
+                }
+                sb_puts(&b, "}");
+                ulk_free(ev);
+            }
+            sb_puts(&b, "}");
+        }
+        sb_printf(&b, "],\"critical\":%s,\"description\":", k->critical ? "true" : "false");
+        sb_str(&b, k->description ? k->description : "");
+        sb_puts(&b, ",\"mnemonic\":");
+        sb_str(&b, k->mnemonic);
+        sb_printf(&b, ",\"opcode\":%u,\"system\":", k->opcode);
+        sb_str(&b, k->system);
+        sb_puts(&b, "}");
+    }
+    sb_puts(&b, "],\"dictionary\":{\"name\":");
+    sb_str(&b, d->name);
+    sb_puts(&b, ",\"version\":");
+    sb_str(&b, d->version);
+    sb_puts(&b, "},\"link\":{\"bit_rate\":");
+    sb_ratio(&b, L->bit_rate);
+    sb_puts(&b, ",\"framing\":{");
+    sb_printf(&b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
+    sb_puts(&b, ",\"line_code\":");
+    sb_str(&b, ulk_line_code_name(L->line_code));
+    if (L->has_pilot) {
+        sb_puts(&b, ",\"pilot\":{\"amplitude\":");
+        sb_double(&b, L->pilot_amplitude);
+        sb_puts(&b, ",\"frequency\":");
+        sb_ratio(&b, L->fp);
+        sb_puts(&b, "}");
+    }
+    sb_puts(&b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
+    sb_pattern(&b, L->idle, L->n_subbits);
+    sb_puts(&b, ",\"one\":");
+    sb_pattern(&b, L->one, L->n_subbits);
+    sb_puts(&b, ",\"zero\":");
+    sb_pattern(&b, L->zero, L->n_subbits);
+    sb_puts(&b, "},\"subcarrier\":{\"amplitude\":");
+    sb_double(&b, L->amplitude);
+    sb_puts(&b, ",\"frequency\":");
+    sb_ratio(&b, L->fsc);
+    sb_puts(&b, ",\"waveform\":");
+    sb_str(&b, ulk_waveform_name(L->waveform));
+    sb_puts(&b, "},\"word\":{\"argument_bits\":");
+    sb_printf(&b, "%d,\"check\":", L->argument_bits);
+    sb_str(&b, ulk_check_name(L->check));
+    sb_printf(&b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
+              L->opcode_bits, L->system_bits, L->vehicle_bits, L->vehicle_value);
+    sb_puts(&b, ",\"systems\":[");
+    for (int i = 0; i < d->n_systems; i++) {
+        sb_printf(&b, "%s{\"address\":%u,\"name\":", i ? "," : "", d->systems[i].address);
+        sb_str(&b, d->systems[i].name);
+        sb_puts(&b, "}");
+    }
+    sb_puts(&b, "]}");
+    if (b.oom) {
+        ulk_free(b.p);
+        return ULK_ENOMEM;
+    }
+    *out = b.p;
+    if (len) *len = b.n;
+    return 0;
+}
+
+static int sha256_hex(const char *data, size_t n, char hex[65])
+{
+    unsigned char md[32];
+    unsigned int mdlen = 0;
+    EVP_MD_CTX *ctx = EVP_MD_CTX_new();
+    int ok = ctx && EVP_DigestInit_ex(ctx, EVP_sha256(), NULL) && EVP_DigestUpdate(ctx, data, n) &&
+             EVP_DigestFinal_ex(ctx, md, &mdlen) && mdlen == 32;
+    EVP_MD_CTX_free(ctx);
+    if (!ok) return ULK_ENOMEM;
+    for (int i = 0; i < 32; i++) snprintf(hex + 2 * i, 3, "%02x", md[i]);
+    return 0;
+}
+
+/* ---------------------------------------------------------------- entry points */
+
+static int is_json_name(const char *path, const char *text, size_t len)
+{
+    size_t n = strlen(path);
+    if (n >= 5 && !strcmp(path + n - 5, ".json")) return 1;
+    if ((n >= 5 && !strcmp(path + n - 5, ".yaml")) || (n >= 4 && !strcmp(path + n - 4, ".yml"))) return 0;
+    /* Neither: a file that opens with '{' is taken as JSON (YAML readers would accept most
+     * JSON too, but JSON's own rules and messages fit it better). */
+    size_t i = 0;
+    while (i < len && isspace((unsigned char)text[i])) i++;
+    return i < len && text[i] == '{';
+}
+
+int ulk_dict_load_mem(const char *name, const char *text, size_t len, int is_json, ulk_dict **out,
+                      ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!text) return ULK_EINVAL;
+    if (!name) name = "<memory>";
+    size_t errs_before = ulk_diag_errors(diag);
+    ulk_doc *doc = NULL;
+    int rc = ulk_doc_parse(name, text, len, is_json, &doc, diag);
+    if (rc) return rc;
+
+    dict_impl *di = ulk_calloc(1, sizeof *di);
+    if (!di) {
+        ulk_doc_destroy(doc);
+        return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", name);
+    }
+    bctx c = {0};
+    c.di = di;
+    c.d = &di->pub;
+    c.doc = doc;
+    c.diag = diag;
+    c.vbits = c.sbits = c.obits = c.dbits = -1;
+    c.d->file = adup(&c, name);
+
+    ulk_node *root = doc->root;
+    if (want_map(&c, root, "the dictionary (top level)")) {
+        static const char *const keys[] = {"dictionary", "link", "systems", "commands", "carrier", NULL};
+        static const char *const req[] = {"dictionary", "link", "systems", "commands", NULL};
+        check_keys(&c, root, "the top level", keys, req);
+        ulk_node *id = ulk_node_get(root, "dictionary");
+        if (id && want_map(&c, id, "dictionary")) {
+            static const char *const ik[] = {"name", "version", NULL};
+            check_keys(&c, id, "dictionary", ik, ik);
+            const char *s;
+            ulk_node *n;
+            if ((n = ulk_node_get(id, "name")) && get_str(&c, n, &s)) {
+                if (!*s) err(&c, n, "dictionary name is empty");
+                c.d->name = adup(&c, s);
+            }
+            if ((n = ulk_node_get(id, "version")) && get_str(&c, n, &s)) {
+                if (!*s) err(&c, n, "dictionary version is empty");
+                c.d->version = adup(&c, s);
+            }
+        }
+        ulk_node *ln = ulk_node_get(root, "link");
+        if (ln) build_link(&c, ln);
+        ulk_node *carrier = ulk_node_get(root, "carrier");
+        if (carrier) want_map(&c, carrier, "carrier");
+        ulk_node *sn = ulk_node_get(root, "systems");
+        if (sn) build_systems(&c, sn);
+        ulk_node *cn = ulk_node_get(root, "commands");
+        if (cn) build_commands(&c, cn);
+    }
+    ulk_doc_destroy(doc);
+
+    if (c.oom) rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", name);
+    else if (ulk_diag_errors(diag) > errs_before) rc = ULK_EPARSE;
+    if (!rc) rc = build_indexes(di);
+    if (!rc) {
+        char *canon;
+        size_t clen;
+        rc = ulk_dict_canonical(c.d, &canon, &clen);
+        if (!rc) {
+            rc = sha256_hex(canon, clen, c.d->sha256);
+            ulk_free(canon);
+        }
+        if (rc) ulk_fail(diag, rc, "%s: out of memory", name);
+    }
+    if (rc) {
+        ulk_dict_destroy(c.d);
+        return rc;
+    }
+    *out = c.d;
+    return 0;
+}
+
+int ulk_dict_load(const char *path, ulk_dict **out, ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!path) return ULK_EINVAL;
+    char *text;
+    size_t len;
+    int rc = ulk_read_file(path, ULK_DOC_MAX_BYTES, &text, &len, diag);
+    if (rc) return rc;
+    rc = ulk_dict_load_mem(path, text, len, is_json_name(path, text, len), out, diag);
+    ulk_free(text);
+    return rc;
+}
