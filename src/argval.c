@@ -519,6 +519,19 @@ const char *ulk_arg_label(const ulk_arg *a, int64_t code)
     return NULL;
 }
 
+/* v with p significant digits, in plain notation where it stays short (90, not 9e+01). */
+static void fmt_sig(double v, int p, char *buf, size_t len)
+{
+    snprintf(buf, len, "%.*g", p, v);
+    char *e = strchr(buf, 'e');
+    if (!e) return;
+    int ex = atoi(e + 1);
+    if (ex >= -5 && ex < 16) {
+        int dec = p - 1 - ex;
+        snprintf(buf, len, "%.*f", dec < 0 ? 0 : dec, v);
+    }
+}
+
 void ulk_arg_format(const ulk_arg *a, uint64_t raw, char *buf, size_t len)
 {
     if (!buf || !len) return;
@@ -538,7 +551,7 @@ void ulk_arg_format(const ulk_arg *a, uint64_t raw, char *buf, size_t len)
         float f;
         memcpy(&f, &b, 4);
         for (int p = 1; p <= 9; p++) {
-            snprintf(buf, len, "%.*g", p, (double)f);
+            fmt_sig((double)f, p, buf, len);
             float g = strtof(buf, NULL);
             if (memcmp(&g, &f, 4) == 0) return;
         }
@@ -554,7 +567,7 @@ void ulk_arg_format(const ulk_arg *a, uint64_t raw, char *buf, size_t len)
     /* the shortest decimal that compiles back to the same raw */
     double eng = ulk_arg_raw_to_eng(a, raw);
     for (int p = 1; p <= 17; p++) {
-        snprintf(buf, len, "%.*g", p, eng);
+        fmt_sig(eng, p, buf, len);
         ulk_argval v;
         if (ulk_arg_from_text(a, buf, 1.0, &v, NULL, 0) == 0 && v.raw == (raw & mask_bits(bits))) return;
     }

@@ -22,6 +22,9 @@ typedef struct {
     uint64_t raw;      /* raw field */
     double eng;        /* engineering value */
     char *text;        /* engineering value as written back in command-list syntax */
+    ulk_arg_type type; /* the dictionary's type, so that the file explains itself */
+    int bits;          /* raw width; the arguments of a word are packed in this order */
+    char *units;       /* NULL when none */
 } ulk_upload_arg;
 
 typedef struct {
@@ -34,6 +37,9 @@ typedef struct {
     int n_args;
     uint32_t system_addr, opcode;
     ulk_word word;
+    char *system_name;        /* the dictionary's system name */
+    ulk_ratio wait_before;    /* exact seconds (0/1 when none); wait_before_s is its value */
+    char *block_;             /* private: one allocation holds args and the strings */
 } ulk_upload_cmd;
 
 typedef struct ulk_upload {
@@ -46,9 +52,20 @@ typedef struct ulk_upload {
     size_t n_cmds;
     double wait_after_s;
     uint64_t idles_after;     /* postamble */
+    ulk_ratio wait_after;     /* exact seconds of the waits after the last command */
 } ulk_upload;
 
+/* Limits that ulk_upload_read enforces (and the compiler never exceeds). */
+#define ULK_UPLOAD_FORMAT_VERSION 1
+#define ULK_UPLOAD_MAX_BYTES ((size_t)1 << 30)
+#define ULK_UPLOAD_MAX_CMDS 10000000u
+#define ULK_UPLOAD_MAX_IDLES 1000000000000ull   /* idle patterns before one word or after the last */
+
+/* Frees u and everything it holds; NULL does nothing. */
 void ulk_upload_destroy(ulk_upload *u);
+
+/* Total duration of the stream in seconds: patterns / R_b. */
+double ulk_upload_duration_s(const ulk_upload *u);
 
 /* Total sub-bits of the stream: n * (sum idles + n_cmds * W). */
 uint64_t ulk_upload_n_subbits(const ulk_upload *u);
@@ -56,8 +73,21 @@ uint64_t ulk_upload_n_subbits(const ulk_upload *u);
 /* Writes u to path atomically (temporary file in the same folder, renamed on success).
  * Returns 0, or ULK_EIO with the reason in diag; nothing is left behind on failure. */
 int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag);
-/* Reads and checks an upload file (format, version, integrity digest). */
+/* Reads and checks an upload file: format name and version (ULK_EFORMAT), the integrity
+ * digest (ULK_EINTEGRITY: "the file was changed after it was written"), then every field
+ * (ULK_EPARSE naming the field, e.g. "commands[3].word"), limits (ULK_ELIMIT). Each word
+ * is checked against its fields: vehicle, system, opcode, packed arguments and check.
+ * Never crashes on hostile input. Returns 0 with *out set (free with
+ * ulk_upload_destroy()), or the status with *out NULL and the reason in diag. */
 int ulk_upload_read(const char *path, ulk_upload **out, ulk_diag *diag);
+/* The same from memory; name is used in messages. */
+int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag);
+
+/* Prints u back as a command list (interfaces.md syntax): waits, each command with its
+ * arguments in engineering form, 'confirm' on critical ones. Each command stays on its
+ * source line (blank or comment lines fill the gaps), so compiling the output under the
+ * same file name gives an identical upload. Returns 0 or ULK_EIO. */
+int ulk_upload_print_list(const ulk_upload *u, FILE *out);
 
 #ifdef __cplusplus
 }

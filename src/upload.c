@@ -1,0 +1,732 @@
+/* src/upload.c - the upload file (docs/upload-format.md): write, strict read, print back.
+ *
+ * Why a digest: an upload sits on disk between compilation and transmission; a changed
+ * byte (edit, bad copy, disk) must be caught before anything radiates. The writer builds
+ * the whole document in memory, hashes every byte before the final "digest" line with
+ * SHA-256 and writes it atomically. The reader checks the digest first, then every field,
+ * and finally rebuilds each word's fields from the word bits and compares them, so a file
+ * whose digest was recomputed by hand is still refused when it is inconsistent.
+ */
+#define _GNU_SOURCE /* memmem */
+#include <ctype.h>
+#include <limits.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <cjson/cJSON.h>
+#include <openssl/evp.h>
+
+#include "ulk/upload.h"
+#include "ulk/word.h"
+#include "util.h"
+
+/* ------------------------------------------------------------------ lifetime */
+
+static void cmd_free_parts(ulk_upload_cmd *c)
+{
+    if (c->block_) {
+        ulk_free(c->block_);
+        return;
+    }
+    for (int i = 0; i < c->n_args && c->args; i++) {
+        ulk_free(c->args[i].name);
+        ulk_free(c->args[i].text);
+        ulk_free(c->args[i].units);
+    }
+    ulk_free(c->args);
+    ulk_free(c->mnemonic);
+    ulk_free(c->system_name);
+}
+
+void ulk_upload_destroy(ulk_upload *u)
+{
+    if (!u) return;
+    for (size_t i = 0; i < u->n_cmds && u->cmds; i++) cmd_free_parts(&u->cmds[i]);
+    ulk_free(u->cmds);
+    ulk_free(u->dict_name);
+    ulk_free(u->dict_version);
+    ulk_free(u->source);
+    ulk_free(u);
+}
+
+/* ------------------------------------------------------------------ writer */
+
+typedef struct {
+    char *p;
+    size_t n, cap;
+    int oom;
+} sbuf;
+
+static void sb_grow(sbuf *b, size_t add)
+{
+    if (b->oom || b->n + add + 1 <= b->cap) return;
+    size_t nc = b->cap ? b->cap : 4096;
+    while (nc < b->n + add + 1) nc *= 2;
+    char *np = ulk_realloc(b->p, nc);
+    if (!np) { b->oom = 1; return; }
+    b->p = np;
+    b->cap = nc;
+}
+
+static void sb_put(sbuf *b, const char *s, size_t n)
+{
+    sb_grow(b, n);
+    if (b->oom) return;
+    memcpy(b->p + b->n, s, n);
+    b->n += n;
+    b->p[b->n] = 0;
+}
+
+static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void sb_printf(sbuf *b, const char *fmt, ...)
+{
+    char tmp[512];
+    va_list ap;
+    va_start(ap, fmt);
+    int k = vsnprintf(tmp, sizeof tmp, fmt, ap);
+    va_end(ap);
+    if (k < 0) return;
+    if ((size_t)k < sizeof tmp) { sb_put(b, tmp, (size_t)k); return; }
+    sb_grow(b, (size_t)k);
+    if (b->oom) return;
+    va_start(ap, fmt);
+    vsnprintf(b->p + b->n, (size_t)k + 1, fmt, ap);
+    va_end(ap);
+    b->n += (size_t)k;
+}
+
+/* A JSON string: quotes, backslashes and control bytes escaped; other bytes as they are. */
+static void sb_str(sbuf *b, const char *s)
+{
+    if (!s) { sb_put(b, "null", 4); return; }
+    sb_put(b, "\"", 1);
+    const char *run = s;
+    for (; *s; s++) {
+        unsigned char c = (unsigned char)*s;
+        if (c == '"' || c == '\\' || c < 0x20) {
+            sb_put(b, run, (size_t)(s - run));
+            char e[8];
+            if (c == '"' || c == '\\') snprintf(e, sizeof e, "\\%c", c);
+            else snprintf(e, sizeof e, "\\u%04x", c);
+            sb_put(b, e, strlen(e));
+            run = s + 1;
+        }
+    }
+    sb_put(b, run, (size_t)(s - run));
+    sb_put(b, "\"", 1);
+}
+
+static void sb_ratio(sbuf *b, ulk_ratio r)
+{
+    char t[80];
+    ulk_ratio_format(r, t, sizeof t);
+    sb_str(b, t);
+}
+
+static void sb_double(sbuf *b, double v)
+{
+    char t[40];
+    ulk_fmt_double(v, t, sizeof t);
+    if (!isfinite(v)) snprintf(t, sizeof t, "null");
+    sb_put(b, t, strlen(t));
+}
+
+static void pattern_str(const uint8_t *p, int n, char *out)
+{
+    for (int i = 0; i < n; i++) out[i] = (char)('0' + (p[i] & 1));
+    out[n] = 0;
+}
+
+/* Duration as an exact rational: patterns / R_b. */
+static ulk_ratio duration_ratio(const ulk_upload *u, uint64_t patterns, int *ok)
+{
+    ulk_ratio inv = ulk_ratio_make(u->link.bit_rate.den, u->link.bit_rate.num), r = inv;
+    *ok = ulk_ratio_mul_int(inv, (int64_t)patterns, &r) == 0;
+    return r;
+}
+
+static uint64_t total_patterns(const ulk_upload *u)
+{
+    uint64_t p = u->idles_after;
+    for (size_t i = 0; i < u->n_cmds; i++) p += u->cmds[i].idles_before + (uint64_t)u->link.word_bits;
+    return p;
+}
+
+#define DIGEST_HEAD "  \"digest\": \"sha256:"
+#define DIGEST_TAIL "\"\n}\n"
+#define DIGEST_LINE_LEN (sizeof DIGEST_HEAD - 1 + 64 + sizeof DIGEST_TAIL - 1)
+
+static void sha256_hex(const void *p, size_t n, char out[65])
+{
+    unsigned char md[EVP_MAX_MD_SIZE];
+    unsigned int mdlen = 0;
+    EVP_Digest(p, n, md, &mdlen, EVP_sha256(), NULL);
+    for (unsigned i = 0; i < 32; i++) snprintf(out + 2 * i, 3, "%02x", md[i]);
+    out[64] = 0;
+}
+
+static void build_doc(const ulk_upload *u, sbuf *b)
+{
+    const ulk_link *l = &u->link;
+    char pz[17], po[17], pi[17];
+    pattern_str(l->zero, l->n_subbits, pz);
+    pattern_str(l->one, l->n_subbits, po);
+    pattern_str(l->idle, l->n_subbits, pi);
+    sb_printf(b, "{\n  \"format\": \"ulk-upload\",\n  \"version\": %d,\n", ULK_UPLOAD_FORMAT_VERSION);
+    sb_put(b, "  \"dictionary\": {\"name\": ", 25);
+    sb_str(b, u->dict_name);
+    sb_put(b, ", \"version\": ", 13);
+    sb_str(b, u->dict_version);
+    sb_put(b, ", \"sha256\": ", 12);
+    sb_str(b, u->dict_sha256);
+    sb_put(b, "},\n  \"source\": ", 15);
+    sb_str(b, u->source ? u->source : "");
+    sb_put(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ", 55);
+    sb_ratio(b, l->bit_rate);
+    sb_printf(b, ",\n    \"subbits\": {\"zero\": \"%s\", \"one\": \"%s\", \"idle\": \"%s\"},\n", pz, po, pi);
+    sb_printf(b, "    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
+    sb_ratio(b, l->fsc);
+    sb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
+    sb_double(b, l->amplitude);
+    sb_put(b, "},\n    \"pilot\": ", 16);
+    if (l->has_pilot) {
+        sb_put(b, "{\"frequency\": ", 14);
+        sb_ratio(b, l->fp);
+        sb_put(b, ", \"amplitude\": ", 15);
+        sb_double(b, l->pilot_amplitude);
+        sb_put(b, "}", 1);
+    } else {
+        sb_put(b, "null", 4);
+    }
+    sb_printf(b, ",\n    \"framing\": {\"preamble\": %d, \"gap\": %d, \"postamble\": %d},\n", l->preamble, l->gap,
+              l->postamble);
+    sb_printf(b,
+              "    \"word\": {\"vehicle_address\": {\"bits\": %d, \"value\": %u}, \"system_address_bits\": %d, "
+              "\"opcode_bits\": %d, \"argument_bits\": %d, \"check\": \"%s\", \"word_bits\": %d}\n  },\n",
+              l->vehicle_bits, l->vehicle_value, l->system_bits, l->opcode_bits, l->argument_bits,
+              ulk_check_name(l->check), l->word_bits);
+    sb_put(b, "  \"commands\": [", 15);
+    for (size_t i = 0; i < u->n_cmds; i++) {
+        const ulk_upload_cmd *c = &u->cmds[i];
+        char hex[40];
+        ulk_word_hex(&c->word, hex);
+        sb_printf(b, "%s\n    {\"line\": %d, \"mnemonic\": ", i ? "," : "", c->line);
+        sb_str(b, c->mnemonic);
+        sb_put(b, ", \"system\": ", 12);
+        sb_str(b, c->system_name ? c->system_name : "");
+        sb_printf(b, ", \"system_address\": %u, \"opcode\": %u, \"critical\": %s, \"wait_s\": ", c->system_addr,
+                  c->opcode, c->critical ? "true" : "false");
+        sb_ratio(b, c->wait_before);
+        sb_printf(b, ", \"idles_before\": %llu,\n     \"args\": [", (unsigned long long)c->idles_before);
+        for (int k = 0; k < c->n_args; k++) {
+            const ulk_upload_arg *a = &c->args[k];
+            sb_put(b, k ? ", {\"name\": " : "{\"name\": ", k ? 11 : 9);
+            sb_str(b, a->name);
+            sb_printf(b, ", \"type\": \"%s\", \"bits\": %d, \"units\": ", ulk_arg_type_name(a->type), a->bits);
+            sb_str(b, a->units);
+            sb_printf(b, ", \"raw\": \"0x%llx\", \"eng\": ", (unsigned long long)a->raw);
+            sb_double(b, a->eng);
+            sb_put(b, ", \"text\": ", 10);
+            sb_str(b, a->text);
+            sb_put(b, "}", 1);
+        }
+        sb_printf(b, "],\n     \"word\": \"%s\"}", hex);
+    }
+    uint64_t pat = total_patterns(u);
+    int ok;
+    ulk_ratio dur = duration_ratio(u, pat, &ok);
+    sb_put(b, u->n_cmds ? "\n  ],\n  \"wait_after_s\": " : "],\n  \"wait_after_s\": ", u->n_cmds ? 24 : 21);
+    sb_ratio(b, u->wait_after);
+    sb_printf(b, ",\n  \"idles_after\": %llu,\n", (unsigned long long)u->idles_after);
+    sb_printf(b, "  \"totals\": {\"words\": %zu, \"subbits\": %llu, \"duration_s\": ", u->n_cmds,
+              (unsigned long long)(pat * (uint64_t)l->n_subbits));
+    if (ok) sb_ratio(b, dur);
+    else sb_put(b, "null", 4);
+    sb_put(b, "},\n", 3);
+}
+
+int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag)
+{
+    if (!u || !path) return ulk_fail(diag, ULK_EINVAL, "upload write: nothing to write");
+    sbuf b = {0};
+    build_doc(u, &b);
+    char hex[65];
+    if (!b.oom) sha256_hex(b.p, b.n, hex);
+    sb_put(&b, DIGEST_HEAD, sizeof DIGEST_HEAD - 1);
+    if (!b.oom) sb_put(&b, hex, 64);
+    sb_put(&b, DIGEST_TAIL, sizeof DIGEST_TAIL - 1);
+    if (b.oom) { ulk_free(b.p); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+    ulk_afile f;
+    int rc = ulk_afile_open(&f, path, diag);
+    if (rc < 0) { ulk_free(b.p); return rc; }
+    if (fwrite(b.p, 1, b.n, f.fp) != b.n) {
+        ulk_free(b.p);
+        ulk_afile_abort(&f);
+        return ulk_fail(diag, ULK_EIO, "%s: write failed; no output written", path);
+    }
+    ulk_free(b.p);
+    return ulk_afile_commit(&f, diag);
+}
+
+/* ------------------------------------------------------------------ reader */
+
+typedef struct {
+    const char *name;
+    ulk_diag *diag;
+    int status;
+} rd_t;
+
+static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...) __attribute__((format(printf, 4, 5)));
+static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...)
+{
+    char msg[600];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    if (!r->status) {
+        ulk_loc loc = {r->name, 0, 0, path};
+        ulk_diag_add(r->diag, ULK_SEV_ERROR, &loc, "%s", msg);
+        r->status = code;
+    }
+    return code;
+}
+
+/* The members of obj must be exactly keys (each once). */
+static int want_keys(rd_t *r, const cJSON *obj, const char *path, const char *const *keys, int n)
+{
+    if (!cJSON_IsObject(obj)) return rfail(r, ULK_EPARSE, path, "expected an object");
+    unsigned seen = 0;
+    for (const cJSON *c = obj->child; c; c = c->next) {
+        int k = -1;
+        for (int i = 0; i < n; i++)
+            if (c->string && !strcmp(c->string, keys[i])) k = i;
+        if (k < 0) return rfail(r, ULK_EPARSE, path, "unexpected member '%.60s'", c->string ? c->string : "");
+        if (seen & (1u << k)) return rfail(r, ULK_EPARSE, path, "member '%s' appears twice", keys[k]);
+        seen |= 1u << k;
+    }
+    for (int i = 0; i < n; i++)
+        if (!(seen & (1u << i))) return rfail(r, ULK_EPARSE, path, "missing member '%s'", keys[i]);
+    return 0;
+}
+
+static const cJSON *member(const cJSON *o, const char *k) { return cJSON_GetObjectItemCaseSensitive(o, k); }
+
+static int get_int(rd_t *r, const cJSON *o, const char *k, const char *path, double lo, double hi, uint64_t *out,
+                   int64_t *sout)
+{
+    const cJSON *v = member(o, k);
+    if (!cJSON_IsNumber(v) || v->valuedouble != floor(v->valuedouble) || v->valuedouble < lo || v->valuedouble > hi)
+        return rfail(r, ULK_EPARSE, path, "'%s' must be a whole number in [%.0f, %.0f]", k, lo, hi);
+    if (out) *out = (uint64_t)v->valuedouble;
+    if (sout) *sout = (int64_t)v->valuedouble;
+    return 0;
+}
+
+static const char *get_str(rd_t *r, const cJSON *o, const char *k, const char *path, size_t maxlen)
+{
+    const cJSON *v = member(o, k);
+    if (!cJSON_IsString(v) || !v->valuestring) { rfail(r, ULK_EPARSE, path, "'%s' must be a string", k); return NULL; }
+    if (strlen(v->valuestring) > maxlen) {
+        rfail(r, ULK_ELIMIT, path, "'%s' is longer than %zu bytes", k, maxlen);
+        return NULL;
+    }
+    return v->valuestring;
+}
+
+static int get_ratio(rd_t *r, const cJSON *o, const char *k, const char *path, int allow_zero, ulk_ratio *out)
+{
+    const char *s = get_str(r, o, k, path, 64);
+    if (!s) return r->status;
+    if (ulk_ratio_parse(s, out) < 0 || out->num < 0 || (!allow_zero && out->num == 0) || out->den <= 0)
+        return rfail(r, ULK_EPARSE, path, "'%s' must be a %s exact decimal, found '%s'", k,
+                     allow_zero ? "non-negative" : "positive", s);
+    return 0;
+}
+
+static int get_pattern(rd_t *r, const cJSON *o, const char *k, const char *path, int n, uint8_t *out)
+{
+    const char *s = get_str(r, o, k, path, 64);
+    if (!s) return r->status;
+    if ((int)strlen(s) != n && n > 0) return rfail(r, ULK_EPARSE, path, "'%s' must have %d sub-bits", k, n);
+    if (strlen(s) < 1 || strlen(s) > ULK_MAX_SUBBITS)
+        return rfail(r, ULK_EPARSE, path, "'%s' must have 1 to %d sub-bits", k, ULK_MAX_SUBBITS);
+    for (size_t i = 0; s[i]; i++) {
+        if (s[i] != '0' && s[i] != '1') return rfail(r, ULK_EPARSE, path, "'%s' must be a string of 0 and 1", k);
+        out[i] = (uint8_t)(s[i] - '0');
+    }
+    return (int)strlen(s);
+}
+
+/* A token that the command-list parser reads back as one token. */
+static int list_safe(const char *s)
+{
+    if (!*s) return 0;
+    for (; *s; s++) {
+        unsigned char c = (unsigned char)*s;
+        if (c <= ' ' || c == '#' || c == '=' || c == 0x7f) return 0;
+    }
+    return 1;
+}
+
+static int find_name(const char *s, const char *const *names, int n)
+{
+    for (int i = 0; i < n; i++)
+        if (!strcmp(s, names[i])) return i;
+    return -1;
+}
+
+static int read_link(rd_t *r, const cJSON *lj, ulk_link *l)
+{
+    static const char *const lk[] = {"profile", "bit_rate", "subbits", "line_code", "subcarrier", "pilot", "framing", "word"};
+    memset(l, 0, sizeof *l);
+    if (want_keys(r, lj, "link", lk, 8)) return r->status;
+    const char *prof = get_str(r, lj, "profile", "link", 32);
+    if (!prof) return r->status;
+    if (strcmp(prof, "subbit")) return rfail(r, ULK_EFORMAT, "link.profile", "profile '%.32s' is not supported (subbit only)", prof);
+    l->profile = ULK_PROFILE_SUBBIT;
+    if (get_ratio(r, lj, "bit_rate", "link", 0, &l->bit_rate)) return r->status;
+    const cJSON *sb = member(lj, "subbits");
+    static const char *const sk[] = {"zero", "one", "idle"};
+    if (want_keys(r, sb, "link.subbits", sk, 3)) return r->status;
+    int n = get_pattern(r, sb, "zero", "link.subbits", 0, l->zero);
+    if (n < 0) return r->status;
+    l->n_subbits = n;
+    if (get_pattern(r, sb, "one", "link.subbits", n, l->one) < 0) return r->status;
+    if (get_pattern(r, sb, "idle", "link.subbits", n, l->idle) < 0) return r->status;
+    if (!memcmp(l->zero, l->one, (size_t)n)) return rfail(r, ULK_EPARSE, "link.subbits", "zero and one patterns are equal");
+    const char *lc = get_str(r, lj, "line_code", "link", 16);
+    if (!lc) return r->status;
+    if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
+    else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
+    else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
+    const cJSON *sc = member(lj, "subcarrier");
+    static const char *const sck[] = {"frequency", "waveform", "amplitude"};
+    if (want_keys(r, sc, "link.subcarrier", sck, 3)) return r->status;
+    if (get_ratio(r, sc, "frequency", "link.subcarrier", 0, &l->fsc)) return r->status;
+    const char *wf = get_str(r, sc, "waveform", "link.subcarrier", 16);
+    if (!wf) return r->status;
+    if (!strcmp(wf, "sine")) l->waveform = ULK_WAVE_SINE;
+    else if (!strcmp(wf, "square")) l->waveform = ULK_WAVE_SQUARE;
+    else return rfail(r, ULK_EPARSE, "link.subcarrier.waveform", "expected sine or square");
+    const cJSON *am = member(sc, "amplitude");
+    if (!cJSON_IsNumber(am) || !(am->valuedouble > 0 && am->valuedouble <= 1))
+        return rfail(r, ULK_EPARSE, "link.subcarrier.amplitude", "expected a number in (0, 1]");
+    l->amplitude = am->valuedouble;
+    const cJSON *pj = member(lj, "pilot");
+    if (!cJSON_IsNull(pj)) {
+        static const char *const pk[] = {"frequency", "amplitude"};
+        if (want_keys(r, pj, "link.pilot", pk, 2)) return r->status;
+        if (get_ratio(r, pj, "frequency", "link.pilot", 0, &l->fp)) return r->status;
+        const cJSON *pa = member(pj, "amplitude");
+        if (!cJSON_IsNumber(pa) || !(pa->valuedouble > 0 && pa->valuedouble + l->amplitude <= 1))
+            return rfail(r, ULK_EPARSE, "link.pilot.amplitude", "expected a number in (0, 1 - A]");
+        l->pilot_amplitude = pa->valuedouble;
+        l->has_pilot = 1;
+    }
+    const cJSON *fr = member(lj, "framing");
+    static const char *const fk[] = {"preamble", "gap", "postamble"};
+    if (want_keys(r, fr, "link.framing", fk, 3)) return r->status;
+    int64_t v;
+    if (get_int(r, fr, "preamble", "link.framing", 0, 1e6, NULL, &v)) return r->status;
+    l->preamble = (int)v;
+    if (get_int(r, fr, "gap", "link.framing", 0, 1e6, NULL, &v)) return r->status;
+    l->gap = (int)v;
+    if (get_int(r, fr, "postamble", "link.framing", 0, 1e6, NULL, &v)) return r->status;
+    l->postamble = (int)v;
+    const cJSON *wj = member(lj, "word");
+    static const char *const wk[] = {"vehicle_address", "system_address_bits", "opcode_bits", "argument_bits", "check", "word_bits"};
+    if (want_keys(r, wj, "link.word", wk, 6)) return r->status;
+    const cJSON *va = member(wj, "vehicle_address");
+    static const char *const vk[] = {"bits", "value"};
+    if (want_keys(r, va, "link.word.vehicle_address", vk, 2)) return r->status;
+    if (get_int(r, va, "bits", "link.word.vehicle_address", 0, 16, NULL, &v)) return r->status;
+    l->vehicle_bits = (int)v;
+    if (get_int(r, va, "value", "link.word.vehicle_address", 0, (double)((1u << l->vehicle_bits) - 1), NULL, &v))
+        return r->status;
+    l->vehicle_value = (uint32_t)v;
+    if (get_int(r, wj, "system_address_bits", "link.word", 0, 16, NULL, &v)) return r->status;
+    l->system_bits = (int)v;
+    if (get_int(r, wj, "opcode_bits", "link.word", 1, 16, NULL, &v)) return r->status;
+    l->opcode_bits = (int)v;
+    if (get_int(r, wj, "argument_bits", "link.word", 0, 64, NULL, &v)) return r->status;
+    l->argument_bits = (int)v;
+    const char *ck = get_str(r, wj, "check", "link.word", 16);
+    if (!ck) return r->status;
+    int k = -1;
+    for (int i = 0; i < 5; i++)
+        if (!strcmp(ck, ulk_check_name((ulk_check_kind)i))) k = i;
+    if (k < 0) return rfail(r, ULK_EPARSE, "link.word.check", "unknown check '%.20s'", ck);
+    l->check = (ulk_check_kind)k;
+    l->check_bits = ulk_check_bits(l->check);
+    if (get_int(r, wj, "word_bits", "link.word", 1, ULK_MAX_WORD_BITS, NULL, &v)) return r->status;
+    l->word_bits = (int)v;
+    if (l->word_bits != l->vehicle_bits + l->system_bits + l->opcode_bits + l->argument_bits + l->check_bits)
+        return rfail(r, ULK_EPARSE, "link.word.word_bits", "word_bits %d is not the sum of the field widths",
+                     l->word_bits);
+    return 0;
+}
+
+static const char *const type_names[] = {"unsigned", "signed", "boolean", "enum", "float32"};
+
+static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk_upload_cmd *c)
+{
+    char path[64];
+    snprintf(path, sizeof path, "commands[%zu]", idx);
+    static const char *const ck[] = {"line", "mnemonic", "system", "system_address", "opcode", "critical",
+                                     "wait_s", "idles_before", "args", "word"};
+    if (want_keys(r, cj, path, ck, 10)) return r->status;
+    int64_t v;
+    uint64_t uv;
+    if (get_int(r, cj, "line", path, 1, INT_MAX, NULL, &v)) return r->status;
+    c->line = (int)v;
+    const char *mn = get_str(r, cj, "mnemonic", path, 256);
+    const char *sn = mn ? get_str(r, cj, "system", path, 256) : NULL;
+    if (!mn || !sn) return r->status;
+    if (!list_safe(mn)) return rfail(r, ULK_EPARSE, path, "mnemonic '%.60s' cannot appear in a command list", mn);
+    if (get_int(r, cj, "system_address", path, 0, (double)((1u << l->system_bits) - 1), &uv, NULL)) return r->status;
+    c->system_addr = (uint32_t)uv;
+    if (get_int(r, cj, "opcode", path, 0, (double)((1u << l->opcode_bits) - 1), &uv, NULL)) return r->status;
+    c->opcode = (uint32_t)uv;
+    const cJSON *cr = member(cj, "critical");
+    if (!cJSON_IsBool(cr)) return rfail(r, ULK_EPARSE, path, "'critical' must be true or false");
+    c->critical = cJSON_IsTrue(cr);
+    if (get_ratio(r, cj, "wait_s", path, 1, &c->wait_before)) return r->status;
+    if (c->wait_before.num > 86400 * c->wait_before.den)
+        return rfail(r, ULK_ELIMIT, path, "'wait_s' is beyond the limit of 86400 s");
+    c->wait_before_s = ulk_ratio_to_double(c->wait_before);
+    if (get_int(r, cj, "idles_before", path, 0, (double)ULK_UPLOAD_MAX_IDLES, &c->idles_before, NULL)) return r->status;
+    uint64_t base = (uint64_t)(idx == 0 ? l->preamble : l->gap);
+    if (c->idles_before < base)
+        return rfail(r, ULK_EPARSE, path, "'idles_before' %llu is below the %s of %llu", (unsigned long long)c->idles_before,
+                     idx == 0 ? "preamble" : "gap", (unsigned long long)base);
+    const cJSON *aj = member(cj, "args");
+    if (!cJSON_IsArray(aj)) return rfail(r, ULK_EPARSE, path, "'args' must be an array");
+    int na = cJSON_GetArraySize(aj);
+    if (na > 64) return rfail(r, ULK_ELIMIT, path, "more than 64 arguments");
+    const char *wh = get_str(r, cj, "word", path, 40);
+    if (!wh) return r->status;
+    if (ulk_word_from_hex(wh, l->word_bits, &c->word) < 0)
+        return rfail(r, ULK_EPARSE, path, "'word' must be %d hex digits of a %d-bit value", (l->word_bits + 3) / 4,
+                     l->word_bits);
+    c->word.n_bits = l->word_bits;
+
+    /* one block: args, then strings */
+    size_t need = (size_t)na * sizeof(ulk_upload_arg) + strlen(mn) + strlen(sn) + 2;
+    const cJSON *a;
+    static const char *const ak[] = {"name", "type", "bits", "units", "raw", "eng", "text"};
+    int k = 0;
+    cJSON_ArrayForEach(a, aj) {
+        char ap[96];
+        snprintf(ap, sizeof ap, "%s.args[%d]", path, k++);
+        if (want_keys(r, a, ap, ak, 7)) return r->status;
+        const char *nm = get_str(r, a, "name", ap, 256), *tx = nm ? get_str(r, a, "text", ap, 256) : NULL;
+        if (!nm || !tx) return r->status;
+        if (!list_safe(nm) || !list_safe(tx)) return rfail(r, ULK_EPARSE, ap, "name or text cannot appear in a command list");
+        const cJSON *un = member(a, "units");
+        if (!cJSON_IsNull(un) && !get_str(r, a, "units", ap, 64)) return r->status;
+        need += strlen(nm) + strlen(tx) + 2 + (cJSON_IsString(un) ? strlen(un->valuestring) + 1 : 0);
+    }
+    char *blk = ulk_malloc(need);
+    if (!blk) return rfail(r, ULK_ENOMEM, path, "out of memory");
+    c->block_ = blk;
+    c->args = (ulk_upload_arg *)(void *)blk;
+    char *p = blk + (size_t)na * sizeof(ulk_upload_arg);
+    c->mnemonic = p; p += strlen(mn) + 1; memcpy(c->mnemonic, mn, strlen(mn) + 1);
+    c->system_name = p; p += strlen(sn) + 1; memcpy(c->system_name, sn, strlen(sn) + 1);
+    ulk_word_layout y = ulk_word_layout_of(l);
+    int pos = y.args_pos;
+    k = 0;
+    cJSON_ArrayForEach(a, aj) {
+        char ap[96];
+        snprintf(ap, sizeof ap, "%s.args[%d]", path, k);
+        ulk_upload_arg *ua = &c->args[k];
+        memset(ua, 0, sizeof *ua);
+        const char *nm = member(a, "name")->valuestring, *tx = member(a, "text")->valuestring;
+        ua->name = p; memcpy(p, nm, strlen(nm) + 1); p += strlen(nm) + 1;
+        ua->text = p; memcpy(p, tx, strlen(tx) + 1); p += strlen(tx) + 1;
+        const cJSON *un = member(a, "units");
+        if (cJSON_IsString(un)) { ua->units = p; memcpy(p, un->valuestring, strlen(un->valuestring) + 1); p += strlen(un->valuestring) + 1; }
+        c->n_args = ++k;
+        const char *ty = get_str(r, a, "type", ap, 16);
+        if (!ty) return r->status;
+        int t = find_name(ty, type_names, 5);
+        if (t < 0) return rfail(r, ULK_EPARSE, ap, "unknown type '%.16s'", ty);
+        ua->type = (ulk_arg_type)t;
+        if (get_int(r, a, "bits", ap, 1, 64, NULL, &v)) return r->status;
+        ua->bits = (int)v;
+        if ((t == ULK_ARG_BOOLEAN && v != 1) || (t == ULK_ARG_FLOAT32 && v != 32))
+            return rfail(r, ULK_EPARSE, ap, "a %s argument cannot be %d bits wide", ty, (int)v);
+        const char *rs = get_str(r, a, "raw", ap, 20);
+        if (!rs) return r->status;
+        char *end = NULL;
+        if (strncmp(rs, "0x", 2) || !isxdigit((unsigned char)rs[2])) return rfail(r, ULK_EPARSE, ap, "'raw' must be 0x and hex digits");
+        for (const char *q = rs + 2; *q; q++)
+            if (!isxdigit((unsigned char)*q)) return rfail(r, ULK_EPARSE, ap, "'raw' must be 0x and hex digits");
+        ua->raw = strtoull(rs + 2, &end, 16);
+        if (strlen(rs) > 18 || (ua->bits < 64 && (ua->raw >> ua->bits)))
+            return rfail(r, ULK_EPARSE, ap, "'raw' %.20s does not fit in %d bits", rs, ua->bits);
+        const cJSON *en = member(a, "eng");
+        if (!cJSON_IsNumber(en)) return rfail(r, ULK_EPARSE, ap, "'eng' must be a number");
+        ua->eng = en->valuedouble;
+        if (pos + ua->bits > y.check_pos) return rfail(r, ULK_EPARSE, ap, "the arguments exceed the %d-bit argument field", l->argument_bits);
+        if (ulk_word_get(&c->word, pos, ua->bits) != ua->raw)
+            return rfail(r, ULK_EPARSE, ap, "'raw' does not match the word's argument field");
+        pos += ua->bits;
+    }
+    /* the word must say what its fields say */
+    if (ulk_word_get(&c->word, y.vehicle_pos, l->vehicle_bits) != l->vehicle_value)
+        return rfail(r, ULK_EPARSE, path, "the word's vehicle address is not the link's");
+    if (ulk_word_get(&c->word, y.system_pos, l->system_bits) != c->system_addr)
+        return rfail(r, ULK_EPARSE, path, "the word's system address is not 'system_address'");
+    if (ulk_word_get(&c->word, y.opcode_pos, l->opcode_bits) != c->opcode)
+        return rfail(r, ULK_EPARSE, path, "the word's opcode is not 'opcode'");
+    for (int i = pos; i < y.check_pos; i++)
+        if (c->word.bits[i]) return rfail(r, ULK_EPARSE, path, "the word's unused argument bits are not zero");
+    if (!ulk_word_check_ok(l, &c->word)) return rfail(r, ULK_EPARSE, path, "the word's check field is wrong");
+    return 0;
+}
+
+int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag)
+{
+    *out = NULL;
+    rd_t r = {name ? name : "<upload>", diag, 0};
+    if (len > ULK_UPLOAD_MAX_BYTES) return rfail(&r, ULK_ELIMIT, NULL, "file is larger than the limit of %zu bytes", ULK_UPLOAD_MAX_BYTES);
+    if (len < 2 || text[0] != '{' || memmem(text, len < 200 ? len : 200, "\"ulk-upload\"", 12) == NULL)
+        return rfail(&r, ULK_EFORMAT, NULL, "not an ulk upload file (no \"format\": \"ulk-upload\" at its start)");
+    /* integrity first: everything before the digest line, as written */
+    if (len < DIGEST_LINE_LEN || memcmp(text + len - (sizeof DIGEST_TAIL - 1), DIGEST_TAIL, sizeof DIGEST_TAIL - 1) ||
+        memcmp(text + len - DIGEST_LINE_LEN, DIGEST_HEAD, sizeof DIGEST_HEAD - 1))
+        return rfail(&r, ULK_EINTEGRITY, NULL,
+                     "the file does not end with its digest line; it was changed or cut short after it was written");
+    size_t covered = len - DIGEST_LINE_LEN;
+    char want[65], got[65];
+    memcpy(want, text + covered + sizeof DIGEST_HEAD - 1, 64);
+    want[64] = 0;
+    sha256_hex(text, covered, got);
+    if (strcmp(want, got))
+        return rfail(&r, ULK_EINTEGRITY, NULL,
+                     "SHA-256 digest mismatch (recorded %.12s..., computed %.12s...): the file was changed after it "
+                     "was written; recompile it from its command list",
+                     want, got);
+    if (memchr(text, 0, len)) return rfail(&r, ULK_EPARSE, NULL, "NUL byte in the file");
+    cJSON *root = cJSON_ParseWithLength(text, len);
+    if (!root) return rfail(&r, ULK_EPARSE, NULL, "not valid JSON");
+    ulk_upload *u = ulk_calloc(1, sizeof *u);
+    if (!u) { cJSON_Delete(root); return rfail(&r, ULK_ENOMEM, NULL, "out of memory"); }
+    static const char *const rk[] = {"format", "version", "dictionary", "source", "link", "commands",
+                                     "wait_after_s", "idles_after", "totals", "digest"};
+    const cJSON *f = member(root, "format");
+    if (!cJSON_IsString(f) || strcmp(f->valuestring, "ulk-upload")) { rfail(&r, ULK_EFORMAT, "format", "not an ulk upload file"); goto out; }
+    const cJSON *ver = member(root, "version");
+    if (!cJSON_IsNumber(ver) || ver->valuedouble != ULK_UPLOAD_FORMAT_VERSION) {
+        rfail(&r, ULK_EFORMAT, "version", "upload format version %g is not supported (this build reads version %d)",
+              cJSON_IsNumber(ver) ? ver->valuedouble : -1.0, ULK_UPLOAD_FORMAT_VERSION);
+        goto out;
+    }
+    u->format_version = ULK_UPLOAD_FORMAT_VERSION;
+    if (want_keys(&r, root, "", rk, 10)) goto out;
+    const cJSON *dj = member(root, "dictionary");
+    static const char *const dk[] = {"name", "version", "sha256"};
+    if (want_keys(&r, dj, "dictionary", dk, 3)) goto out;
+    const char *dn = get_str(&r, dj, "name", "dictionary", 256), *dv = dn ? get_str(&r, dj, "version", "dictionary", 256) : NULL;
+    const char *dh = dv ? get_str(&r, dj, "sha256", "dictionary", 64) : NULL;
+    if (!dh) goto out;
+    if (strlen(dh) != 64 && strlen(dh) != 0) { rfail(&r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits"); goto out; }
+    for (const char *q = dh; *q; q++)
+        if (!isxdigit((unsigned char)*q)) { rfail(&r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits"); goto out; }
+    u->dict_name = ulk_strdup(dn);
+    u->dict_version = ulk_strdup(dv);
+    memcpy(u->dict_sha256, dh, strlen(dh) + 1);
+    const char *src = get_str(&r, root, "source", "", 4096);
+    if (!src) goto out;
+    u->source = ulk_strdup(src);
+    if (!u->dict_name || !u->dict_version || !u->source) { rfail(&r, ULK_ENOMEM, NULL, "out of memory"); goto out; }
+    if (read_link(&r, member(root, "link"), &u->link)) goto out;
+    const cJSON *cmds = member(root, "commands");
+    if (!cJSON_IsArray(cmds)) { rfail(&r, ULK_EPARSE, "commands", "expected an array"); goto out; }
+    int nc = cJSON_GetArraySize(cmds);
+    if (nc < 1) { rfail(&r, ULK_EPARSE, "commands", "an upload holds at least one command"); goto out; }
+    if ((unsigned)nc > ULK_UPLOAD_MAX_CMDS) { rfail(&r, ULK_ELIMIT, "commands", "more than %u commands", ULK_UPLOAD_MAX_CMDS); goto out; }
+    u->cmds = ulk_calloc((size_t)nc, sizeof *u->cmds);
+    if (!u->cmds) { rfail(&r, ULK_ENOMEM, NULL, "out of memory"); goto out; }
+    const cJSON *cj;
+    cJSON_ArrayForEach(cj, cmds) {
+        ulk_upload_cmd *c = &u->cmds[u->n_cmds];
+        int rc = read_cmd(&r, cj, u->n_cmds, &u->link, c);
+        if (c->block_ || rc == 0) u->n_cmds++;
+        if (rc) goto out;
+    }
+    if (get_ratio(&r, root, "wait_after_s", "", 1, &u->wait_after)) goto out;
+    if (u->wait_after.num > 86400 * u->wait_after.den) { rfail(&r, ULK_ELIMIT, "wait_after_s", "beyond the limit of 86400 s"); goto out; }
+    u->wait_after_s = ulk_ratio_to_double(u->wait_after);
+    if (get_int(&r, root, "idles_after", "", (double)u->link.postamble, (double)ULK_UPLOAD_MAX_IDLES, &u->idles_after, NULL))
+        goto out;
+    {
+        const cJSON *tj = member(root, "totals");
+        static const char *const tk[] = {"words", "subbits", "duration_s"};
+        if (want_keys(&r, tj, "totals", tk, 3)) goto out;
+        uint64_t words, subbits;
+        if (get_int(&r, tj, "words", "totals", 0, 1e15, &words, NULL)) goto out;
+        if (get_int(&r, tj, "subbits", "totals", 0, 9e15, &subbits, NULL)) goto out;
+        uint64_t pat = total_patterns(u);
+        if (words != u->n_cmds || subbits != pat * (uint64_t)u->link.n_subbits) {
+            rfail(&r, ULK_EPARSE, "totals", "the totals do not match the commands");
+            goto out;
+        }
+    }
+out:
+    cJSON_Delete(root);
+    if (r.status) { ulk_upload_destroy(u); return r.status; }
+    *out = u;
+    return 0;
+}
+
+int ulk_upload_read(const char *path, ulk_upload **out, ulk_diag *diag)
+{
+    *out = NULL;
+    char *buf;
+    size_t len;
+    int rc = ulk_read_file(path, ULK_UPLOAD_MAX_BYTES, &buf, &len, diag);
+    if (rc < 0) return rc;
+    rc = ulk_upload_read_mem(path, buf, len, out, diag);
+    ulk_free(buf);
+    return rc;
+}
+
+/* ------------------------------------------------------------------ back to a command list */
+
+static int print_wait(FILE *out, ulk_ratio w)
+{
+    char t[80];
+    ulk_ratio_format(w, t, sizeof t);
+    return fprintf(out, "wait %ss\n", t) < 0;
+}
+
+int ulk_upload_print_list(const ulk_upload *u, FILE *out)
+{
+    int bad = 0, cur = 1; /* next line number to write */
+    for (size_t i = 0; i < u->n_cmds; i++) {
+        const ulk_upload_cmd *c = &u->cmds[i];
+        int has_wait = c->wait_before.num != 0;
+        int first = c->line - has_wait; /* the line this command's part starts on */
+        if (cur == 1 && first > 1) {
+            bad |= fprintf(out, "# commands of upload from %s (dictionary %s %s); lines kept\n",
+                           u->source ? u->source : "?", u->dict_name ? u->dict_name : "?",
+                           u->dict_version ? u->dict_version : "?") < 0;
+            cur++;
+        }
+        while (cur < first) { bad |= fputc('\n', out) == EOF; cur++; }
+        if (has_wait) { bad |= print_wait(out, c->wait_before); cur++; }
+        bad |= fputs(c->mnemonic, out) == EOF;
+        for (int k = 0; k < c->n_args; k++) bad |= fprintf(out, " %s=%s", c->args[k].name, c->args[k].text) < 0;
+        bad |= fputs(c->critical ? " confirm\n" : "\n", out) == EOF;
+        cur++;
+    }
+    if (u->wait_after.num != 0) bad |= print_wait(out, u->wait_after);
+    bad |= fflush(out) != 0;
+    return bad ? ULK_EIO : 0;
+}
