@@ -945,6 +945,19 @@ static void test_cltu_rejections(void **state)
     ulk_cltu_idle_bits(g_st.bits + at + 8 * n_cltu - 64, 64);
     ulk_cltu_decode(&tc, g_st.bits, g_st.n, 0, &g_res);
     assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
+    /* A tail damaged into a valid codeblock: the decoder runs on past the frame, ignores
+     * the extra data, and the next search starts where the tail belonged. */
+    at = make_stream(&tc, 20, cltu, &n_cltu);
+    {
+        uint8_t info[7] = {1, 2, 3, 4, 5, 6, 7}, cb[8];
+        ulk_bch_encode(info, cb);
+        ulk_octets_to_bits(cb, 8, g_st.bits + at + 8 * n_cltu - 64);
+        st_idle(&g_st, 64);
+    }
+    ulk_cltu_decode(&tc, g_st.bits, g_st.n, 0, &g_res);
+    assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
+    assert_int_equal(g_res.n_codeblocks, (int)(n_cltu - 10) / 8 + 1);
+    assert_int_equal(g_res.end_bit, at + 8 * n_cltu);
 
     /* Truncated: the bits end inside the CLTU; end_bit says where to retry. */
     at = make_stream(&tc, 20, cltu, &n_cltu);
