@@ -28,6 +28,11 @@ typedef struct {
     double fsc_hz, bit_rate, subbit_rate;
     const char *description;   /* e.g. upload identity */
     const char *extra_json;    /* extra "ulk:" global fields as JSON object members, or NULL */
+    /* Added by the modulator's engineer (additive): */
+    const char *fs_exact;      /* exact rate as decimal text ("48000", "62.5"): writer records it as
+                                * "ulk:sample_rate_exact" when not NULL; reader sets it from the
+                                * metadata when present (owned by the reader), else NULL */
+    int64_t n_frames;          /* reader: frames in the file; writer: ignored */
 } ulk_sample_info;
 
 typedef struct ulk_writer ulk_writer;
@@ -42,6 +47,11 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n);
 int ulk_writer_commit(ulk_writer *w, ulk_diag *diag);
 /* Abandons: closes and removes the temporary files. NULL does nothing. */
 void ulk_writer_abort(ulk_writer *w);
+/* Records a SigMF annotation (core:sample_start, core:sample_count, core:label, core:comment;
+ * label/comment may be NULL) in a raw file's metadata; WAV keeps none (returns 0). Returns 0,
+ * ULK_EINVAL for NULL w, ULK_ENOMEM, or the sticky error. */
+int ulk_writer_annotate(ulk_writer *w, uint64_t sample_start, uint64_t sample_count, const char *label,
+                        const char *comment);
 
 typedef struct ulk_reader ulk_reader;
 /* Opens a capture. For raw files hint supplies rate and format (fs_hz 0 = take them from the
@@ -52,8 +62,13 @@ int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel,
 const ulk_sample_info *ulk_reader_info(const ulk_reader *r);
 /* Total frames when known, else -1. */
 int64_t ulk_reader_length(const ulk_reader *r);
-/* Reads up to n samples as float; returns count (0 at end) or a negative status. */
+/* Reads up to n samples as float (s16 data as v / 32767); returns count (0 at end) or a negative
+ * status: ULK_EFORMAT when the file ends before its declared length, ULK_EIO on a read error
+ * (reason from ulk_reader_error). Sticky. */
 long ulk_reader_read(ulk_reader *r, float *x, size_t n);
+/* The reason for the last failed ulk_reader_read ("" when none). Never NULL for non-NULL r. */
+const char *ulk_reader_error(const ulk_reader *r);
+/* Closes r; NULL does nothing. */
 void ulk_reader_close(ulk_reader *r);
 
 #ifdef __cplusplus
