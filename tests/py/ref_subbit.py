@@ -854,17 +854,22 @@ def levels(link, subbits):
     return (2 * sb - 1).astype(np.int8)
 
 
-def _frac_phase(i, ratio):
-    """(i * ratio) split exactly: returns (floor, remainder numerator, denominator) arrays.
-    i: int64 array; ratio: Fraction >= 0. Falls back to Python integers on overflow."""
+def _frac_phase(i, ratio, i0=Fraction(0)):
+    """((i - i0) * ratio) split exactly: returns (floor, remainder numerator, denominator)
+    arrays. i: int64 array; ratio >= 0 and i0 Fractions. Uses int64 when the products fit,
+    else Python integers (object arrays)."""
+    u, v = i0.numerator, i0.denominator
     p, q = ratio.numerator, ratio.denominator
     imax = int(i[-1]) if len(i) else 0
-    if imax * p < (1 << 62) and q < (1 << 62):
-        prod = i * np.int64(p)
-        return prod // q, prod % q, q
-    prod = [int(k) * p for k in i]
-    return (np.array([x // q for x in prod], dtype=object),
-            np.array([x % q for x in prod], dtype=object), q)
+    lim = 1 << 62
+    if ((abs(imax * v) + abs(u)) * p < lim) and q * v < lim:
+        num = (i * np.int64(v) - np.int64(u)) * np.int64(p)
+        den = q * v
+        return num // den, num % den, den
+    num = [(int(k) * v - u) * p for k in i]
+    den = q * v
+    return (np.array([x // den for x in num], dtype=object),
+            np.array([x % den for x in num], dtype=object), den)
 
 
 def n_samples(link, n_subbits, fs):
@@ -872,33 +877,36 @@ def n_samples(link, n_subbits, fs):
     return _ceil(Fraction(n_subbits) * Fraction(fs) / link.subbit_rate)
 
 
-def samples(link, subbits, fs, count=None):
+def samples(link, subbits, fs, count=None, i0=0, gate=False):
     """s_i (float64 numpy array) for i = 0 .. count-1 (default ceil(L f_s / R_s)).
 
     fs may be any exact positive rate (Fraction, int, or decimal string); sub-bit index,
     square half and tone phases are exact, only sin() and the scaling are floating point.
-    Samples past the end of the stream (when count is larger) are taken as silence on the
-    data (0) but keep the pilot."""
+    Sample i is taken at contract time (i - i0) / fs (i0 an exact sample offset, default 0:
+    section 4). Outside the stream [0, L / R_s) the data term is 0; the pilot is kept unless
+    gate is true (then the whole signal is 0 there, as when the transmitter is off)."""
     fs = Fraction(fs)
+    i0 = Fraction(i0)
     L_sub = len(subbits)
     if count is None:
-        count = n_samples(link, L_sub, fs)
+        count = _ceil(Fraction(L_sub) * fs / link.subbit_rate + i0)
     i = np.arange(count, dtype=np.int64)
     d = levels(link, subbits).astype(np.float64)
-    j, _, _ = _frac_phase(i, link.subbit_rate / fs)
+    j, _, _ = _frac_phase(i, link.subbit_rate / fs, i0)
     j = np.asarray(j, dtype=np.int64)
-    inside = j < L_sub
+    inside = (j >= 0) & (j < L_sub)
     dj = np.zeros(count)
     dj[inside] = d[j[inside]]
-    _, rem, q = _frac_phase(i, link.fsc / fs)
+    _, rem, q = _frac_phase(i, link.fsc / fs, i0)
     if link.waveform == "square":
         c = np.where(np.asarray(2 * rem < q, dtype=bool), 1.0, -1.0)
     else:
         c = np.sin(2 * np.pi * (np.asarray(rem, dtype=np.float64) / float(q)))
     s = link.amplitude * dj * c
     if link.has_pilot:
-        _, rem_p, qp = _frac_phase(i, link.fp / fs)
-        s = s + link.pilot_amplitude * np.sin(2 * np.pi * (np.asarray(rem_p, dtype=np.float64) / float(qp)))
+        _, rem_p, qp = _frac_phase(i, link.fp / fs, i0)
+        pil = link.pilot_amplitude * np.sin(2 * np.pi * (np.asarray(rem_p, dtype=np.float64) / float(qp)))
+        s = s + (np.where(inside, pil, 0.0) if gate else pil)
     return s
 
 

@@ -392,6 +392,75 @@ def main():
     e, w = ref.validate_tree(ref.load_tree(os.path.join(SRC, "dictionaries", "demo-subbit.yaml")))
     check(not e and not w, "demo dictionary is clean (no errors, no warnings)", e + w)
 
+    # ---- gen_capture: the impaired-capture generator ----
+    import gen_capture as gc
+    dd = tiny()
+    items = ref.parse_command_list(dd, "GO n=5 f=1\nCAL lin=-1")
+    st = ref.build_stream(dd, items)
+    clean = ref.samples(dd.link, st.subbits, 1000)
+    x, tr = gc.make_capture(dd, items, 1000)
+    check(len(x) == len(clean) and np.max(np.abs(x - clean)) == 0.0, "capture without impairments = reference samples")
+    # sigma by hand (section 5): sine, A = 0.5 -> P_d = 0.125; f_s = 1000, R_b = 62.5,
+    # E_b/N_0 = 10 dB = 10 -> sigma^2 = 0.125 * 1000 / (2 * 10 * 62.5) = 0.1
+    check(abs(gc.sigma_for_ebn0(dd.link, 1000, 10.0) - math.sqrt(0.1)) < 1e-12, "sigma for 10 dB by hand")
+    check(abs(gc.ebn0_db_for_sigma(dd.link, 1000, math.sqrt(0.1)) - 10.0) < 1e-9, "E_b/N_0 of sigma inverts")
+    long_items = ref.parse_command_list(dd, "\n".join("GO n=%d f=%d" % (k % 16, k % 2) for k in range(200)))
+    lst = ref.build_stream(dd, long_items)
+    x, tr = gc.make_capture(dd, long_items, 1000, ebn0_db=10.0, seed=5)
+    resid = x - ref.samples(dd.link, lst.subbits, 1000)
+    check(abs(np.std(resid) / math.sqrt(0.1) - 1) < 0.02 and abs(np.mean(resid)) < 0.01,
+          "noise sigma within 2 %% of the E_b/N_0 definition (%d samples)" % len(x), np.std(resid))
+    x2, _ = gc.make_capture(dd, long_items, 1000, ebn0_db=10.0, seed=5)
+    x3, _ = gc.make_capture(dd, long_items, 1000, ebn0_db=10.0, seed=6)
+    check(np.array_equal(x, x2) and not np.array_equal(x, x3), "seeded: same seed same capture, other seed differs")
+    # the data power of the demo waveform is the section 5 P_d (A^2/2 for a sine subcarrier)
+    dst = ref.build_stream(demo, ref.parse_command_list(demo, open(os.path.join(SRC, "dictionaries", "demo-subbit.cmd")).read()))
+    pd = float(np.mean(ref.samples(demo.link, dst.subbits, 48000) ** 2))
+    check(abs(pd / gc.data_power(demo.link) - 1) < 0.005, "demo data power equals A^2/2", pd)
+    # delay, scale, invert, DC: i0 = 0.0123 s * 1000 = 12.3 -> first signal sample 13
+    x, tr = gc.make_capture(dd, items, 1000, delay_s="0.0123", tail_s="0.01", scale=0.5, invert=True, dc=0.125)
+    t_end = Fraction(123, 10) + Fraction(len(st.subbits), 125) * 1000
+    check(tr["first_signal_sample"] == 13 and len(x) == math.ceil(t_end + 10)
+          and np.all(x[:13] == 0.125) and x[13] != 0.125 and np.all(x[math.ceil(t_end):] == 0.125),
+          "delay and tail are signal-free, first signal sample 13", (tr["first_signal_sample"], len(x)))
+    ok = True
+    for i in range(13, math.ceil(t_end), 7):
+        tau = (Fraction(i) - Fraction(123, 10)) / 1000
+        j = math.floor(tau * 125)
+        c = math.sin(2 * math.pi * float((tau * 250) % 1))
+        p_ = 0.25 * math.sin(2 * math.pi * float((tau * Fraction(125, 2)) % 1))
+        lv = slow_levels("nrz-l", st.subbits)
+        v = -0.5 * (0.5 * lv[j] * c + p_) + 0.125
+        ok = ok and abs(v - x[i]) < 1e-12
+    check(ok, "fractional delay, scale, polarity flip and DC equal the formula at tau = t - delay")
+    # clock error: +1000 ppm, tau_i = i / (f_s * 1.001)
+    x, tr = gc.make_capture(dd, items, 1000, ppm=1000)
+    ok = len(x) == math.ceil(Fraction(len(st.subbits), 125) * 1001)
+    for i in range(0, len(x), 5):
+        tau = Fraction(i, 1001)
+        j = math.floor(tau * 125)
+        if j >= len(st.subbits):
+            continue
+        v = 0.5 * slow_levels("nrz-l", st.subbits)[j] * math.sin(2 * math.pi * float((tau * 250) % 1)) \
+            + 0.25 * math.sin(2 * math.pi * float((tau * Fraction(125, 2)) % 1))
+        ok = ok and abs(v - x[i]) < 1e-12
+    check(ok, "clock error regenerates the contract at f_s (1 + ppm 1e-6)")
+    check(abs(tr["words"][1]["start_s"] - float(Fraction(st.word.tolist().index(2), 125) * Fraction(1001, 1000))) < 1e-12,
+          "truth start time of word 2 stretched by 1 + ppm")
+    with tempfile.TemporaryDirectory() as tmp:
+        wpath = os.path.join(tmp, "c.wav")
+        x, _ = gc.make_capture(dd, items, 1000, ebn0_db=20, seed=2)
+        clipped = gc.write_capture(wpath, x, 1000)
+        import wave
+        with wave.open(wpath, "rb") as w:
+            ok = (w.getframerate(), w.getsampwidth(), w.getnchannels(), w.getnframes()) == (1000, 2, 1, len(x))
+            frames = np.frombuffer(w.readframes(w.getnframes()), dtype="<i2")
+        check(ok and np.array_equal(frames, ref.to_s16(np.clip(x, -1, 1))) and clipped == int(np.sum(np.abs(x) > 1)),
+              "WAV written by the wave module reads back as the 16-bit samples")
+        fpath = os.path.join(tmp, "c.f32")
+        gc.write_capture(fpath, x, 1000)
+        check(np.array_equal(np.fromfile(fpath, dtype="<f4"), x.astype(np.float32)), "raw f32 capture")
+
     # ---- CLI on the demo files ----
     with tempfile.TemporaryDirectory() as tmp:
         me = os.path.join(os.path.dirname(os.path.abspath(__file__)), "ref_subbit.py")

@@ -229,7 +229,7 @@ commands:
 if __name__ == "__main__":
     try:
         main()
-    except Exception as e:  # a crash is a failure, reported as such
+    except Exception:  # a crash is a failure, reported as such
         import traceback
         traceback.print_exc()
         failed += 1
