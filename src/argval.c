@@ -260,7 +260,16 @@ static const char *num_show(const num_t *x, const char *text, char *buf, size_t 
     return buf;
 }
 
-static void fmt_ld(long double v, char *buf, size_t len) { ulk_fmt_double((double)v, buf, len); }
+static void fmt_sig(double v, int p, char *buf, size_t len);
+/* Shortest text that reads back to v, plain notation where it stays short. */
+static void fmt_short(double v, char *buf, size_t len)
+{
+    for (int p = 1; p <= 17; p++) {
+        fmt_sig(v, p, buf, len);
+        if (strtod(buf, NULL) == v) return;
+    }
+}
+static void fmt_ld(long double v, char *buf, size_t len) { fmt_short((double)v, buf, len); }
 
 /* Raw range of an integer argument as integers. */
 static void raw_range(const ulk_arg *a, i128 *lo, i128 *hi)
@@ -363,8 +372,8 @@ static int range_check(const ulk_arg *a, num_t *x, const char *text, char *err, 
     if (!a->has_range) return 0;
     if (num_cmp(x, (long double)a->range_min) < 0 || num_cmp(x, (long double)a->range_max) > 0) {
         char b1[40], b2[40];
-        ulk_fmt_double(a->range_min, b1, sizeof b1);
-        ulk_fmt_double(a->range_max, b2, sizeof b2);
+        fmt_short(a->range_min, b1, sizeof b1);
+        fmt_short(a->range_max, b2, sizeof b2);
         seterr(err, errlen, "value %s is outside the range [%s, %s]%s%s", text, b1, b2,
                a->units ? " " : "", a->units ? a->units : "");
         return -1;
@@ -425,7 +434,7 @@ int ulk_arg_from_text(const ulk_arg *a, const char *text, double scale, ulk_argv
     char shown[MAX_VALUE_TEXT + 64];
     if (scale != 1.0) {
         char sb[40];
-        ulk_fmt_double(scale, sb, sizeof sb);
+        fmt_short(scale, sb, sizeof sb);
         snprintf(shown, sizeof shown, "%s (x%s)", text, sb);
     } else {
         num_show(&x, text, shown, sizeof shown);

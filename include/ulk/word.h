@@ -9,6 +9,7 @@
 
 #include <stddef.h>
 #include <stdint.h>
+#include "ulk/error.h"
 #include "ulk/link.h"
 
 #ifdef __cplusplus

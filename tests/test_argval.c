@@ -1,0 +1,300 @@
+/* tests/test_argval.c - engineering text -> raw field, the rules of subbit-profile.md
+ * section 2: range first, nearest calibrated raw with ties to the smaller raw, refusal
+ * beyond half a raw step (exactly half accepted), two's complement, float32 rounded once to
+ * nearest-even (IEEE 754 binary32), -0 kept, values beyond the largest finite refused.
+ *
+ * Scales in the tie rows are exact in binary (0.5, 0.25, 2) as the contract asks, so the
+ * expected raws are worked out by hand from eng = offset + scale * raw. float32 bit patterns
+ * are those of IEEE 754 binary32 (1.5 = 0x3FC00000, 0.1 -> 0x3DCCCCCD, largest finite
+ * 0x7F7FFFFF = 3.4028234663852886e38 = 2^128 - 2^104; the rounding threshold to infinity is
+ * that plus half an ulp, 2^128 - 2^103) -- from memory, and cross-checked by Python's struct
+ * module ('>f') when the table was written.
+ */
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <cmocka.h>
+
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "ulk/dict.h"
+
+static ulk_arg mk(ulk_arg_type t, int bits)
+{
+    ulk_arg a;
+    memset(&a, 0, sizeof a);
+    a.name = "x";
+    a.type = t;
+    a.bits = bits;
+    return a;
+}
+
+typedef struct {
+    const char *row;    /* test name of the row */
+    const char *text;
+    double scale;       /* SI prefix factor */
+    int ok;
+    uint64_t raw;
+    const char *err;    /* fragment of the refusal */
+} row_t;
+
+static void run_rows(const ulk_arg *a, const row_t *rows, size_t n)
+{
+    for (size_t i = 0; i < n; i++) {
+        ulk_argval v = {0, 0};
+        char err[300] = "";
+        int rc = ulk_arg_from_text(a, rows[i].text, rows[i].scale, &v, err, sizeof err);
+        print_message("row %s: '%s' -> rc %d raw 0x%llx %s\n", rows[i].row, rows[i].text, rc,
+                      (unsigned long long)v.raw, err);
+        if (rows[i].ok) {
+            assert_int_equal(rc, 0);
+            assert_true(v.raw == rows[i].raw);
+        } else {
+            assert_int_equal(rc, ULK_EPARSE);
+            assert_non_null(strstr(err, rows[i].err));
+        }
+    }
+}
+
+/* unsigned 8 bits, eng = 0.5 * raw: raws 0..255 give 0, 0.5, ..., 127.5 */
+static const row_t half_rows[] = {
+    {"exact", "3.5", 1, 1, 7, NULL},
+    {"tie_low_end", "0.25", 1, 1, 0, NULL},        /* 0 and 0.5 equally near: smaller raw */
+    {"tie_mid", "3.75", 1, 1, 7, NULL},            /* 3.5 and 4.0: raw 7, not 8 */
+    {"just_above_tie", "3.7500000000000000000001", 1, 1, 8, NULL}, /* decided on the decimal as written */
+    {"just_below_tie", "3.7499999999999999999999", 1, 1, 7, NULL},
+    {"half_step_above_top_accepted", "127.75", 1, 1, 255, NULL},
+    {"beyond_half_step_top", "127.7500001", 1, 0, 0, "more than half a raw step"},
+    {"half_step_below_zero_accepted", "-0.25", 1, 1, 0, NULL},
+    {"beyond_half_step_below", "-0.2500001", 1, 0, 0, "more than half a raw step"},
+    {"si_milli", "3750", 1e-3, 1, 7, NULL},        /* 3750m = 3.75 exactly: tie -> 7 */
+    {"si_kilo", "0.0035", 1e3, 1, 7, NULL},
+    {"scientific", "35e-1", 1, 1, 7, NULL},
+    {"hex_is_a_value", "0x3", 1, 1, 6, NULL},
+    {"not_a_number", "3.5.1", 1, 0, 0, "not a number"},
+    {"empty", "", 1, 0, 0, "empty"},
+};
+
+static void test_calibration_half(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 8);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = 0.5;
+    run_rows(&a, half_rows, sizeof half_rows / sizeof half_rows[0]);
+}
+
+/* signed 8 bits, eng = 2 * raw (raw -128..127 -> -256..254) */
+static const row_t two_rows[] = {
+    {"tie_minus1_before_0", "-1", 1, 1, 0xFF, NULL},  /* -2 (raw -1) and 0 (raw 0): -1 wins */
+    {"tie_1", "1", 1, 1, 0x00, NULL},                  /* 0 and 2: raw 0 */
+    {"tie_3", "3", 1, 1, 0x01, NULL},
+    {"bottom_half_step", "-257", 1, 1, 0x80, NULL},    /* exactly half below -256: accepted */
+    {"bottom_beyond", "-257.01", 1, 0, 0, "more than half a raw step"},
+    {"top_half_step", "255", 1, 1, 0x7F, NULL},
+    {"top_beyond", "255.5", 1, 0, 0, "more than half a raw step"},
+};
+
+static void test_calibration_two_signed(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_SIGNED, 8);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = 2;
+    run_rows(&a, two_rows, sizeof two_rows / sizeof two_rows[0]);
+}
+
+/* decreasing calibration eng = 10 - 0.25 * raw, 4 bits (raw 0..15 -> 10 .. 6.25), range [7, 10] */
+static const row_t dec_rows[] = {
+    {"range_first", "6.5", 1, 0, 0, "outside the range [7, 10]"},
+    {"exact", "9", 1, 1, 4, NULL},
+    {"tie_smaller_raw", "9.125", 1, 1, 3, NULL},       /* 9.25 (raw 3) and 9.0 (raw 4) */
+    {"nearer_larger_raw", "9.1", 1, 1, 4, NULL},
+    {"top_end", "10", 1, 1, 0, NULL},
+    {"range_above", "10.125", 1, 0, 0, "outside the range"},
+};
+
+static void test_calibration_decreasing(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 4);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = -0.25;
+    a.cal_offset = 10;
+    a.has_range = 1;
+    a.range_min = 7;
+    a.range_max = 10;
+    run_rows(&a, dec_rows, sizeof dec_rows / sizeof dec_rows[0]);
+}
+
+/* polynomial eng = 1 + 0.5 raw + 0.25 raw^2 over 6 bits: f(2) = 3, f(3) = 4.75, f(4) = 7 */
+static const row_t poly_rows[] = {
+    {"exact_2", "3", 1, 1, 2, NULL},
+    {"tie_2_3", "3.875", 1, 1, 2, NULL},
+    {"above_tie", "3.876", 1, 1, 3, NULL},
+    {"near_4", "6.5", 1, 1, 4, NULL},
+    {"below_f0_half_step_ok", "0.875", 1, 1, 0, NULL}, /* f(-1) = 0.75, f(0) = 1: half step 0.125 */
+    {"below_f0_beyond", "0.874", 1, 0, 0, "more than half a raw step"},
+};
+
+static void test_calibration_polynomial(void **st)
+{
+    (void)st;
+    double c[3] = {1, 0.5, 0.25};
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 6);
+    a.cal = ULK_CAL_POLY;
+    a.poly = c;
+    a.n_poly = 3;
+    run_rows(&a, poly_rows, sizeof poly_rows / sizeof poly_rows[0]);
+}
+
+static const row_t int_rows[] = {
+    {"u8_max", "255", 1, 1, 255, NULL},
+    {"u8_over", "256", 1, 0, 0, "does not fit in 8"},
+    {"u8_negative", "-1", 1, 0, 0, "does not fit"},
+    {"u8_hex", "0xFF", 1, 1, 255, NULL},
+    {"u8_bin", "0b1010", 1, 1, 10, NULL},
+    {"u8_bad_bin", "0b102", 1, 0, 0, "not a binary integer"},
+    {"u8_fraction", "2.5", 1, 0, 0, "not a whole number"},
+    {"u8_sci_whole", "2.5e1", 1, 1, 25, NULL},
+    {"u8_kilo_unit", "0.25", 1e3, 1, 250, NULL},
+    {"u8_beyond_64", "0x10000000000000000", 1, 0, 0, "beyond 64 bits"},
+    {"u8_beyond_64_dec", "18446744073709551616", 1, 0, 0, "beyond 64 bits"},
+    {"u8_range", "201", 1, 0, 0, "outside the range [0, 200]"},
+};
+
+static void test_integers(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 8);
+    run_rows(&a, int_rows, sizeof int_rows / sizeof int_rows[0] - 1);
+    a.has_range = 1; /* the last row: a range narrower than the width */
+    a.range_min = 0;
+    a.range_max = 200;
+    run_rows(&a, &int_rows[sizeof int_rows / sizeof int_rows[0] - 1], 1);
+    /* 64-bit extremes */
+    ulk_arg u64 = mk(ULK_ARG_UNSIGNED, 64), s64 = mk(ULK_ARG_SIGNED, 64), s5 = mk(ULK_ARG_SIGNED, 5);
+    const row_t r64[] = {{"u64_max", "18446744073709551615", 1, 1, UINT64_MAX, NULL},
+                         {"u64_max_hex", "0xFFFFFFFFFFFFFFFF", 1, 1, UINT64_MAX, NULL}};
+    run_rows(&u64, r64, 2);
+    const row_t rs64[] = {{"s64_min", "-9223372036854775808", 1, 1, 0x8000000000000000ull, NULL},
+                          {"s64_min_minus_1", "-9223372036854775809", 1, 0, 0, "beyond 64 bits"},
+                          {"s64_max_plus_1", "9223372036854775808", 1, 0, 0, "does not fit in 64"}};
+    run_rows(&s64, rs64, 3);
+    /* two's complement in 5 bits: -16..15 */
+    const row_t rs5[] = {{"s5_minus3", "-3", 1, 1, 0x1D, NULL},
+                         {"s5_min", "-16", 1, 1, 0x10, NULL},
+                         {"s5_under", "-17", 1, 0, 0, "does not fit in 5 signed bits [-16, 15]"},
+                         {"s5_max", "15", 1, 1, 0x0F, NULL}};
+    run_rows(&s5, rs5, 4);
+    char buf[40];
+    ulk_arg_format(&s5, 0x1D, buf, sizeof buf);
+    assert_string_equal(buf, "-3");
+    assert_true(ulk_arg_raw_to_eng(&s5, 0x10) == -16.0);
+}
+
+static const row_t float_rows[] = {
+    {"one_and_half", "1.5", 1, 1, 0x3FC00000, NULL},
+    {"minus_zero", "-0", 1, 1, 0x80000000, NULL},
+    {"minus_zero_decimal", "-0.0e5", 1, 1, 0x80000000, NULL},
+    {"plus_zero", "0", 1, 1, 0x00000000, NULL},
+    {"tenth_rounded", "0.1", 1, 1, 0x3DCCCCCD, NULL},
+    {"ties_to_even_down", "16777217", 1, 1, 0x4B800000, NULL}, /* 2^24 + 1 -> 2^24 (even) */
+    {"ties_to_even_up", "16777219", 1, 1, 0x4B800002, NULL},   /* 2^24 + 3 -> 2^24 + 4 */
+    {"largest_finite", "3.4028234663852886e38", 1, 1, 0x7F7FFFFF, NULL},
+    /* 2^128 - 2^103 lies halfway between the largest finite (odd significand) and 2^128:
+     * one below rounds to the largest finite, the tie itself rounds to even = infinity */
+    {"below_threshold", "340282356779733661637539395458142568447", 1, 1, 0x7F7FFFFF, NULL},
+    {"threshold_tie_to_inf", "340282356779733661637539395458142568448", 1, 0, 0, "largest finite float32"},
+    {"far_beyond", "1e39", 1, 0, 0, "largest finite float32"},
+    {"negative_beyond", "-1e39", 1, 0, 0, "largest finite float32"},
+    {"milli_once", "2.5", 1e-3, 1, 0x3B23D70A, NULL}, /* 0.0025 rounded once from the decimal */
+    {"not_inf_text", "inf", 1, 0, 0, "not a number"},
+    {"not_nan_text", "nan", 1, 0, 0, "not a number"},
+};
+
+static void test_float32(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_FLOAT32, 32);
+    run_rows(&a, float_rows, sizeof float_rows / sizeof float_rows[0]);
+    char buf[40];
+    ulk_arg_format(&a, 0x80000000, buf, sizeof buf);
+    assert_string_equal(buf, "-0");
+    assert_true(signbit(ulk_arg_raw_to_eng(&a, 0x80000000)));
+    ulk_arg_format(&a, 0x3DCCCCCD, buf, sizeof buf);
+    assert_string_equal(buf, "0.1");
+    ulk_arg_format(&a, 0x7F7FFFFF, buf, sizeof buf);
+    assert_string_equal(buf, "3.4028235e+38");
+}
+
+static void test_boolean_enum(void **st)
+{
+    (void)st;
+    ulk_arg b = mk(ULK_ARG_BOOLEAN, 1);
+    const row_t br[] = {{"true", "true", 1, 1, 1, NULL},  {"on", "on", 1, 1, 1, NULL},
+                        {"yes", "YES", 1, 1, 1, NULL},    {"one", "1", 1, 1, 1, NULL},
+                        {"false", "false", 1, 1, 0, NULL}, {"off", "off", 1, 1, 0, NULL},
+                        {"no", "no", 1, 1, 0, NULL},      {"zero", "0", 1, 1, 0, NULL},
+                        {"two", "2", 1, 0, 0, "not a boolean"}, {"maybe", "maybe", 1, 0, 0, "true/false"}};
+    run_rows(&b, br, sizeof br / sizeof br[0]);
+    ulk_enum_value vals[3] = {{"OPEN", 2, {0}}, {"CLOSED", 1, {0}}, {"HOLD", 0, {0}}};
+    ulk_arg e = mk(ULK_ARG_ENUM, 2);
+    e.values = vals;
+    e.n_values = 3;
+    const row_t er[] = {{"label", "OPEN", 1, 1, 2, NULL},
+                        {"typo", "OPN", 1, 0, 0, "did you mean 'OPEN'?"},
+                        {"case", "closed", 1, 0, 0, "did you mean 'CLOSED'?"},
+                        {"far", "SIDEWAYS", 1, 0, 0, "labels: OPEN, CLOSED, HOLD"},
+                        {"code_not_label", "2", 1, 0, 0, "no label '2'"}};
+    run_rows(&e, er, sizeof er / sizeof er[0]);
+    assert_string_equal(ulk_arg_label(&e, 1), "CLOSED");
+    assert_null(ulk_arg_label(&e, 3));
+    char buf[32];
+    ulk_arg_format(&e, 0, buf, sizeof buf);
+    assert_string_equal(buf, "HOLD");
+    assert_string_equal(ulk_arg_type_name(ULK_ARG_FLOAT32), "float32");
+}
+
+/* ulk_arg_format gives text that converts back to the same raw, for every raw of a few
+ * calibrated arguments (including scales that are not exact in binary). */
+static void test_format_round_trip(void **st)
+{
+    (void)st;
+    const double scales[] = {0.5, 0.01, 0.005, -0.1, 3.3};
+    const double offsets[] = {0, 0, 12, 5, -7.25};
+    for (size_t k = 0; k < 5; k++) {
+        ulk_arg a = mk(k == 3 ? ULK_ARG_SIGNED : ULK_ARG_UNSIGNED, 10);
+        a.cal = ULK_CAL_LINEAR;
+        a.cal_scale = scales[k];
+        a.cal_offset = offsets[k];
+        for (uint64_t raw = 0; raw < 1024; raw++) {
+            char buf[64];
+            ulk_arg_format(&a, raw, buf, sizeof buf);
+            ulk_argval v;
+            char err[200];
+            int rc = ulk_arg_from_text(&a, buf, 1.0, &v, err, sizeof err);
+            if (rc != 0 || v.raw != raw) print_message("scale %g raw %llu text %s: %s\n", scales[k], (unsigned long long)raw, buf, err);
+            assert_int_equal(rc, 0);
+            assert_true(v.raw == raw);
+        }
+    }
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_calibration_half),
+        cmocka_unit_test(test_calibration_two_signed),
+        cmocka_unit_test(test_calibration_decreasing),
+        cmocka_unit_test(test_calibration_polynomial),
+        cmocka_unit_test(test_integers),
+        cmocka_unit_test(test_float32),
+        cmocka_unit_test(test_boolean_enum),
+        cmocka_unit_test(test_format_round_trip),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
