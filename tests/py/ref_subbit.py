@@ -29,7 +29,7 @@ Interpretations where the contract is silent (documented again at each place):
   * `confirm` on a non-critical command is accepted;
   * a float32 value is refused when it rounds beyond the largest finite binary32 (where
     strtof overflows), so 3.4028235e38 is accepted as FLT_MAX;
-  * the unit of a wait follows the number directly ("wait 3 s" is refused).
+  * a wait's unit may follow its number directly or after a space ("wait 3 s").
 
 CLI:
     ref_subbit.py words DICT LIST                      JSON [{"mnemonic", "hex", ...}]
@@ -666,8 +666,8 @@ def parse_command_list(d, text, name="<list>"):
         where = lambda col: "%s:%d:%d" % (name, ln, col)
         head, col0 = toks[0]
         if head == "wait":
-            # the unit follows the number directly, as for argument values
-            arg = toks[1][0] if len(toks) == 2 else ""
+            # "wait 2.5s"; a space before the unit ("wait 2.5 s") is accepted too
+            arg = "".join(t for t, _ in toks[1:3]) if 2 <= len(toks) <= 3 else ""
             m = re.fullmatch(r"((?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)(s|ms|min)", arg)
             if not m:
                 raise RefError("%s: expected 'wait DURATION' with s, ms or min, e.g. 'wait 2.5s'"

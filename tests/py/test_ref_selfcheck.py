@@ -225,7 +225,8 @@ def main():
             ("STOP", "needs 'confirm'", "critical without confirm"),
             ("STOP mode=MEDIUM confirm", "no label 'MEDIUM'", "unknown enum label"),
             ("GOO n=1 f=0", "t.cmd:1:1: unknown command", "unknown command, with location"),
-            ("GO n=1 f=0\n  wait 3 s", "t.cmd:2:8", "wait without unit (location of the value)"),
+            ("GO n=1 f=0\n  wait 3", "t.cmd:2:8", "wait without unit (location of the value)"),
+            ("GO n=1 f=0\nwait 3 s 4", "wait DURATION", "wait with extra words"),
             ("GO n=1 f=0\nwait 3h", "wait DURATION", "wait in hours"),
             ("wait 1s", "no command", "list without commands"),
             ("GO n=1V f=0", "has none", "unit on a unitless argument"),
@@ -286,7 +287,7 @@ def main():
     # ---- stream: preamble, gap, waits, postamble (section 3) ----
     # R_b = 62.5: wait 0.1s -> ceil(6.25) = 7 idle patterns; two waits 0.02s + 0.02s add
     # up to 0.04s -> ceil(2.5) = 3; gap 1 otherwise.
-    items = ref.parse_command_list(d, "wait 100ms\nGO n=1 f=0\nGO n=2 f=0\nwait 0.02s\nwait 20ms\n"
+    items = ref.parse_command_list(d, "wait 100ms\nGO n=1 f=0\nGO n=2 f=0\nwait 0.02s\nwait 20 ms\n"
                                       "GO n=3 f=0\nwait 0.0005min")
     st = ref.build_stream(d, items)
     n, W = 2, 16
