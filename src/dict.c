@@ -82,6 +82,23 @@ void ulk_dict_destroy(ulk_dict *d)
     ulk_free(di);
 }
 
+/* A number as messages and the canonical form write it: a whole number below 2^53 in plain
+ * digits ("-10", not "-1e+01"), else the shortest "%.*g" that reads back to the same
+ * double. -0 is written as 0. This is also how Python's json module writes the same value
+ * (int, or repr of a float), which the canonical-form test relies on. */
+static void fmt_num(double v, char *buf, size_t len)
+{
+    if (v == 0.0) v = 0.0;
+    if (v == floor(v) && fabs(v) < 9007199254740992.0) {
+        snprintf(buf, len, "%.0f", v);
+        return;
+    }
+    for (int p = 1; p <= 17; p++) {
+        snprintf(buf, len, "%.*g", p, v);
+        if (strtod(buf, NULL) == v) return;
+    }
+}
+
 /* ---------------------------------------------------------------- build context */
 
 typedef struct {
@@ -879,7 +896,7 @@ static void check_range_representable(bctx *c, ulk_node *rn, const ulk_arg *a)
             flo = cal_f(a, lo);
             fhi = cal_f(a, hi);
             if (flo > fhi) { long double t = flo; flo = fhi; fhi = t; }
-            how = "the calibrated raw range";
+            how = "calibrated raw range";
         } else {
             flo = lo;
             fhi = hi;
@@ -895,8 +912,8 @@ static void check_range_representable(bctx *c, ulk_node *rn, const ulk_arg *a)
     long double tol = a->cal != ULK_CAL_NONE ? 1e-9L * fmaxl(fmaxl(fabsl(flo), fabsl(fhi)), 1.0L) : 0.0L;
     if (rlo < flo - tol || rhi > fhi + tol) {
         char b1[48], b2[48];
-        ulk_fmt_double((double)flo, b1, sizeof b1);
-        ulk_fmt_double((double)fhi, b2, sizeof b2);
+        fmt_num((double)flo, b1, sizeof b1);
+        fmt_num((double)fhi, b2, sizeof b2);
         if (a->type == ULK_ARG_FLOAT32)
             err(c, rn, "range [%s, %s] is beyond what float32 can represent", rn->items[0]->text, rn->items[1]->text);
         else
@@ -1003,7 +1020,7 @@ static int build_arg(bctx *c, ulk_node *an, ulk_arg *a, ulk_node *cmd_args, int 
         a->bits = 32;
         bits_ok = 1;
     } else {
-        err(c, an, "a%s %s argument needs 'bits' (its raw width, 1..64)", a->type == ULK_ARG_ENUM ? "n" : "", tname);
+        err(c, an, "%s %s argument needs 'bits' (its raw width, 1..64)", a->type == ULK_ARG_ENUM || a->type == ULK_ARG_UNSIGNED ? "an" : "a", tname);
     }
 
     ulk_node *cn = ulk_node_get(an, "calibration");
@@ -1330,7 +1347,7 @@ static void sb_str(sbuf *b, const char *s)
 static void sb_double(sbuf *b, double v)
 {
     char t[40];
-    ulk_fmt_double(v == 0.0 ? 0.0 : v, t, sizeof t); /* -0 and 0 are one value here */
+    fmt_num(v, t, sizeof t);
     sb_puts(b, t);
 }
 

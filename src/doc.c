@@ -275,6 +275,17 @@ static int check_dup_keys(const ulk_doc *doc, ulk_node *map, ulk_diag *diag)
     return rc;
 }
 
+/* Duplicate keys of every mapping of a finished tree (JSON: the tree is built bottom-up, so
+ * paths are only complete at the end). Reported, not fatal. Returns 0 or ULK_ENOMEM. */
+static int dup_keys_tree(const ulk_doc *doc, ulk_node *n, ulk_diag *diag)
+{
+    if (n->kind == ULK_NODE_SCALAR) return 0;
+    if (n->kind == ULK_NODE_MAP && check_dup_keys(doc, n, diag) == ULK_ENOMEM) return ULK_ENOMEM;
+    for (int i = 0; i < n->n; i++)
+        if (dup_keys_tree(doc, n->items[i], diag)) return ULK_ENOMEM;
+    return 0;
+}
+
 /* ---------------------------------------------------------------- positions */
 
 /* Line and column (1-based; columns count UTF-8 characters) of byte offset off. */
@@ -370,9 +381,12 @@ static int parse_yaml(ulk_doc *doc, const char *text, size_t len, ulk_diag *diag
             } else {
                 line = (int)p.problem_mark.line + 1;
                 col = (int)p.problem_mark.column + 1;
-                rc = err_at(doc, diag, ULK_EPARSE, line, col, "YAML syntax error: %s%s%s",
-                            p.problem ? p.problem : "malformed", p.context ? " " : "",
-                            p.context ? p.context : "");
+                char ctx[160] = "";
+                if (p.context)
+                    snprintf(ctx, sizeof ctx, " %s (started at line %d, column %d)", p.context,
+                             (int)p.context_mark.line + 1, (int)p.context_mark.column + 1);
+                rc = err_at(doc, diag, ULK_EPARSE, line, col, "YAML syntax error: %s%s",
+                            p.problem ? p.problem : "malformed", ctx);
             }
             break;
         }
@@ -536,13 +550,16 @@ static int js_value(jscan *s)
     return js_rec(s, start, s->i);
 }
 
-/* First pass: the deepest nesting, counted outside strings. Reports the position where the
- * limit is crossed. Returns 0 or ULK_ELIMIT. */
-static int json_depth_check(ulk_doc *doc, const char *t, size_t len, ulk_diag *diag)
+/* First pass: the deepest nesting, counted outside strings, and the first NUL byte. Reports
+ * the position where the limit is crossed. Returns 0 or ULK_ELIMIT. */
+static int json_depth_check(ulk_doc *doc, const char *t, size_t len, size_t *first_nul, ulk_diag *diag)
 {
     int depth = 0, in_str = 0;
+    *first_nul = (size_t)-1;
     for (size_t i = 0; i < len; i++) {
         char c = t[i];
+        /* JSON has no raw NUL anywhere, but cJSON skips one as white space: remember it. */
+        if (c == 0 && *first_nul == (size_t)-1) *first_nul = i;
         if (in_str) {
             if (c == '\\') i++;
             else if (c == '"') in_str = 0;
@@ -597,8 +614,6 @@ static int json_build(ulk_doc *doc, jscan *s, const cJSON *j, ulk_node **out, ul
                 return rc;
             }
         }
-        /* A repeated key is reported and building goes on, so that all of them are listed. */
-        if (is_map && check_dup_keys(doc, n, diag) == ULK_ENOMEM) { node_free(n); return ULK_ENOMEM; }
         *out = n;
         return 0;
     }
@@ -629,7 +644,8 @@ static int parse_json(ulk_doc *doc, const char *text, size_t len, ulk_diag *diag
     size_t k = skip;
     while (k < len && isspace((unsigned char)text[k])) k++;
     if (k == len) return err_at(doc, diag, ULK_EPARSE, 1, 1, "the file is empty: expected a JSON object");
-    int rc = json_depth_check(doc, text, len, diag);
+    size_t nul;
+    int rc = json_depth_check(doc, text, len, &nul, diag);
     if (rc) return rc;
     /* cJSON wants the terminating NUL inside the length it is given; the caller's buffer need
      * not have one, so parse a terminated copy. An embedded NUL is then a syntax error. */
@@ -640,9 +656,11 @@ static int parse_json(ulk_doc *doc, const char *text, size_t len, ulk_diag *diag
     text = copy;
     const char *end = NULL;
     cJSON *j = cJSON_ParseWithLengthOpts(text + skip, len - skip + 1, &end, 1);
-    if (!j) {
-        size_t off = end && end >= text + skip ? (size_t)(end - text) : skip;
+    if (!j || nul != (size_t)-1) {
+        size_t off = !j && end && end >= text + skip ? (size_t)(end - text) : len;
+        if (nul < off) off = nul; /* the NUL came first */
         if (off > len) off = len;
+        cJSON_Delete(j);
         int line, col;
         offset_to_linecol(text, len, off, &line, &col);
         unsigned char ch = off < len ? (unsigned char)text[off] : 0;
@@ -651,15 +669,6 @@ static int parse_json(ulk_doc *doc, const char *text, size_t len, ulk_diag *diag
             rc = err_at(doc, diag, ULK_EPARSE, line, col, "JSON syntax error at '%c'", ch);
         else
             rc = err_at(doc, diag, ULK_EPARSE, line, col, "JSON syntax error at byte 0x%02X", ch);
-        ulk_free(copy);
-        return rc;
-    }
-    if (end && end < text + len) {
-        /* cJSON stops at a NUL byte; anything after it would be silently ignored. */
-        int line, col;
-        offset_to_linecol(text, len, (size_t)(end - text), &line, &col);
-        rc = err_at(doc, diag, ULK_EPARSE, line, col, "JSON syntax error at byte 0x00");
-        cJSON_Delete(j);
         ulk_free(copy);
         return rc;
     }
@@ -679,6 +688,7 @@ static int parse_json(ulk_doc *doc, const char *text, size_t len, ulk_diag *diag
             s.v[i].col = col;
         }
         rc = json_build(doc, &s, j, &doc->root, diag);
+        if (rc == 0) rc = dup_keys_tree(doc, doc->root, diag);
     } else if (rc == ULK_EPARSE) {
         rc = err_at(doc, diag, ULK_EPARSE, 1, 1, "JSON text could not be scanned");
     }
