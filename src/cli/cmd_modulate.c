@@ -1,9 +1,319 @@
-/* src/cli/cmd_modulate.c - placeholder until the stage lands; refuses with exit 2. */
+/* src/cli/cmd_modulate.c - `ulk modulate UPLOAD -o OUT --rate HZ [--format f32|s16]
+ * [--timing TABLE.csv]`: samples of subbit-profile.md section 4 and the timing table of
+ * section 6. Exit 0 written; 1 refused (rate too low, 16-bit output would clip, upload
+ * refused); 2 usage or I/O error. Nothing is left behind on failure. */
+#include <cjson/cJSON.h>
 #include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+#include <time.h>
+#include <unistd.h>
+
 #include "cli.h"
+#include "ulk/mod.h"
+#include "ulk/sampleio.h"
+#include "ulk/upload.h"
+#include "util.h"
+
+#define CHUNK 65536              /* samples per write: 256 KiB of floats */
+#define MAX_ANNOTATIONS 10000    /* SigMF annotations kept in memory (one per word) */
+#define PROGRESS_MIN_SAMPLES 20000000ull
+
+static void usage(FILE *out)
+{
+    fprintf(out,
+            "usage: ulk modulate UPLOAD -o OUT --rate HZ [--format f32|s16] [--timing TABLE.csv]\n"
+            "       ulk modulate UPLOAD --timing TABLE.csv --rate HZ        (timing table only)\n"
+            "\n"
+            "Turns an upload (from ulk compile) into PSK-on-subcarrier samples, exactly as the\n"
+            "sub-bit profile's section 4 defines them, and/or writes its timing table (one row per\n"
+            "sub-bit: index,start_s,first_sample,word,bit,bit_value,subbit,level,phase_deg).\n"
+            "\n"
+            "  OUT ending .wav          WAV file, float (f32, default) or 16-bit PCM (s16)\n"
+            "  OUT ending .f32 / .s16   raw little-endian samples, with OUT's base + .sigmf-meta\n"
+            "                           (SigMF: rate, type, subcarrier, rates, upload identity, words)\n"
+            "\n"
+            "options:\n"
+            "  -o, --output OUT   sample file to write (atomically: nothing is left on failure)\n"
+            "  --rate HZ          sample rate, read exactly as a decimal (44100, 62500.5); it must be\n"
+            "                     at least 2.5 x (subcarrier + sub-bit rate) and 2.5 x the pilot\n"
+            "  --format f32|s16   sample type (default: from the extension, else f32); s16 is\n"
+            "                     round(32767 s) and is refused when the amplitudes could clip\n"
+            "  --timing TABLE     write the timing table (CSV) too, or alone\n"
+            "  -q, --quiet        no summary, no progress bar\n"
+            "  -h, --help         this text\n"
+            "\nexit: 0 written, 1 refused (rate, clipping, upload), 2 usage or I/O error\n\n%s",
+            ULK_CAUTION);
+}
+
+static int exit_for(int rc)
+{
+    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
+}
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* The upload's identity and link as "ulk:" SigMF fields (object members without braces).
+ * Returns a malloc'd string (free with cJSON_free) or NULL when out of memory. */
+static char *identity_json(const ulk_upload *u, const char *upload_path, uint64_t n_subbits)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON *id = cJSON_AddObjectToObject(o, "ulk:upload");
+    if (!o || !id) { cJSON_Delete(o); return NULL; }
+    const ulk_link *l = &u->link;
+    char buf[64];
+    int ok = 1;
+    ok &= cJSON_AddStringToObject(id, "file", upload_path) != NULL;
+    ok &= cJSON_AddStringToObject(id, "source", u->source ? u->source : "") != NULL;
+    ok &= cJSON_AddStringToObject(id, "dictionary", u->dict_name ? u->dict_name : "") != NULL;
+    ok &= cJSON_AddStringToObject(id, "dictionary_version", u->dict_version ? u->dict_version : "") != NULL;
+    ok &= cJSON_AddStringToObject(id, "dictionary_sha256", u->dict_sha256) != NULL;
+    ok &= cJSON_AddNumberToObject(id, "words", (double)u->n_cmds) != NULL;
+    ok &= cJSON_AddNumberToObject(id, "subbits", (double)n_subbits) != NULL;
+    ulk_ratio_format(l->bit_rate, buf, sizeof buf);
+    ok &= cJSON_AddStringToObject(o, "ulk:bit_rate_exact", buf) != NULL;
+    ulk_ratio_format(l->fsc, buf, sizeof buf);
+    ok &= cJSON_AddStringToObject(o, "ulk:subcarrier_hz_exact", buf) != NULL;
+    ok &= cJSON_AddNumberToObject(o, "ulk:subbits_per_bit", l->n_subbits) != NULL;
+    ok &= cJSON_AddStringToObject(o, "ulk:waveform", ulk_waveform_name(l->waveform)) != NULL;
+    ok &= cJSON_AddStringToObject(o, "ulk:line_code", ulk_line_code_name(l->line_code)) != NULL;
+    ok &= cJSON_AddNumberToObject(o, "ulk:amplitude", l->amplitude) != NULL;
+    if (l->has_pilot) {
+        ulk_ratio_format(l->fp, buf, sizeof buf);
+        ok &= cJSON_AddStringToObject(o, "ulk:pilot_hz_exact", buf) != NULL;
+        ok &= cJSON_AddNumberToObject(o, "ulk:pilot_amplitude", l->pilot_amplitude) != NULL;
+    }
+    char *s = ok ? cJSON_PrintUnformatted(o) : NULL;
+    cJSON_Delete(o);
+    if (!s) return NULL;
+    /* drop the outer braces: the writer takes members */
+    size_t n = strlen(s);
+    if (n >= 2) {
+        memmove(s, s + 1, n - 2);
+        s[n - 2] = 0;
+    }
+    return s;
+}
+
+/* One SigMF annotation per word: its samples, mnemonic, source line and hex. */
+static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
+{
+    const ulk_link *l = &u->link;
+    uint64_t pat = 0; /* patterns before the current point */
+    for (size_t k = 0; k < u->n_cmds && k < MAX_ANNOTATIONS; k++) {
+        pat += u->cmds[k].idles_before;
+        uint64_t s0, s1;
+        if (ulk_mod_first_sample(l, fs, pat * (uint64_t)l->n_subbits, &s0) < 0 ||
+            ulk_mod_first_sample(l, fs, (pat + (uint64_t)l->word_bits) * (uint64_t)l->n_subbits, &s1) < 0)
+            return 0; /* rates too fine: the modulator would have refused already */
+        pat += (uint64_t)l->word_bits;
+        char hex[40], comment[160];
+        ulk_word_hex(&u->cmds[k].word, hex);
+        snprintf(comment, sizeof comment, "word %zu, line %d, %s", k + 1, u->cmds[k].line, hex);
+        int rc = ulk_writer_annotate(w, s0, s1 - s0, u->cmds[k].mnemonic, comment);
+        if (rc < 0) return rc;
+    }
+    return 0;
+}
+
 int cmd_modulate(int argc, char **argv)
 {
-    (void)argc; (void)argv;
-    fprintf(stderr, "ulk modulate: not available in this build\n");
-    return 2;
+    const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *fmt_text = NULL, *timing_path = NULL;
+    int quiet = 0;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
+        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
+        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
+        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
+        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
+        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
+        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
+        else if (!strcmp(a, "--timing") && i + 1 < argc) timing_path = argv[++i];
+        else if (!strncmp(a, "--timing=", 9)) timing_path = a + 9;
+        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
+        else if (a[0] == '-' && a[1]) {
+            fprintf(stderr, "ulk modulate: unknown or incomplete option '%s'\n", a);
+            usage(stderr);
+            return 2;
+        } else if (!up_path) up_path = a;
+        else {
+            fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", up_path, a);
+            return 2;
+        }
+    }
+    if (!up_path || !rate_text || (!out_path && !timing_path)) {
+        fprintf(stderr, "ulk modulate: %s is required\n",
+                !up_path ? "UPLOAD" : !rate_text ? "--rate HZ" : "-o OUT or --timing TABLE");
+        usage(stderr);
+        return 2;
+    }
+    ulk_ratio fs;
+    int prc = ulk_ratio_parse(rate_text, &fs);
+    if (prc < 0 || fs.num <= 0) {
+        fprintf(stderr, "ulk modulate: --rate '%s': expected a positive decimal number of Hz%s\n", rate_text,
+                prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
+        return 2;
+    }
+    ulk_sample_format fmt = ULK_FMT_F32;
+    int fmt_given = 0;
+    if (fmt_text) {
+        if (!strcmp(fmt_text, "f32")) fmt = ULK_FMT_F32;
+        else if (!strcmp(fmt_text, "s16")) fmt = ULK_FMT_S16;
+        else {
+            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
+            return 2;
+        }
+        fmt_given = 1;
+    }
+    ulk_container cont = ULK_CONTAINER_RAW; /* devices and pipes get raw samples */
+    if (out_path) {
+        size_t n = strlen(out_path);
+        const char *ext = n >= 4 ? out_path + n - 4 : "";
+        int ext_fmt = -1;
+        if (!strcasecmp(ext, ".wav")) cont = ULK_CONTAINER_WAV;
+        else if (!strcasecmp(ext, ".f32")) ext_fmt = ULK_FMT_F32;
+        else if (!strcasecmp(ext, ".s16")) ext_fmt = ULK_FMT_S16;
+        if (ext_fmt >= 0) {
+            if (fmt_given && (int)fmt != ext_fmt) {
+                fprintf(stderr, "ulk modulate: %s: the extension says %s but --format %s was given\n", out_path,
+                        ext_fmt == ULK_FMT_F32 ? "f32" : "s16", fmt_text);
+                return 2;
+            }
+            fmt = (ulk_sample_format)ext_fmt;
+        }
+    }
+
+    ulk_diag *diag = ulk_diag_create();
+    if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
+    ulk_upload *up = NULL;
+    ulk_mod *mod = NULL;
+    ulk_writer *w = NULL;
+    float *buf = NULL;
+    char *extra = NULL;
+    ulk_afile tf;
+    int have_tf = 0, code = 0, rc;
+
+    rc = ulk_upload_read(up_path, &up, diag);
+    if (rc < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk modulate: upload %s refused; nothing written\n", up_path);
+        code = exit_for(rc);
+        goto done;
+    }
+    fputs(ULK_CAUTION, stderr);
+
+    /* timing table first into its temporary, so both outputs land together or not at all */
+    if (timing_path) {
+        rc = ulk_afile_open(&tf, timing_path, diag);
+        if (rc == 0) {
+            have_tf = 1;
+            rc = ulk_timing_write_fp(up, fs, tf.fp, timing_path, diag);
+        }
+        if (rc < 0) { code = exit_for(rc); goto fail; }
+    }
+
+    uint64_t n_samples = 0;
+    char rate_norm[64];
+    ulk_ratio_format(fs, rate_norm, sizeof rate_norm);
+    if (out_path) {
+        ulk_mod_config cfg = {.upload = up, .fs = fs, .format = fmt};
+        rc = ulk_mod_create(&cfg, &mod, diag);
+        if (rc < 0) { code = exit_for(rc); goto fail; }
+        n_samples = ulk_mod_n_samples(mod);
+        ulk_ratio rs = ulk_link_subbit_rate(&up->link);
+        char desc[512];
+        snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu words", up_path,
+                 up->source ? up->source : "?", up->dict_name ? up->dict_name : "?",
+                 up->dict_version ? up->dict_version : "?", up->n_cmds);
+        extra = identity_json(up, up_path, ulk_upload_n_subbits(up));
+        buf = ulk_malloc(CHUNK * sizeof(float));
+        if (!extra || !buf) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", out_path); code = 2; goto fail; }
+        ulk_sample_info info = {0};
+        info.fs_hz = ulk_ratio_to_double(fs);
+        info.format = fmt;
+        info.container = cont;
+        info.channels = 1;
+        info.fsc_hz = ulk_ratio_to_double(up->link.fsc);
+        info.bit_rate = ulk_ratio_to_double(up->link.bit_rate);
+        info.subbit_rate = ulk_ratio_to_double(rs);
+        info.description = desc;
+        info.extra_json = extra;
+        info.fs_exact = rate_norm;
+        rc = ulk_writer_open(out_path, &info, &w, diag);
+        if (rc < 0) { code = exit_for(rc); goto fail; }
+        rc = annotate_words(w, up, fs);
+        if (rc < 0) { ulk_fail(diag, rc, "%s: out of memory", out_path); code = 2; goto fail; }
+
+        int show = !quiet && isatty(2) && n_samples >= PROGRESS_MIN_SAMPLES;
+        double t_last = now_s();
+        long got;
+        while ((got = ulk_mod_run(mod, buf, CHUNK)) > 0) {
+            if (ulk_writer_write(w, buf, (size_t)got) < 0) break; /* sticky: the commit says why */
+            if (show) {
+                double t = now_s();
+                if (t - t_last >= 0.25) {
+                    t_last = t;
+                    uint64_t pos = ulk_mod_position(mod);
+                    fprintf(stderr, "\rulk modulate: %3d%%  %.1f of %.1f s of signal", (int)(100.0 * (double)pos / (double)n_samples),
+                            (double)pos / info.fs_hz, (double)n_samples / info.fs_hz);
+                }
+            }
+        }
+        if (show) fprintf(stderr, "\r%60s\r", "");
+        rc = ulk_writer_commit(w, diag);
+        w = NULL;
+        if (rc < 0) { code = exit_for(rc); goto fail; }
+    }
+    if (have_tf) {
+        have_tf = 0;
+        rc = ulk_afile_commit(&tf, diag);
+        if (rc < 0) {
+            /* the samples landed but their table did not: take the samples back too */
+            if (out_path) {
+                remove(out_path);
+                size_t n = strlen(out_path);
+                if (cont == ULK_CONTAINER_RAW && n > 4) {
+                    char *mp = ulk_malloc(n + 12);
+                    if (mp) {
+                        memcpy(mp, out_path, n - 4);
+                        memcpy(mp + n - 4, ".sigmf-meta", 12);
+                        remove(mp);
+                        ulk_free(mp);
+                    }
+                }
+            }
+            code = 2;
+            goto fail;
+        }
+    }
+    if (!quiet) {
+        if (out_path)
+            printf("modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", up_path, out_path,
+                   (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(fs), rate_norm,
+                   fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : "raw + SigMF");
+        if (timing_path)
+            printf("timing table %s: %llu sub-bits at %s Hz\n", timing_path,
+                   (unsigned long long)ulk_upload_n_subbits(up), rate_norm);
+    }
+    goto done;
+
+fail:
+    ulk_diag_print(diag, stderr);
+    fprintf(stderr, "ulk modulate: nothing written\n");
+    ulk_writer_abort(w);
+    if (have_tf) ulk_afile_abort(&tf);
+done:
+    cJSON_free(extra);
+    ulk_free(buf);
+    ulk_mod_destroy(mod);
+    ulk_upload_destroy(up);
+    ulk_diag_destroy(diag);
+    return code;
 }
