@@ -10,6 +10,7 @@
 #include <inttypes.h>
 #include <stdio.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "ulk/mod.h"
 #include "ulk/subbit.h"
@@ -134,6 +135,20 @@ int ulk_timing_write_fp(const ulk_upload *u, ulk_ratio fs, FILE *fp, const char 
 int ulk_timing_write(const ulk_upload *u, ulk_ratio fs, const char *path, ulk_diag *diag)
 {
     if (!path) return ulk_fail(diag, ULK_EINVAL, "timing table: no output path");
+    /* "-", a device or a pipe (e.g. /dev/stdout): written directly, since renaming a
+     * temporary over it would replace the device itself */
+    struct stat st;
+    if (!strcmp(path, "-") || (stat(path, &st) == 0 && !S_ISREG(st.st_mode))) {
+        int is_std = !strcmp(path, "-");
+        if (!is_std && S_ISDIR(st.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a file", path);
+        FILE *fp = is_std ? stdout : fopen(path, "w");
+        if (!fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open for writing: %s", path, strerror(errno));
+        int rc = ulk_timing_write_fp(u, fs, fp, is_std ? "standard output" : path, diag);
+        errno = 0;
+        int bad = is_std ? fflush(fp) != 0 : fclose(fp) != 0;
+        if (rc == 0 && bad) rc = ulk_fail(diag, ULK_EIO, "%s: write failed: %s", path, strerror(errno ? errno : EIO));
+        return rc;
+    }
     ulk_afile f;
     int rc = ulk_afile_open(&f, path, diag);
     if (rc < 0) return rc;

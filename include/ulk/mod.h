@@ -86,7 +86,8 @@ int ulk_mod_first_sample(const ulk_link *l, ulk_ratio fs, uint64_t j, uint64_t *
  * ULK_ELIMIT (rates too fine for exact arithmetic), ULK_ENOMEM or ULK_EIO (write error). */
 int ulk_timing_write_fp(const ulk_upload *u, ulk_ratio fs, FILE *fp, const char *name, ulk_diag *diag);
 /* Writes the table to path atomically (temporary file renamed on success; nothing is left
- * behind on failure). Same returns as ulk_timing_write_fp. */
+ * behind on failure). "-" is standard output; a device or pipe is written directly. Same
+ * returns as ulk_timing_write_fp. */
 int ulk_timing_write(const ulk_upload *u, ulk_ratio fs, const char *path, ulk_diag *diag);
 
 #ifdef __cplusplus

@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
+#include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
 
@@ -209,8 +210,12 @@ int cmd_modulate(int argc, char **argv)
     }
     fputs(ULK_CAUTION, stderr);
 
-    /* timing table first into its temporary, so both outputs land together or not at all */
-    if (timing_path) {
+    /* timing table first into its temporary, so both outputs land together or not at all;
+     * "-", devices and pipes are written directly at the end */
+    struct stat tst;
+    int timing_direct = timing_path && (!strcmp(timing_path, "-") ||
+                                        (stat(timing_path, &tst) == 0 && !S_ISREG(tst.st_mode)));
+    if (timing_path && !timing_direct) {
         rc = ulk_afile_open(&tf, timing_path, diag);
         if (rc == 0) {
             have_tf = 1;
@@ -293,12 +298,20 @@ int cmd_modulate(int argc, char **argv)
             goto fail;
         }
     }
+    if (timing_direct) {
+        rc = ulk_timing_write(up, fs, timing_path, diag);
+        if (rc < 0) {
+            ulk_diag_print(diag, stderr);
+            code = exit_for(rc);
+            goto done;
+        }
+    }
     if (!quiet) {
         if (out_path)
             printf("modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", up_path, out_path,
                    (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(fs), rate_norm,
                    fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : "raw + SigMF");
-        if (timing_path)
+        if (timing_path && strcmp(timing_path, "-"))
             printf("timing table %s: %llu sub-bits at %s Hz\n", timing_path,
                    (unsigned long long)ulk_upload_n_subbits(up), rate_norm);
     }
