@@ -29,6 +29,8 @@ static void usage(FILE *out)
             "\n"
             "options:\n"
             "  --json      one JSON document on stdout: findings and summaries\n"
+            "  --canonical print only the canonical content of each valid dictionary (the text\n"
+            "              whose SHA-256 is its hash; docs/dictionary.md), one per line\n"
             "  -h, --help  this text\n"
             "\n"
             "exit status: 0 clean (warnings allowed), 1 errors found, 2 usage or I/O error\n");
@@ -136,12 +138,16 @@ static cJSON *findings_json(const ulk_diag *dg)
 
 int cmd_validate(int argc, char **argv)
 {
-    static const struct option opts[] = {{"json", no_argument, NULL, 'j'}, {"help", no_argument, NULL, 'h'}, {0, 0, 0, 0}};
-    int json = 0, c;
+    static const struct option opts[] = {{"json", no_argument, NULL, 'j'},
+                                         {"canonical", no_argument, NULL, 'c'},
+                                         {"help", no_argument, NULL, 'h'},
+                                         {0, 0, 0, 0}};
+    int json = 0, canonical = 0, c;
     optind = 1;
     opterr = 0;
     while ((c = getopt_long(argc, argv, "+hj", opts, NULL)) != -1) {
         if (c == 'j') json = 1;
+        else if (c == 'c') canonical = 1;
         else if (c == 'h') { usage(stdout); return 0; }
         else {
             fprintf(stderr, "ulk validate: unknown option '%s'\n", argv[optind - 1]);
@@ -167,7 +173,13 @@ int cmd_validate(int argc, char **argv)
         if (code > worst) worst = code;
         tot_err += ulk_diag_errors(dg);
         tot_warn += ulk_diag_warnings(dg);
-        if (json) {
+        if (canonical) {
+            char *txt = NULL;
+            ulk_diag_print(dg, stderr);
+            if (d && ulk_dict_canonical(d, &txt, NULL) == 0) printf("%s\n", txt);
+            else if (d) { fprintf(stderr, "ulk validate: out of memory\n"); worst = 2; }
+            free(txt);
+        } else if (json) {
             cJSON *o = cJSON_CreateObject();
             cJSON_AddStringToObject(o, "file", argv[i]);
             cJSON_AddStringToObject(o, "status", code == 0 ? "ok" : code == 1 ? "invalid" : "unreadable");
