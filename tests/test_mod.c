@@ -2,9 +2,6 @@
  * and 6: a slow obvious reference (tests/mod_fixture.h), hand-computed values at samples that
  * fall exactly on sub-bit starts and square edges, line codes, sample counts, refusals, and
  * the whole path into sample files (devices that fill up, read-only folders, read-back).
- *
- * Run with arguments `emit key=value ...` it is instead the generator that
- * tests/py/test_mod_vs_numpy.py drives (see emit_main at the end).
  */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -656,63 +653,8 @@ static void test_mod_file_round_trip(void **st)
     free(x);
 }
 
-/* ---- generator for tests/py/test_mod_vs_numpy.py ----
- * test_mod emit rb=1000 n=4 zero=0011 one=1100 idle=0101 fsc=8000 wave=sine|square amp=0.7
- *          [fp=125 ap=0.2] line=nrz-l|nrz-m P=3 G=1 T=2 words=1011...,0110... rate=48000
- *          [format=f32|s16] [out=PATH] [timing=PATH]
- * Builds the upload in C (as the compiler would), then modulates and writes through the
- * library's own writer and timing table. Exit 0, or 1 with the reason on stderr. */
-static int emit_main(int argc, char **argv)
+int main(void)
 {
-    fx_spec s;
-    memset(&s, 0, sizeof s);
-    s.amp = 0.5;
-    s.line = ULK_LINE_NRZL;
-    const char *rate = "48000", *fmt = "f32", *out = NULL, *timing = NULL;
-    static char words_buf[65536];
-    for (int i = 0; i < argc; i++) {
-        char *eq = strchr(argv[i], '=');
-        if (!eq) { fprintf(stderr, "emit: expected key=value, got '%s'\n", argv[i]); return 1; }
-        *eq = 0;
-        const char *k = argv[i], *v = eq + 1;
-        if (!strcmp(k, "rb")) s.rb = v;
-        else if (!strcmp(k, "zero")) s.zero = v;
-        else if (!strcmp(k, "one")) s.one = v;
-        else if (!strcmp(k, "idle")) s.idle = v;
-        else if (!strcmp(k, "fsc")) s.fsc = v;
-        else if (!strcmp(k, "fp")) s.fp = v;
-        else if (!strcmp(k, "amp")) s.amp = atof(v);
-        else if (!strcmp(k, "ap")) s.ap = atof(v);
-        else if (!strcmp(k, "wave")) s.wave = !strcmp(v, "square") ? ULK_WAVE_SQUARE : ULK_WAVE_SINE;
-        else if (!strcmp(k, "line")) s.line = !strcmp(v, "nrz-m") ? ULK_LINE_NRZM : ULK_LINE_NRZL;
-        else if (!strcmp(k, "P")) s.P = atoi(v);
-        else if (!strcmp(k, "G")) s.G = atoi(v);
-        else if (!strcmp(k, "T")) s.T = atoi(v);
-        else if (!strcmp(k, "rate")) rate = v;
-        else if (!strcmp(k, "format")) fmt = v;
-        else if (!strcmp(k, "out")) out = v;
-        else if (!strcmp(k, "timing")) timing = v;
-        else if (!strcmp(k, "words")) {
-            snprintf(words_buf, sizeof words_buf, "%s", v);
-            int nw = 0;
-            for (char *t = strtok(words_buf, ","); t && nw < FX_MAX_WORDS - 1; t = strtok(NULL, ",")) s.words[nw++] = t;
-        } else { fprintf(stderr, "emit: unknown key '%s'\n", k); return 1; }
-    }
-    if (!s.rb || !s.zero || !s.one || !s.idle || !s.fsc || !s.words[0]) { fprintf(stderr, "emit: missing keys\n"); return 1; }
-    fx_upload f;
-    fx_make(&f, &s);
-    ulk_diag *d = ulk_diag_create();
-    int rc = 0;
-    if (out) rc = write_upload(&f.u, rate, out, !strcmp(fmt, "s16") ? ULK_FMT_S16 : ULK_FMT_F32, d);
-    if (rc == 0 && timing) rc = ulk_timing_write(&f.u, fx_ratio(rate), timing, d);
-    ulk_diag_print(d, stderr);
-    ulk_diag_destroy(d);
-    return rc == 0 ? 0 : 1;
-}
-
-int main(int argc, char **argv)
-{
-    if (argc > 1 && !strcmp(argv[1], "emit")) return emit_main(argc - 2, argv + 2);
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_mod_matches_reference),
         cmocka_unit_test(test_mod_exact_boundaries),
