@@ -1,0 +1,111 @@
+/* ulk/demod.h - blind demodulator for the sub-bit profile (subbit-profile.md sections 3-5).
+ *
+ * Why blind: a captured uplink starts anywhere in the file, its sample clock and subcarrier
+ * are off by up to +-500 ppm (one clock drives both, since f_sc = k R_s), its level, DC
+ * offset and polarity are unknown. The demodulator takes samples in chunks of any size,
+ * keeps memory flat (a few blocks of samples, whatever the capture length) and reports
+ * each W-bit word it finds with its start time and a soft margin.
+ *
+ * Method (details in docs/decode.md):
+ *   1. DC blocker; optional pilot removal (tone estimated per block and subtracted).
+ *   2. Block estimation of the clock on a window of 3 blocks: each nominal sub-bit is mixed
+ *      to complex baseband and squared, which strips the BPSK data; a zoomed DFT of the
+ *      squared sequence gives the clock error eps (the line sits at 2 k eps cycles per
+ *      sub-bit) and the subcarrier phase modulo pi; the phase fixes the sub-bit clock to
+ *      within one half-cycle of the subcarrier, and the block's phase is unwrapped against
+ *      the previous block so that polarity and sub-bit count stay continuous.
+ *   3. Matched filter: integrate-and-dump of the received samples times the recovered
+ *      subcarrier template (sine or square) over each half-cycle; the sub-bit boundary (one
+ *      of 2k half-cycle positions) is the one whose sub-bit dumps carry the most energy,
+ *      accumulated over blocks. Soft sub-bit = dump / template energy.
+ *   4. nrz-m: soft differential decoding (-y_j * y_{j-1}) before pattern correlation.
+ *   5. Pattern stage: pattern alignment and polarity from the idle/word structure
+ *      (metric accumulated over the stream, with look-ahead); maximum-likelihood bit
+ *      decisions by correlating each n-sub-bit group with Z, O and I; word start chosen
+ *      by maximum likelihood among nearby candidates where the stream leaves idle.
+ *
+ * Usage:
+ *     ulk_demod *d;
+ *     if (ulk_demod_create(&dict->link, 48000.0, NULL, &d, diag) < 0) ...;
+ *     while ((n = ulk_reader_read(r, buf, 4096)) > 0) ulk_demod_push(d, buf, n);
+ *     ulk_demod_finish(d);
+ *     for (size_t i = 0; i < ulk_demod_n_words(d); i++) use(ulk_demod_word_at(d, i));
+ *     ulk_demod_destroy(d);
+ */
+#ifndef ULK_DEMOD_H
+#define ULK_DEMOD_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include "ulk/error.h"
+#include "ulk/link.h"
+#include "ulk/word.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* One recovered word. */
+typedef struct {
+    ulk_word word;      /* W bits, bits[0] first sent */
+    double start_s;     /* start of the word's first sub-bit, seconds from the first sample */
+    double margin;      /* soft margin: min over the W bits of (c_O - c_Z) / (2 d a), with
+                           c the correlation of the soft group with the pattern and a the
+                           estimated amplitude; 1 = noiseless, 0 = a tie, < 0 impossible */
+    int polarity;       /* +1 as sent, -1 when the capture is inverted (always +1 for nrz-m) */
+} ulk_demod_word;
+
+/* Estimates over the parts of the capture where a signal was found. */
+typedef struct {
+    int signal_found;       /* 1 when at least one block held the signal */
+    double ebn0_db;         /* section 5 definition: P_d f_s / (2 sigma^2 R_b), in dB */
+    double subcarrier_hz;   /* f_sc (1 + eps) measured on the capture's time base */
+    double rate_error_ppm;  /* eps * 1e6: positive = the signal's clock runs fast against
+                               the capture's sample clock */
+    double amplitude;       /* estimated data amplitude A (full scale 1.0) */
+    uint64_t n_subbits;     /* soft sub-bits produced */
+    uint64_t n_truncated;   /* words cut off by the end of the capture or a loss of signal */
+} ulk_demod_estimates;
+
+/* Called for every word, in time order. */
+typedef void (*ulk_demod_word_fn)(const ulk_demod_word *w, void *user);
+/* Called for every soft sub-bit (before nrz-m decoding): start time and value in units of
+ * the estimated amplitude (about +-1). Used for plots. */
+typedef void (*ulk_demod_soft_fn)(double t_s, float soft, void *user);
+
+typedef struct {
+    ulk_demod_word_fn on_word;  /* NULL: words are kept in a list (ulk_demod_word_at) */
+    ulk_demod_soft_fn on_soft;  /* NULL: none */
+    void *user;
+    double max_ppm;             /* clock-error search range; 0 = default 700 */
+    int block_subbits;          /* estimation block in sub-bits; 0 = default 256 */
+} ulk_demod_options;
+
+typedef struct ulk_demod ulk_demod;
+
+/* Creates a demodulator for link cfg at sample rate fs_hz. opt may be NULL (defaults).
+ * Returns 0 with *out set; ULK_EINVAL (message in diag) when the link is not a sub-bit
+ * profile or fs_hz < 2.5 (f_sc + R_s); ULK_ENOMEM. The caller frees with
+ * ulk_demod_destroy(). cfg is copied. */
+int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
+                     ulk_demod **out, ulk_diag *diag);
+/* Feeds n samples (full scale 1.0; any level). x may be NULL when n is 0. Returns 0 or a
+ * sticky negative status (ULK_ENOMEM). Words are reported as soon as they are decided,
+ * which is some blocks after they are pushed. */
+int ulk_demod_push(ulk_demod *d, const float *x, size_t n);
+/* Ends the capture: decides everything still buffered. Returns 0 or the sticky status.
+ * Pushing after finish returns ULK_EINVAL. */
+int ulk_demod_finish(ulk_demod *d);
+/* Current estimates (final after ulk_demod_finish). d and e must not be NULL. */
+void ulk_demod_get_estimates(const ulk_demod *d, ulk_demod_estimates *e);
+/* Words kept so far (only when no on_word callback was given). The pointer is valid until
+ * the next push/finish/destroy. */
+size_t ulk_demod_n_words(const ulk_demod *d);
+const ulk_demod_word *ulk_demod_word_at(const ulk_demod *d, size_t i);
+/* Frees d; NULL does nothing. */
+void ulk_demod_destroy(ulk_demod *d);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

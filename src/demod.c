@@ -1,0 +1,912 @@
+/* src/demod.c - blind demodulator of the sub-bit profile: samples in, words out.
+ *
+ * The stages (see include/ulk/demod.h and docs/decode.md):
+ *   front end   DC blocker, samples kept in a ring of about 3 blocks;
+ *   nominal U   each nominal sub-bit window mixed to complex baseband with the nominal
+ *               subcarrier: U_m = sum x_i exp(-j 2 pi k i / sps);
+ *   block       on a window of 3 blocks: DFT of U_m^2 (data stripped) zoomed on
+ *               |f| <= 2 k eps_max -> clock error and subcarrier phase (mod pi) -> the
+ *               sub-bit clock theta(i) = i rho + beta, known modulo one half-cycle; the
+ *               half-cycle (of 2k) that starts a sub-bit is chosen by sub-bit dump energy;
+ *               soft sub-bits of the block's centre are integrate-and-dump values;
+ *   pattern     alignment, polarity, ML bit decisions and word synchronisation.
+ *
+ * Sub-bit clock: theta(i) counts sub-bits at sample i; sub-bit j covers theta in [j, j+1)
+ * and the subcarrier phase is 2 pi k theta, so one linear model carries both the timing
+ * and the carrier (they are locked by f_sc = k R_s).
+ */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "ulk/demod.h"
+#include "util.h"
+
+#define TAB_BITS 12
+#define TAB_N (1 << TAB_BITS)
+#define MAX_SEGS_NOTE 0
+
+struct ulk_demod {
+    ulk_link l;
+    double fs_hz, rs_hz, fsc_hz, sps; /* sps = samples per nominal sub-bit */
+    int n, k, W;
+    int nrzm, square;
+    float pz[ULK_MAX_SUBBITS], po[ULK_MAX_SUBBITS], pidle[ULK_MAX_SUBBITS]; /* +-1 */
+    int d_zo;                 /* Hamming distance Z-O */
+    ulk_demod_options opt;
+    double eps_max;
+    float tab[TAB_N];         /* sin(2 pi i / TAB_N) */
+    int status;
+    int finished;
+
+    /* front end */
+    double dc, dc_alpha;
+    int dc_init;
+    float *xb;
+    uint64_t xcap;
+    uint64_t n_in;            /* samples pushed */
+
+    /* nominal baseband windows */
+    double mix_ph, mix_inc;   /* cycles */
+    double u_re, u_im;
+    uint64_t u_cnt;           /* windows completed */
+    uint64_t u_end;           /* first sample of window u_cnt + 1 */
+    uint64_t u_samples;       /* samples in the current window */
+    double *ure, *uim;
+    uint64_t ucap;
+
+    /* blocks */
+    int B;
+    double L;                 /* samples per block */
+    uint64_t blk;             /* next block to process */
+    double *sre, *sim;        /* U^2 of the window */
+    double *ph, *ch;          /* half-cycle partials and template energies (+1 for prefix) */
+    double *qh;               /* half-cycle partials with the quadrature template */
+    uint64_t hcap;
+    float *yblk;              /* soft values of one block */
+    double *tblk;
+    uint64_t ycap;
+    double *qacc;             /* 2k */
+    int prev_locked;
+    double prev_rho, prev_beta;
+    double amp;               /* running amplitude estimate of the soft values */
+    double a_ref, nsr_ref;    /* reference amplitude and its noise-to-signal ratio */
+    int run_n;                /* locked blocks in the current run */
+    double run_t0, run_th0, r_w, r_x, r_y, r_xx, r_xy; /* weighted fit of theta(t) */
+    double fit_sum, fit_w;    /* clock error of finished runs, weighted */
+
+    /* pilot */
+    int pilot_on;
+    double fp_hz;
+
+    /* pattern stage */
+    float *pv;
+    float *py;                /* raw soft value of the sub-bit (for the estimates) */
+    double *pt;
+    uint64_t pcap, lag;
+    uint64_t cnt, p;
+    double M[ULK_MAX_SUBBITS][2];
+    int idle_run, after_word;
+    int have_prev;
+    float prev_y;
+    int have_last;
+    double last_t;
+
+    /* estimates */
+    double s2, s4;
+    uint64_t ns;
+    double eps_sum, eps_w;    /* all locked blocks */
+    double eps_isum, eps_iw;  /* interior blocks (both neighbours locked) */
+    double eps_pend, w_pend;  /* the last block, until its successor is known */
+    int pend_interior;
+    int signal_found;
+    uint64_t n_subbits, n_truncated;
+
+    /* words */
+    ulk_demod_word *words;
+    size_t n_words, cap_words;
+};
+
+/* ---------------------------------------------------------------- helpers */
+
+static inline float tsin(const ulk_demod *d, double cycles)
+{
+    /* cycles in [0, 1) */
+    int i = (int)(cycles * TAB_N);
+    return d->tab[i & (TAB_N - 1)];
+}
+
+static inline float tcos(const ulk_demod *d, double cycles)
+{
+    int i = (int)(cycles * TAB_N) + TAB_N / 4;
+    return d->tab[i & (TAB_N - 1)];
+}
+
+static uint64_t blk_start(const ulk_demod *d, uint64_t b) { return (uint64_t)ceil((double)b * d->L); }
+
+static int64_t floordiv(int64_t a, int64_t b)
+{
+    int64_t q = a / b;
+    if ((a % b) && ((a < 0) != (b < 0))) q--;
+    return q;
+}
+
+static void set_status(ulk_demod *d, int st)
+{
+    if (!d->status) d->status = st;
+}
+
+/* ---------------------------------------------------------------- word output */
+
+static void emit_word(ulk_demod *d, const ulk_demod_word *w)
+{
+    if (d->opt.on_word) {
+        d->opt.on_word(w, d->opt.user);
+        return;
+    }
+    if (d->n_words == d->cap_words) {
+        size_t nc = d->cap_words ? d->cap_words * 2 : 16;
+        ulk_demod_word *nw = ulk_realloc(d->words, nc * sizeof *nw);
+        if (!nw) { set_status(d, ULK_ENOMEM); return; }
+        d->words = nw;
+        d->cap_words = nc;
+    }
+    d->words[d->n_words++] = *w;
+}
+
+/* ---------------------------------------------------------------- pattern stage */
+
+/* Soft values are kept raw in the ring (nrz-l: y_j; nrz-m: -y_j y_{j-1}) and scaled at use by
+ * the reference amplitude, taken from the most coherent block so far: a block that holds the
+ * signal only in part under-estimates it, and the noise beside the signal must not be
+ * inflated by that. */
+static double pattern_scale(const ulk_demod *d)
+{
+    double a = d->a_ref > 0 ? d->a_ref : 1.0;
+    return d->nrzm ? 1.0 / (a * a) : 1.0 / a;
+}
+
+static void group_corr(const ulk_demod *d, uint64_t g, double pol, double *ci, double *cz, double *co)
+{
+    double a = 0, z = 0, o = 0;
+    for (int t = 0; t < d->n; t++) {
+        float v = d->pv[(g + (uint64_t)t) % d->pcap];
+        a += d->pidle[t] * v;
+        z += d->pz[t] * v;
+        o += d->po[t] * v;
+    }
+    double sc = pol * pattern_scale(d);
+    *ci = sc * a;
+    *cz = sc * z;
+    *co = sc * o;
+}
+
+/* Log-likelihood (up to a common factor) that group g is a bit rather than idle. */
+static double bitness(const ulk_demod *d, uint64_t g, double pol)
+{
+    double ci, cz, co;
+    group_corr(d, g, pol, &ci, &cz, &co);
+    return (cz > co ? cz : co) - ci;
+}
+
+/* A word starts where the stream leaves idle: the groups just before a candidate start must
+ * look like idle on average (half the noiseless correlation), which keeps noise next to a
+ * signal (inside a block that holds both) from starting words. */
+static int idle_before_ok(const ulk_demod *d, uint64_t s, double pol)
+{
+    const uint64_t n = (uint64_t)d->n;
+    int need = d->l.gap > 0 ? d->l.gap : 4;
+    if (d->l.preamble > 0 && d->l.preamble < need) need = d->l.preamble;
+    if (need > 4) need = 4;
+    if (need < 1) need = 1;
+    if (s < (uint64_t)need * n) return 0;
+    double sum = 0;
+    for (int g = 1; g <= need; g++) {
+        double ci, cz, co;
+        group_corr(d, s - (uint64_t)g * n, pol, &ci, &cz, &co);
+        sum += ci;
+    }
+    return sum >= 0.5 * (double)n * need;
+}
+
+/* The word's sub-bits must carry signal energy: mean (y/a)^2 is 1 + N/S on the signal and
+ * N/S on noise alone; the threshold sits half-way. */
+static int word_energy_ok(const ulk_demod *d, uint64_t s)
+{
+    uint64_t m = (uint64_t)d->W * (uint64_t)d->n;
+    double a = d->a_ref > 0 ? d->a_ref : 1.0, e = 0;
+    for (uint64_t t = 0; t < m; t++) {
+        double y = d->py[(s + t) % d->pcap] / a;
+        e += y * y;
+    }
+    return e / (double)m >= 0.5 + d->nsr_ref;
+}
+
+static void best_alignment(const ulk_demod *d, int *a_out, double *pol_out)
+{
+    int ba = 0, bp = 0;
+    double best = -1e300;
+    for (int a = 0; a < d->n; a++)
+        for (int s = 0; s < (d->nrzm ? 1 : 2); s++)
+            if (d->M[a][s] > best) { best = d->M[a][s]; ba = a; bp = s; }
+    *a_out = ba;
+    *pol_out = bp ? -1.0 : 1.0;
+}
+
+static void decode_word_at(ulk_demod *d, uint64_t s, double pol)
+{
+    ulk_demod_word w;
+    memset(&w, 0, sizeof w);
+    w.word.n_bits = d->W;
+    double margin = 1e300;
+    for (int b = 0; b < d->W; b++) {
+        double ci, cz, co;
+        group_corr(d, s + (uint64_t)b * (uint64_t)d->n, pol, &ci, &cz, &co);
+        w.word.bits[b] = co > cz;
+        double m = fabs(co - cz) / (2.0 * d->d_zo);
+        if (m < margin) margin = m;
+    }
+    w.margin = margin;
+    /* E_b/N_0 from the word's own sub-bits (M2M4 moments): noise next to the signal in the
+     * edge blocks does not enter. */
+    for (uint64_t t = 0; t < (uint64_t)d->W * (uint64_t)d->n; t++) {
+        double y = d->py[(s + t) % d->pcap];
+        d->s2 += y * y;
+        d->s4 += y * y * y * y;
+    }
+    d->ns += (uint64_t)d->W * (uint64_t)d->n;
+    w.start_s = d->pt[s % d->pcap];
+    w.polarity = pol < 0 ? -1 : 1;
+    emit_word(d, &w);
+}
+
+/* Decides groups from p on while enough look-ahead is buffered (flush: all that fit). */
+static void pattern_decide(ulk_demod *d, int flush)
+{
+    const uint64_t n = (uint64_t)d->n, W = (uint64_t)d->W;
+    for (;;) {
+        if (d->cnt < d->p) return;
+        uint64_t avail = d->cnt - d->p;
+        if (!flush && avail < d->lag) return;
+        if (avail < n) return;
+        int a;
+        double pol;
+        best_alignment(d, &a, &pol);
+        if (d->p % n != (uint64_t)a) {
+            /* Realign: skip to the next group start of the better alignment. */
+            d->p += ((uint64_t)a + n - d->p % n) % n;
+            continue;
+        }
+        double ci, cz, co;
+        group_corr(d, d->p, pol, &ci, &cz, &co);
+        if (ci >= cz && ci >= co) {
+            d->idle_run++;
+            d->after_word = 0;
+            d->p += n;
+            continue;
+        }
+        int back_to_back = d->after_word && d->l.gap == 0;
+        if (d->idle_run == 0 && !d->after_word) {
+            d->p += n; /* bits with no idle before them: not a word start we can trust */
+            continue;
+        }
+        /* ML word start: the W groups that look most like bits, among starts p .. p + K n
+         * (groups before the start are idle). With a gap of idle after every word, a start
+         * late by m groups trades m of the word's bits for idle and loses, so K can be W;
+         * back-to-back words (gap 0) only allow the start that continues the chain. */
+        uint64_t K = back_to_back ? 0 : (d->l.gap > 0 ? W : 2);
+        uint64_t best_s = 0;
+        double best_ll = -1e300, ll = 0;
+        int found = 0;
+        for (uint64_t c = 0; c <= K; c++) {
+            uint64_t s = d->p + c * n;
+            if (s + W * n > d->cnt) break;
+            if (c == 0) for (uint64_t b = 0; b < W; b++) ll += bitness(d, s + b * n, pol);
+            else ll += bitness(d, s + (W - 1) * n, pol) - bitness(d, s - n, pol);
+            if (ll > best_ll + 1e-9) { best_ll = ll; best_s = s; found = 1; }
+        }
+        if (!found) {
+            /* A word start with no room left for its W bits: cut off by the end. */
+            if (flush) {
+                double mean_b = 0;
+                uint64_t ng = (d->cnt - d->p) / n;
+                for (uint64_t g = 0; g < ng; g++) mean_b += bitness(d, d->p + g * n, pol);
+                if (ng >= 4 && mean_b > 0 && word_energy_ok(d, d->p - (d->p >= W * n ? 0 : 0)))
+                    d->n_truncated++;
+                d->p = d->cnt;
+            }
+            return;
+        }
+        if (!(best_ll > 0) || best_s != d->p) {
+            /* Either nothing here looks like a word, or it starts later: the group at p is a
+             * noisy idle. Move on one group and decide again from there. */
+            d->idle_run++;
+            d->after_word = 0;
+            d->p += n;
+            continue;
+        }
+        if (!back_to_back && (!idle_before_ok(d, best_s, pol) || !word_energy_ok(d, best_s))) {
+            d->p += n; /* no convincing idle before it, or no signal in it: noise */
+            d->idle_run = 0;
+            d->after_word = 0;
+            continue;
+        }
+        decode_word_at(d, best_s, pol);
+        d->p = best_s + W * n;
+        d->after_word = 1;
+        d->idle_run = 0;
+    }
+}
+
+static void pattern_reset(ulk_demod *d)
+{
+    pattern_decide(d, 1);
+    d->cnt = 0;
+    d->p = 0;
+    memset(d->M, 0, sizeof d->M);
+    d->idle_run = 0;
+    d->after_word = 0;
+    d->have_prev = 0;
+    d->have_last = 0;
+}
+
+/* One soft sub-bit (raw dump value) with its start time. */
+static void pattern_push(ulk_demod *d, float y, double t)
+{
+    if (d->have_last) {
+        double dt = (t - d->last_t) * d->rs_hz;
+        if (dt < 0.5) return;          /* same sub-bit seen from two blocks */
+        if (dt > 1.5) pattern_reset(d); /* a gap: the stream is not continuous */
+    }
+    d->have_last = 1;
+    d->last_t = t;
+    float v = y;
+    if (d->nrzm) {
+        /* level change = sub-bit 1: soft -y_j y_{j-1} */
+        if (!d->have_prev) { d->have_prev = 1; d->prev_y = y; return; }
+        v = -y * d->prev_y;
+        d->prev_y = y;
+    }
+    uint64_t s = d->cnt;
+    d->pv[s % d->pcap] = v;
+    d->py[s % d->pcap] = y;
+    d->pt[s % d->pcap] = t;
+    d->cnt++;
+    if (d->cnt >= (uint64_t)d->n) {
+        uint64_t g = d->cnt - (uint64_t)d->n;
+        int a = (int)(g % (uint64_t)d->n);
+        double ci, cz, co;
+        group_corr(d, g, 1.0, &ci, &cz, &co);
+        double mp = ci > cz ? ci : cz;
+        if (co > mp) mp = co;
+        double mn = -ci > -cz ? -ci : -cz;
+        if (-co > mn) mn = -co;
+        const double lam = 1.0 - 1.0 / 48.0;
+        d->M[a][0] = lam * d->M[a][0] + mp;
+        d->M[a][1] = lam * d->M[a][1] + mn;
+    }
+    pattern_decide(d, 0);
+}
+
+/* ---------------------------------------------------------------- block estimation */
+
+/* |X(f)|^2 and X for the squared window at f cycles per sub-bit. */
+static void dft_at(const ulk_demod *d, int M, double mc, double f, double *xr, double *xi)
+{
+    double wr = cos(2 * M_PI * f), wi = -sin(2 * M_PI * f);
+    double zr = cos(2 * M_PI * f * mc), zi = sin(2 * M_PI * f * mc); /* e^{-j2pi f (0 - mc)} */
+    double ar = 0, ai = 0;
+    for (int m = 0; m < M; m++) {
+        ar += d->sre[m] * zr - d->sim[m] * zi;
+        ai += d->sre[m] * zi + d->sim[m] * zr;
+        double nr = zr * wr - zi * wi;
+        zi = zr * wi + zi * wr;
+        zr = nr;
+    }
+    *xr = ar;
+    *xi = ai;
+}
+
+/* Closes the clock-phase fit of a run of locked blocks (3 blocks at least). */
+static void run_close(ulk_demod *d)
+{
+    if (d->run_n >= 3 && d->r_w > 0) {
+        double mx = d->r_x / d->r_w, my = d->r_y / d->r_w;
+        double sxx = d->r_xx / d->r_w - mx * mx, sxy = d->r_xy / d->r_w - mx * my;
+        if (sxx > 0) {
+            double eps = sxy / sxx * d->sps;
+            double w = sxx * d->r_w; /* precision grows with span^2 and weight */
+            d->fit_sum += eps * w;
+            d->fit_w += w;
+        }
+    }
+    d->run_n = 0;
+    d->r_w = d->r_x = d->r_y = d->r_xx = d->r_xy = 0;
+}
+
+static void block_unlock(ulk_demod *d)
+{
+    run_close(d);
+    d->prev_locked = 0;
+    d->pend_interior = 0;
+    for (int q = 0; q < 2 * d->k; q++) d->qacc[q] = 0;
+    pattern_reset(d);
+}
+
+/* M2M4 amplitude of BPSK soft values: E y^2 = a^2 + s^2, E y^4 = a^4 + 6 a^2 s^2 + 3 s^4. */
+static double m2m4_amp(double m2, double m4)
+{
+    double a4 = (3 * m2 * m2 - m4) / 2;
+    if (a4 <= 0) return 0;
+    double a2 = sqrt(a4);
+    if (a2 > m2) a2 = m2;
+    return sqrt(a2);
+}
+
+static void process_block(ulk_demod *d, uint64_t b, int final)
+{
+    const int k = d->k, B = d->B, twok = 2 * k;
+    uint64_t s_lo = b ? blk_start(d, b - 1) : 0;
+    uint64_t s_hi = blk_start(d, b + 2);
+    if (s_hi > d->n_in) s_hi = d->n_in;
+    uint64_t t_lo = blk_start(d, b), t_hi = final ? d->n_in : blk_start(d, b + 1);
+    if (t_hi > d->n_in) t_hi = d->n_in;
+    if (t_lo >= t_hi || s_hi <= s_lo) return;
+    uint64_t m_lo = b ? (b - 1) * (uint64_t)B : 0;
+    uint64_t m_hi = (b + 2) * (uint64_t)B;
+    if (m_hi > d->u_cnt) m_hi = d->u_cnt;
+    if (m_hi <= m_lo || m_hi - m_lo < 12) { block_unlock(d); return; }
+    int M = (int)(m_hi - m_lo);
+
+    /* 1. squared baseband and its zoomed DFT */
+    double upow = 0;
+    for (int m = 0; m < M; m++) {
+        double r = d->ure[(m_lo + (uint64_t)m) % d->ucap], i = d->uim[(m_lo + (uint64_t)m) % d->ucap];
+        d->sre[m] = r * r - i * i;
+        d->sim[m] = 2 * r * i;
+        upow += r * r + i * i;
+    }
+    if (!(upow > 0)) { block_unlock(d); return; }
+    double mc = (M - 1) / 2.0;
+    double fmax = 2.0 * k * d->eps_max;
+    if (fmax > 0.45) fmax = 0.45;
+    double df = 1.0 / (4.0 * M);
+    int nb = (int)ceil(fmax / df);
+    double bestp = -1, bestf = 0;
+    for (int ib = -nb; ib <= nb; ib++) {
+        double xr, xi;
+        dft_at(d, M, mc, ib * df, &xr, &xi);
+        double p = xr * xr + xi * xi;
+        if (p > bestp) { bestp = p; bestf = ib * df; }
+    }
+    /* golden-section refinement within one grid step */
+    double lo = bestf - df, hi = bestf + df;
+    const double gr = 0.6180339887498949;
+    double x1 = hi - gr * (hi - lo), x2 = lo + gr * (hi - lo), f1, f2, xr, xi;
+    dft_at(d, M, mc, x1, &xr, &xi); f1 = xr * xr + xi * xi;
+    dft_at(d, M, mc, x2, &xr, &xi); f2 = xr * xr + xi * xi;
+    for (int it = 0; it < 24; it++) {
+        if (f1 > f2) { hi = x2; x2 = x1; f2 = f1; x1 = hi - gr * (hi - lo); dft_at(d, M, mc, x1, &xr, &xi); f1 = xr * xr + xi * xi; }
+        else { lo = x1; x1 = x2; f1 = f2; x2 = lo + gr * (hi - lo); dft_at(d, M, mc, x2, &xr, &xi); f2 = xr * xr + xi * xi; }
+    }
+    double fhat = (f1 > f2) ? x1 : x2;
+    if ((f1 > f2 ? f1 : f2) < bestp) fhat = bestf;
+    dft_at(d, M, mc, fhat, &xr, &xi);
+    double coh = sqrt(xr * xr + xi * xi) / upow;
+    /* Noise only: coh^2 is about exponential with mean 2/M per independent bin. */
+    double thr2 = (d->prev_locked ? 14.0 : 22.0) / M;
+    if (coh * coh < thr2) { block_unlock(d); return; }
+
+    /* 2. sub-bit clock theta(i) = i rho + beta, modulo 1/(2k) */
+    double eps = fhat / (2.0 * k);
+    double phic = atan2(xi, xr) / 2.0;
+    double tc = ((double)m_lo + mc + 0.5) * d->sps - 0.5;
+    double rho = (1.0 + eps) / d->sps;
+    double beta = (phic + M_PI / 2) / (2 * M_PI * k) - eps * tc / d->sps;
+    if (d->prev_locked) {
+        double tb = (double)t_lo;
+        double dth = (tb * d->prev_rho + d->prev_beta) - (tb * rho + beta);
+        beta += floor(dth * twok + 0.5) / twok;
+    } else {
+        for (int q = 0; q < twok; q++) d->qacc[q] = 0;
+    }
+
+    /* 3. pilot (estimated on the window with the block's clock, then subtracted) */
+    double hp_r = 0, hp_i = 0, fpn = 0;
+    if (d->pilot_on) {
+        fpn = d->fp_hz * (1.0 + eps) / d->fs_hz;
+        double ph0 = fmod(fpn * (double)s_lo, 1.0);
+        double ph = ph0;
+        for (uint64_t i = s_lo; i < s_hi; i++) {
+            float x = d->xb[i % d->xcap];
+            hp_r += x * tcos(d, ph);
+            hp_i -= x * tsin(d, ph);
+            ph += fpn;
+            if (ph >= 1) ph -= 1;
+        }
+        hp_r *= 2.0 / (double)(s_hi - s_lo);
+        hp_i *= 2.0 / (double)(s_hi - s_lo);
+    }
+
+    /* 4. half-cycle integrate-and-dump with the recovered template */
+    double th0 = (double)s_lo * rho + beta;
+    double kth = k * th0;
+    double cyc0 = floor(kth);
+    double phs = kth - cyc0;
+    int64_t H0 = 2 * (int64_t)cyc0 + (phs >= 0.5);
+    double inc = k * rho;
+    uint64_t nh_need = (uint64_t)((double)(s_hi - s_lo) * 2 * inc) + 8;
+    if (nh_need + 1 > d->hcap) { block_unlock(d); return; } /* cannot happen: sized at create */
+    memset(d->ph, 0, (nh_need + 1) * sizeof *d->ph);
+    memset(d->ch, 0, (nh_need + 1) * sizeof *d->ch);
+    memset(d->qh, 0, (nh_need + 1) * sizeof *d->qh);
+    {
+        int64_t cyc = 0; /* cycles since cyc0 */
+        double pp = d->pilot_on ? fmod(fpn * (double)s_lo, 1.0) : 0;
+        double *P = d->ph + 1, *C = d->ch + 1, *Q = d->qh + 1;
+        int64_t hbase = 2 * (int64_t)cyc0 - H0; /* 0 or -1 */
+        for (uint64_t i = s_lo; i < s_hi; i++) {
+            float x = d->xb[i % d->xcap];
+            if (d->pilot_on) {
+                x -= (float)(hp_r * tcos(d, pp) - hp_i * tsin(d, pp));
+                pp += fpn;
+                if (pp >= 1) pp -= 1;
+            }
+            int half = phs >= 0.5;
+            int64_t rel = hbase + 2 * cyc + half;
+            float c, cq;
+            if (d->square) {
+                c = half ? -1.0f : 1.0f;
+                double pq = phs + 0.25;
+                cq = (pq - floor(pq)) < 0.5 ? 1.0f : -1.0f;
+            } else {
+                c = tsin(d, phs);
+                cq = tcos(d, phs);
+            }
+            if (rel >= 0 && (uint64_t)rel < nh_need) {
+                P[rel] += x * c;
+                C[rel] += c * c;
+                Q[rel] += x * cq;
+            }
+            phs += inc;
+            if (phs >= 1) { phs -= 1; cyc++; }
+        }
+    }
+    /* prefix sums: ph[i] = sum of partials before half-cycle i */
+    uint64_t nh = nh_need;
+    for (uint64_t i = 1; i <= nh; i++) {
+        d->ph[i] += d->ph[i - 1];
+        d->ch[i] += d->ch[i - 1];
+        d->qh[i] += d->qh[i - 1];
+    }
+    int64_t Hlast = (int64_t)floor(twok * ((double)(s_hi - 1) * rho + beta)); /* last (maybe partial) */
+    int64_t nfull = Hlast - H0;  /* half-cycles known complete: [H0, Hlast) */
+    if (nfull > (int64_t)nh) nfull = (int64_t)nh;
+    if (nfull < twok) { block_unlock(d); return; }
+
+    /* 5. which half-cycle starts a sub-bit: energy of the sub-bit dumps, accumulated */
+    double mtot = 0;
+    double *mq = d->qacc + twok; /* scratch: second half of the qacc allocation */
+    for (int q = 0; q < twok; q++) {
+        int64_t s0 = ((q - H0) % twok + twok) % twok;
+        double e = 0;
+        for (int64_t s = s0; s + twok <= nfull; s += twok) {
+            double D = d->ph[s + twok] - d->ph[s];
+            e += D * D;
+        }
+        mq[q] = e;
+        mtot += e;
+    }
+    if (!(mtot > 0)) { block_unlock(d); return; }
+    int qb = 0;
+    for (int q = 0; q < twok; q++) {
+        d->qacc[q] = (d->prev_locked ? 0.6 * d->qacc[q] : 0) + mq[q] * twok / mtot;
+        if (d->qacc[q] > d->qacc[qb]) qb = q;
+    }
+
+    /* 6. soft sub-bits whose start falls in [t_lo, t_hi) */
+    int64_t hA = t_lo ? (int64_t)floor(twok * ((double)(t_lo - 1) * rho + beta)) + 1 : H0;
+    int64_t hB = (int64_t)floor(twok * ((double)(t_hi - 1) * rho + beta));
+    if (hA < H0) hA = H0;
+    int64_t j0 = floordiv(hA - qb + twok - 1, twok);
+    double sgn = (qb & 1) ? -1.0 : 1.0;
+    uint64_t ny = 0;
+    /* Residual subcarrier phase on the block's own sub-bits, from exactly aligned in-phase and
+     * quadrature dumps (no image leakage, no data straddling): it refines the clock phase at
+     * the block centre for the clock-error fit. */
+    double zr = 0, zi = 0, rq = 0, eq = 0;
+    for (int64_t j = j0;; j++) {
+        int64_t Hj = j * twok + qb;
+        if (Hj > hB) break;
+        int64_t idx = Hj - H0;
+        if (idx < 0) continue;
+        if (idx + twok > nfull) break;
+        double e = d->ch[idx + twok] - d->ch[idx];
+        if (!(e > 0)) continue;
+        if (ny >= d->ycap) break;
+        d->yblk[ny] = (float)(sgn * (d->ph[idx + twok] - d->ph[idx]) / e);
+        {
+            double I = d->ph[idx + twok] - d->ph[idx], Qv = d->qh[idx + twok] - d->qh[idx];
+            zr += I * I - Qv * Qv;
+            zi += 2 * I * Qv;
+            rq += I >= 0 ? Qv : -Qv;
+            eq += fabs(I) + fabs(Qv);
+        }
+        d->tblk[ny] = (((double)Hj / twok) - beta) / rho / d->fs_hz;
+        ny++;
+    }
+    if (ny == 0) { block_unlock(d); return; }
+
+    /* 7. amplitude (M2M4 on the block), estimates, hand-over to the pattern stage */
+    double m2 = 0, m4 = 0, m1 = 0;
+    for (uint64_t i = 0; i < ny; i++) {
+        double y = d->yblk[i];
+        m1 += fabs(y);
+        m2 += y * y;
+        m4 += y * y * y * y;
+    }
+    m1 /= (double)ny; m2 /= (double)ny; m4 /= (double)ny;
+    double a = ny >= 16 ? m2m4_amp(m2, m4) : 0;
+    if (!(a > 0)) a = m1;
+    if (!(a > 0)) a = 1e-30;
+    d->amp = d->prev_locked && d->amp > 0 ? 0.7 * d->amp + 0.3 * a : a;
+    /* Reference amplitude: a block that holds the signal only in part under-estimates it
+     * (never over), so keep a slowly decaying maximum. */
+    if (a > 0.9 * d->a_ref || !(d->a_ref > 0)) {
+        d->a_ref = a > 0.9 * d->a_ref ? a : 0.9 * d->a_ref;
+        d->nsr_ref = m2 > a * a ? (m2 - a * a) / (a * a) : 0;
+    } else {
+        d->a_ref *= 0.9;
+    }
+    /* Clock error over the run: linear fit of the unwrapped clock phase at block centres. */
+    {
+        double tm = 0.5 * ((double)t_lo + (double)t_hi);
+        /* Received phase 2 pi k theta_true = template phase + delta: I ~ cos delta, Q ~ sin
+         * delta for a sine; for a square the dumps are triangular in delta, so
+         * delta = (pi/2) Q / (|I| + |Q|) there. */
+        double delta = d->square ? (eq > 0 ? M_PI / 2 * rq / eq : 0) : atan2(zi, zr) / 2;
+        double thm = tm * rho + beta + delta / (2 * M_PI * k);
+        if (!d->run_n) { d->run_t0 = tm; d->run_th0 = thm; }
+        /* Weight: coherence, and the share of the block's own sub-bits that hold signal (a
+         * block at the start or end of a transmission measures its phase on a few sub-bits). */
+        double fsig = d->a_ref > 0 ? (m2 / (d->a_ref * d->a_ref) - d->nsr_ref) : 0;
+        if (fsig < 0) fsig = 0;
+        if (fsig > 1) fsig = 1;
+        double x = tm - d->run_t0, y = thm - d->run_th0 - x / d->sps;
+        double w = coh * coh * coh * coh * fsig * fsig * fsig * fsig * (double)ny;
+        d->run_n++;
+        d->r_w += w; d->r_x += w * x; d->r_y += w * y; d->r_xx += w * x * x; d->r_xy += w * x * y;
+    }
+    /* Blocks that only partly hold the signal have a lower coherence and a poorer clock
+     * estimate: weight by coh^2 (about the block's signal-to-noise share). */
+    d->eps_sum += eps * (double)ny * coh * coh;
+    d->eps_w += (double)ny * coh * coh;
+    if (d->pend_interior) { d->eps_isum += d->eps_pend; d->eps_iw += d->w_pend; }
+    d->pend_interior = d->prev_locked;
+    d->eps_pend = eps * (double)ny * coh * coh;
+    d->w_pend = (double)ny * coh * coh;
+    d->signal_found = 1;
+    d->prev_locked = 1;
+    d->prev_rho = rho;
+    d->prev_beta = beta;
+    for (uint64_t i = 0; i < ny; i++) {
+        float y = (float)(d->yblk[i] / d->amp);
+        if (d->opt.on_soft) d->opt.on_soft(d->tblk[i], y, d->opt.user);
+        d->n_subbits++;
+        pattern_push(d, d->yblk[i], d->tblk[i]);
+    }
+}
+
+/* ---------------------------------------------------------------- public */
+
+int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
+                     ulk_demod **out, ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!cfg) return ulk_fail(diag, ULK_EINVAL, "demodulator: no link profile given");
+    if (cfg->profile != ULK_PROFILE_SUBBIT)
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: the link is not a sub-bit profile");
+    if (cfg->n_subbits < 1 || cfg->n_subbits > ULK_MAX_SUBBITS || cfg->word_bits < 1 ||
+        cfg->word_bits > ULK_MAX_WORD_BITS)
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: link has %d sub-bits per bit and %d-bit words (expected 1..16 and 1..128)",
+                        cfg->n_subbits, cfg->word_bits);
+    double rb = ulk_ratio_to_double(cfg->bit_rate);
+    double rs = rb * cfg->n_subbits;
+    double fsc = ulk_ratio_to_double(cfg->fsc);
+    if (!(rb > 0) || !(fsc > 0))
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: bit rate and subcarrier frequency must be positive");
+    double kd = fsc / rs;
+    int k = (int)floor(kd + 0.5);
+    if (k < 1 || fabs(kd - k) > 1e-9 * kd)
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: subcarrier %g Hz is not a whole multiple of the sub-bit rate %g Hz", fsc, rs);
+    if (!(fs_hz >= 2.5 * (fsc + rs)))
+        return ulk_fail(diag, ULK_EINVAL,
+                        "demodulator: sample rate %g Hz is too low for this link (needs at least 2.5 (f_sc + R_s) = %g Hz)",
+                        fs_hz, 2.5 * (fsc + rs));
+
+    ulk_demod *d = ulk_calloc(1, sizeof *d);
+    if (!d) return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
+    d->l = *cfg;
+    d->fs_hz = fs_hz;
+    d->rs_hz = rs;
+    d->fsc_hz = fsc;
+    d->sps = fs_hz / rs;
+    d->n = cfg->n_subbits;
+    d->k = k;
+    d->W = cfg->word_bits;
+    d->nrzm = cfg->line_code == ULK_LINE_NRZM;
+    d->square = cfg->waveform == ULK_WAVE_SQUARE;
+    if (opt) d->opt = *opt;
+    d->eps_max = (d->opt.max_ppm > 0 ? d->opt.max_ppm : 700.0) * 1e-6;
+    for (int t = 0; t < d->n; t++) {
+        d->pz[t] = cfg->zero[t] ? 1.0f : -1.0f;
+        d->po[t] = cfg->one[t] ? 1.0f : -1.0f;
+        d->pidle[t] = cfg->idle[t] ? 1.0f : -1.0f;
+        d->d_zo += cfg->zero[t] != cfg->one[t];
+    }
+    if (d->d_zo == 0) d->d_zo = 1;
+    for (int i = 0; i < TAB_N; i++) d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
+
+    /* Block size: 256 sub-bits, fewer when a sub-bit is very long so memory stays small. */
+    int B = d->opt.block_subbits > 0 ? d->opt.block_subbits : 256;
+    while (B > 16 && (double)B * d->sps > (double)(1 << 21)) B /= 2;
+    d->B = B;
+    d->L = B * d->sps;
+    d->dc_alpha = 1.0 / (8.0 * d->sps);
+    d->xcap = (uint64_t)ceil(3 * d->L + 6 * d->sps) + 64;
+    d->ucap = 4 * (uint64_t)B + 16;
+    d->hcap = (uint64_t)((3 * d->L + 8 * d->sps) * 2.0 * (fsc / fs_hz) * 1.01) + 64;
+    d->ycap = (uint64_t)(d->L / d->sps * 1.01) + 16;
+    d->mix_inc = fsc / fs_hz;
+    d->u_end = (uint64_t)ceil(d->sps);
+    if (cfg->has_pilot && cfg->pilot_amplitude > 0) {
+        double fp = ulk_ratio_to_double(cfg->fp);
+        /* A pilot on the subcarrier itself (or, for a square subcarrier, on an odd harmonic)
+         * cannot be told from the data by a tone estimate; it is left in (docs/decode.md). */
+        double r = fp / fsc;
+        int on_sc = fabs(r - floor(r + 0.5)) < 1e-9 && ((int)floor(r + 0.5) == 1 || (d->square && ((int)floor(r + 0.5) % 2) == 1));
+        d->pilot_on = !on_sc && fp < fs_hz / 2;
+        d->fp_hz = fp;
+    }
+    d->lag = (uint64_t)d->n * (uint64_t)(2 * d->W + 20);
+    d->pcap = d->lag + 4 * (uint64_t)d->n + 16;
+
+    d->xb = ulk_malloc(d->xcap * sizeof *d->xb);
+    d->ure = ulk_malloc(d->ucap * sizeof *d->ure);
+    d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
+    d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
+    d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
+    d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
+    d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
+    d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
+    d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
+    d->tblk = ulk_malloc(d->ycap * sizeof *d->tblk);
+    d->qacc = ulk_calloc(4 * (size_t)k, sizeof *d->qacc);
+    d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
+    d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
+    d->py = ulk_malloc(d->pcap * sizeof *d->py);
+    if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->ph || !d->ch || !d->qh || !d->yblk ||
+        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py) {
+        ulk_demod_destroy(d);
+        return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
+    }
+    *out = d;
+    return 0;
+}
+
+static void close_u_window(ulk_demod *d)
+{
+    d->ure[d->u_cnt % d->ucap] = d->u_re;
+    d->uim[d->u_cnt % d->ucap] = d->u_im;
+    d->u_cnt++;
+    d->u_re = d->u_im = 0;
+    d->u_samples = 0;
+    d->u_end = (uint64_t)ceil((double)(d->u_cnt + 1) * d->sps);
+}
+
+int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
+{
+    if (!d) return ULK_EINVAL;
+    if (d->status) return d->status;
+    if (d->finished) return ULK_EINVAL;
+    if (n && !x) return ULK_EINVAL;
+    uint64_t ready = blk_start(d, d->blk + 2) + (uint64_t)ceil(2 * d->sps) + 2;
+    for (size_t t = 0; t < n; t++) {
+        double v = x[t];
+        if (!isfinite(v)) v = 0; /* a corrupt sample must not poison every later estimate */
+        if (!d->dc_init) { d->dc = v; d->dc_init = 1; }
+        d->dc += d->dc_alpha * (v - d->dc);
+        float y = (float)(v - d->dc);
+        d->xb[d->n_in % d->xcap] = y;
+        /* nominal baseband: U = sum x exp(-j 2 pi f_sc i / f_s) over nominal sub-bits */
+        d->u_re += y * tcos(d, d->mix_ph);
+        d->u_im -= y * tsin(d, d->mix_ph);
+        d->u_samples++;
+        d->mix_ph += d->mix_inc;
+        if (d->mix_ph >= 1) d->mix_ph -= 1;
+        d->n_in++;
+        if (d->n_in >= d->u_end) close_u_window(d);
+        if (d->n_in >= ready) {
+            process_block(d, d->blk, 0);
+            d->blk++;
+            ready = blk_start(d, d->blk + 2) + (uint64_t)ceil(2 * d->sps) + 2;
+            if (d->status) return d->status;
+        }
+    }
+    return d->status;
+}
+
+int ulk_demod_finish(ulk_demod *d)
+{
+    if (!d) return ULK_EINVAL;
+    if (d->finished) return d->status;
+    d->finished = 1;
+    if (d->u_samples > 0) close_u_window(d);
+    while (!d->status && blk_start(d, d->blk) < d->n_in) {
+        int last = blk_start(d, d->blk + 1) >= d->n_in;
+        process_block(d, d->blk, last);
+        d->blk++;
+    }
+    pattern_reset(d);
+    run_close(d);
+    return d->status;
+}
+
+void ulk_demod_get_estimates(const ulk_demod *d, ulk_demod_estimates *e)
+{
+    memset(e, 0, sizeof *e);
+    e->signal_found = d->signal_found;
+    e->n_subbits = d->n_subbits;
+    e->n_truncated = d->n_truncated;
+    double eps = d->eps_iw > 0 ? d->eps_isum / d->eps_iw : d->eps_w > 0 ? d->eps_sum / d->eps_w : 0;
+    if (d->fit_w > 0) eps = d->fit_sum / d->fit_w;
+    else if (d->run_n >= 3 && d->r_w > 0) {
+        double mx = d->r_x / d->r_w, my = d->r_y / d->r_w;
+        double sxx = d->r_xx / d->r_w - mx * mx, sxy = d->r_xy / d->r_w - mx * my;
+        if (sxx > 0) eps = sxy / sxx * d->sps;
+    }
+    e->rate_error_ppm = eps * 1e6;
+    e->subcarrier_hz = d->fsc_hz * (1 + eps);
+    if (d->ns >= 16) {
+        double m2 = d->s2 / (double)d->ns, m4 = d->s4 / (double)d->ns;
+        double a = m2m4_amp(m2, m4);
+        double s2 = m2 - a * a;
+        e->amplitude = a;
+        /* soft values are dump / template energy: a^2 / (2 var) = E_s/N_0; E_b = n E_s */
+        if (a > 0 && s2 > 0) e->ebn0_db = 10 * log10(d->n * a * a / (2 * s2));
+        else if (a > 0) e->ebn0_db = 99.0;
+        else e->ebn0_db = -99.0;
+    } else {
+        e->ebn0_db = -99.0;
+    }
+}
+
+size_t ulk_demod_n_words(const ulk_demod *d) { return d ? d->n_words : 0; }
+
+const ulk_demod_word *ulk_demod_word_at(const ulk_demod *d, size_t i)
+{
+    return d && i < d->n_words ? &d->words[i] : NULL;
+}
+
+void ulk_demod_destroy(ulk_demod *d)
+{
+    if (!d) return;
+    ulk_free(d->xb);
+    ulk_free(d->ure);
+    ulk_free(d->uim);
+    ulk_free(d->sre);
+    ulk_free(d->sim);
+    ulk_free(d->ph);
+    ulk_free(d->ch);
+    ulk_free(d->qh);
+    ulk_free(d->yblk);
+    ulk_free(d->tblk);
+    ulk_free(d->qacc);
+    ulk_free(d->pv);
+    ulk_free(d->pt);
+    ulk_free(d->py);
+    ulk_free(d->words);
+    ulk_free(d);
+}

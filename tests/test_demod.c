@@ -1,0 +1,196 @@
+/* tests/test_demod.c - blind demodulator: round trips through the analytic generator of
+ * tests/sim_capture.h (written from subbit-profile.md sections 3-5) at several E_b/N_0,
+ * clock errors up to +-500 ppm, sample rates, levels down to -40 dBFS, DC, inversion,
+ * nrz-m, square subcarrier and pilot; hostile input (garbage, silence, truncation).
+ */
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <cmocka.h>
+
+#include "sim_capture.h"
+#include "ulk/demod.h"
+#include "ulk/error.h"
+
+typedef enum { LK_DEMO, LK_NRZM, LK_SQUARE, LK_HIGHK, LK_PILOT, LK_N1, LK_SYMIDLE } link_kind;
+
+/* Links: LK_DEMO mirrors dictionaries/demo-subbit.yaml (1000 bit/s, 00111/11000/01010,
+ * 10 kHz sine, k = 2); the others vary one property each. */
+static void make_link(link_kind kind, ulk_link *l)
+{
+    switch (kind) {
+    case LK_DEMO:
+        sim_link(l, "1000", "00111", "11000", "01010", "10000", ULK_WAVE_SINE, ULK_LINE_NRZL, 32, ULK_CHECK_CRC16);
+        break;
+    case LK_NRZM:
+        sim_link(l, "1000", "00111", "11000", "01010", "10000", ULK_WAVE_SINE, ULK_LINE_NRZM, 32, ULK_CHECK_CRC16);
+        break;
+    case LK_SQUARE:
+        sim_link(l, "500", "0011", "1100", "0110", "6000", ULK_WAVE_SQUARE, ULK_LINE_NRZL, 16, ULK_CHECK_CRC8);
+        break;
+    case LK_HIGHK: /* k = 16: a subcarrier far above the sub-bit rate */
+        sim_link(l, "62.5", "0001", "1110", "0101", "4000", ULK_WAVE_SINE, ULK_LINE_NRZL, 16, ULK_CHECK_PARITY_EVEN);
+        break;
+    case LK_PILOT: /* pilot at R_s / 2, k = 4 */
+        sim_link(l, "1000", "0011", "1100", "0110", "16000", ULK_WAVE_SINE, ULK_LINE_NRZL, 16, ULK_CHECK_CRC8);
+        l->has_pilot = 1;
+        ulk_ratio_parse("2000", &l->fp);
+        l->pilot_amplitude = 0.1;
+        l->amplitude = 0.8;
+        break;
+    case LK_N1: /* one sub-bit per bit: Z = 0, O = 1, I = ... must differ: n = 1 cannot
+                 * have an idle different from Z and O, so n = 2 with a rare pattern */
+        sim_link(l, "2000", "01", "10", "00", "8000", ULK_WAVE_SINE, ULK_LINE_NRZL, 16, ULK_CHECK_CRC16);
+        break;
+    case LK_SYMIDLE: /* idle 0101...: shifted by one it is its own complement */
+        sim_link(l, "1000", "0011", "1100", "0101", "4000", ULK_WAVE_SINE, ULK_LINE_NRZL, 24, ULK_CHECK_CRC16);
+        break;
+    }
+}
+
+typedef struct {
+    const char *name;
+    link_kind link;
+    double fs_hz;
+    double ppm;
+    double level;      /* 0 = 1 */
+    double dc;
+    int invert;
+    double ebn0_db;    /* >= 90: no noise */
+    double delay_s;
+    int n_words;
+    int max_errors;    /* words allowed wrong or missing */
+} rt_case;
+
+static const rt_case rt_cases[] = {
+    {"demo_clean_48k", LK_DEMO, 48000, 0, 0, 0, 0, 99, 0.013, 6, 0},
+    {"demo_clean_192k_p500ppm", LK_DEMO, 192000, 500, 0, 0, 0, 99, 0.2, 6, 0},
+    {"demo_clean_44k1_m500ppm", LK_DEMO, 44100, -500, 0, 0, 0, 99, 0.05, 6, 0},
+    {"demo_12dB_p300ppm", LK_DEMO, 96000, 300, 0, 0, 0, 12, 0.31, 8, 0},
+    {"demo_10dB_m450ppm", LK_DEMO, 48000, -450, 0, 0, 0, 10, 0.077, 8, 0},
+    {"demo_minus40dBFS", LK_DEMO, 48000, 120, 0.01, 0, 0, 14, 0.1, 5, 0},
+    {"demo_dc_offset", LK_DEMO, 48000, -80, 0.5, 0.4, 0, 14, 0.1, 5, 0},
+    {"demo_inverted", LK_DEMO, 48000, 200, 0, 0, 1, 14, 0.02, 5, 0},
+    {"demo_lowest_rate_37k5", LK_DEMO, 37500, 400, 0, 0, 0, 14, 0.03, 5, 0},
+    {"nrzm_clean", LK_NRZM, 48000, 250, 0, 0, 0, 99, 0.03, 5, 0},
+    {"nrzm_inverted_14dB", LK_NRZM, 48000, -300, 0, 0, 1, 14, 0.03, 5, 0},
+    {"square_clean_p500ppm", LK_SQUARE, 44100, 500, 0, 0, 0, 99, 0.1, 5, 0},
+    {"square_12dB_inverted", LK_SQUARE, 32000, -200, 0, 0.1, 1, 12, 0.1, 6, 0},
+    {"highk_12dB_m500ppm", LK_HIGHK, 16000, -500, 0, 0, 0, 12, 0.5, 4, 0},
+    {"pilot_13dB", LK_PILOT, 96000, 300, 0, 0, 0, 13, 0.05, 5, 0},
+    {"twosub_clean", LK_N1, 32000, -100, 0, 0, 0, 99, 0.02, 5, 0},
+    {"symidle_12dB_inverted", LK_SYMIDLE, 22050, 150, 0, 0, 1, 12, 0.04, 5, 0},
+};
+
+typedef struct {
+    ulk_word sent[64];
+    size_t starts[64];
+    int n;
+} sent_set;
+
+static int word_eq(const ulk_word *a, const ulk_word *b)
+{
+    return a->n_bits == b->n_bits && !memcmp(a->bits, b->bits, (size_t)a->n_bits);
+}
+
+/* Runs one capture through the demodulator in odd-sized chunks. */
+static ulk_demod *run_capture(const ulk_link *l, const float *x, size_t ns, double fs)
+{
+    ulk_demod *d = NULL;
+    ulk_diag *dg = ulk_diag_create();
+    int rc = ulk_demod_create(l, fs, NULL, &d, dg);
+    if (rc) ulk_diag_print(dg, stderr);
+    assert_int_equal(rc, 0);
+    ulk_diag_destroy(dg);
+    size_t pos = 0, chunk = 1;
+    while (pos < ns) {
+        size_t m = ns - pos < chunk ? ns - pos : chunk;
+        assert_int_equal(ulk_demod_push(d, x + pos, m), 0);
+        pos += m;
+        chunk = chunk * 3 + 7;
+        if (chunk > 5000) chunk = 333;
+    }
+    assert_int_equal(ulk_demod_finish(d), 0);
+    return d;
+}
+
+static void round_trip(void **state)
+{
+    const rt_case *c = *state;
+    ulk_link l;
+    make_link(c->link, &l);
+    sim_rng r;
+    sim_seed(&r, 1000 + (uint64_t)(c - rt_cases));
+    sent_set s;
+    s.n = c->n_words;
+    sim_random_words(&r, l.word_bits, s.sent, (size_t)s.n);
+    size_t L;
+    uint8_t *sb = sim_subbits(&l, s.sent, (size_t)s.n, &L, s.starts);
+    sim_cfg cfg = {.fs_hz = c->fs_hz, .ppm = c->ppm, .delay_s = c->delay_s, .tail_s = 0.05,
+                   .level = c->level, .dc = c->dc, .invert = c->invert, .no_noise = c->ebn0_db >= 90,
+                   .ebn0_db = c->ebn0_db, .seed = 77 + (uint64_t)(c - rt_cases)};
+    size_t ns;
+    float *x = sim_capture(&l, sb, L, &cfg, &ns);
+    ulk_demod *d = run_capture(&l, x, ns, c->fs_hz);
+
+    double rs = ulk_ratio_to_double(l.bit_rate) * l.n_subbits;
+    if (getenv("DEMOD_DEBUG")) {
+        for (int i = 0; i < s.n; i++)
+            fprintf(stderr, "sent %d at %.6f\n", i, c->delay_s + (double)s.starts[i] / rs / (1 + c->ppm * 1e-6));
+        for (size_t i = 0; i < ulk_demod_n_words(d); i++) {
+            const ulk_demod_word *w = ulk_demod_word_at(d, i);
+            int m = -1;
+            for (int k = 0; k < s.n; k++) if (word_eq(&w->word, &s.sent[k])) m = k;
+            fprintf(stderr, "got at %.6f margin %.3f pol %d match %d\n", w->start_s, w->margin, w->polarity, m);
+        }
+    }
+    int errors = 0;
+    size_t got = ulk_demod_n_words(d);
+    /* Every sent word must come back once, in order, at its time (within half a sub-bit). */
+    size_t gi = 0;
+    for (int i = 0; i < s.n; i++) {
+        double t = c->delay_s + (double)s.starts[i] / rs / (1 + c->ppm * 1e-6);
+        int found = 0;
+        while (gi < got) {
+            const ulk_demod_word *w = ulk_demod_word_at(d, gi);
+            if (w->start_s > t + 0.5 / rs) break;
+            gi++;
+            if (fabs(w->start_s - t) <= 0.5 / rs && word_eq(&w->word, &s.sent[i])) {
+                found = 1;
+                if (c->ebn0_db >= 90) assert_true(w->margin > 0.8);
+                break;
+            }
+        }
+        if (!found) errors++;
+    }
+    if (errors > c->max_errors || got != (size_t)s.n)
+        fprintf(stderr, "%s: %zu words out, %d sent, %d missing or wrong\n", c->name, got, s.n, errors);
+    assert_true(errors <= c->max_errors);
+    assert_true(got >= (size_t)(s.n - c->max_errors) && got <= (size_t)s.n);
+
+    ulk_demod_estimates e;
+    ulk_demod_get_estimates(d, &e);
+    if (getenv("DEMOD_DEBUG")) fprintf(stderr, "%s: ppm %.2f (true %.1f) ebn0 %.2f (true %.1f) fsc %.3f\n", c->name, e.rate_error_ppm, c->ppm, e.ebn0_db, c->ebn0_db, e.subcarrier_hz);
+    assert_true(e.signal_found);
+    assert_true(fabs(e.rate_error_ppm - c->ppm) < 10);
+    assert_true(fabs(e.subcarrier_hz - ulk_ratio_to_double(l.fsc) * (1 + c->ppm * 1e-6)) < 0.5);
+    if (c->ebn0_db < 90) assert_true(fabs(e.ebn0_db - c->ebn0_db) < 1.0);
+    ulk_demod_destroy(d);
+    free(x);
+    free(sb);
+}
+
+int main(void)
+{
+    struct CMUnitTest t[sizeof rt_cases / sizeof rt_cases[0]];
+    size_t nt = 0;
+    for (size_t i = 0; i < sizeof rt_cases / sizeof rt_cases[0]; i++) {
+        struct CMUnitTest u = {rt_cases[i].name, round_trip, NULL, NULL, (void *)&rt_cases[i]};
+        t[nt++] = u;
+    }
+    return _cmocka_run_group_tests("demod", t, nt, NULL, NULL);
+}
