@@ -521,20 +521,21 @@ int ulk_cltu_decode(const ulk_ccsds_tc *tc, const uint8_t *bits, size_t n_bits, 
     size_t n_oct = (size_t)res->n_codeblocks * ULK_CB_INFO_OCTETS;
     if (tc->randomize) ulk_tc_randomize(data, n_oct);
 
-    if (stop == STOP_END_OF_BITS) {
-        res->end_bit = start;
-        set_reason(res, ULK_CLTU_TRUNCATED, "bits end inside the CLTU after %d codeblocks",
-                   res->n_codeblocks);
-        return ULK_OK;
-    }
-    res->end_bit = stop_end;
-
     /* 3. The frame: its length field says how much of the decoded data is frame. */
     size_t L = 0;
     if (n_oct >= ULK_TCF_HDR_OCTETS) {
         ulk_tcf_hdr_unpack(data, &res->frame_hdr);
         L = (size_t)res->frame_hdr.frame_length + 1;
     }
+    /* Bits that end after a complete frame are no loss: a tail damaged into a valid
+     * codeblock lets the decoder run on to the end of a recording. */
+    if (stop == STOP_END_OF_BITS && (n_oct < ULK_TCF_HDR_OCTETS || L > n_oct)) {
+        res->end_bit = start;
+        set_reason(res, ULK_CLTU_TRUNCATED, "bits end inside the CLTU after %d codeblocks",
+                   res->n_codeblocks);
+        return ULK_OK;
+    }
+    res->end_bit = stop_end < n_bits ? stop_end : n_bits;
     if ((n_oct < ULK_TCF_HDR_OCTETS || L > n_oct) && stop == STOP_REJECT && !res->tail_exact) {
         set_reason(res, ULK_CLTU_CODEBLOCK, "codeblock %d uncorrectable (%s)", k,
                    tc->correction == ULK_BCH_SEC ? "sec" : "ted");

@@ -958,10 +958,18 @@ static void test_cltu_rejections(void **state)
     assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
     assert_int_equal(g_res.n_codeblocks, (int)(n_cltu - 10) / 8 + 1);
     assert_int_equal(g_res.end_bit, at + 8 * n_cltu);
+    /* ... also when the bits end right after it (end of a recording). */
+    ulk_cltu_decode(&tc, g_st.bits, at + 8 * n_cltu, 0, &g_res);
+    assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
+    assert_int_equal(g_res.end_bit, at + 8 * n_cltu);
 
-    /* Truncated: the bits end inside the CLTU; end_bit says where to retry. */
+    /* The bits end where the tail begins: the frame is complete, so no loss. */
     at = make_stream(&tc, 20, cltu, &n_cltu);
     ulk_cltu_decode(&tc, g_st.bits, at + 8 * n_cltu - 64, 0, &g_res);
+    assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
+    assert_int_equal(g_res.end_bit, at + 8 * n_cltu - 64);
+    /* Truncated: the bits end inside the frame's last codeblock; end_bit says where to retry. */
+    ulk_cltu_decode(&tc, g_st.bits, at + 8 * n_cltu - 65, 0, &g_res);
     assert_int_equal(g_res.verdict, ULK_CLTU_TRUNCATED);
     assert_int_equal(g_res.end_bit, at);
     ulk_cltu_decode(&tc, g_st.bits, at + 100, 0, &g_res);
@@ -1048,9 +1056,9 @@ static void test_cltu_bad_frames(void **state)
     assert_int_equal(g_res.end_bit, 80);
 }
 
-static void test_cltu_stream_of_three(void **state)
+static void stream_of_three(int damage_tail)
 {
-    (void)state;
+    size_t first_tail = 0;
     ulk_ccsds_tc tc;
     ulk_ccsds_tc_default(&tc);
     tc.service = ULK_TC_SEQUENCE_CONTROLLED;
@@ -1065,10 +1073,18 @@ static void test_cltu_stream_of_three(void **state)
         size_t n;
         assert_int_equal(ulk_ccsds_command_cltu(&tc, &c, cltu, sizeof cltu, &n), ULK_OK);
         st_octets(&g_st, cltu, n);
+        if (i == 0) first_tail = g_st.n - 64;
         st_idle(&g_st, 8);
     }
     st_idle(&g_st, 64);
     size_t from = 0;
+    if (damage_tail) {
+        /* The first CLTU's tail turned into a valid codeblock: the decoder runs on into the
+         * one idle octet and the next CLTU, but must still find that CLTU's start. */
+        uint8_t info[7] = {9, 8, 7, 6, 5, 4, 3}, cb[8];
+        ulk_bch_encode(info, cb);
+        ulk_octets_to_bits(cb, 8, g_st.bits + first_tail);
+    }
     for (int i = 0; i < 3; i++) {
         ulk_cltu_decode(&tc, g_st.bits, g_st.n, from, &g_res);
         assert_int_equal(g_res.verdict, ULK_CLTU_ACCEPTED);
@@ -1076,12 +1092,28 @@ static void test_cltu_stream_of_three(void **state)
         assert_int_equal(g_res.frame_hdr.seq_num, (uint8_t)(254 + i));
         assert_int_equal(g_res.data[0], 0x10 + i);
         assert_int_equal(g_res.data[1], 0x90 | (i & 1) << 3);
+        if (damage_tail && i == 0) { /* it did run on past the frame's 3 codeblocks */
+            assert_int_equal(g_res.tail_exact, 0);
+            assert_true(g_res.n_codeblocks >= 4);
+        }
         assert_true(g_res.end_bit > from);
         from = g_res.end_bit;
     }
     ulk_cltu_decode(&tc, g_st.bits, g_st.n, from, &g_res);
     assert_int_equal(g_res.verdict, ULK_CLTU_NO_START);
     assert_int_equal(g_res.end_bit, g_st.n - 15);
+}
+
+static void test_cltu_stream_of_three(void **state)
+{
+    (void)state;
+    stream_of_three(0);
+}
+
+static void test_cltu_stream_damaged_tail_keeps_next(void **state)
+{
+    (void)state;
+    stream_of_three(1);
 }
 
 /* Random and half-valid bit streams: the decoder ends, never reads out of bounds, and
@@ -1178,6 +1210,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_cltu_rejections),
         cmocka_unit_test(test_cltu_bad_frames),
         cmocka_unit_test(test_cltu_stream_of_three),
+        cmocka_unit_test(test_cltu_stream_damaged_tail_keeps_next),
         cmocka_unit_test(test_cltu_decode_hostile_streams),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -287,7 +287,7 @@ int ulk_ccsds_command_cltu(const ulk_ccsds_tc *tc, const ulk_tc_command *c, uint
 typedef enum {
     ULK_CLTU_ACCEPTED = 0,
     ULK_CLTU_NO_START,      /* no start sequence within start_errors in the bits searched */
-    ULK_CLTU_TRUNCATED,     /* the bits end before the CLTU does */
+    ULK_CLTU_TRUNCATED,     /* the bits end before the frame is complete */
     ULK_CLTU_CODEBLOCK,     /* codeblock k rejected before the frame was complete */
     ULK_CLTU_FRAME_HEADER,  /* frame too short, version, length, control flag, SCID, VCID, segment */
     ULK_CLTU_FECF,          /* FECF mismatch */
@@ -319,12 +319,14 @@ typedef struct {
  * one is rejected (the tail sequence is always rejected), derandomizes, parses the frame
  * (whose length field says how many decoded octets are frame and how many are fill),
  * checks the FECF and parses the packet. One frame per CLTU: a rejected codeblock ends the
- * CLTU without loss once the frame is complete (a damaged tail), and codeblocks decoded
- * past the frame's are ignored.
+ * CLTU without loss once the frame is complete (a damaged tail), codeblocks decoded past
+ * the frame's are ignored, and so is the end of the bits once the frame is complete (a
+ * tail damaged into a valid codeblock makes the decoder run on).
  * end_bit: after NO_START, the first start position not yet searched (n_bits - 15 when
  * the bits ran out); after TRUNCATED, start_bit (retry there with more bits); after
  * ACCEPTED, the end of the tail sequence's place; after CODEBLOCK, the end of the rejected
- * codeblock; otherwise the end of the codeblock that ended the CLTU. So a whole stream is
+ * codeblock; otherwise the end of the codeblock that ended the CLTU; never beyond n_bits.
+ * So a whole stream is
  * decoded by calling again with from_bit = end_bit until NO_START or TRUNCATED.
  * Returns 0 with the verdict in res, or ULK_EINVAL for a NULL pointer or an invalid tc. */
 int ulk_cltu_decode(const ulk_ccsds_tc *tc, const uint8_t *bits, size_t n_bits, size_t from_bit,
