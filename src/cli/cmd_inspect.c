@@ -147,6 +147,19 @@ static int print_json(const ulk_upload *u)
     cJSON *lj = cJSON_AddObjectToObject(root, "link");
     cJSON_AddItemToObject(lj, "bit_rate", ratio_json(l->bit_rate));
     cJSON_AddNumberToObject(lj, "n_subbits", l->n_subbits);
+    {
+        char pz[17], po[17], pi[17];
+        for (int i = 0; i < l->n_subbits; i++) {
+            pz[i] = (char)('0' + l->zero[i]);
+            po[i] = (char)('0' + l->one[i]);
+            pi[i] = (char)('0' + l->idle[i]);
+        }
+        pz[l->n_subbits] = po[l->n_subbits] = pi[l->n_subbits] = 0;
+        cJSON *sb = cJSON_AddObjectToObject(lj, "subbits");
+        cJSON_AddStringToObject(sb, "zero", pz);
+        cJSON_AddStringToObject(sb, "one", po);
+        cJSON_AddStringToObject(sb, "idle", pi);
+    }
     cJSON_AddNumberToObject(lj, "word_bits", l->word_bits);
     cJSON_AddStringToObject(lj, "check", ulk_check_name(l->check));
     cJSON *words = cJSON_AddArrayToObject(root, "words");
