@@ -1587,6 +1587,8 @@ int ulk_dict_load_mem(const char *name, const char *text, size_t len, int is_jso
         if (rc) ulk_fail(diag, rc, "%s: out of memory", name);
     }
     if (rc) {
+        /* Every failure leaves a message (an allocation failure may have had none yet). */
+        if (ulk_diag_errors(diag) == errs_before) ulk_fail(diag, rc, "%s: %s", name, ulk_status_str(rc));
         ulk_dict_destroy(c.d);
         return rc;
     }

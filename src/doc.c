@@ -719,6 +719,7 @@ int ulk_doc_parse(const char *file, const char *text, size_t len, int is_json, u
     size_t before = ulk_diag_errors(diag);
     int rc = is_json ? parse_json(doc, text, len, diag) : parse_yaml(doc, text, len, diag);
     if (rc == 0 && ulk_diag_errors(diag) > before) rc = ULK_EPARSE; /* duplicate keys */
+    if (rc == ULK_ENOMEM && ulk_diag_errors(diag) == before) ulk_fail(diag, rc, "%s: out of memory", file);
     if (rc) {
         ulk_doc_destroy(doc);
         return rc;

@@ -191,6 +191,8 @@ int cmd_validate(int argc, char **argv)
             cJSON_AddItemToArray(arr, o);
         } else {
             ulk_diag_print(dg, code == 2 ? stderr : stdout);
+            if (rc && ulk_diag_count(dg) == 0) /* the message itself could not be stored */
+                fprintf(stderr, "ulk validate: %s: %s\n", argv[i], ulk_status_str(rc));
             if (d) print_summary(d, stdout);
             else if (code == 1)
                 printf("%s: refused: %zu error%s, %zu warning%s\n", argv[i], ulk_diag_errors(dg),
