@@ -67,15 +67,14 @@ const char *ulk_arg_type_name(ulk_arg_type t)
     }
 }
 
-/* 10^k for a scale that is exactly a power of ten as a double (the SI prefixes), else 99. */
+/* 10^k for a scale that is exactly a power of ten as a double (the SI prefixes), else 99.
+ * The literals are correctly rounded by the compiler, as strtod would round them. */
 static int scale_pow10(double scale)
 {
+    static const double p10[49] = {1e-24, 1e-23, 1e-22, 1e-21, 1e-20, 1e-19, 1e-18, 1e-17, 1e-16, 1e-15, 1e-14, 1e-13, 1e-12, 1e-11, 1e-10, 1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22, 1e23, 1e24};
     if (scale == 1.0) return 0;
-    for (int k = -24; k <= 24; k++) {
-        char b[16];
-        snprintf(b, sizeof b, "1e%d", k);
-        if (strtod(b, NULL) == scale) return k;
-    }
+    for (int k = 0; k < 49; k++)
+        if (p10[k] == scale) return k - 24;
     return 99;
 }
 
