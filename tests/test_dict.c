@@ -209,6 +209,9 @@ static const row rows[] = {
      "range [0, 256] cannot be represented: 8-bit unsigned raw gives [0, 255]", 25, 55, 0},
     {"polynomial_not_monotonic", 0, "{scale: 0.5, offset: -10}", "{polynomial: [0, 1, -0.01]}", 0, 0, E,
      "calibration is not monotonic over the raw range [0, 255]: it turns near raw 51", 25, 61, 0},
+    {"polynomial_wide_field_turns", 0, "bits: 8, calibration: {scale: 0.5, offset: -10}, range: [-10, 100]",
+     "bits: 20, calibration: {polynomial: [0, 1, -0.000002]}", 0, 0, E,
+     "calibration is not monotonic over the raw range [0, 1048575]: it turns near raw 2500", 25, 62, 0},
     {"calibration_scale_zero", 0, "{scale: 0.5, offset: -10}", "{scale: 0, offset: -10}", 0, 0, E,
      "calibration scale is 0", 25, 61, 0},
     {"calibration_on_enum", 0, "type: enum, bits: 2,", "type: enum, bits: 2, calibration: {scale: 2},", 0, 0, E,
@@ -448,6 +451,23 @@ static void test_json_big_integers_exact(void **st)
     assert_int_equal(ulk_diag_errors(dg), 2);
     assert_non_null(strstr(ulk_diag_get(dg, 0)->msg, "9007199254740993 of 'A' does not fit in 53 bits"));
     ulk_diag_destroy(dg);
+    free(t);
+}
+
+/* A polynomial over a field too wide to try every raw (2^20 raws: sampled) that is
+ * monotonic loads, and its default converts through it. */
+static void test_wide_polynomial_loads(void **st)
+{
+    (void)st;
+    char *t = replace(strdup(BASE_YAML), "bits: 8, calibration: {scale: 0.5, offset: -10}, range: [-10, 100]",
+                      "bits: 20, calibration: {polynomial: [0, 1, 0.000002]}, range: [0, 100]");
+    ulk_dict *d = load_ok("wide.yaml", t, 0);
+    const ulk_arg *a = &ulk_dict_find_command(d, "NAV_GO")->args[0];
+    assert_int_equal(a->cal, ULK_CAL_POLY);
+    assert_int_equal(a->n_poly, 3);
+    /* f(20) = 20.0008 is nearest to 20 (f(19) = 19.000722). */
+    assert_int_equal(a->default_raw, 20);
+    ulk_dict_destroy(d);
     free(t);
 }
 
@@ -710,6 +730,7 @@ int main(void)
         cmocka_unit_test(test_hash_tracks_content),
         cmocka_unit_test(test_canonical_form),
         cmocka_unit_test(test_json_big_integers_exact),
+        cmocka_unit_test(test_wide_polynomial_loads),
         cmocka_unit_test(test_all_findings_listed),
         cmocka_unit_test(test_missing_file),
         cmocka_unit_test(test_empty_files),
