@@ -190,6 +190,11 @@ int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, s
 
 void ulk_fmt_double(double v, char *buf, size_t len)
 {
+    /* Whole numbers of ordinary size print as integers (-10, not -1e+01). */
+    if (v == (double)(long long)v && v > -1e15 && v < 1e15) {
+        snprintf(buf, len, "%lld", (long long)v);
+        return;
+    }
     for (int p = 1; p <= 17; p++) {
         snprintf(buf, len, "%.*g", p, v);
         if (strtod(buf, NULL) == v) return;
