@@ -2,6 +2,7 @@
 #include "util.h"
 
 #include <errno.h>
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -191,7 +192,7 @@ int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, s
 void ulk_fmt_double(double v, char *buf, size_t len)
 {
     /* Whole numbers of ordinary size print as integers (-10, not -1e+01). */
-    if (v == (double)(long long)v && v > -1e15 && v < 1e15) {
+    if (v == (double)(long long)v && v > -1e15 && v < 1e15 && !(v == 0 && signbit(v))) {
         snprintf(buf, len, "%lld", (long long)v);
         return;
     }
