@@ -86,6 +86,7 @@ struct ulk_demod {
     double *pt;
     uint64_t pcap, lag;
     uint64_t cnt, p;
+    uint64_t min_start;       /* earliest sub-bit a next word may start at */
     double M[ULK_MAX_SUBBITS][2];
     int idle_run, after_word;
     int have_prev;
@@ -292,15 +293,22 @@ static void pattern_decide(ulk_demod *d, int flush)
             continue;
         }
         /* ML word start: the W groups that look most like bits, among starts p .. p + K n
-         * (groups before the start are idle). With a gap of idle after every word, a start
-         * late by m groups trades m of the word's bits for idle and loses, so K can be W;
-         * back-to-back words (gap 0) only allow the start that continues the chain. */
-        uint64_t K = back_to_back ? 0 : (d->l.gap > 0 ? W : 2);
-        uint64_t best_s = 0;
+         * (groups before the start are idle). A start late by m <= G groups trades m of the
+         * word's bits for the idle after it and loses; later ones would reach into the next
+         * word, whose bits may look more bit-like (Z and O need not be equally far from I),
+         * so K = G. */
+        /* The first bit may also have been taken for idle (a bit pattern can be close to I),
+         * so starts up to two groups back are candidates too, never inside the last word
+         * nor in the idle the profile puts after it. */
+        uint64_t K = back_to_back ? 0 : (uint64_t)d->l.gap < W ? (uint64_t)d->l.gap : W;
+        uint64_t back = back_to_back ? 0 : 2;
+        while (back > 0 && (d->p < back * n || d->p - back * n < d->min_start || d->cnt - (d->p - back * n) > d->pcap))
+            back--;
+        uint64_t best_s = 0, first = d->p - back * n;
         double best_ll = -1e300, ll = 0;
         int found = 0;
-        for (uint64_t c = 0; c <= K; c++) {
-            uint64_t s = d->p + c * n;
+        for (uint64_t c = 0; c <= K + back; c++) {
+            uint64_t s = first + c * n;
             if (s + W * n > d->cnt) break;
             if (c == 0) for (uint64_t b = 0; b < W; b++) ll += bitness(d, s + b * n, pol);
             else ll += bitness(d, s + (W - 1) * n, pol) - bitness(d, s - n, pol);
@@ -318,7 +326,7 @@ static void pattern_decide(ulk_demod *d, int flush)
             }
             return;
         }
-        if (!(best_ll > 0) || best_s != d->p) {
+        if (!(best_ll > 0) || best_s > d->p) {
             /* Either nothing here looks like a word, or it starts later: the group at p is a
              * noisy idle. Move on one group and decide again from there. */
             d->idle_run++;
@@ -334,6 +342,7 @@ static void pattern_decide(ulk_demod *d, int flush)
         }
         decode_word_at(d, best_s, pol);
         d->p = best_s + W * n;
+        d->min_start = d->p + (d->l.gap > 0 ? n : 0);
         d->after_word = 1;
         d->idle_run = 0;
     }
@@ -344,6 +353,7 @@ static void pattern_reset(ulk_demod *d)
     pattern_decide(d, 1);
     d->cnt = 0;
     d->p = 0;
+    d->min_start = 0;
     memset(d->M, 0, sizeof d->M);
     d->idle_run = 0;
     d->after_word = 0;
