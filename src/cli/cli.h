@@ -10,6 +10,7 @@ int cmd_modulate(int argc, char **argv);
 int cmd_decode(int argc, char **argv);
 int cmd_verify(int argc, char **argv);
 int cmd_impair(int argc, char **argv);
+int cmd_plan(int argc, char **argv);
 
 /* The caution printed by every command that produces a radiatable waveform. */
 extern const char ULK_CAUTION[];

@@ -21,6 +21,7 @@ static const struct {
     {"impair", cmd_impair, "add noise, clock error, delay and other impairments to a capture"},
     {"decode", cmd_decode, "recover words and commands from a capture, blind"},
     {"verify", cmd_verify, "check that a capture holds exactly an upload's commands"},
+    {"plan", cmd_plan, "composite carrier: power per channel, margins, index solver"},
 };
 
 static void usage(FILE *out)

@@ -1,0 +1,256 @@
+/* ulk/carrier.h - the composite carrier: data, voice and ranging channels phase-modulating
+ * one carrier, its power division, the modulation-index planner and the baseband generator
+ * (shared/design/composite-carrier.md).
+ *
+ * Why: with several channels on one phase-modulated carrier, every index taken from one
+ * channel's power is paid for by the residual carrier and the others, and the cross-products
+ * (intermodulation) are lost to all. The planner says, per mode, where the power goes and how
+ * much margin each need keeps, and can choose the indices that leave the smallest margin
+ * largest. The generator makes the complex baseband x(t) = exp(j(sum_k m_k c_k(t) + 2 pi f_o t))
+ * with tone and chip phases computed exactly on the sample index, as the modulator does.
+ *
+ * Usage:
+ *     ulk_carrier *c;
+ *     if (ulk_carrier_load("dictionaries/demo-carrier.yaml", &c, diag) == 0) {
+ *         const ulk_carrier_mode *mo = &c->modes[0];
+ *         ulk_carrier_plan p;
+ *         ulk_carrier_plan_indices(c, mo, mo->m_rad, c->pt_n0_dbhz, &p); // p.carrier = P_c/P_T
+ *         ulk_carrier_destroy(c);
+ *     }
+ */
+#ifndef ULK_CARRIER_H
+#define ULK_CARRIER_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "ulk/error.h"
+#include "ulk/link.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* ---- Bessel functions of the first kind ----
+ * Power series in long double for |x| <= 18 (the terms stay below ~1e6 there, so the
+ * cancellation costs at most ~1e-13 absolute with an 80-bit long double), Hankel's
+ * asymptotic expansion beyond (truncated at its smallest term, error below ~1e-15 for
+ * |x| > 18). Over 0..10 rad the error is below 1e-14 absolute, i.e. 1e-12 relative except
+ * within ~1e-2 of a zero, where no absolute method can promise a relative figure.
+ * Where long double is double (some ARM ABIs) the series loses up to ~3 more digits at the
+ * top of its range. Even/odd symmetry is applied for x < 0; NaN gives NaN. */
+double ulk_bessel_j0(double x);
+double ulk_bessel_j1(double x);
+
+/* ---- power division (composite-carrier.md section 2) ---- */
+
+typedef enum { ULK_CHAN_SINE = 0, ULK_CHAN_BINARY = 1 } ulk_chan_kind;
+
+/* Fractions of one channel of peak phase deviation m_rad: sinusoidal f0 = J0(m)^2,
+ * f1 = 2 J1(m)^2 (both first harmonic lines); binary f0 = cos(m)^2, f1 = sin(m)^2.
+ * f0 or f1 may be NULL. */
+void ulk_chan_fractions(ulk_chan_kind kind, double m_rad, double *f0, double *f1);
+
+#define ULK_SPLIT_MAX 8
+/* One phase term of the composite: its kind and index. */
+typedef struct {
+    ulk_chan_kind kind;
+    double m_rad;
+} ulk_chan_term;
+
+/* Power division among n terms (n <= ULK_SPLIT_MAX):
+ *   carrier  = prod_k f0(m_k)                (P_c / P_T)
+ *   useful_k = f1(m_k) * prod_{i!=k} f0(m_i) (P_k / P_T)
+ *   intermod = 1 - carrier - sum_k useful_k
+ * Returns 0, or ULK_EINVAL when terms or out is NULL (with n > 0) or n is out of range. */
+typedef struct {
+    double carrier;
+    double useful[ULK_SPLIT_MAX];
+    double intermod;
+} ulk_power_split;
+int ulk_power_split_compute(const ulk_chan_term *terms, int n, ulk_power_split *out);
+
+/* ---- ranging code: maximal-length sequence ---- */
+
+#define ULK_MLS_MAX_DEGREE 24
+
+/* Generates the binary sequence of the feedback polynomial with the n_exp exponents exps
+ * (e.g. {10, 3, 0} for x^10 + x^3 + 1, any order, no repeats): r = the largest exponent,
+ * a_0 .. a_{r-1} = 1 and a_{k+r} = XOR of a_{k+e} over the exponents e < r.
+ * On success *period is the sequence's period (the number of steps until the register of r
+ * values first returns to all ones) and, when bits is not NULL, *bits receives the period's
+ * values a_0 .. a_{period-1} (one 0/1 byte each; free with free()).
+ * The polynomial is primitive exactly when *period == 2^r - 1.
+ * Returns 0; ULK_EINVAL (NULL, no exponents, a negative or repeated exponent, r < 2);
+ * ULK_ELIMIT (r > ULK_MLS_MAX_DEGREE); ULK_EPARSE when the register never returns to all
+ * ones (no constant term: the recurrence is singular; *period is then 0); ULK_ENOMEM. */
+int ulk_mls_generate(const int *exps, int n_exp, uint64_t *period, uint8_t **bits);
+/* Chip value of a sequence value: c = 1 - 2a (a = 0 -> +1, a = 1 -> -1). */
+static inline int ulk_mls_chip(uint8_t a) { return 1 - 2 * (int)(a & 1); }
+
+/* ---- the carrier section model ---- */
+
+typedef enum { ULK_CH_DATA = 0, ULK_CH_VOICE = 1, ULK_CH_RANGING = 2, ULK_CH_N = 3 } ulk_channel;
+const char *ulk_channel_name(ulk_channel ch); /* "data", "voice", "ranging" */
+
+typedef struct {
+    char *name;
+    int on[ULK_CH_N];          /* channel present in the mode */
+    double m_rad[ULK_CH_N];    /* peak phase deviation of each channel that is on */
+    ulk_loc loc;               /* where the mode was written */
+} ulk_carrier_mode;
+
+typedef struct {
+    /* data: the link profile's signal divided by A + A_p (absent when no link was given) */
+    int has_data;
+    ulk_profile profile;
+    ulk_waveform data_wave;    /* sine: sinusoidal channel; square: binary */
+    ulk_ratio data_fsc_hz;     /* f_sc */
+    ulk_ratio data_rb;         /* R_b, information bit rate used for E_b/N_0 */
+    ulk_ratio data_symbol_rate;/* R_s (sub-bit or channel bit rate): main lobe half-width */
+    double data_amp;           /* A */
+    int has_pilot;
+    ulk_ratio pilot_hz;        /* f_p */
+    double pilot_amp;          /* A_p */
+    int has_data_need;
+    double data_ebn0_req_db;   /* required E_b/N_0 */
+
+    /* voice: FM subcarrier */
+    int has_voice;
+    ulk_ratio voice_fv_hz;     /* f_v */
+    ulk_ratio voice_dev_hz;    /* Delta, peak deviation */
+    ulk_ratio voice_tone_hz;   /* f_a of the test tone */
+    int has_voice_need;
+    double voice_pn0_req_dbhz;
+
+    /* ranging */
+    int has_ranging;
+    ulk_ratio chip_rate;       /* chips/s */
+    int poly_exps[ULK_MLS_MAX_DEGREE + 1];
+    int n_poly_exps;
+    int degree;                /* r */
+    uint64_t period;           /* N = 2^r - 1 (checked) */
+    int has_ranging_need;
+    double ranging_pn0_req_dbhz;
+
+    /* carrier loop */
+    int has_loop;
+    double loop_bw_hz;         /* B_L */
+    double loop_snr_req_db;
+
+    /* budget */
+    int has_pt_n0;
+    double pt_n0_dbhz;         /* P_T / N_0 */
+
+    ulk_ratio offset_hz;       /* f_o (may be negative; 0 when absent) */
+
+    double bound_lo[ULK_CH_N], bound_hi[ULK_CH_N]; /* solver bounds, rad */
+
+    ulk_carrier_mode *modes;
+    int n_modes;
+
+    char *file;                /* where it was loaded from (NULL when built in code) */
+} ulk_carrier;
+
+/* Loads a carrier section from a YAML or JSON file (".json" => JSON). The file is either a
+ * whole dictionary with a `carrier:` key (its link, checked by the dictionary loader, gives
+ * the data channel) or a standalone file whose only top-level key is `carrier:`; in the
+ * latter, `carrier.dictionary: FILE` (relative to the file's folder) names the dictionary
+ * whose link gives the data channel. Keys and rules: docs/carrier.md.
+ * Returns 0 with *out (free with ulk_carrier_destroy); ULK_EIO (unreadable), ULK_EPARSE
+ * (any error; every finding in diag with file:line:col and tree path), ULK_ENOMEM,
+ * ULK_EINVAL (NULL argument). Warnings (overlapping main lobes) do not fail the load. */
+int ulk_carrier_load(const char *path, ulk_carrier **out, ulk_diag *diag);
+/* Frees c; NULL does nothing. */
+void ulk_carrier_destroy(ulk_carrier *c);
+/* Index of the mode called name, -1 when absent (or c/name NULL). */
+int ulk_carrier_find_mode(const ulk_carrier *c, const char *name);
+
+/* ---- the planner ---- */
+
+/* Lines of a plan: the residual carrier, the useful power of data, voice and ranging, the
+ * pilot (when the link has one and data is on), intermodulation. */
+typedef struct {
+    double carrier;                /* P_c / P_T */
+    double useful[ULK_CH_N];       /* P_k / P_T, 0 for a channel that is off */
+    double pilot;                  /* P_pilot / P_T (0 without pilot) */
+    double intermod;               /* 1 - everything above */
+    /* margins in dB (available minus required), valid when has_margin[] is set */
+    int has_loop_margin;
+    double loop_snr_db, loop_margin_db;
+    int has_margin[ULK_CH_N];
+    double avail[ULK_CH_N];        /* data: E_b/N_0 dB; voice/ranging: P/N_0 dB-Hz */
+    double margin_db[ULK_CH_N];
+    int n_margins;
+    double min_margin_db;          /* smallest margin (-HUGE_VAL when a channel gets no power) */
+} ulk_carrier_plan;
+
+/* Plans indices m_rad[] (used for the channels that are on in mode) with total P_T/N_0
+ * pt_n0_dbhz (NaN: no margins). Returns 0, ULK_EINVAL (NULL argument, a channel on in the
+ * mode that the carrier does not define). */
+int ulk_carrier_plan_indices(const ulk_carrier *c, const ulk_carrier_mode *mode, const double *m_rad,
+                             double pt_n0_dbhz, ulk_carrier_plan *out);
+
+/* Finds, on the 0.01 rad lattice within each channel's bounds, the indices of the channels
+ * on in mode that maximise the smallest margin (exhaustive search over the lattice with the
+ * per-channel fractions tabulated, so it is deterministic and exact to the lattice; ties go
+ * to the first point in lexicographic order data, voice, ranging). m_rad_out gets the
+ * indices (channels that are off keep 0). Returns 0; ULK_EINVAL (NULL, NaN budget, no need
+ * defined for the mode so there is nothing to maximise); ULK_ELIMIT (more than 4e7 lattice
+ * points); ULK_ENOMEM. */
+int ulk_carrier_solve(const ulk_carrier *c, const ulk_carrier_mode *mode, double pt_n0_dbhz,
+                      double *m_rad_out, ulk_carrier_plan *plan_out);
+
+/* ---- the complex-baseband generator ---- */
+
+/* Data source: writes up to n samples of the data channel's signal in [-1, 1] (the
+ * modulator's s_i divided by A + A_p, or any test signal) into out and returns how many
+ * (0: the data has ended, the generator stops; negative: an error, passed on). */
+typedef long (*ulk_cgen_data_fn)(void *user, float *out, size_t n);
+
+typedef struct {
+    const ulk_carrier *carrier;    /* must outlive the generator */
+    const ulk_carrier_mode *mode;  /* indices and channels; must outlive the generator */
+    ulk_ratio fs;                  /* sample rate, Hz, exact */
+    ulk_cgen_data_fn data_fn;      /* required when data is on in the mode */
+    void *data_user;
+    uint64_t n_samples;            /* stop after this many samples (0: when the data ends,
+                                    * or never when data is off) */
+} ulk_cgen_config;
+
+typedef struct ulk_cgen ulk_cgen;
+
+/* Creates a generator. Returns 0 and *out; ULK_EINVAL (NULL, rate not > 0, data on without
+ * data_fn, a channel on that the carrier does not define); ULK_ELIMIT (rates whose exact
+ * ratios do not fit 62-bit integers, ranging degree above the limit); ULK_ENOMEM. Reason in
+ * diag (may be NULL). Free with ulk_cgen_destroy(). */
+int ulk_cgen_create(const ulk_cgen_config *cfg, ulk_cgen **out, ulk_diag *diag);
+/* Writes up to max complex samples as interleaved I, Q floats (2*max floats) into iq, in
+ * order from sample 0. Returns the count written, 0 at the end, or a negative status
+ * (ULK_EINVAL for NULL arguments, or the data source's error). */
+long ulk_cgen_run(ulk_cgen *g, float *iq, size_t max);
+/* Frees g; NULL does nothing. */
+void ulk_cgen_destroy(ulk_cgen *g);
+
+/* Voice test-tone phase at t: 2 pi frac(f_v t) + (Delta/f_a)(1 - cos(2 pi frac(f_a t))),
+ * with f_v t and f_a t taken exactly for t = i / fs (i the sample index). Returns 0 or
+ * ULK_ELIMIT (ratios too fine). For tests and the generator. */
+int ulk_voice_tone_phase(ulk_ratio fv, ulk_ratio dev, ulk_ratio fa, ulk_ratio fs, uint64_t i,
+                         double *phase_rad);
+
+/* ---- plot ---- */
+
+/* Draws two panels to path (SVG or PNG by its extension ".svg"/".png"): the modelled line
+ * powers of every mode in dB (carrier, data, voice, ranging, pilot, intermodulation), and the
+ * margins (or, when pt_n0_dbhz is NaN, the line powers) of mode number mode_index as the
+ * index of channel sweep_ch (-1: the mode's first channel) runs over its bounds, the other
+ * indices as written. Written atomically. Returns 0; ULK_EINVAL (NULL, bad index, a channel
+ * not on in the mode, an extension other than .svg/.png); ULK_EFORMAT (built without
+ * cairo); ULK_EIO; ULK_ENOMEM. Reason in diag. */
+int ulk_carrier_plot(const ulk_carrier *c, int mode_index, int sweep_ch, double pt_n0_dbhz, const char *path,
+                     ulk_diag *diag);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,263 @@
+/* src/cli/cmd_plan.c - `ulk plan DICT`: the composite carrier's power division per mode
+ * (residual carrier, each channel's useful power, intermodulation), margins against the link
+ * budget, and on request the indices that maximise the smallest margin; optional plot.
+ *
+ * Exit: 0 success, 1 findings in the carrier section (or nothing to solve), 2 usage or I/O.
+ */
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <cjson/cJSON.h>
+
+#include "cli.h"
+#include "ulk/carrier.h"
+#include "ulk/error.h"
+#include "util.h"
+
+static void usage(FILE *out)
+{
+    fprintf(out,
+            "usage: ulk plan DICT [--mode NAME] [--solve] [--pt-n0 DBHZ] [--json]\n"
+            "                [--plot FILE.svg|FILE.png [--sweep data|voice|ranging]]\n"
+            "\n"
+            "Reads the carrier section of DICT (a dictionary with a 'carrier:' key, or a standalone\n"
+            "carrier file; docs/carrier.md) and prints, for every mode, how the total power P_T\n"
+            "divides: residual carrier P_c/P_T, each channel's useful power P_k/P_T (and the pilot's),\n"
+            "and the intermodulation, in dB and percent. With a budget (carrier.budget.pt_n0_dbhz or\n"
+            "--pt-n0) it prints each need's margin: carrier loop SNR, data E_b/N_0, voice and ranging\n"
+            "P/N_0, available minus required.\n"
+            "\n"
+            "options:\n"
+            "  --mode NAME    only this mode\n"
+            "  --solve        also find the indices (0.01 rad lattice within each channel's bounds)\n"
+            "                 that maximise the smallest margin\n"
+            "  --pt-n0 DBHZ   total received power to noise density, dB-Hz (overrides the file)\n"
+            "  --json         one JSON document on stdout instead of the table\n"
+            "  --plot FILE    line powers of every mode and margins against one index of the\n"
+            "                 first (or --mode) mode, as SVG or PNG by the file's extension\n"
+            "  --sweep CH     the channel whose index the margin plot varies (default: the\n"
+            "                 mode's first channel)\n"
+            "  -h, --help     this text\n"
+            "\n"
+            "exit status: 0 success, 1 errors in the carrier section or nothing to solve,\n"
+            "2 usage or I/O error\n");
+}
+
+static double pct(double f) { return 100.0 * f; }
+static double dbv(double f) { return f > 0 ? 10.0 * log10(f) : -HUGE_VAL; }
+
+static void print_line(const char *name, double f, const char *avail_what, int has_margin, double avail,
+                       const char *unit, double need, double margin)
+{
+    char fdb[32];
+    if (f > 0) snprintf(fdb, sizeof fdb, "%8.2f dB", dbv(f));
+    else snprintf(fdb, sizeof fdb, "%8s dB", "-inf");
+    printf("    %-16s %s %8.3f %%", name, fdb, pct(f));
+    if (has_margin) {
+        char m[32];
+        if (isfinite(margin)) snprintf(m, sizeof m, "%+.2f dB", margin);
+        else snprintf(m, sizeof m, "-inf dB");
+        printf("   %s %.2f %s, needs %.2f %s, margin %s", avail_what, avail, unit, need, unit, m);
+    }
+    printf("\n");
+}
+
+static void print_plan(const ulk_carrier *c, const ulk_carrier_mode *mo, const double *m, const ulk_carrier_plan *p,
+                       const char *title)
+{
+    printf("  %s:", title);
+    for (int ch = 0; ch < ULK_CH_N; ch++)
+        if (mo->on[ch]) printf(" %s %.3f rad", ulk_channel_name((ulk_channel)ch), m[ch]);
+    printf("\n");
+    print_line("carrier", p->carrier, "loop SNR", p->has_loop_margin, p->loop_snr_db, "dB", c->loop_snr_req_db,
+               p->loop_margin_db);
+    for (int ch = 0; ch < ULK_CH_N; ch++) {
+        if (!mo->on[ch]) continue;
+        double need = ch == ULK_CH_DATA ? c->data_ebn0_req_db
+                    : ch == ULK_CH_VOICE ? c->voice_pn0_req_dbhz : c->ranging_pn0_req_dbhz;
+        print_line(ulk_channel_name((ulk_channel)ch), p->useful[ch], ch == ULK_CH_DATA ? "E_b/N_0" : "P/N_0",
+                   p->has_margin[ch], p->avail[ch], ch == ULK_CH_DATA ? "dB" : "dB-Hz", need, p->margin_db[ch]);
+    }
+    if (mo->on[ULK_CH_DATA] && c->has_pilot) print_line("pilot", p->pilot, "", 0, 0, "", 0, 0);
+    print_line("intermodulation", p->intermod, "", 0, 0, "", 0, 0);
+    if (p->n_margins) {
+        if (isfinite(p->min_margin_db)) printf("    smallest margin  %+.2f dB\n", p->min_margin_db);
+        else printf("    smallest margin  -inf dB (a need gets no power)\n");
+    }
+}
+
+/* JSON numbers must be finite: -inf (no power) is written as null. */
+static void jnum(cJSON *o, const char *k, double v)
+{
+    if (isfinite(v)) cJSON_AddNumberToObject(o, k, v);
+    else cJSON_AddNullToObject(o, k);
+}
+
+static cJSON *json_plan(const ulk_carrier *c, const ulk_carrier_mode *mo, const double *m, const ulk_carrier_plan *p)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON *ix = cJSON_AddObjectToObject(o, "indices_rad");
+    cJSON *fr = cJSON_AddObjectToObject(o, "fractions");
+    jnum(fr, "carrier", p->carrier);
+    for (int ch = 0; ch < ULK_CH_N; ch++)
+        if (mo->on[ch]) {
+            jnum(ix, ulk_channel_name((ulk_channel)ch), m[ch]);
+            jnum(fr, ulk_channel_name((ulk_channel)ch), p->useful[ch]);
+        }
+    if (mo->on[ULK_CH_DATA] && c->has_pilot) jnum(fr, "pilot", p->pilot);
+    jnum(fr, "intermodulation", p->intermod);
+    if (p->n_margins) {
+        cJSON *mg = cJSON_AddObjectToObject(o, "margins_db");
+        if (p->has_loop_margin) jnum(mg, "carrier_loop", p->loop_margin_db);
+        for (int ch = 0; ch < ULK_CH_N; ch++)
+            if (p->has_margin[ch]) jnum(mg, ulk_channel_name((ulk_channel)ch), p->margin_db[ch]);
+        jnum(o, "min_margin_db", p->min_margin_db);
+    }
+    return o;
+}
+
+int cmd_plan(int argc, char **argv)
+{
+    static const struct option opts[] = {
+        {"mode", required_argument, 0, 'm'}, {"solve", no_argument, 0, 's'},
+        {"pt-n0", required_argument, 0, 'p'}, {"json", no_argument, 0, 'j'},
+        {"plot", required_argument, 0, 'o'},  {"sweep", required_argument, 0, 'w'},
+        {"help", no_argument, 0, 'h'},        {0, 0, 0, 0}};
+    const char *mode_name = NULL, *plot = NULL, *sweep = NULL;
+    int solve = 0, json = 0, has_pt = 0;
+    double pt = NAN;
+    int o;
+    optind = 1;
+    while ((o = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
+        switch (o) {
+        case 'm': mode_name = optarg; break;
+        case 's': solve = 1; break;
+        case 'j': json = 1; break;
+        case 'o': plot = optarg; break;
+        case 'w': sweep = optarg; break;
+        case 'p': {
+            char *end;
+            pt = strtod(optarg, &end);
+            if (*end || !isfinite(pt)) {
+                fprintf(stderr, "ulk plan: --pt-n0 wants a number of dB-Hz, not '%s'\n", optarg);
+                return 2;
+            }
+            has_pt = 1;
+            break;
+        }
+        case 'h': usage(stdout); return 0;
+        default: usage(stderr); return 2;
+        }
+    }
+    if (optind != argc - 1) {
+        fprintf(stderr, "ulk plan: give exactly one dictionary or carrier file\n");
+        usage(stderr);
+        return 2;
+    }
+    int sweep_ch = -1;
+    if (sweep) {
+        for (int ch = 0; ch < ULK_CH_N; ch++)
+            if (!strcmp(sweep, ulk_channel_name((ulk_channel)ch))) sweep_ch = ch;
+        if (sweep_ch < 0) {
+            fprintf(stderr, "ulk plan: --sweep wants data, voice or ranging, not '%s'\n", sweep);
+            return 2;
+        }
+    }
+    ulk_diag *diag = ulk_diag_create();
+    if (!diag) { fprintf(stderr, "ulk plan: out of memory\n"); return 2; }
+    ulk_carrier *c = NULL;
+    int rc = ulk_carrier_load(argv[optind], &c, diag);
+    ulk_diag_print(diag, stderr);
+    if (rc) {
+        ulk_diag_destroy(diag);
+        return rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_ELIMIT ? 2 : 1;
+    }
+    ulk_diag_clear(diag);
+    if (!has_pt && c->has_pt_n0) pt = c->pt_n0_dbhz;
+    int first = 0, last = c->n_modes - 1;
+    if (mode_name) {
+        int i = ulk_carrier_find_mode(c, mode_name);
+        if (i < 0) {
+            const char *names[64];
+            size_t nn = 0;
+            for (int k = 0; k < c->n_modes && nn < 64; k++) names[nn++] = c->modes[k].name;
+            const char *sug = ulk_suggest(mode_name, names, nn);
+            fprintf(stderr, "ulk plan: %s has no mode '%s'%s%s%s\n", argv[optind], mode_name,
+                    sug ? " (did you mean '" : "", sug ? sug : "", sug ? "'?)" : "");
+            ulk_carrier_destroy(c);
+            ulk_diag_destroy(diag);
+            return 1;
+        }
+        first = last = i;
+    }
+    if (solve && isnan(pt)) {
+        fprintf(stderr, "ulk plan: --solve needs a budget: carrier.budget.pt_n0_dbhz in the file or --pt-n0\n");
+        ulk_carrier_destroy(c);
+        ulk_diag_destroy(diag);
+        return 1;
+    }
+    int status = 0;
+    cJSON *root = NULL, *jmodes = NULL;
+    if (json) {
+        root = cJSON_CreateObject();
+        cJSON_AddStringToObject(root, "file", argv[optind]);
+        jnum(root, "pt_n0_dbhz", pt);
+        jmodes = cJSON_AddArrayToObject(root, "modes");
+    } else {
+        printf("%s: %d mode%s", argv[optind], c->n_modes, c->n_modes == 1 ? "" : "s");
+        if (!isnan(pt)) printf(", P_T/N_0 %.2f dB-Hz", pt);
+        printf("\n");
+    }
+    for (int i = first; i <= last; i++) {
+        const ulk_carrier_mode *mo = &c->modes[i];
+        ulk_carrier_plan p;
+        ulk_carrier_plan_indices(c, mo, mo->m_rad, pt, &p);
+        cJSON *jm = NULL;
+        if (json) {
+            jm = json_plan(c, mo, mo->m_rad, &p);
+            cJSON_AddItemToObject(jm, "name", cJSON_CreateString(mo->name));
+            cJSON_AddItemToArray(jmodes, jm);
+        } else {
+            printf("\nmode %s (%s:%d:%d)\n", mo->name, mo->loc.file ? mo->loc.file : "", mo->loc.line, mo->loc.col);
+            print_plan(c, mo, mo->m_rad, &p, "as written");
+        }
+        if (solve) {
+            double ms[ULK_CH_N];
+            ulk_carrier_plan ps;
+            int src = ulk_carrier_solve(c, mo, pt, ms, &ps);
+            if (src == ULK_EINVAL) {
+                fprintf(stderr, "ulk plan: mode %s: no need (loop, or a required E_b/N_0 or P/N_0 of a channel "
+                                "that is on) to maximise\n", mo->name);
+                status = 1;
+            } else if (src) {
+                fprintf(stderr, "ulk plan: mode %s: %s\n", mo->name, ulk_status_str(src));
+                status = src == ULK_ENOMEM ? 2 : 1;
+            } else if (json) {
+                cJSON_AddItemToObject(jm, "solved", json_plan(c, mo, ms, &ps));
+            } else {
+                print_plan(c, mo, ms, &ps, "solved (smallest margin maximised, 0.01 rad)");
+            }
+        }
+    }
+    if (json) {
+        char *s = cJSON_Print(root);
+        if (s) { fputs(s, stdout); fputc('\n', stdout); free(s); }
+        else status = 2;
+        cJSON_Delete(root);
+    }
+    if (plot && status == 0) {
+        int pr = ulk_carrier_plot(c, first, sweep_ch, pt, plot, diag);
+        if (pr) {
+            ulk_diag_print(diag, stderr);
+            status = 2;
+        } else if (!json) {
+            printf("\nplot written to %s\n", plot);
+        }
+    }
+    ulk_carrier_destroy(c);
+    ulk_diag_destroy(diag);
+    return status;
+}
