@@ -92,7 +92,7 @@ int main(int argc, char **argv)
     uint64_t want = 100000000;
     int with_ref = 1;
     for (int i = 1; i < argc; i++) {
-        if (!strcmp(argv[i], "--samples") && i + 1 < argc) want = strtoull(argv[++i], NULL, 10);
+        if (!strcmp(argv[i], "--samples") && i + 1 < argc) want = (uint64_t)strtod(argv[++i], NULL);
         else if (!strcmp(argv[i], "--no-ref")) with_ref = 0;
         else { fprintf(stderr, "usage: bench_mod [--samples N] [--no-ref]\n"); return 2; }
     }
