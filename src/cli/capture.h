@@ -1,0 +1,46 @@
+/* src/cli/capture.h - shared by `ulk decode` and `ulk verify`: options that name a capture,
+ * and one pass of the blind demodulator plus word interpretation over it. */
+#ifndef ULK_CLI_CAPTURE_H
+#define ULK_CLI_CAPTURE_H
+
+#include <stddef.h>
+
+#include "ulk/decode.h"
+#include "ulk/demod.h"
+#include "ulk/dict.h"
+#include "ulk/error.h"
+
+typedef struct {
+    double rate_hz;        /* --rate (raw captures); 0 = from the file or its .sigmf-meta */
+    int format;            /* ULK_FMT_F32 / ULK_FMT_S16, -1 = not given */
+    int channel;           /* --channel, -1 = refuse multi-channel files */
+    ulk_demod_soft_fn on_soft; /* optional, for plots */
+    void (*on_word)(double t_s, double margin, int accepted, void *user);
+    void *user;
+} cli_capture_opts;
+
+typedef struct {
+    ulk_demod_word dw;
+    ulk_decoded dec;
+} cli_word;
+
+typedef struct {
+    cli_word *w;
+    size_t n;
+    ulk_demod_estimates est;
+    double fs_hz;
+    double duration_s;
+} cli_capture;
+
+/* Parses one capture option at argv[*i] ("--rate", "--format", "--channel"); returns 1 when it
+ * was one (and advances *i past its value), 0 when not, -1 on a bad value (message printed,
+ * prefixed with cmd). */
+int cli_capture_opt(const char *cmd, int argc, char **argv, int *i, cli_capture_opts *o);
+
+/* Reads path, demodulates with dict's link and interprets every word. Returns 0, or a
+ * negative status with the reason in diag. The caller frees out with cli_capture_free. */
+int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture_opts *o, cli_capture *out,
+                       ulk_diag *diag);
+void cli_capture_free(cli_capture *c);
+
+#endif
