@@ -1,9 +1,291 @@
-/* src/cli/cmd_verify.c - placeholder until the stage lands; refuses with exit 2. */
+/* src/cli/cmd_verify.c - `ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]`: does the
+ * capture hold exactly the upload's commands, in order, bit for bit?
+ * Exit 0 it does; 1 it does not (report of missing, extra, changed and rejected words);
+ * 2 usage or I/O error, or an upload compiled with another dictionary than DICT. */
+#include <cjson/cJSON.h>
 #include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "capture.h"
 #include "cli.h"
+#include "ulk/decode.h"
+#include "ulk/dict.h"
+#include "ulk/upload.h"
+#include "util.h"
+
+static void usage(FILE *out)
+{
+    fprintf(out,
+            "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
+            "                  [--rate HZ --format f32|s16] [--channel N]\n"
+            "\n"
+            "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
+            "upload's words: same count, same order, same bits. Anything else is reported:\n"
+            "  missing   an upload word that is not in the capture\n"
+            "  extra     an accepted word that is not in the upload\n"
+            "  changed   an upload command received with other argument values (field by field)\n"
+            "  rejected  words found but refused (check failed, unknown command, ...)\n"
+            "The upload must have been compiled with DICT (same dictionary SHA-256).\n"
+            "\n"
+            "options:\n"
+            "  --dict DICT        the dictionary\n"
+            "  --upload UPLOAD    the upload file (from ulk compile)\n"
+            "  --json             machine-readable report\n"
+            "  --rate HZ, --format f32|s16, --channel N   as for ulk decode\n"
+            "  -h, --help         this text\n"
+            "\nexit: 0 the capture holds exactly the upload; 1 it does not; 2 usage or I/O error,\n"
+            "      or the upload was compiled with another dictionary (refused, nothing compared)\n");
+}
+
+static int same_word(const ulk_word *a, const ulk_word *b)
+{
+    return a->n_bits == b->n_bits && !memcmp(a->bits, b->bits, (size_t)a->n_bits);
+}
+
+typedef enum { OP_MATCH, OP_CHANGED, OP_MISSING, OP_EXTRA } op_kind;
+typedef struct {
+    op_kind k;
+    size_t ui, ai; /* upload index, accepted index */
+} op;
+
+/* Edit script between the upload's words and the accepted words: equal words match (0),
+ * the same command with other bits is "changed" (1), else missing/extra (1 each). DP when
+ * the table is small enough, else a greedy walk. Returns the op count, ops malloc'd. */
+static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **out)
+{
+    size_t nu = u->n_cmds, cap = nu + na + 1, n = 0;
+    op *ops = ulk_malloc(cap * sizeof *ops);
+    *out = ops;
+    if (!ops) return 0;
+    if ((nu + 1) * (na + 1) <= 20000000u) {
+        unsigned *c = ulk_malloc((nu + 1) * (na + 1) * sizeof *c);
+        if (c) {
+#define C(i, j) c[(i) * (na + 1) + (j)]
+            for (size_t i = 0; i <= nu; i++) C(i, 0) = (unsigned)i;
+            for (size_t j = 0; j <= na; j++) C(0, j) = (unsigned)j;
+            for (size_t i = 1; i <= nu; i++)
+                for (size_t j = 1; j <= na; j++) {
+                    unsigned best = C(i - 1, j) + 1;
+                    if (C(i, j - 1) + 1 < best) best = C(i, j - 1) + 1;
+                    if (same_word(&u->cmds[i - 1].word, &acc[j - 1]->dw.word)) {
+                        if (C(i - 1, j - 1) < best) best = C(i - 1, j - 1);
+                    } else if (!strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic)) {
+                        if (C(i - 1, j - 1) + 1 < best) best = C(i - 1, j - 1) + 1;
+                    }
+                    C(i, j) = best;
+                }
+            size_t i = nu, j = na;
+            while (i > 0 || j > 0) {
+                if (i > 0 && j > 0) {
+                    int eq = same_word(&u->cmds[i - 1].word, &acc[j - 1]->dw.word);
+                    int sm = !strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic);
+                    if (eq && C(i, j) == C(i - 1, j - 1)) { ops[n++] = (op){OP_MATCH, i - 1, j - 1}; i--; j--; continue; }
+                    if (!eq && sm && C(i, j) == C(i - 1, j - 1) + 1) { ops[n++] = (op){OP_CHANGED, i - 1, j - 1}; i--; j--; continue; }
+                }
+                if (i > 0 && C(i, j) == C(i - 1, j) + 1) { ops[n++] = (op){OP_MISSING, i - 1, 0}; i--; continue; }
+                ops[n++] = (op){OP_EXTRA, 0, j - 1};
+                j--;
+            }
+#undef C
+            ulk_free(c);
+            for (size_t a = 0; a < n / 2; a++) { op t = ops[a]; ops[a] = ops[n - 1 - a]; ops[n - 1 - a] = t; }
+            return n;
+        }
+    }
+    /* greedy: walk both lists in order */
+    size_t i = 0, j = 0;
+    while (i < nu || j < na) {
+        if (i < nu && j < na && same_word(&u->cmds[i].word, &acc[j]->dw.word)) { ops[n++] = (op){OP_MATCH, i++, j++}; continue; }
+        if (i < nu && j < na && !strcmp(u->cmds[i].mnemonic, acc[j]->dec.cmd->mnemonic)) { ops[n++] = (op){OP_CHANGED, i++, j++}; continue; }
+        if (i < nu) ops[n++] = (op){OP_MISSING, i++, 0};
+        else ops[n++] = (op){OP_EXTRA, 0, j++};
+    }
+    return n;
+}
+
 int cmd_verify(int argc, char **argv)
 {
-    (void)argc; (void)argv;
-    fprintf(stderr, "ulk verify: not available in this build\n");
-    return 2;
+    const char *dict_path = NULL, *upload_path = NULL, *capture = NULL;
+    int json = 0;
+    cli_capture_opts o;
+    memset(&o, 0, sizeof o);
+    o.format = -1;
+    o.channel = -1;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        int r = cli_capture_opt("verify", argc, argv, &i, &o);
+        if (r < 0) return 2;
+        if (r > 0) continue;
+        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
+        else if (!strcmp(a, "--json")) json = 1;
+        else if (!strcmp(a, "--dict") || !strcmp(a, "--upload")) {
+            if (i + 1 >= argc) { fprintf(stderr, "ulk verify: %s needs a value\n", a); return 2; }
+            if (!strcmp(a, "--dict")) dict_path = argv[++i];
+            else upload_path = argv[++i];
+        } else if (a[0] == '-' && a[1]) {
+            fprintf(stderr, "ulk verify: unknown option '%s' (ulk verify --help)\n", a);
+            return 2;
+        } else if (!capture) capture = a;
+        else { fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", a); return 2; }
+    }
+    if (!dict_path || !upload_path || !capture) {
+        fprintf(stderr, "ulk verify: %s\n", !dict_path ? "--dict DICT is required" : !upload_path ? "--upload UPLOAD is required" : "no capture given");
+        usage(stderr);
+        return 2;
+    }
+    if (o.format >= 0 && !(o.rate_hz > 0)) {
+        fprintf(stderr, "ulk verify: --format goes with --rate (a raw capture needs both)\n");
+        return 2;
+    }
+    int ret = 2;
+    ulk_diag *diag = ulk_diag_create();
+    ulk_dict *dict = NULL;
+    ulk_upload *u = NULL;
+    cli_capture c;
+    memset(&c, 0, sizeof c);
+    const cli_word **acc = NULL;
+    op *ops = NULL;
+    cJSON *root = NULL;
+    if (!diag) { fprintf(stderr, "ulk verify: out of memory\n"); return 2; }
+    if (ulk_dict_load(dict_path, &dict, diag) < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk verify: cannot use dictionary %s\n", dict_path);
+        goto out;
+    }
+    ulk_diag_clear(diag);
+    if (ulk_upload_read(upload_path, &u, diag) < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk verify: cannot use upload %s\n", upload_path);
+        goto out;
+    }
+    if (strcmp(u->dict_sha256, dict->sha256) != 0) {
+        fprintf(stderr,
+                "ulk verify: %s was compiled with dictionary %s %s (sha256 %.16s...), not with %s (%s %s, sha256 "
+                "%.16s...); verify against the dictionary it was made with\n",
+                upload_path, u->dict_name ? u->dict_name : "?", u->dict_version ? u->dict_version : "", u->dict_sha256,
+                dict_path, dict->name ? dict->name : "?", dict->version ? dict->version : "", dict->sha256);
+        goto out;
+    }
+    if (cli_capture_decode(dict, capture, &o, &c, diag) < 0) {
+        ulk_diag_print(diag, stderr);
+        goto out;
+    }
+    size_t na = 0, nrej = 0;
+    acc = ulk_calloc(c.n + 1, sizeof *acc);
+    if (!acc) { fprintf(stderr, "ulk verify: out of memory\n"); goto out; }
+    for (size_t i = 0; i < c.n; i++) {
+        if (c.w[i].dec.status == ULK_WORD_ACCEPTED) acc[na++] = &c.w[i];
+        else nrej++;
+    }
+    size_t nops = align(u, acc, na, &ops);
+    if (!ops) { fprintf(stderr, "ulk verify: out of memory\n"); goto out; }
+    size_t nmatch = 0, nmiss = 0, nextra = 0, nchg = 0;
+    for (size_t k = 0; k < nops; k++) {
+        if (ops[k].k == OP_MATCH) nmatch++;
+        else if (ops[k].k == OP_MISSING) nmiss++;
+        else if (ops[k].k == OP_EXTRA) nextra++;
+        else nchg++;
+    }
+    int good = nmiss == 0 && nextra == 0 && nchg == 0;
+    char line[4096];
+    if (json) {
+        root = cJSON_CreateObject();
+        cJSON_AddBoolToObject(root, "match", good);
+        cJSON_AddNumberToObject(root, "expected", (double)u->n_cmds);
+        cJSON_AddNumberToObject(root, "accepted", (double)na);
+        cJSON_AddNumberToObject(root, "matched", (double)nmatch);
+        cJSON *jm = cJSON_AddArrayToObject(root, "missing"), *je = cJSON_AddArrayToObject(root, "extra");
+        cJSON *jc = cJSON_AddArrayToObject(root, "changed"), *jr = cJSON_AddArrayToObject(root, "rejected");
+        for (size_t k = 0; k < nops; k++) {
+            const op *p = &ops[k];
+            cJSON *e = cJSON_CreateObject();
+            if (p->k == OP_MATCH) { cJSON_Delete(e); continue; }
+            if (p->k == OP_MISSING || p->k == OP_CHANGED) {
+                const ulk_upload_cmd *uc = &u->cmds[p->ui];
+                char hx[33];
+                ulk_word_hex(&uc->word, hx);
+                cJSON_AddNumberToObject(e, "index", (double)(p->ui + 1));
+                cJSON_AddNumberToObject(e, "line", uc->line);
+                cJSON_AddStringToObject(e, "mnemonic", uc->mnemonic);
+                cJSON_AddStringToObject(e, p->k == OP_CHANGED ? "hex_sent" : "hex", hx);
+            }
+            if (p->k == OP_EXTRA || p->k == OP_CHANGED) {
+                const cli_word *w = acc[p->ai];
+                cJSON_AddNumberToObject(e, "start_s", w->dw.start_s);
+                if (p->k == OP_EXTRA) cJSON_AddStringToObject(e, "mnemonic", w->dec.cmd->mnemonic);
+                cJSON_AddStringToObject(e, p->k == OP_CHANGED ? "hex_received" : "hex", w->dec.hex);
+            }
+            if (p->k == OP_CHANGED) {
+                const ulk_upload_cmd *uc = &u->cmds[p->ui];
+                const cli_word *w = acc[p->ai];
+                cJSON *f = cJSON_AddArrayToObject(e, "fields");
+                for (int a = 0; a < w->dec.n_args && a < uc->n_args; a++) {
+                    if (uc->args[a].raw == w->dec.args[a].raw) continue;
+                    char sent[64];
+                    ulk_arg_format(w->dec.args[a].arg, uc->args[a].raw, sent, sizeof sent);
+                    cJSON *fo = cJSON_CreateObject();
+                    cJSON_AddStringToObject(fo, "field", w->dec.args[a].arg->name);
+                    cJSON_AddStringToObject(fo, "sent", sent);
+                    cJSON_AddStringToObject(fo, "received", w->dec.args[a].text);
+                    cJSON_AddItemToArray(f, fo);
+                }
+            }
+            cJSON_AddItemToArray(p->k == OP_MISSING ? jm : p->k == OP_EXTRA ? je : jc, e);
+        }
+        for (size_t i = 0; i < c.n; i++) {
+            if (c.w[i].dec.status == ULK_WORD_ACCEPTED) continue;
+            cJSON *e = cJSON_CreateObject();
+            cJSON_AddNumberToObject(e, "start_s", c.w[i].dw.start_s);
+            cJSON_AddStringToObject(e, "reason", c.w[i].dec.reason);
+            cJSON_AddStringToObject(e, "reject", ulk_reject_name(c.w[i].dec.reject));
+            cJSON_AddStringToObject(e, "hex", c.w[i].dec.hex);
+            cJSON_AddItemToArray(jr, e);
+        }
+        char *txt = cJSON_Print(root);
+        if (!txt) { fprintf(stderr, "ulk verify: out of memory\n"); goto out; }
+        printf("%s\n", txt);
+        cJSON_free(txt);
+    } else {
+        printf("%s against %s: %zu upload word(s), %zu accepted, %zu rejected in the capture\n", capture, upload_path,
+               u->n_cmds, na, nrej);
+        for (size_t k = 0; k < nops; k++) {
+            const op *p = &ops[k];
+            if (p->k == OP_MISSING) {
+                const ulk_upload_cmd *uc = &u->cmds[p->ui];
+                printf("  missing  word %zu (line %d): %s\n", p->ui + 1, uc->line, uc->mnemonic);
+            } else if (p->k == OP_EXTRA) {
+                ulk_decoded_format(&acc[p->ai]->dec, line, sizeof line);
+                printf("  extra    at %.6f s: %s\n", acc[p->ai]->dw.start_s, line);
+            } else if (p->k == OP_CHANGED) {
+                const ulk_upload_cmd *uc = &u->cmds[p->ui];
+                const cli_word *w = acc[p->ai];
+                printf("  changed  word %zu (line %d) at %.6f s: %s\n", p->ui + 1, uc->line, w->dw.start_s, uc->mnemonic);
+                for (int a = 0; a < w->dec.n_args && a < uc->n_args; a++) {
+                    if (uc->args[a].raw == w->dec.args[a].raw) continue;
+                    char sent[64];
+                    ulk_arg_format(w->dec.args[a].arg, uc->args[a].raw, sent, sizeof sent);
+                    printf("           %s: sent %s, received %s\n", w->dec.args[a].arg->name, sent, w->dec.args[a].text);
+                }
+            }
+        }
+        for (size_t i = 0; i < c.n; i++)
+            if (c.w[i].dec.status != ULK_WORD_ACCEPTED)
+                printf("  rejected at %.6f s: %s [hex %s]\n", c.w[i].dw.start_s, c.w[i].dec.reason, c.w[i].dec.hex);
+        if (good)
+            printf("VERIFIED: the capture holds exactly the upload's %zu word(s), in order\n", u->n_cmds);
+        else
+            printf("NOT VERIFIED: %zu matched, %zu missing, %zu extra, %zu changed, %zu rejected\n", nmatch, nmiss,
+                   nextra, nchg, nrej);
+    }
+    ret = good ? 0 : 1;
+out:
+    cJSON_Delete(root);
+    ulk_free(ops);
+    ulk_free(acc);
+    cli_capture_free(&c);
+    ulk_upload_destroy(u);
+    ulk_dict_destroy(dict);
+    ulk_diag_destroy(diag);
+    return ret;
 }
