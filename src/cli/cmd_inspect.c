@@ -254,7 +254,7 @@ int cmd_inspect(int argc, char **argv)
         return 2;
     }
     ulk_diag *diag = ulk_diag_create();
-    if (!diag) return 2;
+    if (!diag) { fprintf(stderr, "ulk inspect: out of memory\n"); return 2; }
     ulk_upload *u = NULL;
     int rc = ulk_upload_read(path, &u, diag);
     if (rc < 0) {
