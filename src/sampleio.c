@@ -740,23 +740,63 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
     return 0;
 }
 
+/* Whether libsndfile recognises the file (any type it reads). */
+static int is_sound_file(const char *path)
+{
+    SF_INFO si;
+    memset(&si, 0, sizeof si);
+    SNDFILE *sf = sf_open(path, SFM_READ, &si);
+    if (!sf) return 0;
+    sf_close(sf);
+    return 1;
+}
+
 int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel, ulk_reader **out, ulk_diag *diag)
 {
     if (out) *out = NULL;
     if (!path || !*path || !out) return ulk_fail(diag, ULK_EINVAL, "sample reader: missing path");
-    struct stat st;
-    if (stat(path, &st) != 0) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
-    if (S_ISDIR(st.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a capture", path);
     ulk_reader *r = ulk_calloc(1, sizeof *r);
     if (!r) return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
-    r->path = ulk_strdup(path);
+    /* BASE.sigmf-meta names its recording: BASE.sigmf-data, else BASE.f32 or BASE.s16 */
+    if (ends_with(path, ".sigmf-meta")) {
+        size_t n = strlen(path) - 11;
+        static const char *exts[] = {".sigmf-data", ".f32", ".s16"};
+        for (int k = 0; k < 3 && !r->path; k++) {
+            char *cand = ulk_malloc(n + 12);
+            if (!cand) break;
+            memcpy(cand, path, n);
+            memcpy(cand + n, exts[k], strlen(exts[k]) + 1);
+            if (access(cand, F_OK) == 0) r->path = cand;
+            else ulk_free(cand);
+        }
+        if (!r->path) {
+            reader_free(r);
+            return ulk_fail(diag, ULK_EIO, "%s: no recording beside it (BASE.sigmf-data, BASE.f32 or BASE.s16)", path);
+        }
+    } else {
+        r->path = ulk_strdup(path);
+    }
     if (!r->path) { reader_free(r); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+    struct stat st;
+    if (stat(r->path, &st) != 0) {
+        int rc = ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", r->path, strerror(errno));
+        reader_free(r);
+        return rc;
+    }
+    if (S_ISDIR(st.st_mode)) {
+        int rc = ulk_fail(diag, ULK_EIO, "%s: is a folder, not a capture", r->path);
+        reader_free(r);
+        return rc;
+    }
     ulk_container c;
     int efmt = -1;
-    int known = ext_kind(path, &c, &efmt);
+    int known = ext_kind(r->path, &c, &efmt);
     int rc;
-    /* raw when the name says so, or when the caller gives a rate for an unnamed file */
-    if ((known && c == ULK_CONTAINER_RAW) || (!known && hint && hint->fs_hz > 0 && hint->container == ULK_CONTAINER_RAW))
+    /* raw when the name says so, or when the caller gives a rate for a file of another name
+     * that libsndfile does not recognise (e.g. capture.bin, a pipe) */
+    if ((known && c == ULK_CONTAINER_RAW) ||
+        (!known && hint && hint->fs_hz > 0 &&
+         (hint->container == ULK_CONTAINER_RAW || !S_ISREG(st.st_mode) || !is_sound_file(r->path))))
         rc = open_raw(r, hint, channel, known ? efmt : -1, diag);
     else
         rc = open_sndfile(r, channel, diag);

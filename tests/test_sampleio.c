@@ -479,8 +479,32 @@ static void test_reader_hint(void **st)
     assert_true(y[0] == 1.0f && y[1] == -1.0f && y[3] == 0.0f);
     assert_true(y[2] == (float)(16384 / 32767.0));
     free(y);
-    hint.format = ULK_FMT_F32; /* disagrees with .s16 */
+    /* another name: raw with a rate (even without saying raw), refused without one */
+    put_file("cap.bin", v, sizeof v);
+    ulk_sample_info open_hint = {.fs_hz = 22050, .format = ULK_FMT_S16};
+    y = read_all(path_of("cap.bin"), &open_hint, -1, 3, &n, d);
+    assert_int_equal(n, 4);
+    assert_true(y[1] == -1.0f);
+    free(y);
     ulk_reader *r = NULL;
+    assert_int_equal(ulk_reader_open(path_of("cap.bin"), NULL, -1, &r, d), ULK_EFORMAT);
+    /* a WAV under another name stays a WAV even when a rate is given */
+    float x[3] = {0.25f, -0.5f, 0.75f};
+    assert_int_equal(write_samples(path_of("w.wav"), ULK_FMT_F32, 8000, x, 3, NULL, d), 0);
+    assert_int_equal(rename(path_of("w.wav"), path_of("w.bin")), 0);
+    ulk_sample_info any = {.fs_hz = 22050, .format = ULK_FMT_S16}; /* container left open */
+    y = read_all(path_of("w.bin"), &any, -1, 3, &n, d);
+    assert_int_equal(n, 3);
+    assert_true(y[0] == 0.25f && y[1] == -0.5f && y[2] == 0.75f);
+    free(y);
+    /* the metadata file names its recording */
+    assert_int_equal(write_samples(path_of("named.f32"), ULK_FMT_F32, 8000, x, 3, NULL, d), 0);
+    y = read_all(path_of("named.sigmf-meta"), NULL, -1, 3, &n, d);
+    assert_int_equal(n, 3);
+    assert_true(y[2] == 0.75f);
+    free(y);
+    assert_int_equal(ulk_reader_open(path_of("lonely.sigmf-meta"), NULL, -1, &r, d), ULK_EIO);
+    hint.format = ULK_FMT_F32; /* disagrees with .s16 */
     assert_int_equal(ulk_reader_open(path_of("h.s16"), &hint, -1, &r, d), ULK_EINVAL);
     ulk_diag_destroy(d);
     clean();

@@ -56,7 +56,13 @@ int ulk_writer_annotate(ulk_writer *w, uint64_t sample_start, uint64_t sample_co
 typedef struct ulk_reader ulk_reader;
 /* Opens a capture. For raw files hint supplies rate and format (fs_hz 0 = take them from the
  * .sigmf-meta beside the file). channel: which channel of a multi-channel WAV (0-based);
- * -1 refuses multi-channel files with a message saying so. */
+ * -1 refuses multi-channel files with a message saying so.
+ * Which reader: .f32/.s16/.sigmf-data are raw; BASE.sigmf-meta opens BASE.sigmf-data (or
+ * BASE.f32, BASE.s16); any other name is read by libsndfile (WAV, FLAC, ...), except that a
+ * file libsndfile does not recognise, or a pipe, is read raw when hint gives a rate.
+ * Returns 0 and *out (close with ulk_reader_close), or ULK_EIO (cannot open), ULK_EFORMAT
+ * (not a sound file, empty, truncated, bad metadata), ULK_EINVAL (channel choice, missing
+ * rate, contradicting hint), ULK_ENOMEM; the reason names the file in diag. */
 int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel,
                     ulk_reader **out, ulk_diag *diag);
 const ulk_sample_info *ulk_reader_info(const ulk_reader *r);
