@@ -324,9 +324,10 @@ static int cal_nearest(const ulk_arg *a, num_t *x, const char *text, i128 *out, 
             long double half = (G(lo - 1) + gl) / 2.0L; /* exactly half a step is accepted */
             if (CMP(half) < 0) {
                 fmt_ld(s * gl, b1, sizeof b1);
+                i128_to_dec(lo, b2);
                 seterr(err, errlen,
-                       "value %s is more than half a raw step from the nearest calibrated value %s (raw %lld)",
-                       text, b1, (long long)lo);
+                       "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
+                       text, b1, b2);
                 return -1;
             }
         }
@@ -336,9 +337,10 @@ static int cal_nearest(const ulk_arg *a, num_t *x, const char *text, i128 *out, 
         long double half = (gh + G(hi + 1)) / 2.0L;
         if (CMP(half) > 0) {
             fmt_ld(s * gh, b1, sizeof b1);
+            i128_to_dec(hi, b2);
             seterr(err, errlen,
-                   "value %s is more than half a raw step from the nearest calibrated value %s (raw %lld)",
-                   text, b1, (long long)hi);
+                   "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
+                   text, b1, b2);
             return -1;
         }
         pick = hi;
@@ -359,7 +361,6 @@ static int cal_nearest(const ulk_arg *a, num_t *x, const char *text, i128 *out, 
         }
         pick = l2;
     }
-    (void)b2;
 #undef G
 #undef CMP
     *out = pick;

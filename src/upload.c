@@ -481,8 +481,11 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
     if (want_keys(r, cj, path, ck, 10)) return r->status;
     int64_t v;
     uint64_t uv;
-    if (get_int(r, cj, "line", path, 1, INT_MAX, NULL, &v)) return r->status;
+    if (get_int(r, cj, "line", path, 1, (double)(1 << 30), NULL, &v)) return r->status;
     c->line = (int)v;
+    if (idx > 0 && c->line <= c[-1].line)
+        return rfail(r, ULK_EPARSE, path, "'line' %d does not follow the previous command's line %d", c->line,
+                     c[-1].line);
     const char *mn = get_str(r, cj, "mnemonic", path, 256);
     const char *sn = mn ? get_str(r, cj, "system", path, 256) : NULL;
     if (!mn || !sn) return r->status;
@@ -706,6 +709,8 @@ static int print_wait(FILE *out, ulk_ratio w)
     return fprintf(out, "wait %ss\n", t) < 0;
 }
 
+#define PAD_MAX 100000 /* blank lines printed at most to keep a command on its source line */
+
 int ulk_upload_print_list(const ulk_upload *u, FILE *out)
 {
     int bad = 0, cur = 1; /* next line number to write */
@@ -718,6 +723,10 @@ int ulk_upload_print_list(const ulk_upload *u, FILE *out)
                            u->source ? u->source : "?", u->dict_name ? u->dict_name : "?",
                            u->dict_version ? u->dict_version : "?") < 0;
             cur++;
+        }
+        if (first - cur > PAD_MAX) { /* an absurd gap: say so instead of printing it */
+            bad |= fprintf(out, "# lines %d to %d of the source are not shown\n", cur, first - 1) < 0;
+            cur = first;
         }
         while (cur < first) { bad |= fputc('\n', out) == EOF; cur++; }
         if (has_wait) { bad |= print_wait(out, c->wait_before); cur++; }
