@@ -126,10 +126,13 @@ static int get_num(lctx *x, ulk_node *n, double *v)
     return 1;
 }
 
-/* An exact rate (decimal text); positive unless allow_any_sign. */
+/* An exact rate (decimal text, or a quoted decimal as the upload file writes rates);
+ * positive unless allow_any_sign. */
 static int get_rate(lctx *x, ulk_node *n, ulk_ratio *r, int allow_any_sign)
 {
-    ulk_scalar_type t = n && n->kind == ULK_NODE_SCALAR ? ulk_scalar_resolve(n) : ULK_SC_STRING;
+    ulk_scalar_type t = n && n->kind == ULK_NODE_SCALAR ? ulk_scalar_resolve(n) : ULK_SC_NULL;
+    ulk_ratio tmp;
+    if (t == ULK_SC_STRING && ulk_ratio_parse(n->text, &tmp) != ULK_EPARSE) t = ULK_SC_FLOAT;
     if (!n || n->kind != ULK_NODE_SCALAR || (t != ULK_SC_INT && t != ULK_SC_FLOAT)) {
         err(x, n, "%s must be a number of Hz, not %s", n && n->key ? n->key : "value", ulk_node_type_name(n));
         return 0;
