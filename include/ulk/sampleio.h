@@ -36,14 +36,22 @@ typedef struct {
 } ulk_sample_info;
 
 typedef struct ulk_writer ulk_writer;
-/* Opens path for writing (container from the extension: .wav, .f32, .s16; .f32/.s16 also
- * write path-with-.sigmf-meta). Data goes to a temporary file until ulk_writer_commit(). */
+/* Opens path for writing (container from the extension: .wav, .f32, .s16, .sigmf-data;
+ * the raw ones also write BASE.sigmf-meta). Data goes to "<path>.tmp.XXXXXX" in the same
+ * folder until ulk_writer_commit(). A path that exists and is not a regular file (a device
+ * such as /dev/null or /dev/full, a pipe) is written directly, with info->container for its
+ * type and no metadata file. Mono only. Returns 0 and *out, or ULK_EINVAL (unknown extension,
+ * extension contradicting info->format, a rate WAV cannot hold, bad extra_json), ULK_EIO
+ * (cannot create: the reason, e.g. "Permission denied", names the path), ULK_ENOMEM. The
+ * writer is freed by ulk_writer_commit() or ulk_writer_abort(). */
 int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **out, ulk_diag *diag);
 /* Writes n samples (float, full scale 1.0). s16 output rounds round(32767*x), halves away from
  * zero, and fails with ULK_ELIMIT if |x| > 1 would clip. Sticky errors: after one failure every
  * call returns it. */
 int ulk_writer_write(ulk_writer *w, const float *x, size_t n);
-/* Flushes, closes, renames into place. Returns 0 or the sticky error (then nothing is left). */
+/* Flushes, closes, writes the metadata, renames into place, frees w. Returns 0 or the sticky
+ * error with its reason in diag (e.g. "/dev/full: write failed: No space left on device");
+ * then nothing is left behind. NULL w gives ULK_EINVAL. */
 int ulk_writer_commit(ulk_writer *w, ulk_diag *diag);
 /* Abandons: closes and removes the temporary files. NULL does nothing. */
 void ulk_writer_abort(ulk_writer *w);
@@ -65,6 +73,7 @@ typedef struct ulk_reader ulk_reader;
  * rate, contradicting hint), ULK_ENOMEM; the reason names the file in diag. */
 int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel,
                     ulk_reader **out, ulk_diag *diag);
+/* What the file holds (owned by r; NULL for NULL r). */
 const ulk_sample_info *ulk_reader_info(const ulk_reader *r);
 /* Total frames when known, else -1. */
 int64_t ulk_reader_length(const ulk_reader *r);
