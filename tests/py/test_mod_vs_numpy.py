@@ -302,6 +302,13 @@ def check_refusals(tmp, failures):
     run(["modulate", upath, "-o", out, "--rate", "30000", "-q"])
     if not os.path.exists(out):
         failures.append("rate 30000 (exactly the floor) must be accepted")
+    # a full device: exit 2 with the reason, nothing created beside it
+    p = run(["modulate", upath, "-o", "/dev/full", "--rate", "48000"], expect=2)
+    if "No space left on device" not in p.stderr or any(".tmp." in f for f in os.listdir("/dev")):
+        failures.append(f"/dev/full: reason not reported or temporary left in /dev:\n{p.stderr}")
+    p = run(["modulate", upath, "-o", os.path.join(tmp, "no", "such", "x.wav"), "--rate", "48000"], expect=2)
+    if "No such file or directory" not in p.stderr:
+        failures.append(f"missing folder: reason not reported:\n{p.stderr}")
     p = run(["modulate", "--help"])
     if "CAUTION" not in p.stdout or "authorisation" not in p.stdout:
         failures.append("--help must print the caution")
