@@ -435,6 +435,26 @@ static void run_close(ulk_demod *d)
     d->r_w = d->r_x = d->r_y = d->r_xx = d->r_xy = 0;
 }
 
+/* Median of a[0..n) using tmp[0..n) as scratch (a is left unchanged). */
+static double median_inplace_copy(const double *a, double *tmp, int n)
+{
+    memcpy(tmp, a, (size_t)n * sizeof *tmp);
+    int lo = 0, hi = n - 1, k = n / 2;
+    while (lo < hi) {
+        double piv = tmp[(lo + hi) / 2];
+        int i = lo, j = hi;
+        while (i <= j) {
+            while (tmp[i] < piv) i++;
+            while (tmp[j] > piv) j--;
+            if (i <= j) { double t = tmp[i]; tmp[i] = tmp[j]; tmp[j] = t; i++; j--; }
+        }
+        if (k <= j) hi = j;
+        else if (k >= i) lo = i;
+        else break;
+    }
+    return tmp[k];
+}
+
 static void block_unlock(ulk_demod *d)
 {
     run_close(d);
@@ -469,13 +489,28 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     if (m_hi <= m_lo || m_hi - m_lo < 12) { block_unlock(d); return; }
     int M = (int)(m_hi - m_lo);
 
-    /* 1. squared baseband and its zoomed DFT */
+    /* 1. squared baseband and its zoomed DFT. |U| is limited to 3x its median first: a
+     * BPSK signal has a steady |U| and is not touched, while a few huge samples (clicks,
+     * garbage) would otherwise make one U_m dominate and look perfectly coherent. */
+    for (int m = 0; m < M; m++) {
+        double r = d->ure[(m_lo + (uint64_t)m) % d->ucap], i = d->uim[(m_lo + (uint64_t)m) % d->ucap];
+        d->sre[m] = r * r + i * i;
+    }
+    double med = median_inplace_copy(d->sre, d->sim, M);
+    double lim2 = 9.0 * med;
     double upow = 0;
     for (int m = 0; m < M; m++) {
         double r = d->ure[(m_lo + (uint64_t)m) % d->ucap], i = d->uim[(m_lo + (uint64_t)m) % d->ucap];
+        double p2 = r * r + i * i;
+        if (p2 > lim2 && p2 > 0) {
+            double g = sqrt(lim2 / p2);
+            r *= g;
+            i *= g;
+            p2 = lim2;
+        }
         d->sre[m] = r * r - i * i;
         d->sim[m] = 2 * r * i;
-        upow += r * r + i * i;
+        upow += p2;
     }
     if (!(upow > 0)) { block_unlock(d); return; }
     double mc = (M - 1) / 2.0;
@@ -506,7 +541,7 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     double coh = sqrt(xr * xr + xi * xi) / upow;
     /* Noise only: coh^2 is about exponential with mean 2/M per independent bin. */
     double thr2 = (d->prev_locked ? 14.0 : 22.0) / M;
-    if (coh * coh < thr2) { block_unlock(d); return; }
+    if (!(coh * coh >= thr2)) { block_unlock(d); return; } /* NaN-safe */
 
     /* 2. sub-bit clock theta(i) = i rho + beta, modulo 1/(2k) */
     double eps = fhat / (2.0 * k);
@@ -825,7 +860,11 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
     uint64_t ready = blk_start(d, d->blk + 2) + (uint64_t)ceil(2 * d->sps) + 2;
     for (size_t t = 0; t < n; t++) {
         double v = x[t];
-        if (!isfinite(v)) v = 0; /* a corrupt sample must not poison every later estimate */
+        /* A corrupt sample must not poison every later estimate: non-finite values count as 0
+         * and magnitudes are limited far above any real level (full scale is 1). */
+        if (!isfinite(v)) v = 0;
+        else if (v > 1e6) v = 1e6;
+        else if (v < -1e6) v = -1e6;
         if (!d->dc_init) { d->dc = v; d->dc_init = 1; }
         d->dc += d->dc_alpha * (v - d->dc);
         float y = (float)(v - d->dc);

@@ -15,6 +15,7 @@
 #include "sim_capture.h"
 #include "ulk/demod.h"
 #include "ulk/error.h"
+#include "util.h"
 
 typedef enum { LK_DEMO, LK_NRZM, LK_SQUARE, LK_HIGHK, LK_PILOT, LK_N1, LK_SYMIDLE } link_kind;
 
@@ -184,6 +185,168 @@ static void round_trip(void **state)
     free(sb);
 }
 
+/* ---------------------------------------------------------------- hostile input */
+
+static ulk_demod *new_demo(double fs)
+{
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    ulk_demod *d = NULL;
+    assert_int_equal(ulk_demod_create(&l, fs, NULL, &d, NULL), 0);
+    return d;
+}
+
+/* Random bytes read as floats: NaN, infinities, huge and tiny values. Nothing may crash and
+ * no word may come out of it. */
+static void garbage_gives_nothing(void **state)
+{
+    (void)state;
+    ulk_demod *d = new_demo(48000);
+    sim_rng r;
+    sim_seed(&r, 99);
+    float buf[4096];
+    for (int k = 0; k < 60; k++) {
+        for (size_t i = 0; i < 4096; i++) {
+            uint32_t u = (uint32_t)sim_next(&r);
+            memcpy(&buf[i], &u, 4);
+        }
+        assert_int_equal(ulk_demod_push(d, buf, 4096), 0);
+    }
+    assert_int_equal(ulk_demod_finish(d), 0);
+    assert_int_equal(ulk_demod_n_words(d), 0);
+    ulk_demod_estimates e;
+    ulk_demod_get_estimates(d, &e);
+    assert_false(e.signal_found);
+    ulk_demod_destroy(d);
+}
+
+static void silence_gives_nothing(void **state)
+{
+    (void)state;
+    ulk_demod *d = new_demo(48000);
+    float z[1000] = {0};
+    for (int k = 0; k < 200; k++) assert_int_equal(ulk_demod_push(d, z, 1000), 0);
+    assert_int_equal(ulk_demod_finish(d), 0);
+    assert_int_equal(ulk_demod_n_words(d), 0);
+    ulk_demod_estimates e;
+    ulk_demod_get_estimates(d, &e);
+    assert_false(e.signal_found);
+    ulk_demod_destroy(d);
+}
+
+static void empty_and_tiny_inputs(void **state)
+{
+    (void)state;
+    ulk_demod *d = new_demo(48000);
+    assert_int_equal(ulk_demod_push(d, NULL, 0), 0);
+    assert_int_equal(ulk_demod_finish(d), 0);
+    assert_int_equal(ulk_demod_n_words(d), 0);
+    float one = 0.5f;
+    assert_int_equal(ulk_demod_push(d, &one, 1), ULK_EINVAL); /* after finish */
+    ulk_demod_destroy(d);
+    d = new_demo(48000);
+    assert_int_equal(ulk_demod_push(d, &one, 1), 0);
+    assert_int_equal(ulk_demod_finish(d), 0);
+    assert_int_equal(ulk_demod_n_words(d), 0);
+    ulk_demod_destroy(d);
+    ulk_demod_destroy(NULL);
+    assert_int_equal(ulk_demod_push(NULL, &one, 1), ULK_EINVAL);
+}
+
+/* A capture cut in the middle of its third word: the first two come out whole, the cut one
+ * is counted as truncated and not reported. */
+static void truncated_capture(void **state)
+{
+    (void)state;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    sim_rng r;
+    sim_seed(&r, 5);
+    ulk_word w[3];
+    size_t starts[3], L, ns;
+    sim_random_words(&r, l.word_bits, w, 3);
+    uint8_t *sb = sim_subbits(&l, w, 3, &L, starts);
+    sim_cfg c = {.fs_hz = 48000, .ppm = 100, .delay_s = 0.02, .ebn0_db = 14, .seed = 8};
+    float *x = sim_capture(&l, sb, L, &c, &ns);
+    double rs = 5000;
+    size_t cut = (size_t)((0.02 + (starts[2] + 150) / rs / (1 + 1e-4)) * 48000);
+    ulk_demod *d = run_capture(&l, x, cut, 48000);
+    assert_int_equal(ulk_demod_n_words(d), 2);
+    assert_true(word_eq(&ulk_demod_word_at(d, 0)->word, &w[0]));
+    assert_true(word_eq(&ulk_demod_word_at(d, 1)->word, &w[1]));
+    ulk_demod_estimates e;
+    ulk_demod_get_estimates(d, &e);
+    assert_int_equal(e.n_truncated, 1);
+    ulk_demod_destroy(d);
+    free(x);
+    free(sb);
+}
+
+static void create_refuses_bad_setup(void **state)
+{
+    (void)state;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    ulk_demod *d = (ulk_demod *)1;
+    ulk_diag *dg = ulk_diag_create();
+    /* 2.5 (f_sc + R_s) = 37500 Hz for the demo link */
+    assert_int_equal(ulk_demod_create(&l, 37000, NULL, &d, dg), ULK_EINVAL);
+    assert_null(d);
+    assert_non_null(strstr(ulk_diag_first_error(dg)->msg, "37500"));
+    ulk_link bad = l;
+    ulk_ratio_parse("12345", &bad.fsc); /* not a whole multiple of R_s = 5000 */
+    assert_int_equal(ulk_demod_create(&bad, 96000, NULL, &d, dg), ULK_EINVAL);
+    assert_int_equal(ulk_demod_create(NULL, 96000, NULL, &d, dg), ULK_EINVAL);
+    ulk_diag_destroy(dg);
+}
+
+/* Every allocation of create may fail: a clean ULK_ENOMEM, no leak (ASan), no crash. */
+static void create_survives_allocation_failure(void **state)
+{
+    (void)state;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    for (long n = 1; n < 40; n++) {
+        ulk_alloc_fail_at(ulk_alloc_count() + n);
+        ulk_demod *d = NULL;
+        int rc = ulk_demod_create(&l, 48000, NULL, &d, NULL);
+        ulk_alloc_fail_at(0);
+        if (rc == 0) { ulk_demod_destroy(d); break; }
+        assert_int_equal(rc, ULK_ENOMEM);
+        assert_null(d);
+    }
+}
+
+/* Memory stays flat: the kept state does not grow with the capture (words only). */
+static void words_by_callback(void **state)
+{
+    (void)state;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    sim_rng r;
+    sim_seed(&r, 6);
+    ulk_word w[4];
+    size_t L, ns;
+    sim_random_words(&r, l.word_bits, w, 4);
+    uint8_t *sb = sim_subbits(&l, w, 4, &L, NULL);
+    sim_cfg c = {.fs_hz = 48000, .no_noise = 1};
+    float *x = sim_capture(&l, sb, L, &c, &ns);
+    int count = 0;
+    ulk_demod_options o = {0};
+    o.on_word = NULL;
+    ulk_demod *d;
+    struct cb { int *n; } u = {&count};
+    (void)u;
+    assert_int_equal(ulk_demod_create(&l, 48000, &o, &d, NULL), 0);
+    assert_int_equal(ulk_demod_push(d, x, ns), 0);
+    assert_int_equal(ulk_demod_finish(d), 0);
+    assert_int_equal(ulk_demod_n_words(d), 4);
+    assert_null(ulk_demod_word_at(d, 4));
+    ulk_demod_destroy(d);
+    free(x);
+    free(sb);
+}
+
 int main(void)
 {
     struct CMUnitTest t[sizeof rt_cases / sizeof rt_cases[0]];
@@ -192,5 +355,16 @@ int main(void)
         struct CMUnitTest u = {rt_cases[i].name, round_trip, NULL, NULL, (void *)&rt_cases[i]};
         t[nt++] = u;
     }
-    return _cmocka_run_group_tests("demod", t, nt, NULL, NULL);
+    int fails = _cmocka_run_group_tests("demod_round_trips", t, nt, NULL, NULL);
+    const struct CMUnitTest hostile[] = {
+        cmocka_unit_test(garbage_gives_nothing),
+        cmocka_unit_test(silence_gives_nothing),
+        cmocka_unit_test(empty_and_tiny_inputs),
+        cmocka_unit_test(truncated_capture),
+        cmocka_unit_test(create_refuses_bad_setup),
+        cmocka_unit_test(create_survives_allocation_failure),
+        cmocka_unit_test(words_by_callback),
+    };
+    fails += cmocka_run_group_tests_name("demod_hostile", hostile, NULL, NULL);
+    return fails;
 }
