@@ -6,10 +6,11 @@
  * Prints figures; it is not a test (no time limits). For each link set-up it builds an upload
  * of random words in C (the demo's link: 1000 bit/s, 5 sub-bits per bit, 66-bit words), runs
  * the modulator over at least N samples (default 1e8) into one reused 64 Ki-sample buffer,
- * and prints MS/s per CPU-second (and wall-clock, in brackets). Then it writes the sub-bit stream to a temporary file and runs
- * `/usr/bin/python3 tests/bench/bench_mod_ref.py` on it, which generates the same samples
- * with numpy (exact integer phases, vectorised, in chunks), checks its first samples against
- * the C output, and prints its own MS/s; the ratio is printed here.
+ * and prints MS/s per CPU-second (wall-clock in brackets). Then it writes the sub-bit stream
+ * to a temporary file and runs `/usr/bin/python3 tests/bench/bench_mod_ref.py` on it, which
+ * generates the same samples with numpy (exact integer phases, vectorised, in chunks),
+ * checks its first samples against the C output, and prints its own MS/s; the ratio (per
+ * CPU-second) is printed here.
  */
 #include <inttypes.h>
 #include <math.h>
