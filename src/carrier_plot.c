@@ -251,6 +251,9 @@ int ulk_carrier_plot(const ulk_carrier *c, int mi, int sweep_ch, double pt, cons
     cairo_surface_finish(s);
     if (st == CAIRO_STATUS_SUCCESS) st = cairo_surface_status(s);
     cairo_surface_destroy(s);
+    /* cairo keeps font caches for the life of the process; dropping them here keeps leak
+     * checkers quiet (safe: no cairo object of ours is alive any more). */
+    cairo_debug_reset_static_data();
     if (st != CAIRO_STATUS_SUCCESS) {
         ulk_afile_abort(&af);
         return ulk_fail(diag, ULK_EIO, "%s: drawing failed: %s; no output written", path, cairo_status_to_string(st));

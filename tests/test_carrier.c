@@ -635,8 +635,27 @@ static void test_loader_good_and_json(void **st)
     free(py); free(pj);
 }
 
-int main(void)
+/* `test_carrier --print-bessel`: x, J0(x), J1(x) for tests/py/test_carrier_scipy.py, which
+ * checks them against scipy.special (0..10 in steps of 0.0025, 10..40 in steps of 0.05, and
+ * the first zero of J0). */
+static int print_bessel(void)
 {
+    for (int k = 0; k <= 4000; k++) {
+        double x = 10.0 * k / 4000;
+        printf("%.17g %.17g %.17g\n", x, ulk_bessel_j0(x), ulk_bessel_j1(x));
+    }
+    for (int k = 1; k <= 600; k++) {
+        double x = 10.0 + 30.0 * k / 600;
+        printf("%.17g %.17g %.17g\n", x, ulk_bessel_j0(x), ulk_bessel_j1(x));
+    }
+    double z = 2.404825557695773;
+    printf("%.17g %.17g %.17g\n", z, ulk_bessel_j0(z), ulk_bessel_j1(z));
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    if (argc > 1 && !strcmp(argv[1], "--print-bessel")) return print_bessel();
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_bessel_as_table_9_1),
         cmocka_unit_test(test_bessel_as_table_9_5_zeros),

@@ -1,20 +1,21 @@
 #!/usr/bin/python3
 """The composite-carrier planner (`ulk plan --json`) against a computation written here with
 numpy and scipy.special (Debian's python3-numpy and python3-scipy), per
-shared/design/composite-carrier.md section 2; and the library's Bessel J0/J1 (called through
-ctypes from libulk.so) against scipy.special.j0/j1.
+shared/design/composite-carrier.md section 2; and the library's Bessel J0/J1 (printed by
+`test_carrier --print-bessel`) against scipy.special.j0/j1.
 
 Cases: the demo carrier file (data from the demo dictionary, voice, ranging), a whole
 dictionary with a pilot tone and a carrier section (the data channel then splits into two
 Jacobi-Anger factors, data and pilot), and the solver against an exhaustive numpy search of
 the same 0.01 rad lattice.
 """
-import ctypes
 import json
 import os
+import struct
 import subprocess
 import sys
 import tempfile
+import xml.etree.ElementTree as ET
 
 import numpy as np
 from scipy import special
@@ -109,22 +110,27 @@ def compare_margins(label, got, want):
         fail("%s: margins %s, reference %s" % (label, sorted(got), sorted(want)))
 
 
-def check_bessel(libdir):
-    lib = ctypes.CDLL(os.path.join(libdir, "libulk.so"))
-    for name in ("ulk_bessel_j0", "ulk_bessel_j1"):
-        getattr(lib, name).restype = ctypes.c_double
-        getattr(lib, name).argtypes = [ctypes.c_double]
-    xs = np.concatenate([np.linspace(0, 10, 4001), np.linspace(10, 40, 601), [2.404825557695773]])
+def check_bessel(bindir):
+    """x, J0, J1 printed by `test_carrier --print-bessel` (the library's functions) against
+    scipy.special.j0/j1: 1e-12 relative, with an absolute floor of 2e-15 near the zeros."""
+    prog = os.path.join(bindir, "test_carrier")
+    if not os.path.exists(prog):
+        fail(prog + " was not built (cmocka missing?)")
+    r = subprocess.run([prog, "--print-bessel"], capture_output=True, text=True, check=False)
+    if r.returncode != 0:
+        fail("test_carrier --print-bessel exited %d" % r.returncode)
+    rows = [tuple(float(v) for v in line.split()) for line in r.stdout.splitlines()]
+    if len(rows) < 4000:
+        fail("test_carrier --print-bessel printed %d rows" % len(rows))
     worst = 0.0
-    for x in xs:
-        for f, ref in ((lib.ulk_bessel_j0, special.j0), (lib.ulk_bessel_j1, special.j1)):
-            a, b = f(float(x)), float(ref(x))
+    for x, a0, a1 in rows:
+        for a, b in ((a0, float(special.j0(x))), (a1, float(special.j1(x)))):
             err = abs(a - b)
-            # 1e-12 relative, with an absolute floor near the zeros
             if err > 1e-12 * abs(b) + 2e-15:
                 fail("Bessel at %r: ulk %.17g, scipy %.17g" % (x, a, b))
             worst = max(worst, err)
-    print("Bessel J0/J1 vs scipy.special over 0..40: worst absolute difference %.3g" % worst)
+    print("Bessel J0/J1 vs scipy.special over 0..40 (%d points): worst absolute difference %.3g"
+          % (len(rows), worst))
 
 
 def main():
@@ -207,6 +213,41 @@ def main():
         compare("pilot %s" % m["name"], m["fractions"], want)
         compare_margins("pilot %s" % m["name"], m["margins_db"], wm)
     print("planner fractions and margins agree with numpy/scipy within %.2f dB" % TOL_DB)
+
+    check_plots(ulk, demo, bindir)
+
+
+def check_plots(ulk, demo, bindir):
+    """--plot writes a PNG (signature and IHDR size) or SVG (well-formed XML) atomically; a
+    bad extension writes nothing. Under LeakSanitizer, fontconfig's process-lifetime cache
+    (reached through cairo's text) is suppressed by library name, nothing else."""
+    with tempfile.TemporaryDirectory(dir=bindir) as tmp:
+        supp = os.path.join(tmp, "lsan.supp")
+        with open(supp, "w") as f:
+            f.write("leak:libfontconfig\n")
+        env = dict(os.environ, LSAN_OPTIONS="suppressions=" + supp)
+        png, svg, bad = (os.path.join(tmp, n) for n in ("p.png", "p.svg", "p.gif"))
+        for out in (png, svg):
+            r = subprocess.run([ulk, "plan", demo, "--mode", "full", "--plot", out], env=env,
+                               capture_output=True, text=True, check=False)
+            if r.returncode != 0:
+                fail("plot %s: exit %d: %s" % (out, r.returncode, r.stderr))
+        data = open(png, "rb").read()
+        if data[:8] != b"\x89PNG\r\n\x1a\n" or data[12:16] != b"IHDR":
+            fail("plot: not a PNG")
+        w, h = struct.unpack(">II", data[16:24])
+        if (w, h) != (1000, 460):
+            fail("plot: PNG is %dx%d" % (w, h))
+        root = ET.parse(svg).getroot()
+        if not root.tag.endswith("svg"):
+            fail("plot: SVG root is %s" % root.tag)
+        r = subprocess.run([ulk, "plan", demo, "--plot", bad], env=env, capture_output=True, text=True, check=False)
+        if r.returncode != 2:
+            fail("plot with a .gif name: exit %d" % r.returncode)
+        left = sorted(n for n in os.listdir(tmp) if n.startswith("p.gif"))
+        if left:
+            fail("plot with a .gif name left %r behind" % left)
+    print("plots: PNG 1000x460 and SVG written; a bad name writes nothing")
 
 
 if __name__ == "__main__":
