@@ -115,7 +115,7 @@ static size_t path_build(const ulk_node *n, char *buf, size_t cap, size_t pos)
     if (!n || !n->parent) return pos;
     pos = path_build(n->parent, buf, cap, pos);
     if (n->parent->kind == ULK_NODE_SEQ) {
-        int w = snprintf(buf + pos, pos < cap ? cap - pos : 0, "[%d]", n->index);
+        int w = snprintf(buf && pos < cap ? buf + pos : NULL, buf && pos < cap ? cap - pos : 0, "[%d]", n->index);
         return pos + (size_t)(w > 0 ? w : 0);
     }
     const char *k = n->key ? n->key : "?";
