@@ -15,6 +15,7 @@
 #include "sim_capture.h"
 #include "ulk/demod.h"
 #include "ulk/error.h"
+#include "ulk/impair.h"
 #include "util.h"
 
 typedef enum { LK_DEMO, LK_NRZM, LK_SQUARE, LK_HIGHK, LK_PILOT, LK_N1, LK_SYMIDLE } link_kind;
@@ -347,6 +348,122 @@ static void words_by_callback(void **state)
     free(sb);
 }
 
+/* ---------------------------------------------------------------- channel simulator */
+
+typedef struct {
+    float *x;
+    size_t n, cap;
+} sink_buf;
+
+static int to_buf(const float *x, size_t n, void *user)
+{
+    sink_buf *b = user;
+    if (b->n + n > b->cap) return ULK_ELIMIT;
+    memcpy(b->x + b->n, x, n * sizeof *x);
+    b->n += n;
+    return 0;
+}
+
+/* Resampling for clock error: a tone at f through impair --ppm X must equal the tone at
+ * f (1 + X 1e-6) sample for sample (away from the edges), error below -60 dB relative to the
+ * tone (the windowed sinc is specified for -70 dB; the tolerance leaves room). */
+static void impair_resamples_a_tone(void **state)
+{
+    (void)state;
+    const double fs = 44100, f = 10000, ppm = 480;
+    const size_t N = 44100;
+    float *in = malloc(N * sizeof *in);
+    for (size_t i = 0; i < N; i++) in[i] = (float)(0.9 * sin(2 * M_PI * f * i / fs));
+    sink_buf b = {malloc(2 * N * sizeof(float)), 0, 2 * N};
+    ulk_impair_config c = {.fs_hz = fs, .ppm = ppm, .delay_s = 0.01};
+    ulk_impair *p;
+    assert_int_equal(ulk_impair_create(&c, to_buf, &b, &p, NULL), 0);
+    for (size_t o = 0; o < N; o += 1000) assert_int_equal(ulk_impair_push(p, in + o, N - o < 1000 ? N - o : 1000), 0);
+    assert_int_equal(ulk_impair_finish(p), 0);
+    size_t lead = 441;
+    assert_int_equal(b.n, lead + (size_t)ceil(N / (1 + ppm * 1e-6) - 1e-9));
+    double err = 0, sig = 0;
+    for (size_t m = 100; m + 100 < b.n - lead; m++) {
+        double want = 0.9 * sin(2 * M_PI * f * (double)m * (1 + ppm * 1e-6) / fs);
+        double e = b.x[lead + m] - want;
+        err += e * e;
+        sig += want * want;
+    }
+    for (size_t m = 0; m < lead; m++) assert_true(b.x[m] == 0.0f); /* no noise asked: silence */
+    double db = 10 * log10(err / sig);
+    if (db > -60 || getenv("ULK_TEST_VERBOSE")) fprintf(stderr, "resampling error %.1f dB\n", db);
+    assert_true(db < -60);
+    ulk_impair_destroy(p);
+    free(in);
+    free(b.x);
+}
+
+/* Noise: sigma from the section 5 definition; same seed, same noise. */
+static void impair_noise_level_and_seed(void **state)
+{
+    (void)state;
+    const size_t N = 200000;
+    float *z = calloc(N, sizeof *z);
+    sink_buf b1 = {malloc(N * sizeof(float)), 0, N}, b2 = {malloc(N * sizeof(float)), 0, N};
+    ulk_impair_config c = {.fs_hz = 48000, .add_noise = 1, .ebn0_db = 10, .pd = 0.405, .bit_rate = 1000, .seed = 42};
+    ulk_impair *p;
+    assert_int_equal(ulk_impair_create(&c, to_buf, &b1, &p, NULL), 0);
+    ulk_impair_push(p, z, N);
+    ulk_impair_finish(p);
+    /* E_b/N_0 = P_d f_s / (2 sigma^2 R_b) -> sigma^2 = 0.405 * 48000 / (2 * 1000 * 10) = 0.972 */
+    assert_true(fabs(ulk_impair_sigma(p) * ulk_impair_sigma(p) - 0.972) < 1e-9);
+    ulk_impair_destroy(p);
+    double v = 0;
+    for (size_t i = 0; i < b1.n; i++) v += (double)b1.x[i] * b1.x[i];
+    v /= (double)b1.n;
+    assert_true(fabs(v / 0.972 - 1) < 0.02);
+    assert_int_equal(ulk_impair_create(&c, to_buf, &b2, &p, NULL), 0);
+    ulk_impair_push(p, z, N);
+    ulk_impair_finish(p);
+    ulk_impair_destroy(p);
+    assert_int_equal(b1.n, b2.n);
+    assert_memory_equal(b1.x, b2.x, b1.n * sizeof(float));
+    free(z);
+    free(b1.x);
+    free(b2.x);
+}
+
+/* The decoder finds the words again after the simulator: clock error, level, DC, inversion. */
+static void impair_then_decode(void **state)
+{
+    (void)state;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    sim_rng r;
+    sim_seed(&r, 12);
+    ulk_word w[4];
+    size_t L, ns;
+    sim_random_words(&r, l.word_bits, w, 4);
+    uint8_t *sb = sim_subbits(&l, w, 4, &L, NULL);
+    sim_cfg c0 = {.fs_hz = 48000, .no_noise = 1};
+    float *x = sim_capture(&l, sb, L, &c0, &ns);
+    sink_buf b = {malloc((ns + 48000) * sizeof(float)), 0, ns + 48000};
+    ulk_impair_config c = {.fs_hz = 48000, .add_noise = 1, .ebn0_db = 12, .pd = 0.405, .bit_rate = 1000,
+                           .seed = 3, .ppm = -420, .delay_s = 0.123, .amplitude = 0.01, .dc = 0.01, .invert = 1};
+    ulk_impair *p;
+    assert_int_equal(ulk_impair_create(&c, to_buf, &b, &p, NULL), 0);
+    ulk_impair_push(p, x, ns);
+    ulk_impair_finish(p);
+    ulk_impair_destroy(p);
+    ulk_demod *d = run_capture(&l, b.x, b.n, 48000);
+    assert_int_equal(ulk_demod_n_words(d), 4);
+    for (int i = 0; i < 4; i++) assert_true(word_eq(&ulk_demod_word_at(d, (size_t)i)->word, &w[i]));
+    assert_int_equal(ulk_demod_word_at(d, 0)->polarity, -1);
+    ulk_demod_estimates e;
+    ulk_demod_get_estimates(d, &e);
+    assert_true(fabs(e.rate_error_ppm + 420) < 10);
+    assert_true(fabs(e.ebn0_db - 12) < 1);
+    ulk_demod_destroy(d);
+    free(x);
+    free(sb);
+    free(b.x);
+}
+
 int main(void)
 {
     struct CMUnitTest t[sizeof rt_cases / sizeof rt_cases[0]];
@@ -364,6 +481,9 @@ int main(void)
         cmocka_unit_test(create_refuses_bad_setup),
         cmocka_unit_test(create_survives_allocation_failure),
         cmocka_unit_test(words_by_callback),
+        cmocka_unit_test(impair_resamples_a_tone),
+        cmocka_unit_test(impair_noise_level_and_seed),
+        cmocka_unit_test(impair_then_decode),
     };
     fails += cmocka_run_group_tests_name("demod_hostile", hostile, NULL, NULL);
     return fails;
