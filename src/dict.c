@@ -110,6 +110,8 @@ typedef struct {
     /* Link fields known to be valid (-1 = broken or missing: dependent rules are skipped). */
     int n_ok, patterns_ok, rb_ok, fsc_ok, amp_ok, vbits, sbits, obits, dbits, check_ok;
     ulk_ratio amp_exact;
+    int ccsds;   /* link profile is ccsds-tc: APIDs, one-octet opcodes, the frame limit */
+    int tc_ok;   /* the tc section is complete and valid (the frame limit can be checked) */
 } bctx;
 
 static void vfinding(bctx *c, ulk_severity sev, ulk_node *n, const char *fmt, va_list ap)
@@ -480,6 +482,163 @@ static int get_amplitude(bctx *c, ulk_node *n, double *out, ulk_ratio *exact, co
     return 1;
 }
 
+/* ---------------------------------------------------------------- link: ccsds-tc */
+
+/* The subcarrier mapping, shared by both profiles' link sections. Returns the frequency
+ * node (NULL when absent). */
+static ulk_node *build_subcarrier(bctx *c, ulk_node *sc)
+{
+    ulk_link *L = &c->d->link;
+    if (!sc || !want_map(c, sc, "link.subcarrier")) return NULL;
+    static const char *const sk[] = {"frequency", "waveform", "amplitude", NULL};
+    static const char *const sr[] = {"frequency", NULL};
+    check_keys(c, sc, "link.subcarrier", sk, sr);
+    ulk_node *fsc_node = ulk_node_get(sc, "frequency");
+    c->fsc_ok = positive_ratio(c, fsc_node, &L->fsc, "subcarrier frequency");
+    ulk_node *wf = ulk_node_get(sc, "waveform");
+    if (wf) {
+        static const char *const w[] = {"sine", "square"};
+        int k = get_choice(c, wf, w, 2, "waveform");
+        if (k >= 0) L->waveform = (ulk_waveform)k;
+    }
+    ulk_node *am = ulk_node_get(sc, "amplitude");
+    c->amp_ok = am ? get_amplitude(c, am, &L->amplitude, &c->amp_exact, "subcarrier amplitude") : 1;
+    return fsc_node;
+}
+
+/* r == 4000 / 2^n for some n in 0..9 (4000 down to 7.8125 bit/s). */
+static int is_usual_tc_rate(ulk_ratio r)
+{
+    for (int n = 0; n <= 9; n++) {
+        ulk_ratio u = ulk_ratio_make(4000, (int64_t)1 << n);
+        if (u.num == r.num && u.den == r.den) return 1;
+    }
+    return 0;
+}
+
+/* The link section of `profile: ccsds-tc` (ccsds-tc-profile.md section 1): channel bit rate
+ * R, line code, subcarrier (f_sc / R whole >= 1) and the tc section. Values outside the
+ * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B,
+ * so they never refuse a dictionary. */
+static void build_link_tc(bctx *c, ulk_node *ln)
+{
+    ulk_link *L = &c->d->link;
+    ulk_tc_params *T = &L->tc;
+    static const char *const keys[] = {"profile", "bit_rate", "line_code", "subcarrier", "tc", NULL};
+    static const char *const req[] = {"profile", "bit_rate", "subcarrier", "tc", NULL};
+    c->ccsds = 1;
+    L->profile = ULK_PROFILE_CCSDS_TC;
+    /* One channel symbol per bit: R_s = R (section 3). */
+    L->n_subbits = 1;
+    L->zero[0] = 0;
+    L->one[0] = 1;
+    check_keys(c, ln, "link (profile ccsds-tc)", keys, req);
+
+    ulk_node *rn = ulk_node_get(ln, "bit_rate");
+    c->rb_ok = positive_ratio(c, rn, &L->bit_rate, "bit_rate");
+    if (c->rb_ok && !is_usual_tc_rate(L->bit_rate))
+        warn(c, rn,
+             "bit rate %s bit/s is not one of the usual telecommand rates 4000/2^n bit/s (n = 0..9: 4000 ... 7.8125; from memory of CCSDS 401.0-B: a warning, not a rule)",
+             rn->text);
+    ulk_node *lc = ulk_node_get(ln, "line_code");
+    if (lc) {
+        static const char *const codes[] = {"nrz-l", "nrz-m"};
+        int k = get_choice(c, lc, codes, 2, "line code");
+        if (k >= 0) L->line_code = (ulk_line_code)k;
+    }
+    ulk_node *sc = ulk_node_get(ln, "subcarrier");
+    ulk_node *fsc_node = build_subcarrier(c, sc);
+    if (c->fsc_ok) {
+        ulk_ratio f8 = ulk_ratio_make(8000, 1), f16 = ulk_ratio_make(16000, 1);
+        int usual = (L->fsc.num == f8.num && L->fsc.den == f8.den) || (L->fsc.num == f16.num && L->fsc.den == f16.den);
+        if (L->waveform != ULK_WAVE_SINE)
+            warn(c, ulk_node_get(sc, "waveform"),
+                 "a square subcarrier is outside the usual telecommand practice of a sine subcarrier (from memory of CCSDS 401.0-B: a warning, not a rule)");
+        if (!usual)
+            warn(c, fsc_node,
+                 "subcarrier frequency %s Hz is outside the usual telecommand practice of 8 kHz or 16 kHz (from memory of CCSDS 401.0-B: a warning, not a rule)",
+                 fsc_node->text);
+    }
+    if (c->rb_ok && c->fsc_ok) {
+        ulk_ratio k;
+        char bf[64], br[64], bk[64];
+        if (ulk_ratio_div(L->fsc, L->bit_rate, &k)) {
+            err(c, fsc_node, "subcarrier frequency and bit rate are too large to relate exactly");
+        } else {
+            ulk_ratio_format(L->fsc, bf, sizeof bf);
+            ulk_ratio_format(L->bit_rate, br, sizeof br);
+            ulk_ratio_format(k, bk, sizeof bk);
+            if (k.den != 1 || k.num < 1)
+                err(c, fsc_node, "subcarrier frequency %s Hz is not a whole multiple of the bit rate R = %s bit/s (f_sc / R = %s; it must be a whole number >= 1)",
+                    bf, br, bk);
+            else if (k.num < 2)
+                warn(c, fsc_node, "subcarrier frequency %s Hz is below 2 * R = 2 * %s Hz: the data sidebands overlap the carrier", bf, br);
+        }
+    }
+
+    ulk_node *tn = ulk_node_get(ln, "tc");
+    if (!tn || !want_map(c, tn, "link.tc")) return;
+    static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence",
+                                     "segment_header", "fecf", "randomize", "acquisition_octets",
+                                     "idle_octets", "start_errors", "correction", NULL};
+    static const char *const tr[] = {"spacecraft_id", "virtual_channel", "service", NULL};
+    check_keys(c, tn, "link.tc", tk, tr);
+    ulk_ccsds_tc_default(&T->frame);
+    T->acquisition_octets = 16;
+    T->idle_octets = 1;
+    size_t errs = ulk_diag_errors(c->diag);
+    int complete = ulk_node_get(tn, "spacecraft_id") && ulk_node_get(tn, "virtual_channel") && ulk_node_get(tn, "service");
+    int64_t v;
+    ulk_node *n;
+    if ((n = ulk_node_get(tn, "spacecraft_id")) && get_int(c, n, 0, ULK_TCF_MAX_SCID, &v, "spacecraft_id (SCID, 10 bits)"))
+        T->frame.spacecraft_id = (uint16_t)v;
+    if ((n = ulk_node_get(tn, "virtual_channel")) && get_int(c, n, 0, ULK_TCF_MAX_VCID, &v, "virtual_channel (VCID, 6 bits)"))
+        T->frame.virtual_channel = (uint8_t)v;
+    if ((n = ulk_node_get(tn, "service"))) {
+        static const char *const sv[] = {"expedited", "sequence-controlled"};
+        int k = get_choice(c, n, sv, 2, "service");
+        if (k >= 0) T->frame.service = (ulk_tc_service)k;
+    }
+    if ((n = ulk_node_get(tn, "first_sequence")) && get_int(c, n, 0, 255, &v, "first_sequence (N(S), 8 bits)")) {
+        T->first_sequence = (uint8_t)v;
+        if (v != 0 && T->frame.service == ULK_TC_EXPEDITED)
+            warn(c, n, "first_sequence %lld has no effect with service expedited (N(S) is 0 in Type-BD frames)",
+                 (long long)v);
+    }
+    if ((n = ulk_node_get(tn, "segment_header")) && want_map(c, n, "link.tc.segment_header")) {
+        static const char *const mk[] = {"map_id", NULL};
+        check_keys(c, n, "link.tc.segment_header", mk, mk);
+        ulk_node *mn = ulk_node_get(n, "map_id");
+        if (mn && get_int(c, mn, 0, ULK_TCF_MAX_MAP_ID, &v, "map_id (MAP ID, 6 bits)")) {
+            T->frame.segment_header = 1;
+            T->frame.map_id = (uint8_t)v;
+        }
+    }
+    if ((n = ulk_node_get(tn, "fecf"))) get_bool(c, n, &T->frame.fecf);
+    if ((n = ulk_node_get(tn, "randomize"))) get_bool(c, n, &T->frame.randomize);
+    /* 10^8 octets is over two days at 4 kbit/s: beyond it is a typing error. */
+    if ((n = ulk_node_get(tn, "acquisition_octets")) && get_int(c, n, 0, 100000000, &v, "acquisition_octets")) {
+        T->acquisition_octets = (uint32_t)v;
+        if (v < 16)
+            warn(c, n, "acquisition sequence of %lld octets is short (< 16): the decoder may not acquire the signal before the first CLTU",
+                 (long long)v);
+    }
+    if ((n = ulk_node_get(tn, "idle_octets")) && get_int(c, n, 0, 100000000, &v, "idle_octets"))
+        T->idle_octets = (uint32_t)v;
+    if ((n = ulk_node_get(tn, "start_errors")) && get_int(c, n, 0, 1, &v, "start_errors (start-sequence bit errors tolerated)"))
+        T->frame.start_errors = (int)v;
+    if ((n = ulk_node_get(tn, "correction"))) {
+        static const char *const cm[] = {"sec", "ted"};
+        int k = get_choice(c, n, cm, 2, "correction mode");
+        if (k >= 0) T->frame.correction = (ulk_bch_mode)k;
+    }
+    char why[160];
+    if (complete && ulk_diag_errors(c->diag) == errs) {
+        if (ulk_ccsds_tc_check(&T->frame, why, sizeof why) == 0) c->tc_ok = 1;
+        else err(c, tn, "tc section: %s", why);
+    }
+}
+
 static void build_link(bctx *c, ulk_node *ln)
 {
     ulk_link *L = &c->d->link;
@@ -495,7 +654,7 @@ static void build_link(bctx *c, ulk_node *ln)
         static const char *const prof[] = {"subbit", "ccsds-tc"};
         int p = get_choice(c, pn, prof, 2, "link profile");
         if (p == 1) {
-            err(c, pn, "link profile 'ccsds-tc' is not supported by this build (only 'subbit')");
+            build_link_tc(c, ln);
             return;
         }
         if (p < 0) return;
@@ -514,23 +673,7 @@ static void build_link(bctx *c, ulk_node *ln)
         if (k >= 0) L->line_code = (ulk_line_code)k;
     }
 
-    ulk_node *sc = ulk_node_get(ln, "subcarrier");
-    ulk_node *fsc_node = NULL;
-    if (sc && want_map(c, sc, "link.subcarrier")) {
-        static const char *const sk[] = {"frequency", "waveform", "amplitude", NULL};
-        static const char *const sr[] = {"frequency", NULL};
-        check_keys(c, sc, "link.subcarrier", sk, sr);
-        fsc_node = ulk_node_get(sc, "frequency");
-        c->fsc_ok = positive_ratio(c, fsc_node, &L->fsc, "subcarrier frequency");
-        ulk_node *wf = ulk_node_get(sc, "waveform");
-        if (wf) {
-            static const char *const w[] = {"sine", "square"};
-            int k = get_choice(c, wf, w, 2, "waveform");
-            if (k >= 0) L->waveform = (ulk_waveform)k;
-        }
-        ulk_node *am = ulk_node_get(sc, "amplitude");
-        c->amp_ok = am ? get_amplitude(c, am, &L->amplitude, &c->amp_exact, "subcarrier amplitude") : 1;
-    }
+    ulk_node *fsc_node = build_subcarrier(c, ulk_node_get(ln, "subcarrier"));
 
     ulk_node *pl = ulk_node_get(ln, "pilot");
     ulk_node *fp_node = NULL, *ap_node = NULL;
@@ -702,7 +845,17 @@ static void build_systems(bctx *c, ulk_node *sn)
         }
         ulk_node *an = ulk_node_get(s, "address");
         int64_t v;
-        if (an && get_int(c, an, 0, INT64_MAX, &v, "system address")) {
+        if (an && c->ccsds) {
+            /* The address is the APID: 11 bits, 0x7FF being the idle packets' (CCSDS 133.0-B). */
+            if (get_int(c, an, 0, INT64_MAX, &v, "system address (APID)")) {
+                if (v == ULK_SPP_APID_IDLE)
+                    err(c, an, "APID 0x7FF is reserved for idle packets: a system cannot have it");
+                else if (v > ULK_SPP_MAX_APID)
+                    err(c, an, "APID %lld does not fit in 11 bits (0..0x7FE)", (long long)v);
+                else
+                    y->address = (uint32_t)v;
+            }
+        } else if (an && get_int(c, an, 0, INT64_MAX, &v, "system address")) {
             if (c->sbits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->sbits))
                 err(c, an, "system address %lld does not fit in system_address_bits = %d (must be below %llu)",
                     (long long)v, c->sbits, (unsigned long long)1 << c->sbits);
@@ -735,11 +888,13 @@ static void build_systems(bctx *c, ulk_node *sn)
         if (a > 0xFFFF) continue;
         ulk_node *an = ulk_node_get(sn->items[i], "address");
         if (first[a] >= 0) {
-            err(c, an, "duplicate system address %u: '%s' has it too (line %d)", a,
+            err(c, an, "duplicate system %s %u: '%s' has it too (line %d)", c->ccsds ? "address (APID)" : "address", a,
                 d->systems[first[a]].name ? d->systems[first[a]].name : "?", d->systems[first[a]].loc.line);
             continue;
         }
-        for (int b = 0; b < 16; b++) {
+        /* In ccsds-tc the APID travels under the FECF and BCH code: a single error never
+         * turns one system's packet into another's, so the warning does not apply. */
+        for (int b = 0; b < 16 && !c->ccsds; b++) {
             uint32_t o = a ^ (1u << b);
             if (first[o] >= 0)
                 warn(c, an, "system addresses of '%s' (0x%X) and '%s' (0x%X) differ in one bit (Hamming distance 1): one bit error turns a word for one into a word for the other",
@@ -1140,7 +1295,9 @@ static void build_commands(bctx *c, ulk_node *cn)
         }
         int64_t v;
         if ((n = ulk_node_get(m, "opcode")) && get_int(c, n, 0, INT64_MAX, &v, "opcode")) {
-            if (c->obits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->obits))
+            if (c->ccsds && v > 255)
+                err(c, n, "opcode %lld does not fit in the one octet of a ccsds-tc packet (0..255)", (long long)v);
+            else if (c->obits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->obits))
                 err(c, n, "opcode %lld does not fit in opcode_bits = %d (must be below %llu)", (long long)v, c->obits,
                     (unsigned long long)1 << c->obits);
             else if (v > 0xFFFF)
@@ -1177,6 +1334,16 @@ static void build_commands(bctx *c, ulk_node *cn)
             }
             if (all_bits && c->dbits >= 0 && k->packed_bits > c->dbits)
                 err(c, args, "arguments take %d bits, more than argument_bits D = %d", k->packed_bits, c->dbits);
+            if (all_bits && c->tc_ok) {
+                /* One packet in one frame: opcode octet + arguments to whole octets. */
+                const ulk_ccsds_tc *tc = &d->link.tc.frame;
+                size_t data = 1 + ((size_t)k->packed_bits + 7) / 8;
+                if (data > ulk_ccsds_max_data_octets(tc))
+                    err(c, args,
+                        "arguments take %d bits: the packet data field would be %zu octets and the TC frame %zu octets, over the %d-octet limit of a frame (at most %zu data octets here)",
+                        k->packed_bits, data, ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + data), ULK_TCF_MAX_OCTETS,
+                        ulk_ccsds_max_data_octets(tc));
+            }
         }
     }
     ulk_free(sys);
@@ -1370,6 +1537,64 @@ static int enum_label_cmp(const void *x, const void *y)
     return strcmp((*(const ulk_enum_value *const *)x)->label, (*(const ulk_enum_value *const *)y)->label);
 }
 
+/* The link object of the canonical form (docs/dictionary.md section 6), keys in byte order. */
+static void canonical_link_subbit(sbuf *b, const ulk_link *L)
+{
+    sb_puts(b, "{\"bit_rate\":");
+    sb_ratio(b, L->bit_rate);
+    sb_puts(b, ",\"framing\":{");
+    sb_printf(b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
+    sb_puts(b, ",\"line_code\":");
+    sb_str(b, ulk_line_code_name(L->line_code));
+    if (L->has_pilot) {
+        sb_puts(b, ",\"pilot\":{\"amplitude\":");
+        sb_double(b, L->pilot_amplitude);
+        sb_puts(b, ",\"frequency\":");
+        sb_ratio(b, L->fp);
+        sb_puts(b, "}");
+    }
+    sb_puts(b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
+    sb_pattern(b, L->idle, L->n_subbits);
+    sb_puts(b, ",\"one\":");
+    sb_pattern(b, L->one, L->n_subbits);
+    sb_puts(b, ",\"zero\":");
+    sb_pattern(b, L->zero, L->n_subbits);
+    sb_puts(b, "},\"subcarrier\":{\"amplitude\":");
+    sb_double(b, L->amplitude);
+    sb_puts(b, ",\"frequency\":");
+    sb_ratio(b, L->fsc);
+    sb_puts(b, ",\"waveform\":");
+    sb_str(b, ulk_waveform_name(L->waveform));
+    sb_puts(b, "},\"word\":{\"argument_bits\":");
+    sb_printf(b, "%d,\"check\":", L->argument_bits);
+    sb_str(b, ulk_check_name(L->check));
+    sb_printf(b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
+              L->opcode_bits, L->system_bits, L->vehicle_bits, L->vehicle_value);
+}
+
+static void canonical_link_tc(sbuf *b, const ulk_link *L)
+{
+    const ulk_tc_params *T = &L->tc;
+    sb_puts(b, "{\"bit_rate\":");
+    sb_ratio(b, L->bit_rate);
+    sb_puts(b, ",\"line_code\":");
+    sb_str(b, ulk_line_code_name(L->line_code));
+    sb_puts(b, ",\"profile\":\"ccsds-tc\",\"subcarrier\":{\"amplitude\":");
+    sb_double(b, L->amplitude);
+    sb_puts(b, ",\"frequency\":");
+    sb_ratio(b, L->fsc);
+    sb_puts(b, ",\"waveform\":");
+    sb_str(b, ulk_waveform_name(L->waveform));
+    sb_printf(b, "},\"tc\":{\"acquisition_octets\":%u,\"correction\":\"%s\",\"fecf\":%s,\"first_sequence\":%u",
+              T->acquisition_octets, T->frame.correction == ULK_BCH_TED ? "ted" : "sec",
+              T->frame.fecf ? "true" : "false", T->first_sequence);
+    sb_printf(b, ",\"idle_octets\":%u,\"randomize\":%s", T->idle_octets, T->frame.randomize ? "true" : "false");
+    if (T->frame.segment_header) sb_printf(b, ",\"segment_header\":{\"map_id\":%u}", T->frame.map_id);
+    sb_printf(b, ",\"service\":\"%s\",\"spacecraft_id\":%u,\"start_errors\":%d,\"virtual_channel\":%u}}",
+              T->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited",
+              T->frame.spacecraft_id, T->frame.start_errors, T->frame.virtual_channel);
+}
+
 int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
 {
     *out = NULL;
@@ -1444,36 +1669,9 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
     sb_str(&b, d->name);
     sb_puts(&b, ",\"version\":");
     sb_str(&b, d->version);
-    sb_puts(&b, "},\"link\":{\"bit_rate\":");
-    sb_ratio(&b, L->bit_rate);
-    sb_puts(&b, ",\"framing\":{");
-    sb_printf(&b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
-    sb_puts(&b, ",\"line_code\":");
-    sb_str(&b, ulk_line_code_name(L->line_code));
-    if (L->has_pilot) {
-        sb_puts(&b, ",\"pilot\":{\"amplitude\":");
-        sb_double(&b, L->pilot_amplitude);
-        sb_puts(&b, ",\"frequency\":");
-        sb_ratio(&b, L->fp);
-        sb_puts(&b, "}");
-    }
-    sb_puts(&b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
-    sb_pattern(&b, L->idle, L->n_subbits);
-    sb_puts(&b, ",\"one\":");
-    sb_pattern(&b, L->one, L->n_subbits);
-    sb_puts(&b, ",\"zero\":");
-    sb_pattern(&b, L->zero, L->n_subbits);
-    sb_puts(&b, "},\"subcarrier\":{\"amplitude\":");
-    sb_double(&b, L->amplitude);
-    sb_puts(&b, ",\"frequency\":");
-    sb_ratio(&b, L->fsc);
-    sb_puts(&b, ",\"waveform\":");
-    sb_str(&b, ulk_waveform_name(L->waveform));
-    sb_puts(&b, "},\"word\":{\"argument_bits\":");
-    sb_printf(&b, "%d,\"check\":", L->argument_bits);
-    sb_str(&b, ulk_check_name(L->check));
-    sb_printf(&b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
-              L->opcode_bits, L->system_bits, L->vehicle_bits, L->vehicle_value);
+    sb_puts(&b, "},\"link\":");
+    if (L->profile == ULK_PROFILE_CCSDS_TC) canonical_link_tc(&b, L);
+    else canonical_link_subbit(&b, L);
     sb_puts(&b, ",\"systems\":[");
     for (int i = 0; i < d->n_systems; i++) {
         sb_printf(&b, "%s{\"address\":%u,\"name\":", i ? "," : "", d->systems[i].address);

@@ -9,6 +9,8 @@
 
 #include <stdint.h>
 
+#include "ulk/ccsds.h"
+
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -46,7 +48,22 @@ typedef enum {
 #define ULK_MAX_SUBBITS 16
 #define ULK_MAX_WORD_BITS 128 /* 16 + 16 + 16 + 64 + 16 */
 
-/* The sub-bit profile of shared/design/subbit-profile.md section 1. */
+/* The `tc` section of the CCSDS telecommand profile (ccsds-tc-profile.md section 1). The
+ * frame, coding and decoder choices are the bit layer's own configuration (ulk/ccsds.h);
+ * the rest says how the channel stream is laid out (section 3). */
+typedef struct {
+    ulk_ccsds_tc frame;          /* SCID, VCID, service, segment header/MAP ID, FECF, randomizer,
+                                    start_errors, correction */
+    uint8_t first_sequence;      /* N(S) of the first Type-AD frame of an upload, 0..255 */
+    uint32_t acquisition_octets; /* acquisition sequence before the first CLTU, octets */
+    uint32_t idle_octets;        /* idle sequence between CLTUs and after the last, octets */
+} ulk_tc_params;
+
+/* The parameters of a link: the sub-bit profile of shared/design/subbit-profile.md section 1,
+ * or (profile == ULK_PROFILE_CCSDS_TC) the CCSDS telecommand profile of
+ * ccsds-tc-profile.md. A ccsds-tc link uses bit_rate (R, the channel bit rate), line_code,
+ * the subcarrier fields and tc; it has n_subbits 1 with zero {0} and one {1} (one channel
+ * symbol per bit, R_s = R) and leaves idle, pilot, framing and word fields 0. */
 typedef struct {
     ulk_profile profile;
     ulk_ratio bit_rate;        /* R_b, bit/s */
@@ -70,6 +87,7 @@ typedef struct {
     ulk_check_kind check;
     int check_bits;            /* C */
     int word_bits;             /* W = A_v + A_s + O_b + D + C */
+    ulk_tc_params tc;          /* ccsds-tc only (all 0 for the sub-bit profile) */
 } ulk_link;
 
 /* Number of check bits of a check kind (0, 1, 8, 16). */
@@ -78,7 +96,7 @@ const char *ulk_check_name(ulk_check_kind k);   /* "none", "parity-even", ... */
 const char *ulk_line_code_name(ulk_line_code c); /* "nrz-l", "nrz-m" */
 const char *ulk_waveform_name(ulk_waveform w);   /* "sine", "square" */
 
-/* R_s = n * R_b. */
+/* R_s = n * R_b (for ccsds-tc, n = 1: R_s = R). */
 ulk_ratio ulk_link_subbit_rate(const ulk_link *l);
 
 #ifdef __cplusplus

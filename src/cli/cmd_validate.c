@@ -12,6 +12,7 @@
 #include <cjson/cJSON.h>
 
 #include "cli.h"
+#include "ulk/ccsds.h"
 #include "ulk/dict.h"
 #include "ulk/error.h"
 
@@ -25,7 +26,9 @@ static void usage(FILE *out)
             "  FILE:LINE:COL: error|warning: MESSAGE [TREE.PATH]\n"
             "followed by a summary of each dictionary that loaded: name and version, systems,\n"
             "commands, word length W, word duration W/R_b, sub-bit rate R_s, k = f_sc/R_s,\n"
-            "critical commands and the SHA-256 of its canonical content.\n"
+            "critical commands and the SHA-256 of its canonical content. For a ccsds-tc dictionary\n"
+            "the summary gives the frame choices (SCID, VCID, service, segment header, FECF,\n"
+            "randomizer), the smallest and largest command frame and CLTU, and k = f_sc / R.\n"
             "\n"
             "options:\n"
             "  --json      one JSON document on stdout: findings and summaries\n"
@@ -66,8 +69,73 @@ static int n_critical(const ulk_dict *d)
     return n;
 }
 
+/* ccsds-tc: the largest command's frame and CLTU (one packet per frame, one frame per CLTU). */
+typedef struct {
+    size_t min_frame, max_frame, max_cltu;
+    const char *max_mnemonic;
+    char cltu_txt[64];
+} tc_figures;
+
+static void compute_tc(const ulk_dict *d, tc_figures *t)
+{
+    memset(t, 0, sizeof *t);
+    const ulk_ccsds_tc *tc = &d->link.tc.frame;
+    for (int i = 0; i < d->n_commands; i++) {
+        size_t data = 1 + ((size_t)d->commands[i].packed_bits + 7) / 8;
+        size_t fr = ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + data);
+        if (!t->min_frame || fr < t->min_frame) t->min_frame = fr;
+        if (fr > t->max_frame) {
+            t->max_frame = fr;
+            t->max_mnemonic = d->commands[i].mnemonic;
+        }
+    }
+    t->max_cltu = ulk_cltu_octets(t->max_frame);
+    ulk_ratio s;
+    if (ulk_ratio_div(ulk_ratio_make((int64_t)t->max_cltu * 8, 1), d->link.bit_rate, &s) == 0)
+        ulk_ratio_format(s, t->cltu_txt, sizeof t->cltu_txt);
+}
+
+static void print_summary_tc(const ulk_dict *d, FILE *out)
+{
+    figures f;
+    tc_figures t;
+    compute(d, &f);
+    compute_tc(d, &t);
+    const ulk_link *L = &d->link;
+    const ulk_tc_params *T = &L->tc;
+    fprintf(out, "%s: dictionary %s version %s\n", d->file, d->name, d->version);
+    fprintf(out, "  profile:        ccsds-tc (one Space Packet per TC frame per CLTU)\n");
+    fprintf(out, "  systems:        %d (APIDs)\n", d->n_systems);
+    fprintf(out, "  commands:       %d (%d critical)\n", d->n_commands, n_critical(d));
+    fprintf(out, "  frames:         SCID %u, VCID %u, ", T->frame.spacecraft_id, T->frame.virtual_channel);
+    if (T->frame.service == ULK_TC_SEQUENCE_CONTROLLED)
+        fprintf(out, "sequence-controlled (Type-AD, first N(S) %u)", T->first_sequence);
+    else
+        fprintf(out, "expedited (Type-BD)");
+    if (T->frame.segment_header) fprintf(out, ", segment header MAP ID %u", T->frame.map_id);
+    else fprintf(out, ", no segment header");
+    fprintf(out, ", FECF %s, randomizer %s\n", T->frame.fecf ? "on" : "off", T->frame.randomize ? "on" : "off");
+    fprintf(out, "  frame size:     %zu..%zu octets (largest: %s), CLTU up to %zu octets = %s s at R\n", t.min_frame,
+            t.max_frame, t.max_mnemonic ? t.max_mnemonic : "?", t.max_cltu, t.cltu_txt);
+    fprintf(out, "  channel:        acquisition %u octets, idle %u octets, start sequence errors tolerated %d, BCH %s\n",
+            T->acquisition_octets, T->idle_octets, T->frame.start_errors,
+            T->frame.correction == ULK_BCH_TED ? "ted (detection only)" : "sec (single error correction)");
+    fprintf(out, "  bit rate:       R = R_s = %s bit/s (%s)\n", f.rb_txt, ulk_line_code_name(L->line_code));
+    fprintf(out, "  subcarrier:     k = f_sc / R = %s (%s)\n", f.k_ok ? f.k_txt : "?", ulk_waveform_name(L->waveform));
+    fprintf(out, "  critical:      ");
+    int any = 0;
+    for (int i = 0; i < d->n_commands; i++)
+        if (d->commands[i].critical) { fprintf(out, " %s", d->commands[i].mnemonic); any = 1; }
+    fprintf(out, "%s\n", any ? "" : " (none)");
+    fprintf(out, "  sha256:         %s\n", d->sha256);
+}
+
 static void print_summary(const ulk_dict *d, FILE *out)
 {
+    if (d->link.profile == ULK_PROFILE_CCSDS_TC) {
+        print_summary_tc(d, out);
+        return;
+    }
     figures f;
     compute(d, &f);
     const ulk_link *L = &d->link;
@@ -96,8 +164,40 @@ static cJSON *summary_json(const ulk_dict *d)
     cJSON *s = cJSON_CreateObject();
     cJSON_AddStringToObject(s, "name", d->name);
     cJSON_AddStringToObject(s, "version", d->version);
+    cJSON_AddStringToObject(s, "profile", L->profile == ULK_PROFILE_CCSDS_TC ? "ccsds-tc" : "subbit");
     cJSON_AddNumberToObject(s, "systems", d->n_systems);
     cJSON_AddNumberToObject(s, "commands", d->n_commands);
+    if (L->profile == ULK_PROFILE_CCSDS_TC) {
+        const ulk_tc_params *T = &L->tc;
+        tc_figures t;
+        compute_tc(d, &t);
+        cJSON *tc = cJSON_AddObjectToObject(s, "tc");
+        cJSON_AddNumberToObject(tc, "spacecraft_id", T->frame.spacecraft_id);
+        cJSON_AddNumberToObject(tc, "virtual_channel", T->frame.virtual_channel);
+        cJSON_AddStringToObject(tc, "service", T->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited");
+        cJSON_AddNumberToObject(tc, "first_sequence", T->first_sequence);
+        if (T->frame.segment_header) cJSON_AddNumberToObject(tc, "map_id", T->frame.map_id);
+        else cJSON_AddNullToObject(tc, "map_id");
+        cJSON_AddBoolToObject(tc, "fecf", T->frame.fecf);
+        cJSON_AddBoolToObject(tc, "randomize", T->frame.randomize);
+        cJSON_AddNumberToObject(tc, "acquisition_octets", T->acquisition_octets);
+        cJSON_AddNumberToObject(tc, "idle_octets", T->idle_octets);
+        cJSON_AddNumberToObject(tc, "start_errors", T->frame.start_errors);
+        cJSON_AddStringToObject(tc, "correction", T->frame.correction == ULK_BCH_TED ? "ted" : "sec");
+        cJSON_AddNumberToObject(s, "min_frame_octets", (double)t.min_frame);
+        cJSON_AddNumberToObject(s, "max_frame_octets", (double)t.max_frame);
+        cJSON_AddNumberToObject(s, "max_cltu_octets", (double)t.max_cltu);
+        cJSON_AddNumberToObject(s, "bit_rate", ulk_ratio_to_double(L->bit_rate));
+        if (f.k_ok) {
+            cJSON_AddNumberToObject(s, "subcarrier_k", ulk_ratio_to_double(f.k));
+            cJSON_AddStringToObject(s, "subcarrier_k_exact", f.k_txt);
+        }
+        cJSON *crit = cJSON_AddArrayToObject(s, "critical");
+        for (int i = 0; i < d->n_commands; i++)
+            if (d->commands[i].critical) cJSON_AddItemToArray(crit, cJSON_CreateString(d->commands[i].mnemonic));
+        cJSON_AddStringToObject(s, "sha256", d->sha256);
+        return s;
+    }
     cJSON_AddNumberToObject(s, "word_bits", L->word_bits);
     cJSON_AddNumberToObject(s, "word_duration_s", f.word_s);
     cJSON_AddStringToObject(s, "word_duration_exact_s", f.word_txt);
