@@ -11,7 +11,7 @@
  * reports as rate_error_ppm). Interpolation is a 32-tap Blackman-windowed sinc with 512
  * fractional phases, linearly interpolated between phases (measured -93 dB error on a tone
  * at 0.23 f_s; chosen over cubic interpolation, whose error near 0.25 f_s is about -40 dB
- * and would add its own noise floor at high E_b/N_0).
+ * (from memory) and would add its own noise floor at high E_b/N_0).
  */
 #ifndef ULK_IMPAIR_H
 #define ULK_IMPAIR_H
