@@ -138,6 +138,15 @@ int ulk_mod_check_rate(const ulk_link *l, ulk_ratio fs, ulk_ratio *lowest, ulk_d
         if (ratio_cmp(lp, lo) > 0) { lo = lp; why = "2.5 x pilot frequency"; }
     }
     if (lowest) *lowest = lo;
+    ulk_ratio hi = {ULK_MOD_MAX_RATE_HZ, 1};
+    if (ratio_cmp(fs, hi) > 0) {
+        char a[64];
+        ulk_ratio_format(fs, a, sizeof a);
+        return ulk_fail(diag, ULK_ELIMIT,
+                        "sample rate %s Hz is above the highest this tool writes, %d Hz (a mistyped rate "
+                        "would start an enormous file)",
+                        a, ULK_MOD_MAX_RATE_HZ);
+    }
     if (ratio_cmp(fs, lo) < 0) {
         char a[64], b[64], c[64], d[64];
         ulk_ratio_format(fs, a, sizeof a);

@@ -230,6 +230,8 @@ oom:
     return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", w->path);
 }
 
+const char *ulk_writer_temp_path(const ulk_writer *w) { return w ? w->tmp : NULL; }
+
 int ulk_writer_annotate(ulk_writer *w, uint64_t sample_start, uint64_t sample_count, const char *label,
                         const char *comment)
 {
@@ -276,11 +278,16 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     if (efmt >= 0 && efmt != (int)info->format)
         return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but %s was asked for", path,
                         efmt == ULK_FMT_F32 ? "f32" : "s16", info->format == ULK_FMT_F32 ? "f32" : "s16");
-    if (cont == ULK_CONTAINER_WAV && (info->fs_hz != floor(info->fs_hz) || info->fs_hz > INT_MAX))
+    if (cont == ULK_CONTAINER_WAV && info->fs_hz != floor(info->fs_hz))
         return ulk_fail(diag, ULK_EINVAL,
                         "%s: WAV holds whole-number sample rates only (asked for %.17g Hz); write raw .f32 or "
                         ".s16 samples with SigMF metadata instead",
                         path, info->fs_hz);
+    if (cont == ULK_CONTAINER_WAV && info->fs_hz > INT_MAX)
+        return ulk_fail(diag, ULK_EINVAL,
+                        "%s: WAV (as libsndfile writes it) holds sample rates up to %d Hz, not %.17g Hz; write "
+                        "raw .f32 or .s16 samples with SigMF metadata instead",
+                        path, INT_MAX, info->fs_hz);
 
     ulk_writer *w = ulk_calloc(1, sizeof *w);
     if (!w) return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);

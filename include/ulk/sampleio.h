@@ -55,6 +55,10 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n);
 int ulk_writer_commit(ulk_writer *w, ulk_diag *diag);
 /* Abandons: closes and removes the temporary files. NULL does nothing. */
 void ulk_writer_abort(ulk_writer *w);
+/* The temporary file the data goes to before the commit (NULL when writing a device or pipe
+ * directly, or for NULL w); owned by w. A program's signal handler may unlink() it, so that
+ * an interrupted run leaves nothing behind. */
+const char *ulk_writer_temp_path(const ulk_writer *w);
 /* Records a SigMF annotation (core:sample_start, core:sample_count, core:label, core:comment;
  * label/comment may be NULL) in a raw file's metadata; WAV keeps none (returns 0). Returns 0,
  * ULK_EINVAL for NULL w, ULK_ENOMEM, or the sticky error. */

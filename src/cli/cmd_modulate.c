@@ -3,11 +3,14 @@
  * section 6. Exit 0 written; 1 refused (rate too low, 16-bit output would clip, upload
  * refused); 2 usage or I/O error. Nothing is left behind on failure. */
 #include <cjson/cJSON.h>
+#include <limits.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
 #include <sys/stat.h>
+#include <sys/statvfs.h>
 #include <time.h>
 #include <unistd.h>
 
@@ -58,6 +61,47 @@ static double now_s(void)
     struct timespec ts;
     clock_gettime(CLOCK_MONOTONIC, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* Temporary files of this run, for the signal handler: an interrupted run (Ctrl-C, kill,
+ * hang-up) removes them before it dies, so nothing is left behind. Plain arrays: the handler
+ * may only call async-signal-safe functions (unlink, signal, raise). */
+static char g_tmp[2][4096];
+
+static void on_fatal_signal(int sig)
+{
+    for (int k = 0; k < 2; k++)
+        if (g_tmp[k][0]) unlink(g_tmp[k]);
+    signal(sig, SIG_DFL);
+    raise(sig);
+}
+
+static void track_tmp(int k, const char *path)
+{
+    if (path && strlen(path) < sizeof g_tmp[k]) strcpy(g_tmp[k], path);
+    else g_tmp[k][0] = 0;
+}
+
+/* Free bytes in the folder that will hold path, or -1 when it cannot be told. */
+static double free_bytes_for(const char *path)
+{
+    char dir[4096];
+    const char *slash = strrchr(path, '/');
+    if (!slash) snprintf(dir, sizeof dir, ".");
+    else if (slash == path) snprintf(dir, sizeof dir, "/");
+    else snprintf(dir, sizeof dir, "%.*s", (int)(slash - path), path);
+    struct statvfs vs;
+    if (statvfs(dir, &vs) != 0 || vs.f_blocks == 0) return -1; /* /proc and the like: no size */
+    return (double)vs.f_bavail * (double)vs.f_frsize;
+}
+
+/* "4.4 MB", "1.2 GB": sizes for people. */
+static void human_bytes(double b, char *buf, size_t len)
+{
+    static const char *u[] = {"bytes", "kB", "MB", "GB", "TB", "PB"};
+    int k = 0;
+    while (b >= 1000 && k < 5) { b /= 1000; k++; }
+    snprintf(buf, len, k ? "%.1f %s" : "%.0f %s", b, u[k]);
 }
 
 /* The upload's identity and link as "ulk:" SigMF fields (object members without braces).
@@ -191,8 +235,25 @@ int cmd_modulate(int argc, char **argv)
         }
     }
 
+    if (out_path && cont == ULK_CONTAINER_WAV && (fs.den != 1 || fs.num > INT_MAX)) {
+        char r[64];
+        ulk_ratio_format(fs, r, sizeof r);
+        fprintf(stderr,
+                "ulk modulate: %s: WAV %s, not %s Hz; write raw .f32 or .s16 samples with SigMF metadata "
+                "instead\n",
+                out_path, fs.den != 1 ? "holds whole-number sample rates only" : "(as libsndfile writes it) holds sample rates up to 2147483647 Hz",
+                r);
+        return 2;
+    }
+
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
+    /* a file-size limit makes writes fail (EFBIG, reported) instead of killing the run;
+     * interruptions remove this run's temporary files */
+    signal(SIGXFSZ, SIG_IGN);
+    signal(SIGINT, on_fatal_signal);
+    signal(SIGTERM, on_fatal_signal);
+    signal(SIGHUP, on_fatal_signal);
     ulk_upload *up = NULL;
     ulk_mod *mod = NULL;
     ulk_writer *w = NULL;
@@ -219,6 +280,7 @@ int cmd_modulate(int argc, char **argv)
         rc = ulk_afile_open(&tf, timing_path, diag);
         if (rc == 0) {
             have_tf = 1;
+            track_tmp(1, tf.tmp);
             rc = ulk_timing_write_fp(up, fs, tf.fp, timing_path, diag);
         }
         if (rc < 0) { code = exit_for(rc); goto fail; }
@@ -232,6 +294,20 @@ int cmd_modulate(int argc, char **argv)
         rc = ulk_mod_create(&cfg, &mod, diag);
         if (rc < 0) { code = exit_for(rc); goto fail; }
         n_samples = ulk_mod_n_samples(mod);
+        /* a size the folder cannot hold is refused before anything is created */
+        struct stat ost;
+        int regular = stat(out_path, &ost) != 0 || S_ISREG(ost.st_mode);
+        double need = (double)n_samples * (fmt == ULK_FMT_S16 ? 2.0 : 4.0) + 65536.0;
+        double avail = regular ? free_bytes_for(out_path) : -1;
+        if (avail >= 0 && need > avail) {
+            char hn[32], ha[32];
+            human_bytes(need, hn, sizeof hn);
+            human_bytes(avail, ha, sizeof ha);
+            rc = ulk_fail(diag, ULK_ELIMIT, "%s: %llu samples at %s Hz need %s but the folder has %s free",
+                          out_path, (unsigned long long)n_samples, rate_norm, hn, ha);
+            code = 1;
+            goto fail;
+        }
         ulk_ratio rs = ulk_link_subbit_rate(&up->link);
         char desc[512];
         snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu words", up_path,
@@ -253,6 +329,7 @@ int cmd_modulate(int argc, char **argv)
         info.fs_exact = rate_norm;
         rc = ulk_writer_open(out_path, &info, &w, diag);
         if (rc < 0) { code = exit_for(rc); goto fail; }
+        track_tmp(0, ulk_writer_temp_path(w));
         rc = annotate_words(w, up, fs);
         if (rc < 0) { ulk_fail(diag, rc, "%s: out of memory", out_path); code = 2; goto fail; }
 
@@ -274,11 +351,13 @@ int cmd_modulate(int argc, char **argv)
         if (show) fprintf(stderr, "\r%60s\r", "");
         rc = ulk_writer_commit(w, diag);
         w = NULL;
+        g_tmp[0][0] = 0;
         if (rc < 0) { code = exit_for(rc); goto fail; }
     }
     if (have_tf) {
         have_tf = 0;
         rc = ulk_afile_commit(&tf, diag);
+        g_tmp[1][0] = 0;
         if (rc < 0) {
             /* the samples landed but their table did not: take the samples back too */
             if (out_path) {

@@ -295,9 +295,9 @@ def check_refusals(tmp, failures):
     open(lpath, "w").write(command_list())
     run(["compile", "--dict", dpath, lpath, "-o", upath, "-q"])
     # 2.5 x (8000 + 4000) = 30000
-    out = os.path.join(tmp, "low.wav")
+    out = os.path.join(tmp, "low.f32")
     p = run(["modulate", upath, "-o", out, "--rate", "29999.5"], expect=1)
-    if "30000" not in p.stderr or os.path.exists(out):
+    if "30000" not in p.stderr or os.path.exists(out) or os.path.exists(os.path.join(tmp, "low.sigmf-meta")):
         failures.append(f"rate refusal: message must name 30000 and leave no file:\n{p.stderr}")
     run(["modulate", upath, "-o", out, "--rate", "30000", "-q"])
     if not os.path.exists(out):
@@ -309,6 +309,20 @@ def check_refusals(tmp, failures):
     p = run(["modulate", upath, "-o", os.path.join(tmp, "no", "such", "x.wav"), "--rate", "48000"], expect=2)
     if "No such file or directory" not in p.stderr:
         failures.append(f"missing folder: reason not reported:\n{p.stderr}")
+    # a folder too small for the samples: refused before anything is created. A 1 MB tmpfs in
+    # a private mount namespace (needs root and unshare; reported as skipped otherwise).
+    small = os.path.join(tmp, "small")
+    os.mkdir(small)
+    sh = (f"mount -t tmpfs -o size=1m tmpfs {small} || exit 77; "
+          f"{ULK} modulate {upath} -o {small}/big.f32 --rate 1e8; echo rc=$?; ls -A {small}")
+    p = subprocess.run(["unshare", "-m", "sh", "-c", sh], capture_output=True, text=True)
+    if p.returncode == 0 and "rc=" in p.stdout:
+        rc_line = [l for l in p.stdout.splitlines() if l.startswith("rc=")][0]
+        left = p.stdout.split(rc_line, 1)[1].split()
+        if rc_line != "rc=1" or "free" not in p.stderr or left:
+            failures.append(f"small folder: {rc_line}, left {left}, message:\n{p.stderr}")
+    else:
+        print("  (small-folder check skipped: no private tmpfs mount here)")
     p = run(["modulate", "--help"])
     if "CAUTION" not in p.stdout or "authorisation" not in p.stdout:
         failures.append("--help must print the caution")
