@@ -625,7 +625,7 @@ static void test_loader_good_and_json(void **st)
     }
     /* the demo file, with its dictionary */
     ulk_diag_clear(d);
-    assert_int_equal(ulk_carrier_load(ULK_SOURCE_DIR "/dictionaries/demo-carrier.yaml", &c, d), 0);
+    assert_int_equal(ulk_carrier_load(ULK_SOURCE_DIR "/dictionaries/carrier/demo-carrier.yaml", &c, d), 0);
     assert_int_equal(ulk_diag_warnings(d), 0);
     assert_true(c->has_data && c->has_voice && c->has_ranging && c->has_loop && c->has_pt_n0);
     assert_int_equal(c->n_modes, 3);

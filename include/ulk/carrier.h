@@ -11,7 +11,7 @@
  *
  * Usage:
  *     ulk_carrier *c;
- *     if (ulk_carrier_load("dictionaries/demo-carrier.yaml", &c, diag) == 0) {
+ *     if (ulk_carrier_load("dictionaries/carrier/demo-carrier.yaml", &c, diag) == 0) {
  *         const ulk_carrier_mode *mo = &c->modes[0];
  *         ulk_carrier_plan p;
  *         ulk_carrier_plan_indices(c, mo, mo->m_rad, c->pt_n0_dbhz, &p); // p.carrier = P_c/P_T

@@ -142,8 +142,8 @@ def main():
 
     check_bessel(bindir)
 
-    # --- demo carrier file: needs as written in dictionaries/demo-carrier.yaml ---
-    demo = os.path.join(src, "dictionaries", "demo-carrier.yaml")
+    # --- demo carrier file: needs as written in dictionaries/carrier/demo-carrier.yaml ---
+    demo = os.path.join(src, "dictionaries", "carrier", "demo-carrier.yaml")
     needs = {"loop": (20.0, 12.0), "data": (1000.0, 9.6), "voice": 45.0, "ranging": 30.0}
     modes = {"acquisition": {"ranging": 1.2}, "command": {"data": 1.1},
              "full": {"data": 0.9, "voice": 0.9, "ranging": 0.4}}
