@@ -102,7 +102,9 @@ struct ulk_demod {
     double eps_pend, w_pend;  /* the last block, until its successor is known */
     int pend_interior;
     int signal_found;
-    uint64_t n_subbits, n_truncated;
+    uint64_t n_subbits, n_truncated, n_erasures;
+    int have_emit;
+    double last_emit_pos;     /* sample position of the last sub-bit start handed on */
 
     /* words */
     ulk_demod_word *words;
@@ -367,7 +369,15 @@ static void pattern_push(ulk_demod *d, float y, double t)
     if (d->have_last) {
         double dt = (t - d->last_t) * d->rs_hz;
         if (dt < 0.5) return;          /* same sub-bit seen from two blocks */
-        if (dt > 1.5) pattern_reset(d); /* a gap: the stream is not continuous */
+        if (dt > 1.5 && dt < 2.5) {
+            /* One sub-bit lost where the boundary estimate moved between blocks: an erasure
+             * (soft value 0) keeps the pattern grid instead of starting over. */
+            d->n_erasures++;
+            d->have_last = 0;
+            pattern_push(d, 0.0f, t - 1.0 / d->rs_hz);
+        } else if (dt >= 2.5) {
+            pattern_reset(d); /* a gap: the stream is not continuous */
+        }
     }
     d->have_last = 1;
     d->last_t = t;
@@ -651,7 +661,14 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     }
 
     /* 6. soft sub-bits whose start falls in [t_lo, t_hi) */
+    /* Continue right after the last sub-bit handed on (the previous block's clock and this
+     * one's may differ by a fraction of a half-cycle at the seam: going by sample ranges
+     * alone could skip or repeat the sub-bit that starts there). */
     int64_t hA = t_lo ? (int64_t)floor(twok * ((double)(t_lo - 1) * rho + beta)) + 1 : H0;
+    if (d->prev_locked && d->have_emit) {
+        double from = d->last_emit_pos + 0.5 / rho;
+        hA = (int64_t)floor(twok * (from * rho + beta)) + 1;
+    }
     int64_t hB = (int64_t)floor(twok * ((double)(t_hi - 1) * rho + beta));
     if (hA < H0) hA = H0;
     int64_t j0 = floordiv(hA - qb + twok - 1, twok);
@@ -679,6 +696,8 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
             eq += fabs(I) + fabs(Qv);
         }
         d->tblk[ny] = (((double)Hj / twok) - beta) / rho / d->fs_hz;
+        d->last_emit_pos = (((double)Hj / twok) - beta) / rho;
+        d->have_emit = 1;
         ny++;
     }
     if (ny == 0) { block_unlock(d); return; }

@@ -17,6 +17,7 @@
  *
  * Usage: bench_decode [--words N] [--per N] [--ppm X] [--seed S] [--from DB] [--to DB]
  *                     [--step DB] [--noise-s SECONDS] [--speed-s SECONDS] [--dict FILE]
+ *                     [--verbose 1]
  * Defaults are a quick run (2000 words per point); the figures in docs/decode.md used
  * --words 100000.
  */
@@ -30,6 +31,8 @@
 #include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/word.h"
+
+static int verbose; /* --verbose: say which words went missing */
 
 static double qfunc(double x) { return 0.5 * erfc(x / sqrt(2.0)); }
 
@@ -121,7 +124,11 @@ static void run_one(const ulk_link *l, double fs, double ebn0, int per, double p
                 }
                 if (fabs(off) < 0.1) t->wrong_bits++;
                 else if (fabs(off) < l->gap + 0.5) t->misplaced++;
-                else t->absent++;
+                else {
+                    t->absent++;
+                    if (verbose) fprintf(stderr, "absent: word %d of %d (start %.4f s, lead-in %.4f s, %+.0f ppm)\n", i + 1, per, ts,
+                                         c.delay_s, c.ppm);
+                }
             }
         }
         if (!got_any) t->acq_fail++;
@@ -159,6 +166,7 @@ int main(int argc, char **argv)
         else if (!strcmp(a, "--noise-s")) noise_s = atof(v);
         else if (!strcmp(a, "--speed-s")) speed_s = atof(v);
         else if (!strcmp(a, "--dict")) dict_path = v;
+        else if (!strcmp(a, "--verbose")) { verbose = atoi(v); }
         else { fprintf(stderr, "bench_decode: unknown option %s\n", a); return 2; }
         i++;
     }
