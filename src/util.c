@@ -88,6 +88,23 @@ int ulk_afile_open(ulk_afile *f, const char *path, struct ulk_diag *diag)
 {
     memset(f, 0, sizeof *f);
     size_t n = strlen(path);
+    /* A device, pipe or other special file is written directly: renaming a temporary file
+     * over it would replace the node (and /dev/full would never report it is full). */
+    struct stat stt;
+    if (stat(path, &stt) == 0 && !S_ISREG(stt.st_mode)) {
+        if (S_ISDIR(stt.st_mode))
+            return ulk_fail(diag, ULK_EIO, "%s: is a folder, expected an output file name", path);
+        f->path = ulk_strdup(path);
+        if (!f->path) return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
+        f->fp = fopen(path, "wb");
+        if (!f->fp) {
+            int e = errno;
+            ulk_free(f->path);
+            memset(f, 0, sizeof *f);
+            return ulk_fail(diag, ULK_EIO, "%s: cannot open for writing: %s", path, strerror(e));
+        }
+        return 0;
+    }
     f->path = ulk_strdup(path);
     f->tmp = ulk_malloc(n + 16);
     if (!f->path || !f->tmp) {
@@ -124,7 +141,9 @@ int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
     if (fclose(f->fp) != 0) { bad = 1; e = errno; }
     f->fp = NULL;
     int rc = 0;
-    if (bad) {
+    if (!f->tmp) { /* special file written directly */
+        if (bad) rc = ulk_fail(diag, ULK_EIO, "%s: write failed: %s", f->path, strerror(e));
+    } else if (bad) {
         rc = ulk_fail(diag, ULK_EIO, "%s: write failed: %s; no output written", f->path, strerror(e));
         unlink(f->tmp);
     } else if (rename(f->tmp, f->path) != 0) {
@@ -140,9 +159,9 @@ int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
 
 void ulk_afile_abort(ulk_afile *f)
 {
-    if (!f || !f->tmp) return;
+    if (!f || !f->path) return;
     if (f->fp) fclose(f->fp);
-    unlink(f->tmp);
+    if (f->tmp) unlink(f->tmp);
     ulk_free(f->path); ulk_free(f->tmp);
     memset(f, 0, sizeof *f);
 }
