@@ -512,9 +512,12 @@ int ulk_carrier_load(const char *path, ulk_carrier **out, ulk_diag *diag)
     }
     int whole = ulk_node_get(root, "link") || ulk_node_get(root, "commands");
     if (whole) {
-        /* A whole dictionary: its own loader checks everything outside the carrier. */
+        /* A whole dictionary: its loader checks everything, the carrier section included
+         * (through ulk_carrier_from_tree), so every finding is reported once. */
         rc = ulk_dict_load(path, &dict, diag);
         if (rc) goto done;
+        *out = ulk_dict_take_carrier(dict);
+        goto done;
     } else {
         for (int i = 0; i < root->n; i++)
             if (strcmp(root->keys[i]->text, "carrier")) {

@@ -19,4 +19,10 @@
 int ulk_carrier_from_tree(const ulk_doc *doc, ulk_node *carrier, const ulk_link *link,
                           int allow_dictionary_key, ulk_carrier **out, ulk_diag *diag);
 
+struct ulk_dict;
+/* Moves the dictionary's carrier section out of d (defined in src/dict.c): returns it (the
+ * caller frees it with ulk_carrier_destroy) and leaves d without one; NULL when d is NULL or
+ * has none. */
+ulk_carrier *ulk_dict_take_carrier(struct ulk_dict *d);
+
 #endif

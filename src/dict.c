@@ -21,6 +21,7 @@
 
 #include <openssl/evp.h>
 
+#include "carrier_load.h"
 #include "doc.h"
 #include "ulk/dict.h"
 #include "util.h"
@@ -38,6 +39,7 @@ typedef struct {
     ablk *arena;
     int *by_mnemonic;        /* command indexes sorted by mnemonic */
     int *by_opcode;          /* command indexes sorted by (system address, opcode) */
+    ulk_carrier *carrier;    /* the `carrier` section, NULL when absent (src/carrier_load.c) */
 } dict_impl;
 
 static void *arena_alloc(dict_impl *di, size_t n)
@@ -79,7 +81,22 @@ void ulk_dict_destroy(ulk_dict *d)
     }
     ulk_free(di->by_mnemonic);
     ulk_free(di->by_opcode);
+    ulk_carrier_destroy(di->carrier);
     ulk_free(di);
+}
+
+const ulk_carrier *ulk_dict_carrier(const ulk_dict *d)
+{
+    return d ? ((const dict_impl *)d)->carrier : NULL;
+}
+
+ulk_carrier *ulk_dict_take_carrier(ulk_dict *d)
+{
+    if (!d) return NULL;
+    dict_impl *di = (dict_impl *)d;
+    ulk_carrier *c = di->carrier;
+    di->carrier = NULL;
+    return c;
 }
 
 /* A number as messages and the canonical form write it: a whole number below 2^53 in plain
@@ -1761,9 +1778,18 @@ int ulk_dict_load_mem(const char *name, const char *text, size_t len, int is_jso
             }
         }
         ulk_node *ln = ulk_node_get(root, "link");
+        size_t errs_link = ulk_diag_errors(diag);
         if (ln) build_link(&c, ln);
+        int link_ok = ln && ulk_diag_errors(diag) == errs_link;
         ulk_node *carrier = ulk_node_get(root, "carrier");
-        if (carrier) want_map(&c, carrier, "carrier");
+        /* The carrier rules live in src/carrier_load.c; its data channel is this link. With a
+         * broken link the section is left unchecked: its data and overlap rules would only
+         * echo the link's findings (already reported) with half-read values. */
+        if (carrier && !link_ok) want_map(&c, carrier, "carrier");
+        else if (carrier) {
+            int crc = ulk_carrier_from_tree(doc, carrier, &c.d->link, 0, &di->carrier, diag);
+            if (crc == ULK_ENOMEM) c.oom = 1;
+        }
         ulk_node *sn = ulk_node_get(root, "systems");
         if (sn) build_systems(&c, sn);
         ulk_node *cn = ulk_node_get(root, "commands");

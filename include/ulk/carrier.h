@@ -164,6 +164,11 @@ typedef struct {
 int ulk_carrier_load(const char *path, ulk_carrier **out, ulk_diag *diag);
 /* Frees c; NULL does nothing. */
 void ulk_carrier_destroy(ulk_carrier *c);
+struct ulk_dict;
+/* The `carrier` section of a whole dictionary, loaded and checked with it by ulk_dict_load()
+ * (its data channel is the dictionary's link). Owned by the dictionary (valid until
+ * ulk_dict_destroy); NULL when the dictionary has no such section or d is NULL. */
+const ulk_carrier *ulk_dict_carrier(const struct ulk_dict *d);
 /* Index of the mode called name, -1 when absent (or c/name NULL). */
 int ulk_carrier_find_mode(const ulk_carrier *c, const char *name);
 

@@ -193,6 +193,10 @@ def main():
     if marker not in text:
         fail("demo dictionary layout changed: cannot add a pilot")
     text = text.replace(marker, "    waveform: sine\n    amplitude: 0.75\n  pilot: {frequency: 2500, amplitude: 0.25}\n")
+    # The demo's own carrier section (from "carrier:" to "systems:") gives way to this one.
+    cs, ce = text.find("\ncarrier:\n"), text.find("\nsystems:")
+    if 0 <= cs < ce:
+        text = text[:cs + 1] + text[ce + 1:]
     text += ("\ncarrier:\n"
              "  loop: {bandwidth_hz: 30, required_snr_db: 10}\n"
              "  budget: {pt_n0_dbhz: 55}\n"
