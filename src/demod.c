@@ -34,6 +34,8 @@ struct ulk_demod {
     int nrzm, square;
     float pz[ULK_MAX_SUBBITS], po[ULK_MAX_SUBBITS], pidle[ULK_MAX_SUBBITS]; /* +-1 */
     int d_zo;                 /* Hamming distance Z-O */
+    float lz[ULK_MAX_SUBBITS], lo[ULK_MAX_SUBBITS], lidle[ULK_MAX_SUBBITS]; /* nrz-m levels from +1 */
+    double mden;              /* noiseless |c_O - c_Z|: the margin's unit */
     ulk_demod_options opt;
     double eps_max;
     float tab[TAB_N];         /* sin(2 pi i / TAB_N) */
@@ -89,8 +91,6 @@ struct ulk_demod {
     uint64_t min_start;       /* earliest sub-bit a next word may start at */
     double M[ULK_MAX_SUBBITS][2];
     int idle_run, after_word;
-    int have_prev;
-    float prev_y;
     int have_last;
     double last_t;
 
@@ -160,19 +160,41 @@ static void emit_word(ulk_demod *d, const ulk_demod_word *w)
 
 /* ---------------------------------------------------------------- pattern stage */
 
-/* Soft values are kept raw in the ring (nrz-l: y_j; nrz-m: -y_j y_{j-1}) and scaled at use by
- * the reference amplitude, taken from the most coherent block so far: a block that holds the
+/* Soft values (coherent levels y_j) are kept raw in the ring and scaled at use by the
+ * reference amplitude, taken from the most coherent block so far: a block that holds the
  * signal only in part under-estimates it, and the noise beside the signal must not be
  * inflated by that. */
 static double pattern_scale(const ulk_demod *d)
 {
     double a = d->a_ref > 0 ? d->a_ref : 1.0;
-    return d->nrzm ? 1.0 / (a * a) : 1.0 / a;
+    return 1.0 / a;
 }
 
+/* Correlations of group g with I, Z and O.
+ * nrz-l: the levels are the pattern (+-1), times the polarity.
+ * nrz-m: the levels of a pattern depend on the level before the group, unknown up to sign;
+ * the group's n levels and the one before it are correlated with the n + 1 levels the
+ * pattern produces from level +1, and the magnitude is taken (multiple-symbol differential
+ * detection over n + 1 sub-bits: it sees every transition, the first one included, and is
+ * free of the polarity). */
 static void group_corr(const ulk_demod *d, uint64_t g, double pol, double *ci, double *cz, double *co)
 {
     double a = 0, z = 0, o = 0;
+    if (d->nrzm) {
+        float v0 = g > 0 ? d->pv[(g - 1) % d->pcap] : 0.0f;
+        a = z = o = v0;
+        for (int t = 0; t < d->n; t++) {
+            float v = d->pv[(g + (uint64_t)t) % d->pcap];
+            a += d->lidle[t] * v;
+            z += d->lz[t] * v;
+            o += d->lo[t] * v;
+        }
+        double sc = pattern_scale(d);
+        *ci = sc * fabs(a);
+        *cz = sc * fabs(z);
+        *co = sc * fabs(o);
+        return;
+    }
     for (int t = 0; t < d->n; t++) {
         float v = d->pv[(g + (uint64_t)t) % d->pcap];
         a += d->pidle[t] * v;
@@ -247,7 +269,7 @@ static void decode_word_at(ulk_demod *d, uint64_t s, double pol)
         double ci, cz, co;
         group_corr(d, s + (uint64_t)b * (uint64_t)d->n, pol, &ci, &cz, &co);
         w.word.bits[b] = co > cz;
-        double m = fabs(co - cz) / (2.0 * d->d_zo);
+        double m = fabs(co - cz) / d->mden;
         if (m < margin) margin = m;
     }
     w.margin = margin;
@@ -359,7 +381,6 @@ static void pattern_reset(ulk_demod *d)
     memset(d->M, 0, sizeof d->M);
     d->idle_run = 0;
     d->after_word = 0;
-    d->have_prev = 0;
     d->have_last = 0;
 }
 
@@ -382,12 +403,6 @@ static void pattern_push(ulk_demod *d, float y, double t)
     d->have_last = 1;
     d->last_t = t;
     float v = y;
-    if (d->nrzm) {
-        /* level change = sub-bit 1: soft -y_j y_{j-1} */
-        if (!d->have_prev) { d->have_prev = 1; d->prev_y = y; return; }
-        v = -y * d->prev_y;
-        d->prev_y = y;
-    }
     uint64_t s = d->cnt;
     d->pv[s % d->pcap] = v;
     d->py[s % d->pcap] = y;
@@ -811,6 +826,21 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         d->d_zo += cfg->zero[t] != cfg->one[t];
     }
     if (d->d_zo == 0) d->d_zo = 1;
+    {
+        float lz = 1, lo = 1, li = 1;
+        double czo = 1; /* correlation of the n + 1 levels of Z and O (the leading +1 shared) */
+        for (int t = 0; t < d->n; t++) {
+            if (cfg->zero[t]) lz = -lz;
+            if (cfg->one[t]) lo = -lo;
+            if (cfg->idle[t]) li = -li;
+            d->lz[t] = lz;
+            d->lo[t] = lo;
+            d->lidle[t] = li;
+            czo += lz * lo;
+        }
+        d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
+        if (!(d->mden > 0)) d->mden = 1;
+    }
     for (int i = 0; i < TAB_N; i++) d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
 
     /* Block size: 256 sub-bits, fewer when a sub-bit is very long so memory stays small. */

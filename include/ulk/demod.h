@@ -18,7 +18,9 @@
  *      subcarrier template (sine or square) over each half-cycle; the sub-bit boundary (one
  *      of 2k half-cycle positions) is the one whose sub-bit dumps carry the most energy,
  *      accumulated over blocks. Soft sub-bit = dump / template energy.
- *   4. nrz-m: soft differential decoding (-y_j * y_{j-1}) before pattern correlation.
+ *   4. nrz-m: each group's n soft levels and the one before it are correlated with the n + 1
+ *      levels each pattern produces, magnitude taken (differential detection over n + 1
+ *      sub-bits, free of the polarity).
  *   5. Pattern stage: pattern alignment and polarity from the idle/word structure
  *      (metric accumulated over the stream, with look-ahead); maximum-likelihood bit
  *      decisions by correlating each n-sub-bit group with Z, O and I; word start chosen
