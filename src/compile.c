@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "ulk/cmdlist.h"
+#include "ulk/profile.h"
 #include "ulk/word.h"
 #include "util.h"
 
@@ -39,8 +40,9 @@ static int ratio_add(ulk_ratio a, ulk_ratio b, ulk_ratio *out)
 
 double ulk_upload_duration_s(const ulk_upload *u)
 {
+    const ulk_profile_ops *p = ulk_profile_ops_for(u->link.profile);
     uint64_t patterns = u->idles_after;
-    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + (uint64_t)u->link.word_bits;
+    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + p->unit_bits(&u->link, &u->cmds[i]);
     return (double)patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;
 }
 
@@ -216,10 +218,16 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
     size_t errors = l->n_errors;
     int status = 0;
     const ulk_link *lk = &d->link;
+    const ulk_profile_ops *prof = ulk_profile_ops_for(lk->profile);
+    if (!prof) return ulk_fail(diag, ULK_EINVAL, "compile: unknown link profile");
     ulk_upload *u = ulk_calloc(1, sizeof *u);
     mtab mt = {0};
     const char **mn = NULL;
-    if (!u || mtab_init(&mt, d) < 0) { status = ULK_ENOMEM; goto done; }
+    void *enc = NULL;
+    /* Packed argument bits, one per octet: D for the sub-bit profile, up to a whole TC frame. */
+    size_t max_arg_bits = prof->max_arg_bits(lk);
+    uint8_t *abits = ulk_malloc(max_arg_bits + 1);
+    if (!u || !abits || mtab_init(&mt, d) < 0 || prof->encoder_create(lk, &enc) < 0) { status = ULK_ENOMEM; goto done; }
     u->format_version = ULK_UPLOAD_FORMAT_VERSION;
     u->dict_name = ulk_strdup(d->name ? d->name : "");
     u->dict_version = ulk_strdup(d->version ? d->version : "");
@@ -242,8 +250,6 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
     if (!mn) { status = ULK_ENOMEM; goto done; }
     for (int i = 0; i < d->n_commands; i++) mn[i] = d->commands[i].mnemonic;
 
-    ulk_word_layout lay = ulk_word_layout_of(lk);
-    (void)lay;
     ulk_ratio pending = ulk_ratio_make(0, 1);
     int pending_line = 0;
     char err[1400];
@@ -354,31 +360,33 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
             ulk_diag_add(diag, ULK_SEV_WARNING, &loc, "'confirm' on %s, which is not a critical command",
                          c->mnemonic);
         }
-        /* pack the arguments in dictionary order, then zeros up to D */
-        uint8_t abits[64];
-        memset(abits, 0, sizeof abits);
-        int pos = 0;
+        /* pack the arguments in dictionary order (the profile pads: zeros up to D, or to an octet) */
+        size_t pos = 0;
         for (int j = 0; j < c->n_args && !bad; j++) {
             int w = c->args[j].bits;
-            if (w < 1 || w > 64 || pos + w > lk->argument_bits) {
-                ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit the %d-bit argument field",
-                             c->mnemonic, lk->argument_bits);
+            if (w < 1 || w > 64 || pos + (size_t)w > max_arg_bits) {
+                if (lk->profile == ULK_PROFILE_CCSDS_TC)
+                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit a %d-octet TC frame (%zu argument bits at most)",
+                                 c->mnemonic, ULK_TCF_MAX_OCTETS, max_arg_bits);
+                else
+                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit the %d-bit argument field",
+                                 c->mnemonic, lk->argument_bits);
                 bad = 1;
                 break;
             }
             for (int b = 0; b < w; b++) abits[pos + b] = (uint8_t)((vals[j].raw >> (w - 1 - b)) & 1u);
-            pos += w;
+            pos += (size_t)w;
         }
         if (bad) { errors++; continue; }
         if (errors) continue; /* no output will be made: only look for more errors */
         ulk_upload_cmd *uc = &u->cmds[u->n_cmds];
         uint64_t need = 0;
-        if (ulk_wait_patterns(wait, lk->bit_rate, &need) < 0) {
+        if (ulk_wait_patterns(wait, prof->filler_rate(lk), &need) < 0) {
             ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "the wait before %s is too long", c->mnemonic);
             errors++;
             continue;
         }
-        uint64_t base = (uint64_t)(u->n_cmds == 0 ? lk->preamble : lk->gap);
+        uint64_t base = prof->gap_units(lk, u->n_cmds == 0 ? ULK_GAP_FIRST : ULK_GAP_BETWEEN);
         uc->idles_before = need > base ? need : base;
         uc->wait_before = wait;
         uc->wait_before_s = ulk_ratio_to_double(wait);
@@ -386,20 +394,28 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
         uc->critical = c->critical;
         uc->system_addr = d->systems[c->system_index].address;
         uc->opcode = c->opcode;
-        ulk_word_build(lk, uc->system_addr, uc->opcode, abits, &uc->word);
+        ulk_unit_request req = {uc->system_addr, uc->opcode, abits, pos};
+        int erc = prof->encode(enc, &req, uc, err, sizeof err);
+        if (erc == ULK_ENOMEM) { status = ULK_ENOMEM; goto done; }
+        u->n_cmds++; /* counted from here on, so that destroy frees what encode made */
+        if (erc < 0) {
+            ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: %s", c->mnemonic, err);
+            errors++;
+            continue;
+        }
         if (fill_cmd(uc, d, c, vals) < 0) { status = ULK_ENOMEM; goto done; }
-        u->n_cmds++;
     }
     u->wait_after = pending;
     u->wait_after_s = ulk_ratio_to_double(pending);
     {
         uint64_t need = 0;
-        if (ulk_wait_patterns(pending, lk->bit_rate, &need) < 0) {
+        if (ulk_wait_patterns(pending, prof->filler_rate(lk), &need) < 0) {
             ulk_loc loc = {l->file, pending_line, 1, NULL};
             ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "the wait after the last command is too long");
             errors++;
         }
-        u->idles_after = need > (uint64_t)lk->postamble ? need : (uint64_t)lk->postamble;
+        uint64_t base = prof->gap_units(lk, ULK_GAP_LAST);
+        u->idles_after = need > base ? need : base;
     }
     if (l->n_commands == 0) {
         ulk_loc loc = {l->file, 0, 0, NULL};
@@ -411,6 +427,8 @@ done:
     if (status == ULK_ENOMEM) ulk_fail(diag, ULK_ENOMEM, "%s: out of memory while compiling", l->file);
     ulk_free(mt.slot);
     ulk_free(mn);
+    ulk_free(abits);
+    if (prof) prof->encoder_destroy(enc);
     if (status < 0) {
         ulk_upload_destroy(u);
         return status;

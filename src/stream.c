@@ -1,12 +1,17 @@
 /* src/stream.c - expands an upload into its sub-bit stream, chunk by chunk
- * (subbit-profile.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern. */
+ * (subbit-profile.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern.
+ * The link profile (ulk/profile.h) says what a unit's bits are (word or CLTU) and what its
+ * filler is (the idle pattern, or ccsds-tc-profile.md section 3's alternating bits that
+ * restart at 0 on every run); the layout is the same for both. */
 #include <string.h>
 
+#include "ulk/profile.h"
 #include "ulk/subbit.h"
 #include "util.h"
 
 struct ulk_stream {
     const ulk_upload *u;
+    const ulk_profile_ops *prof;
     uint64_t total;
     size_t cmd;          /* current command (0-based); n_cmds = postamble */
     int in_word;         /* 0: in the idles before cmd, 1: in its word */
@@ -16,8 +21,9 @@ struct ulk_stream {
 
 uint64_t ulk_upload_n_subbits(const ulk_upload *u)
 {
+    const ulk_profile_ops *p = ulk_profile_ops_for(u->link.profile);
     uint64_t patterns = u->idles_after;
-    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + (uint64_t)u->link.word_bits;
+    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + p->unit_bits(&u->link, &u->cmds[i]);
     return patterns * (uint64_t)u->link.n_subbits;
 }
 
@@ -26,6 +32,11 @@ ulk_stream *ulk_stream_create(const ulk_upload *u)
     ulk_stream *s = ulk_calloc(1, sizeof *s);
     if (!s) return NULL;
     s->u = u;
+    s->prof = ulk_profile_ops_for(u->link.profile);
+    if (!s->prof) {
+        ulk_free(s);
+        return NULL;
+    }
     s->total = ulk_upload_n_subbits(u);
     return s;
 }
@@ -44,7 +55,7 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
         if (s->cmd > s->u->n_cmds) break;
         if (s->cmd == s->u->n_cmds) { part_len = s->u->idles_after; is_word = 0; }
         else if (!s->in_word) { part_len = s->u->cmds[s->cmd].idles_before; is_word = 0; }
-        else { part_len = (uint64_t)l->word_bits; is_word = 1; }
+        else { part_len = s->prof->unit_bits(l, &s->u->cmds[s->cmd]); is_word = 1; }
         if (s->pos >= part_len) {
             /* next part */
             if (s->cmd == s->u->n_cmds) { s->cmd++; break; }
@@ -54,16 +65,14 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
             s->sub = 0;
             continue;
         }
-        const uint8_t *pat;
+        const uint8_t *pat = NULL;
         int bitv = -1;
         if (is_word) {
-            bitv = s->u->cmds[s->cmd].word.bits[s->pos];
+            bitv = s->prof->unit_bit(l, &s->u->cmds[s->cmd], s->pos);
             pat = bitv ? l->one : l->zero;
-        } else {
-            pat = l->idle;
         }
         while (s->sub < n && got < max) {
-            subbits[got] = pat[s->sub];
+            subbits[got] = pat ? pat[s->sub] : (uint8_t)s->prof->filler_symbol(l, s->pos, s->sub);
             if (info) {
                 info[got].word = is_word ? (uint32_t)(s->cmd + 1) : 0;
                 info[got].bit = is_word ? (int32_t)s->pos : -1;
@@ -79,10 +88,11 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
 
 double ulk_stream_word_start_s(const ulk_upload *u, size_t k)
 {
+    const ulk_profile_ops *p = ulk_profile_ops_for(u->link.profile);
     uint64_t patterns = 0;
     for (size_t i = 0; i < k && i < u->n_cmds; i++) {
         patterns += u->cmds[i].idles_before;
-        if (i + 1 < k) patterns += (uint64_t)u->link.word_bits;
+        if (i + 1 < k) patterns += p->unit_bits(&u->link, &u->cmds[i]);
     }
     /* one pattern lasts 1/R_b */
     return (double)patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;

@@ -19,6 +19,8 @@
 #include <cjson/cJSON.h>
 #include <openssl/evp.h>
 
+#include "ulk/ccsds.h"
+#include "ulk/profile.h"
 #include "ulk/upload.h"
 #include "ulk/word.h"
 #include "util.h"
@@ -27,6 +29,8 @@
 
 static void cmd_free_parts(ulk_upload_cmd *c)
 {
+    ulk_free(c->cltu); /* the frame shares this allocation */
+    c->cltu = c->frame = NULL;
     if (c->block_) {
         ulk_free(c->block_);
         return;
@@ -148,11 +152,50 @@ static ulk_ratio duration_ratio(const ulk_upload *u, uint64_t patterns, int *ok)
     return r;
 }
 
+/* Filler units and unit bits of the whole stream (patterns, or ccsds-tc channel bits). */
 static uint64_t total_patterns(const ulk_upload *u)
 {
+    const ulk_profile_ops *pr = ulk_profile_ops_for(u->link.profile);
     uint64_t p = u->idles_after;
-    for (size_t i = 0; i < u->n_cmds; i++) p += u->cmds[i].idles_before + (uint64_t)u->link.word_bits;
+    for (size_t i = 0; i < u->n_cmds; i++) p += u->cmds[i].idles_before + pr->unit_bits(&u->link, &u->cmds[i]);
     return p;
+}
+
+static void sb_hex(sbuf *b, const uint8_t *p, size_t n)
+{
+    static const char hx[] = "0123456789ABCDEF";
+    sb_grow(b, 2 * n);
+    if (b->oom) return;
+    for (size_t i = 0; i < n; i++) {
+        b->p[b->n++] = hx[p[i] >> 4];
+        b->p[b->n++] = hx[p[i] & 15];
+    }
+    b->p[b->n] = 0;
+}
+
+/* The link object of a ccsds-tc upload: the dictionary's link section, every default applied. */
+static void build_link_tc(const ulk_link *l, sbuf *b)
+{
+    const ulk_tc_params *t = &l->tc;
+    static const char head[] = ",\n  \"link\": {\n    \"profile\": \"ccsds-tc\",\n    \"bit_rate\": ";
+    sb_put(b, head, sizeof head - 1);
+    sb_ratio(b, l->bit_rate);
+    sb_printf(b, ",\n    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
+    sb_ratio(b, l->fsc);
+    sb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
+    sb_double(b, l->amplitude);
+    sb_printf(b,
+              "},\n    \"tc\": {\"spacecraft_id\": %u, \"virtual_channel\": %u, \"service\": \"%s\", "
+              "\"first_sequence\": %u, \"segment_header\": ",
+              t->frame.spacecraft_id, t->frame.virtual_channel,
+              t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited", t->first_sequence);
+    if (t->frame.segment_header) sb_printf(b, "{\"map_id\": %u}", t->frame.map_id);
+    else sb_put(b, "null", 4);
+    sb_printf(b,
+              ",\n           \"fecf\": %s, \"randomize\": %s, \"acquisition_octets\": %u, \"idle_octets\": %u, "
+              "\"start_errors\": %d, \"correction\": \"%s\"}\n  },\n",
+              t->frame.fecf ? "true" : "false", t->frame.randomize ? "true" : "false", t->acquisition_octets,
+              t->idle_octets, t->frame.start_errors, t->frame.correction == ULK_BCH_TED ? "ted" : "sec");
 }
 
 #define DIGEST_HEAD "  \"digest\": \"sha256:"
@@ -184,7 +227,10 @@ static void build_doc(const ulk_upload *u, sbuf *b)
     sb_str(b, u->dict_sha256);
     sb_put(b, "},\n  \"source\": ", 15);
     sb_str(b, u->source ? u->source : "");
-    sb_put(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ", 55);
+    int tc = l->profile == ULK_PROFILE_CCSDS_TC;
+    if (tc) build_link_tc(l, b);
+    else sb_put(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ", 55);
+    if (!tc) {
     sb_ratio(b, l->bit_rate);
     sb_printf(b, ",\n    \"subbits\": {\"zero\": \"%s\", \"one\": \"%s\", \"idle\": \"%s\"},\n", pz, po, pi);
     sb_printf(b, "    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
@@ -208,6 +254,7 @@ static void build_doc(const ulk_upload *u, sbuf *b)
               "\"opcode_bits\": %d, \"argument_bits\": %d, \"check\": \"%s\", \"word_bits\": %d}\n  },\n",
               l->vehicle_bits, l->vehicle_value, l->system_bits, l->opcode_bits, l->argument_bits,
               ulk_check_name(l->check), l->word_bits);
+    }
     sb_put(b, "  \"commands\": [", 15);
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
@@ -233,7 +280,17 @@ static void build_doc(const ulk_upload *u, sbuf *b)
             sb_str(b, a->text);
             sb_put(b, "}", 1);
         }
-        sb_printf(b, "],\n     \"word\": \"%s\"}", hex);
+        if (tc) {
+            sb_printf(b, "],\n     \"sequence_count\": %u, \"frame_sequence\": %u,\n     \"frame\": \"", c->seq_count,
+                      c->frame_seq);
+            sb_hex(b, c->frame, c->n_frame);
+            static const char mid[] = "\",\n     \"cltu\": \"";
+            sb_put(b, mid, sizeof mid - 1);
+            sb_hex(b, c->cltu, c->n_cltu);
+            sb_put(b, "\"}", 2);
+        } else {
+            sb_printf(b, "],\n     \"word\": \"%s\"}", hex);
+        }
     }
     uint64_t pat = total_patterns(u);
     int ok;
@@ -379,14 +436,98 @@ static int find_name(const char *s, const char *const *names, int n)
     return -1;
 }
 
+static int get_bool(rd_t *r, const cJSON *o, const char *k, const char *path, int *out)
+{
+    const cJSON *v = member(o, k);
+    if (!cJSON_IsBool(v)) return rfail(r, ULK_EPARSE, path, "'%s' must be true or false", k);
+    *out = cJSON_IsTrue(v);
+    return 0;
+}
+
+/* The subcarrier object, shared by both profiles. */
+static int read_subcarrier(rd_t *r, const cJSON *sc, ulk_link *l)
+{
+    static const char *const sck[] = {"frequency", "waveform", "amplitude"};
+    if (want_keys(r, sc, "link.subcarrier", sck, 3)) return r->status;
+    if (get_ratio(r, sc, "frequency", "link.subcarrier", 0, &l->fsc)) return r->status;
+    const char *wf = get_str(r, sc, "waveform", "link.subcarrier", 16);
+    if (!wf) return r->status;
+    if (!strcmp(wf, "sine")) l->waveform = ULK_WAVE_SINE;
+    else if (!strcmp(wf, "square")) l->waveform = ULK_WAVE_SQUARE;
+    else return rfail(r, ULK_EPARSE, "link.subcarrier.waveform", "expected sine or square");
+    const cJSON *am = member(sc, "amplitude");
+    if (!cJSON_IsNumber(am) || !(am->valuedouble > 0 && am->valuedouble <= 1))
+        return rfail(r, ULK_EPARSE, "link.subcarrier.amplitude", "expected a number in (0, 1]");
+    l->amplitude = am->valuedouble;
+    return 0;
+}
+
+/* The link object of a ccsds-tc upload (every field present; the dictionary's rules). */
+static int read_link_tc(rd_t *r, const cJSON *lj, ulk_link *l)
+{
+    static const char *const lk[] = {"profile", "bit_rate", "line_code", "subcarrier", "tc"};
+    if (want_keys(r, lj, "link", lk, 5)) return r->status;
+    l->profile = ULK_PROFILE_CCSDS_TC;
+    l->n_subbits = 1;
+    l->one[0] = 1;
+    if (get_ratio(r, lj, "bit_rate", "link", 0, &l->bit_rate)) return r->status;
+    const char *lc = get_str(r, lj, "line_code", "link", 16);
+    if (!lc) return r->status;
+    if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
+    else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
+    else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
+    if (read_subcarrier(r, member(lj, "subcarrier"), l)) return r->status;
+    const cJSON *tj = member(lj, "tc");
+    static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence", "segment_header",
+                                     "fecf", "randomize", "acquisition_octets", "idle_octets", "start_errors",
+                                     "correction"};
+    if (want_keys(r, tj, "link.tc", tk, 11)) return r->status;
+    ulk_tc_params *t = &l->tc;
+    int64_t v;
+    if (get_int(r, tj, "spacecraft_id", "link.tc", 0, ULK_TCF_MAX_SCID, NULL, &v)) return r->status;
+    t->frame.spacecraft_id = (uint16_t)v;
+    if (get_int(r, tj, "virtual_channel", "link.tc", 0, ULK_TCF_MAX_VCID, NULL, &v)) return r->status;
+    t->frame.virtual_channel = (uint8_t)v;
+    const char *sv = get_str(r, tj, "service", "link.tc", 32);
+    if (!sv) return r->status;
+    if (!strcmp(sv, "expedited")) t->frame.service = ULK_TC_EXPEDITED;
+    else if (!strcmp(sv, "sequence-controlled")) t->frame.service = ULK_TC_SEQUENCE_CONTROLLED;
+    else return rfail(r, ULK_EPARSE, "link.tc.service", "expected expedited or sequence-controlled");
+    if (get_int(r, tj, "first_sequence", "link.tc", 0, 255, NULL, &v)) return r->status;
+    t->first_sequence = (uint8_t)v;
+    const cJSON *sh = member(tj, "segment_header");
+    if (!cJSON_IsNull(sh)) {
+        static const char *const mk[] = {"map_id"};
+        if (want_keys(r, sh, "link.tc.segment_header", mk, 1)) return r->status;
+        if (get_int(r, sh, "map_id", "link.tc.segment_header", 0, ULK_TCF_MAX_MAP_ID, NULL, &v)) return r->status;
+        t->frame.segment_header = 1;
+        t->frame.map_id = (uint8_t)v;
+    }
+    if (get_bool(r, tj, "fecf", "link.tc", &t->frame.fecf)) return r->status;
+    if (get_bool(r, tj, "randomize", "link.tc", &t->frame.randomize)) return r->status;
+    if (get_int(r, tj, "acquisition_octets", "link.tc", 0, 1e8, NULL, &v)) return r->status;
+    t->acquisition_octets = (uint32_t)v;
+    if (get_int(r, tj, "idle_octets", "link.tc", 0, 1e8, NULL, &v)) return r->status;
+    t->idle_octets = (uint32_t)v;
+    if (get_int(r, tj, "start_errors", "link.tc", 0, 1, NULL, &v)) return r->status;
+    t->frame.start_errors = (int)v;
+    const char *cm = get_str(r, tj, "correction", "link.tc", 8);
+    if (!cm) return r->status;
+    if (!strcmp(cm, "sec")) t->frame.correction = ULK_BCH_SEC;
+    else if (!strcmp(cm, "ted")) t->frame.correction = ULK_BCH_TED;
+    else return rfail(r, ULK_EPARSE, "link.tc.correction", "expected sec or ted");
+    return 0;
+}
+
 static int read_link(rd_t *r, const cJSON *lj, ulk_link *l)
 {
     static const char *const lk[] = {"profile", "bit_rate", "subbits", "line_code", "subcarrier", "pilot", "framing", "word"};
     memset(l, 0, sizeof *l);
+    const char *prof = cJSON_IsObject(lj) ? get_str(r, lj, "profile", "link", 32) : NULL;
+    if (prof && !strcmp(prof, "ccsds-tc")) return read_link_tc(r, lj, l);
     if (want_keys(r, lj, "link", lk, 8)) return r->status;
-    const char *prof = get_str(r, lj, "profile", "link", 32);
     if (!prof) return r->status;
-    if (strcmp(prof, "subbit")) return rfail(r, ULK_EFORMAT, "link.profile", "profile '%.32s' is not supported (subbit only)", prof);
+    if (strcmp(prof, "subbit")) return rfail(r, ULK_EFORMAT, "link.profile", "profile '%.32s' is not supported (subbit or ccsds-tc)", prof);
     l->profile = ULK_PROFILE_SUBBIT;
     if (get_ratio(r, lj, "bit_rate", "link", 0, &l->bit_rate)) return r->status;
     const cJSON *sb = member(lj, "subbits");
@@ -403,19 +544,7 @@ static int read_link(rd_t *r, const cJSON *lj, ulk_link *l)
     if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
     else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
     else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
-    const cJSON *sc = member(lj, "subcarrier");
-    static const char *const sck[] = {"frequency", "waveform", "amplitude"};
-    if (want_keys(r, sc, "link.subcarrier", sck, 3)) return r->status;
-    if (get_ratio(r, sc, "frequency", "link.subcarrier", 0, &l->fsc)) return r->status;
-    const char *wf = get_str(r, sc, "waveform", "link.subcarrier", 16);
-    if (!wf) return r->status;
-    if (!strcmp(wf, "sine")) l->waveform = ULK_WAVE_SINE;
-    else if (!strcmp(wf, "square")) l->waveform = ULK_WAVE_SQUARE;
-    else return rfail(r, ULK_EPARSE, "link.subcarrier.waveform", "expected sine or square");
-    const cJSON *am = member(sc, "amplitude");
-    if (!cJSON_IsNumber(am) || !(am->valuedouble > 0 && am->valuedouble <= 1))
-        return rfail(r, ULK_EPARSE, "link.subcarrier.amplitude", "expected a number in (0, 1]");
-    l->amplitude = am->valuedouble;
+    if (read_subcarrier(r, member(lj, "subcarrier"), l)) return r->status;
     const cJSON *pj = member(lj, "pilot");
     if (!cJSON_IsNull(pj)) {
         static const char *const pk[] = {"frequency", "amplitude"};
@@ -472,13 +601,56 @@ static int read_link(rd_t *r, const cJSON *lj, ulk_link *l)
 
 static const char *const type_names[] = {"unsigned", "signed", "boolean", "enum", "float32"};
 
+/* Even-length hex text to octets; -1 when it is not. */
+static long hex_octets(const char *s, uint8_t *out, size_t cap)
+{
+    size_t n = strlen(s);
+    if (n == 0 || n % 2 || n / 2 > cap) return -1;
+    for (size_t i = 0; i < n; i++)
+        if (!isxdigit((unsigned char)s[i])) return -1;
+    for (size_t i = 0; i < n / 2; i++) {
+        char t[3] = {s[2 * i], s[2 * i + 1], 0};
+        out[i] = (uint8_t)strtoul(t, NULL, 16);
+    }
+    return (long)(n / 2);
+}
+
+/* The ccsds-tc members of a command: counts, frame and CLTU (checked against the fields
+ * later, by ulk_profile_check_unit). */
+static int read_tc_unit(rd_t *r, const cJSON *cj, const char *path, ulk_upload_cmd *c)
+{
+    int64_t v;
+    if (get_int(r, cj, "sequence_count", path, 0, ULK_SPP_MAX_SEQ_COUNT, NULL, &v)) return r->status;
+    c->seq_count = (uint16_t)v;
+    if (get_int(r, cj, "frame_sequence", path, 0, 255, NULL, &v)) return r->status;
+    c->frame_seq = (uint8_t)v;
+    const char *fh = get_str(r, cj, "frame", path, 2 * ULK_TCF_MAX_OCTETS);
+    const char *ch = fh ? get_str(r, cj, "cltu", path, 2 * ULK_CLTU_MAX_OCTETS) : NULL;
+    if (!ch) return r->status;
+    uint8_t *buf = ulk_malloc(ULK_CLTU_MAX_OCTETS + ULK_TCF_MAX_OCTETS);
+    if (!buf) return rfail(r, ULK_ENOMEM, path, "out of memory");
+    c->cltu = buf;
+    c->frame = buf + ULK_CLTU_MAX_OCTETS;
+    long nf = hex_octets(fh, c->frame, ULK_TCF_MAX_OCTETS), nc = hex_octets(ch, c->cltu, ULK_CLTU_MAX_OCTETS);
+    if (nf < 0) return rfail(r, ULK_EPARSE, path, "'frame' must be hex digits of 1 to %d octets", ULK_TCF_MAX_OCTETS);
+    if (nc < 0) return rfail(r, ULK_EPARSE, path, "'cltu' must be hex digits of 1 to %d octets", ULK_CLTU_MAX_OCTETS);
+    c->n_frame = (size_t)nf;
+    c->n_cltu = (size_t)nc;
+    return 0;
+}
+
 static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk_upload_cmd *c)
 {
     char path[64];
     snprintf(path, sizeof path, "commands[%zu]", idx);
     static const char *const ck[] = {"line", "mnemonic", "system", "system_address", "opcode", "critical",
                                      "wait_s", "idles_before", "args", "word"};
-    if (want_keys(r, cj, path, ck, 10)) return r->status;
+    static const char *const tk[] = {"line", "mnemonic", "system", "system_address", "opcode", "critical",
+                                     "wait_s", "idles_before", "args", "sequence_count", "frame_sequence",
+                                     "frame", "cltu"};
+    const int tc = l->profile == ULK_PROFILE_CCSDS_TC;
+    const ulk_profile_ops *prof = ulk_profile_ops_for(l->profile);
+    if (tc ? want_keys(r, cj, path, tk, 13) : want_keys(r, cj, path, ck, 10)) return r->status;
     int64_t v;
     uint64_t uv;
     if (get_int(r, cj, "line", path, 1, (double)(1 << 30), NULL, &v)) return r->status;
@@ -490,9 +662,10 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
     const char *sn = mn ? get_str(r, cj, "system", path, 256) : NULL;
     if (!mn || !sn) return r->status;
     if (!list_safe(mn)) return rfail(r, ULK_EPARSE, path, "mnemonic '%.60s' cannot appear in a command list", mn);
-    if (get_int(r, cj, "system_address", path, 0, (double)((1u << l->system_bits) - 1), &uv, NULL)) return r->status;
+    if (get_int(r, cj, "system_address", path, 0, tc ? ULK_SPP_MAX_APID : (double)((1u << l->system_bits) - 1), &uv, NULL))
+        return r->status;
     c->system_addr = (uint32_t)uv;
-    if (get_int(r, cj, "opcode", path, 0, (double)((1u << l->opcode_bits) - 1), &uv, NULL)) return r->status;
+    if (get_int(r, cj, "opcode", path, 0, tc ? 255 : (double)((1u << l->opcode_bits) - 1), &uv, NULL)) return r->status;
     c->opcode = (uint32_t)uv;
     const cJSON *cr = member(cj, "critical");
     if (!cJSON_IsBool(cr)) return rfail(r, ULK_EPARSE, path, "'critical' must be true or false");
@@ -502,20 +675,25 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
         return rfail(r, ULK_ELIMIT, path, "'wait_s' is beyond the limit of 86400 s");
     c->wait_before_s = ulk_ratio_to_double(c->wait_before);
     if (get_int(r, cj, "idles_before", path, 0, (double)ULK_UPLOAD_MAX_IDLES, &c->idles_before, NULL)) return r->status;
-    uint64_t base = (uint64_t)(idx == 0 ? l->preamble : l->gap);
+    uint64_t base = prof->gap_units(l, idx == 0 ? ULK_GAP_FIRST : ULK_GAP_BETWEEN);
     if (c->idles_before < base)
         return rfail(r, ULK_EPARSE, path, "'idles_before' %llu is below the %s of %llu", (unsigned long long)c->idles_before,
-                     idx == 0 ? "preamble" : "gap", (unsigned long long)base);
+                     idx == 0 ? (tc ? "acquisition sequence" : "preamble") : (tc ? "idle sequence" : "gap"),
+                     (unsigned long long)base);
     const cJSON *aj = member(cj, "args");
     if (!cJSON_IsArray(aj)) return rfail(r, ULK_EPARSE, path, "'args' must be an array");
     int na = cJSON_GetArraySize(aj);
     if (na > 64) return rfail(r, ULK_ELIMIT, path, "more than 64 arguments");
-    const char *wh = get_str(r, cj, "word", path, 40);
-    if (!wh) return r->status;
-    if (ulk_word_from_hex(wh, l->word_bits, &c->word) < 0)
-        return rfail(r, ULK_EPARSE, path, "'word' must be %d hex digits of a %d-bit value", (l->word_bits + 3) / 4,
-                     l->word_bits);
-    c->word.n_bits = l->word_bits;
+    if (tc) {
+        if (read_tc_unit(r, cj, path, c)) return r->status;
+    } else {
+        const char *wh = get_str(r, cj, "word", path, 40);
+        if (!wh) return r->status;
+        if (ulk_word_from_hex(wh, l->word_bits, &c->word) < 0)
+            return rfail(r, ULK_EPARSE, path, "'word' must be %d hex digits of a %d-bit value", (l->word_bits + 3) / 4,
+                         l->word_bits);
+        c->word.n_bits = l->word_bits;
+    }
 
     /* one block: args, then strings */
     size_t need = (size_t)na * sizeof(ulk_upload_arg) + strlen(mn) + strlen(sn) + 2;
@@ -575,10 +753,24 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
         const cJSON *en = member(a, "eng");
         if (!cJSON_IsNumber(en)) return rfail(r, ULK_EPARSE, ap, "'eng' must be a number");
         ua->eng = en->valuedouble;
+        if (tc) {
+            if ((size_t)pos + (size_t)ua->bits > prof->max_arg_bits(l))
+                return rfail(r, ULK_EPARSE, ap, "the arguments exceed what a TC frame holds");
+            pos += ua->bits;
+            continue;
+        }
         if (pos + ua->bits > y.check_pos) return rfail(r, ULK_EPARSE, ap, "the arguments exceed the %d-bit argument field", l->argument_bits);
         if (ulk_word_get(&c->word, pos, ua->bits) != ua->raw)
             return rfail(r, ULK_EPARSE, ap, "'raw' does not match the word's argument field");
         pos += ua->bits;
+    }
+    if (tc) {
+        /* the frame and the CLTU must be what the fields make */
+        char why[200];
+        int rc = ulk_profile_check_unit(l, c, why, sizeof why);
+        if (rc == ULK_ENOMEM) return rfail(r, ULK_ENOMEM, path, "out of memory");
+        if (rc) return rfail(r, ULK_EPARSE, path, "%s", why);
+        return 0;
     }
     /* the word must say what its fields say */
     if (ulk_word_get(&c->word, y.vehicle_pos, l->vehicle_bits) != l->vehicle_value)
@@ -591,6 +783,30 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
         if (c->word.bits[i]) return rfail(r, ULK_EPARSE, path, "the word's unused argument bits are not zero");
     if (!ulk_word_check_ok(l, &c->word)) return rfail(r, ULK_EPARSE, path, "the word's check field is wrong");
     return 0;
+}
+
+/* Packet sequence counts run per APID from 0 and N(S) from first_sequence, as the compiler
+ * numbers them (ccsds-tc-profile.md section 2): a reordered or spliced upload is refused. */
+static int check_tc_counts(rd_t *r, const ulk_upload *u)
+{
+    uint16_t *next = ulk_calloc(ULK_SPP_MAX_APID + 1, sizeof *next);
+    if (!next) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
+    const ulk_tc_params *t = &u->link.tc;
+    int rc = 0;
+    for (size_t i = 0; i < u->n_cmds && !rc; i++) {
+        const ulk_upload_cmd *c = &u->cmds[i];
+        char path[64];
+        snprintf(path, sizeof path, "commands[%zu]", i);
+        uint8_t ns = t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? (uint8_t)((t->first_sequence + i) & 0xFF) : 0;
+        if (c->seq_count != next[c->system_addr])
+            rc = rfail(r, ULK_EPARSE, path, "'sequence_count' %u is not %u, the next count of APID 0x%X", c->seq_count,
+                       next[c->system_addr], c->system_addr);
+        else if (c->frame_seq != ns)
+            rc = rfail(r, ULK_EPARSE, path, "'frame_sequence' %u is not %u, the N(S) of frame %zu", c->frame_seq, ns, i);
+        next[c->system_addr] = (uint16_t)((next[c->system_addr] + 1u) & ULK_SPP_MAX_SEQ_COUNT);
+    }
+    ulk_free(next);
+    return rc;
 }
 
 int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag)
@@ -660,13 +876,15 @@ int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_uplo
     cJSON_ArrayForEach(cj, cmds) {
         ulk_upload_cmd *c = &u->cmds[u->n_cmds];
         int rc = read_cmd(&r, cj, u->n_cmds, &u->link, c);
-        if (c->block_ || rc == 0) u->n_cmds++;
+        if (c->block_ || c->cltu || rc == 0) u->n_cmds++;
         if (rc) goto out;
     }
+    if (u->link.profile == ULK_PROFILE_CCSDS_TC && check_tc_counts(&r, u)) goto out;
     if (get_ratio(&r, root, "wait_after_s", "", 1, &u->wait_after)) goto out;
     if (u->wait_after.num > 86400 * u->wait_after.den) { rfail(&r, ULK_ELIMIT, "wait_after_s", "beyond the limit of 86400 s"); goto out; }
     u->wait_after_s = ulk_ratio_to_double(u->wait_after);
-    if (get_int(&r, root, "idles_after", "", (double)u->link.postamble, (double)ULK_UPLOAD_MAX_IDLES, &u->idles_after, NULL))
+    if (get_int(&r, root, "idles_after", "", (double)ulk_profile_ops_for(u->link.profile)->gap_units(&u->link, ULK_GAP_LAST),
+                (double)ULK_UPLOAD_MAX_IDLES, &u->idles_after, NULL))
         goto out;
     {
         const cJSON *tj = member(root, "totals");

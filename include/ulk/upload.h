@@ -40,6 +40,13 @@ typedef struct {
     char *system_name;        /* the dictionary's system name */
     ulk_ratio wait_before;    /* exact seconds (0/1 when none); wait_before_s is its value */
     char *block_;             /* private: one allocation holds args and the strings */
+    /* ccsds-tc only (0 / NULL for the sub-bit profile; idles_before then counts idle bits): */
+    uint16_t seq_count;       /* Space Packet sequence count (per APID, mod 16384) */
+    uint8_t frame_seq;        /* N(S) of the TC frame (0 for expedited service) */
+    uint8_t *cltu;            /* the CLTU, start sequence to tail sequence, n_cltu octets */
+    size_t n_cltu;
+    uint8_t *frame;           /* the TC Transfer Frame it carries (before randomizing) */
+    size_t n_frame;           /* cltu and frame share one allocation, freed with the upload */
 } ulk_upload_cmd;
 
 typedef struct ulk_upload {
@@ -64,10 +71,11 @@ typedef struct ulk_upload {
 /* Frees u and everything it holds; NULL does nothing. */
 void ulk_upload_destroy(ulk_upload *u);
 
-/* Total duration of the stream in seconds: patterns / R_b. */
+/* Total duration of the stream in seconds: patterns / R_b (ccsds-tc: channel bits / R). */
 double ulk_upload_duration_s(const ulk_upload *u);
 
-/* Total sub-bits of the stream: n * (sum idles + n_cmds * W). */
+/* Total sub-bits of the stream: n * (sum idles + n_cmds * W); for ccsds-tc the channel bits,
+ * sum idle bits + sum 8 * CLTU octets. */
 uint64_t ulk_upload_n_subbits(const ulk_upload *u);
 
 /* Writes u to path atomically (temporary file in the same folder, renamed on success).

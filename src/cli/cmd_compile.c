@@ -94,8 +94,15 @@ int cmd_compile(int argc, char **argv)
         ulk_ratio_format(up->link.bit_rate, rb, sizeof rb);
         printf("compiled %s with %s %s -> %s\n", list_path, dict->name, dict->version, out_path);
         printf("  commands  %zu\n", up->n_cmds);
-        printf("  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
-        printf("  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
+        if (up->link.profile == ULK_PROFILE_CCSDS_TC) {
+            size_t oct = 0;
+            for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
+            printf("  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
+            printf("  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
+        } else {
+            printf("  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
+            printf("  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
+        }
         printf("  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
         size_t n_crit = 0;
         for (size_t i = 0; i < up->n_cmds; i++) n_crit += up->cmds[i].critical != 0;

@@ -9,6 +9,7 @@
 #include <cjson/cJSON.h>
 
 #include "cli.h"
+#include "ulk/ccsds.h"
 #include "ulk/subbit.h"
 #include "ulk/upload.h"
 #include "ulk/word.h"
@@ -22,7 +23,8 @@ static void usage(FILE *out)
             "Shows every word of an upload file: its fields (vehicle, system, opcode and\n"
             "mnemonic, each argument raw and in engineering units, check), the word in hex and\n"
             "binary, its sub-bits and start time, and the totals. The file's digest and every\n"
-            "word's fields are checked first.\n"
+            "word's fields are checked first. For a ccsds-tc upload: every CLTU with its frame\n"
+            "and packet header fields by name, opcode and arguments, FECF, frame hex and CLTU hex.\n"
             "\n"
             "options:\n"
             "  --json      the same as JSON (each word's \"hex\" is its W-bit value right-aligned\n"
@@ -45,6 +47,7 @@ static void pattern_of(const ulk_link *l, const ulk_word *w, char *buf, int spac
 }
 
 static void ratio_str(ulk_ratio r, char *buf, int len) { ulk_ratio_format(r, buf, len); }
+static int print_text_tc(const char *path, const ulk_upload *u);
 
 static const char *argval_show(const ulk_upload_arg *a, char *buf, size_t len)
 {
@@ -55,6 +58,7 @@ static const char *argval_show(const ulk_upload_arg *a, char *buf, size_t len)
 
 static int print_text(const char *path, const ulk_upload *u)
 {
+    if (u->link.profile == ULK_PROFILE_CCSDS_TC) return print_text_tc(path, u);
     const ulk_link *l = &u->link;
     ulk_word_layout y = ulk_word_layout_of(l);
     char rb[64], pz[17], po[17], pi[17];
@@ -127,6 +131,94 @@ static int print_text(const char *path, const ulk_upload *u)
     return 0;
 }
 
+/* ---- ccsds-tc: one CLTU per command; fields of the packet and the frame by name ---- */
+
+static void hex_of(const uint8_t *p, size_t n, char *out)
+{
+    for (size_t i = 0; i < n; i++) sprintf(out + 2 * i, "%02X", p[i]);
+    out[2 * n] = 0;
+}
+
+/* The frame and packet of c parsed back (the upload reader has checked they are the ones
+ * its fields make). Returns 0 when both parse. */
+static int parse_tc(const ulk_link *l, const ulk_upload_cmd *c, ulk_tcf_frame *fr, ulk_spp_packet *pk)
+{
+    if (ulk_tcf_parse(&l->tc.frame, c->frame, c->n_frame, fr) || fr->verdict != ULK_TCF_OK) return -1;
+    if (ulk_spp_parse(fr->data, fr->n_data, pk) || pk->verdict != ULK_SPP_OK) return -1;
+    return 0;
+}
+
+static int print_text_tc(const char *path, const ulk_upload *u)
+{
+    const ulk_link *l = &u->link;
+    const ulk_tc_params *t = &l->tc;
+    char rb[64], fs[64];
+    ratio_str(l->bit_rate, rb, sizeof rb);
+    ratio_str(l->fsc, fs, sizeof fs);
+    printf("upload     %s (compiled from %s)\n", path, u->source);
+    printf("dictionary %s %s  sha256 %s\n", u->dict_name, u->dict_version, u->dict_sha256);
+    printf("link       ccsds-tc, %s bit/s (one channel bit per symbol), %s, %s Hz %s subcarrier\n", rb,
+           ulk_line_code_name(l->line_code), fs, ulk_waveform_name(l->waveform));
+    printf("frames     SCID %u, VCID %u, %s, segment header %s, FECF %s, randomizer %s\n", t->frame.spacecraft_id,
+           t->frame.virtual_channel,
+           t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled (Type-AD)" : "expedited (Type-BD)",
+           t->frame.segment_header ? "on" : "off", t->frame.fecf ? "on" : "off", t->frame.randomize ? "on" : "off");
+    printf("channel    acquisition %u octets, idle %u octets between CLTUs and after the last\n", t->acquisition_octets,
+           t->idle_octets);
+    char *hx = malloc(2 * ULK_CLTU_MAX_OCTETS + 1);
+    if (!hx) return 2;
+    for (size_t i = 0; i < u->n_cmds; i++) {
+        const ulk_upload_cmd *c = &u->cmds[i];
+        ulk_tcf_frame fr;
+        ulk_spp_packet pk;
+        char v[600];
+        printf("\nCLTU %zu  line %d  %s%s\n", i + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
+        printf("  start     %.9f s  after %llu idle bits", ulk_stream_word_start_s(u, i + 1),
+               (unsigned long long)c->idles_before);
+        if (c->wait_before.num) {
+            char w[64];
+            ratio_str(c->wait_before, w, sizeof w);
+            printf(" (wait %s s)", w);
+        }
+        printf("\n");
+        if (parse_tc(l, c, &fr, &pk)) {
+            printf("  (frame does not parse)\n");
+            continue;
+        }
+        printf("  frame     version %u, bypass %u, control command %u, spare %u, SCID %u, VCID %u, length %u (%zu octets), N(S) %u\n",
+               fr.hdr.version, fr.hdr.bypass, fr.hdr.ctrl_cmd, fr.hdr.spare, fr.hdr.scid, fr.hdr.vcid,
+               fr.hdr.frame_length, c->n_frame, fr.hdr.seq_num);
+        if (t->frame.segment_header) printf("  segment   sequence flags %u, MAP ID %u\n", fr.seg_flags, fr.map_id);
+        printf("  packet    version %u, type %u, secondary header %u, APID 0x%03X = %s, sequence flags %u, count %u, data length %u\n",
+               pk.hdr.version, pk.hdr.type, pk.hdr.sec_hdr_flag, pk.hdr.apid, c->system_name, pk.hdr.seq_flags,
+               pk.hdr.seq_count, pk.hdr.data_length);
+        printf("  opcode    0x%02X = %s  (data octet 0)\n", c->opcode, c->mnemonic);
+        int pos = 8;
+        for (int k = 0; k < c->n_args; k++) {
+            const ulk_upload_arg *a = &c->args[k];
+            printf("  arg       %s = %s  raw 0x%llX (%s, %d bits at data bit %d)\n", a->name, argval_show(a, v, sizeof v),
+                   (unsigned long long)a->raw, ulk_arg_type_name(a->type), a->bits, pos);
+            pos += a->bits;
+        }
+        if (pos % 8) printf("  padding   %d zero bits at data bit %d\n", 8 - pos % 8, pos);
+        if (t->frame.fecf) printf("  FECF      0x%04X  %s\n", fr.fecf_received, fr.fecf_received == fr.fecf_computed ? "ok" : "WRONG");
+        hex_of(c->frame, c->n_frame, hx);
+        printf("  frame hex %s\n", hx);
+        hex_of(c->cltu, c->n_cltu, hx);
+        printf("  CLTU hex  %s\n", hx);
+        printf("  CLTU      %zu octets = %zu bits: start sequence, %zu codeblocks, tail sequence\n", c->n_cltu, 8 * c->n_cltu,
+               (c->n_cltu - 10) / 8);
+    }
+    free(hx);
+    char wa[64];
+    ratio_str(u->wait_after, wa, sizeof wa);
+    printf("\nidle       %llu bits after the last CLTU%s%s%s\n", (unsigned long long)u->idles_after,
+           u->wait_after.num ? " (wait " : "", u->wait_after.num ? wa : "", u->wait_after.num ? " s)" : "");
+    printf("totals     %zu CLTUs, %llu channel bits, %.9f s\n", u->n_cmds, (unsigned long long)ulk_upload_n_subbits(u),
+           ulk_upload_duration_s(u));
+    return 0;
+}
+
 static cJSON *ratio_json(ulk_ratio r)
 {
     char b[64];
@@ -134,8 +226,89 @@ static cJSON *ratio_json(ulk_ratio r)
     return cJSON_CreateString(b);
 }
 
+static int print_json_tc(const ulk_upload *u)
+{
+    const ulk_link *l = &u->link;
+    cJSON *root = cJSON_CreateObject();
+    cJSON *d = cJSON_AddObjectToObject(root, "dictionary");
+    cJSON_AddStringToObject(d, "name", u->dict_name);
+    cJSON_AddStringToObject(d, "version", u->dict_version);
+    cJSON_AddStringToObject(d, "sha256", u->dict_sha256);
+    cJSON_AddStringToObject(root, "source", u->source);
+    cJSON *lj = cJSON_AddObjectToObject(root, "link");
+    cJSON_AddStringToObject(lj, "profile", "ccsds-tc");
+    cJSON_AddItemToObject(lj, "bit_rate", ratio_json(l->bit_rate));
+    cJSON *units = cJSON_AddArrayToObject(root, "cltus");
+    char *hx = malloc(2 * ULK_CLTU_MAX_OCTETS + 1);
+    if (!root || !hx) { free(hx); cJSON_Delete(root); return 2; }
+    for (size_t i = 0; i < u->n_cmds; i++) {
+        const ulk_upload_cmd *c = &u->cmds[i];
+        ulk_tcf_frame fr;
+        ulk_spp_packet pk;
+        cJSON *w = cJSON_CreateObject();
+        cJSON_AddItemToArray(units, w);
+        cJSON_AddNumberToObject(w, "index", (double)(i + 1));
+        cJSON_AddNumberToObject(w, "line", c->line);
+        cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
+        cJSON_AddBoolToObject(w, "critical", c->critical);
+        cJSON_AddNumberToObject(w, "start_s", ulk_stream_word_start_s(u, i + 1));
+        cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
+        cJSON_AddItemToObject(w, "wait_s", ratio_json(c->wait_before));
+        cJSON *s = cJSON_AddObjectToObject(w, "system");
+        cJSON_AddStringToObject(s, "name", c->system_name);
+        cJSON_AddNumberToObject(s, "address", c->system_addr);
+        cJSON_AddNumberToObject(w, "opcode", c->opcode);
+        if (parse_tc(l, c, &fr, &pk) == 0) {
+            cJSON *f = cJSON_AddObjectToObject(w, "frame");
+            cJSON_AddNumberToObject(f, "version", fr.hdr.version);
+            cJSON_AddNumberToObject(f, "bypass", fr.hdr.bypass);
+            cJSON_AddNumberToObject(f, "control_command", fr.hdr.ctrl_cmd);
+            cJSON_AddNumberToObject(f, "spare", fr.hdr.spare);
+            cJSON_AddNumberToObject(f, "spacecraft_id", fr.hdr.scid);
+            cJSON_AddNumberToObject(f, "virtual_channel", fr.hdr.vcid);
+            cJSON_AddNumberToObject(f, "frame_length", fr.hdr.frame_length);
+            cJSON_AddNumberToObject(f, "sequence_number", fr.hdr.seq_num);
+            if (l->tc.frame.segment_header) cJSON_AddNumberToObject(f, "map_id", fr.map_id);
+            if (l->tc.frame.fecf) cJSON_AddNumberToObject(f, "fecf", fr.fecf_received);
+            cJSON *p = cJSON_AddObjectToObject(w, "packet");
+            cJSON_AddNumberToObject(p, "version", pk.hdr.version);
+            cJSON_AddNumberToObject(p, "type", pk.hdr.type);
+            cJSON_AddNumberToObject(p, "secondary_header", pk.hdr.sec_hdr_flag);
+            cJSON_AddNumberToObject(p, "apid", pk.hdr.apid);
+            cJSON_AddNumberToObject(p, "sequence_flags", pk.hdr.seq_flags);
+            cJSON_AddNumberToObject(p, "sequence_count", pk.hdr.seq_count);
+            cJSON_AddNumberToObject(p, "data_length", pk.hdr.data_length);
+        }
+        cJSON *args = cJSON_AddObjectToObject(w, "args");
+        for (int k = 0; k < c->n_args; k++) {
+            const ulk_upload_arg *a = &c->args[k];
+            if (a->type == ULK_ARG_ENUM) cJSON_AddStringToObject(args, a->name, a->text);
+            else if (a->type == ULK_ARG_BOOLEAN) cJSON_AddBoolToObject(args, a->name, a->raw != 0);
+            else cJSON_AddNumberToObject(args, a->name, a->eng);
+        }
+        hex_of(c->frame, c->n_frame, hx);
+        cJSON_AddStringToObject(w, "frame_hex", hx);
+        hex_of(c->cltu, c->n_cltu, hx);
+        cJSON_AddStringToObject(w, "cltu_hex", hx);
+    }
+    free(hx);
+    cJSON_AddNumberToObject(root, "idles_after", (double)u->idles_after);
+    cJSON_AddItemToObject(root, "wait_after_s", ratio_json(u->wait_after));
+    cJSON *t = cJSON_AddObjectToObject(root, "totals");
+    cJSON_AddNumberToObject(t, "cltus", (double)u->n_cmds);
+    cJSON_AddNumberToObject(t, "channel_bits", (double)ulk_upload_n_subbits(u));
+    cJSON_AddNumberToObject(t, "duration_s", ulk_upload_duration_s(u));
+    char *txt = cJSON_Print(root);
+    cJSON_Delete(root);
+    if (!txt) return 2;
+    int bad = puts(txt) == EOF;
+    free(txt);
+    return bad ? 2 : 0;
+}
+
 static int print_json(const ulk_upload *u)
 {
+    if (u->link.profile == ULK_PROFILE_CCSDS_TC) return print_json_tc(u);
     const ulk_link *l = &u->link;
     ulk_word_layout y = ulk_word_layout_of(l);
     cJSON *root = cJSON_CreateObject();

@@ -1,0 +1,235 @@
+/* src/profile.c - the two link profiles behind ulk/profile.h: the sub-bit word profile
+ * (subbit-profile.md sections 2-3) and the CCSDS telecommand profile (ccsds-tc-profile.md
+ * sections 2-3, on the bit layer of ccsds.c).
+ */
+#include <stdio.h>
+#include <string.h>
+
+#include "ulk/ccsds.h"
+#include "ulk/profile.h"
+#include "ulk/word.h"
+#include "util.h"
+
+/* ---------------------------------------------------------------- sub-bit profile */
+
+static uint64_t sb_gap_units(const ulk_link *l, ulk_gap g)
+{
+    return (uint64_t)(g == ULK_GAP_FIRST ? l->preamble : g == ULK_GAP_BETWEEN ? l->gap : l->postamble);
+}
+
+static ulk_ratio sb_filler_rate(const ulk_link *l) { return l->bit_rate; }
+
+static int sb_filler_symbol(const ulk_link *l, uint64_t k, int j)
+{
+    (void)k;
+    return l->idle[j];
+}
+
+static size_t sb_max_arg_bits(const ulk_link *l) { return (size_t)l->argument_bits; }
+
+static uint64_t sb_unit_bits(const ulk_link *l, const ulk_upload_cmd *c)
+{
+    (void)c;
+    return (uint64_t)l->word_bits;
+}
+
+static int sb_unit_bit(const ulk_link *l, const ulk_upload_cmd *c, uint64_t i)
+{
+    (void)l;
+    return c->word.bits[i];
+}
+
+static int sb_encoder_create(const ulk_link *l, void **enc)
+{
+    *enc = (void *)l;
+    return 0;
+}
+
+static int sb_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen)
+{
+    const ulk_link *l = enc;
+    if (req->n_arg_bits > (size_t)l->argument_bits) {
+        snprintf(err, errlen, "its arguments do not fit the %d-bit argument field", l->argument_bits);
+        return ULK_ELIMIT;
+    }
+    uint8_t field[64];
+    memset(field, 0, sizeof field);
+    if (req->n_arg_bits) memcpy(field, req->arg_bits, req->n_arg_bits);
+    ulk_word_build(l, req->system_addr, req->opcode, field, &out->word);
+    return 0;
+}
+
+static void sb_encoder_destroy(void *enc) { (void)enc; }
+
+static const ulk_profile_ops subbit_ops = {
+    "subbit",         ULK_PROFILE_SUBBIT, sb_gap_units, sb_filler_rate, sb_filler_symbol, sb_max_arg_bits,
+    sb_unit_bits,     sb_unit_bit,        sb_encoder_create, sb_encode, sb_encoder_destroy,
+};
+
+/* ---------------------------------------------------------------- ccsds-tc profile */
+
+static uint64_t tc_gap_units(const ulk_link *l, ulk_gap g)
+{
+    return 8u * (uint64_t)(g == ULK_GAP_FIRST ? l->tc.acquisition_octets : l->tc.idle_octets);
+}
+
+static ulk_ratio tc_filler_rate(const ulk_link *l) { return l->bit_rate; }
+
+/* Acquisition and idle: alternating bits, every run starting with 0 (0x55 octets). */
+static int tc_filler_symbol(const ulk_link *l, uint64_t k, int j)
+{
+    (void)l;
+    (void)j;
+    return (int)(k & 1u);
+}
+
+static size_t tc_max_arg_bits(const ulk_link *l) { return 8 * (ulk_ccsds_max_data_octets(&l->tc.frame) - 1); }
+
+static uint64_t tc_unit_bits(const ulk_link *l, const ulk_upload_cmd *c)
+{
+    (void)l;
+    return 8u * (uint64_t)c->n_cltu;
+}
+
+static int tc_unit_bit(const ulk_link *l, const ulk_upload_cmd *c, uint64_t i)
+{
+    (void)l;
+    return (c->cltu[i >> 3] >> (7 - (i & 7))) & 1;
+}
+
+/* Packet sequence counts per APID (11 bits: a table of 2048) and the next N(S). */
+typedef struct {
+    const ulk_link *l;
+    uint16_t seq[2048];
+    unsigned frames;
+} tc_encoder;
+
+static int tc_encoder_create(const ulk_link *l, void **enc)
+{
+    tc_encoder *e = ulk_calloc(1, sizeof *e);
+    if (!e) return ULK_ENOMEM;
+    e->l = l;
+    *enc = e;
+    return 0;
+}
+
+static void tc_encoder_destroy(void *enc) { ulk_free(enc); }
+
+/* The CLTU and frame of one command with given counts; allocates out->cltu (and frame). */
+static int tc_build(const ulk_link *l, const ulk_unit_request *req, uint16_t seq, uint8_t ns, ulk_upload_cmd *out,
+                    char *err, size_t errlen)
+{
+    const ulk_ccsds_tc *tc = &l->tc.frame;
+    if (req->system_addr > ULK_SPP_MAX_APID || req->opcode > 255) {
+        snprintf(err, errlen, "APID 0x%X or opcode %u out of range", req->system_addr, req->opcode);
+        return ULK_EINVAL;
+    }
+    size_t n_data = 1 + (req->n_arg_bits + 7) / 8;
+    if (n_data > ulk_ccsds_max_data_octets(tc)) {
+        snprintf(err, errlen, "its frame of %zu octets exceeds the %d-octet limit of a TC frame",
+                 ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + n_data), ULK_TCF_MAX_OCTETS);
+        return ULK_ELIMIT;
+    }
+    uint8_t data[ULK_TCF_MAX_OCTETS], pkt[ULK_TCF_MAX_OCTETS];
+    size_t nd, np, nf, nc;
+    int rc = ulk_ccsds_command_data(req->opcode, req->arg_bits, req->n_arg_bits, data, sizeof data, &nd);
+    if (!rc) rc = ulk_spp_build((uint16_t)req->system_addr, seq, data, nd, pkt, sizeof pkt, &np);
+    size_t n_frame = ulk_tcf_octets(tc, np);
+    size_t n_cltu = ulk_cltu_octets(n_frame);
+    uint8_t *buf = rc ? NULL : ulk_malloc(n_cltu + n_frame);
+    if (!rc && !buf) return ULK_ENOMEM;
+    if (!rc) rc = ulk_tcf_build(tc, ns, pkt, np, buf + n_cltu, n_frame, &nf);
+    if (!rc) rc = ulk_cltu_build(tc, buf + n_cltu, nf, buf, n_cltu, &nc);
+    if (rc) {
+        ulk_free(buf);
+        snprintf(err, errlen, "cannot build its CLTU (%s)", ulk_status_str(rc));
+        return rc;
+    }
+    out->seq_count = seq;
+    out->frame_seq = ns;
+    out->cltu = buf;
+    out->n_cltu = nc;
+    out->frame = buf + n_cltu;
+    out->n_frame = nf;
+    return 0;
+}
+
+/* N(S) of the k-th frame (0-based) of an upload: first_sequence + k mod 256, or 0. */
+static uint8_t tc_frame_seq(const ulk_link *l, unsigned k)
+{
+    if (l->tc.frame.service != ULK_TC_SEQUENCE_CONTROLLED) return 0;
+    return (uint8_t)((l->tc.first_sequence + k) & 0xFFu);
+}
+
+static int tc_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen)
+{
+    tc_encoder *e = enc;
+    if (req->system_addr > ULK_SPP_MAX_APID) {
+        snprintf(err, errlen, "APID 0x%X out of range", req->system_addr);
+        return ULK_EINVAL;
+    }
+    uint16_t seq = e->seq[req->system_addr];
+    int rc = tc_build(e->l, req, seq, tc_frame_seq(e->l, e->frames), out, err, errlen);
+    if (rc) return rc;
+    e->seq[req->system_addr] = (uint16_t)((seq + 1u) & ULK_SPP_MAX_SEQ_COUNT);
+    e->frames++;
+    return 0;
+}
+
+static const ulk_profile_ops ccsds_ops = {
+    "ccsds-tc",   ULK_PROFILE_CCSDS_TC, tc_gap_units,      tc_filler_rate, tc_filler_symbol, tc_max_arg_bits,
+    tc_unit_bits, tc_unit_bit,          tc_encoder_create, tc_encode,      tc_encoder_destroy,
+};
+
+const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id)
+{
+    switch (id) {
+    case ULK_PROFILE_SUBBIT: return &subbit_ops;
+    case ULK_PROFILE_CCSDS_TC: return &ccsds_ops;
+    default: return NULL;
+    }
+}
+
+/* ---------------------------------------------------------------- unit checks (upload reader) */
+
+static size_t pack_args(const ulk_upload_cmd *c, uint8_t *bits, size_t cap)
+{
+    size_t pos = 0;
+    for (int k = 0; k < c->n_args; k++) {
+        int w = c->args[k].bits;
+        if (w < 1 || w > 64 || pos + (size_t)w > cap) return (size_t)-1;
+        for (int b = 0; b < w; b++) bits[pos + (size_t)b] = (uint8_t)((c->args[k].raw >> (w - 1 - b)) & 1u);
+        pos += (size_t)w;
+    }
+    return pos;
+}
+
+int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
+{
+    if (l->profile != ULK_PROFILE_CCSDS_TC) {
+        snprintf(err, errlen, "only ccsds-tc units are checked here");
+        return ULK_EINVAL;
+    }
+    uint8_t bits[8 * ULK_TCF_MAX_OCTETS];
+    size_t n = pack_args(c, bits, sizeof bits);
+    if (n == (size_t)-1) {
+        snprintf(err, errlen, "the arguments do not fit a TC frame");
+        return ULK_EPARSE;
+    }
+    ulk_unit_request req = {c->system_addr, c->opcode, bits, n};
+    ulk_upload_cmd want;
+    memset(&want, 0, sizeof want);
+    int rc = tc_build(l, &req, c->seq_count, c->frame_seq, &want, err, errlen);
+    if (rc == ULK_ENOMEM) return rc;
+    if (rc) return ULK_EPARSE;
+    rc = 0;
+    if (want.n_frame != c->n_frame || memcmp(want.frame, c->frame, c->n_frame)) {
+        snprintf(err, errlen, "the frame is not the one its fields (APID, opcode, arguments, counts) make");
+        rc = ULK_EPARSE;
+    } else if (want.n_cltu != c->n_cltu || memcmp(want.cltu, c->cltu, c->n_cltu)) {
+        snprintf(err, errlen, "the CLTU is not the coding of its frame");
+        rc = ULK_EPARSE;
+    }
+    ulk_free(want.cltu);
+    return rc;
+}
