@@ -2,9 +2,10 @@
 # scripts/fuzz.sh - build the libFuzzer targets (tests/fuzz/) and run each for a bounded time.
 #   bash scripts/fuzz.sh short          every target ~45 s (what CI runs; whole run < 5 min on 2 cores)
 #   bash scripts/fuzz.sh long N         every target N seconds
-#   bash scripts/fuzz.sh run TARGET N   one target N seconds
+#   bash scripts/fuzz.sh run TARGET N   one target N seconds (FUZZ_NOBUILD=1: skip the build)
+#   bash scripts/fuzz.sh build          only build them
 # Environment: FUZZ_JOBS (targets run side by side, default 2, at most nproc), FUZZ_BUILD
-# (build folder, default build-fuzz), CC (default clang).
+# (build folder, default build-fuzz), FUZZ_CMAKE_ARGS (extra cmake options), CC (default clang).
 # Each target starts from its seed corpus tests/fuzz/corpus/<target>/ and adds what it finds to
 # out/fuzz/<target>/corpus/; a crash, leak, timeout (10 s per input) or memory blow-up
 # (2048 MB) leaves its input in out/fuzz/<target>/ and makes this script exit 1.
@@ -17,7 +18,8 @@ case "$mode" in
   short) secs=45; only="" ;;
   long) secs=${2:?usage: fuzz.sh long SECONDS}; only="" ;;
   run) only=${2:?usage: fuzz.sh run TARGET SECONDS}; secs=${3:?usage: fuzz.sh run TARGET SECONDS} ;;
-  *) echo "usage: bash scripts/fuzz.sh short | long SECONDS | run TARGET SECONDS" >&2; exit 2 ;;
+  build) secs=0; only="" ;;
+  *) echo "usage: bash scripts/fuzz.sh short | long SECONDS | run TARGET SECONDS | build" >&2; exit 2 ;;
 esac
 case "$secs" in ''|*[!0-9]*) echo "fuzz.sh: seconds must be a whole number" >&2; exit 2 ;; esac
 
@@ -30,11 +32,14 @@ jobs=${FUZZ_JOBS:-2}
 [ "$jobs" -lt 1 ] && jobs=1
 
 mkdir -p out
+if [ -z "${FUZZ_NOBUILD:-}" ]; then
 echo "== building fuzz targets in $bdir (clang, -fsanitize=fuzzer,address,undefined)"
-if ! CC=${CC:-clang} cmake -S . -B "$bdir" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DULK_FUZZ=ON >"out/fuzz-build.log" 2>&1 ||
+if ! CC=${CC:-clang} cmake -S . -B "$bdir" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DULK_FUZZ=ON ${FUZZ_CMAKE_ARGS:-} >"out/fuzz-build.log" 2>&1 ||
    ! cmake --build "$bdir" --target fuzz_all -j"$ncpu" >>"out/fuzz-build.log" 2>&1; then
-  tail -n 30 out/fuzz-build.log; echo "fuzz.sh: build failed (log: out/fuzz-build.log)" >&2; exit 1
+  grep -m5 -E 'error' out/fuzz-build.log; echo "fuzz.sh: build failed (log: out/fuzz-build.log)" >&2; exit 1
 fi
+fi
+[ "$mode" = build ] && { echo "fuzz.sh: built in $bdir"; exit 0; }
 
 run_one() { # target -> writes out/fuzz/<t>/log, returns libFuzzer's exit code
   local t=$1 o=out/fuzz/$1
