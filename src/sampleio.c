@@ -11,9 +11,10 @@
  *     reports it with the reason (e.g. "No space left on device") and removes the temporary.
  *   - Readers move chunks of frames, so memory stays flat for hour-long captures; one channel
  *     of a multi-channel file is picked, never mixed.
- *   - Raw sample types are rows of a table (SigMF datatype, width, complex flag), so complex
- *     types can be added as rows when a stage needs them; today complex ones are refused with
- *     a message saying so.
+ *   - Raw sample types are rows of a table (SigMF datatype, width, complex flag). Complex
+ *     files (.cf32, .ci16, or a .sigmf-data whose metadata says cf32_le/ci16_le) are written
+ *     from interleaved I/Q frames (channels = 2) and read as two channels, I = 0 and Q = 1,
+ *     like a two-channel WAV (left I, right Q), so a reader still picks one channel.
  * 16-bit scaling is 32767 both ways: written as round(32767 x) (halves away from zero, the
  * profile's rule) and read back as v / 32767, so a written value reads back to within half an
  * LSB. Other PCM widths that libsndfile reads are normalised by libsndfile (2^(bits-1)).
@@ -42,7 +43,7 @@
 typedef struct {
     const char *datatype; /* SigMF core:datatype */
     int bytes;            /* per real component */
-    int complex_;         /* 1: I/Q pairs (not supported yet) */
+    int complex_;         /* 1: I/Q pairs (two reader channels per SigMF channel) */
     int supported;
     ulk_sample_format fmt;
 } raw_type;
@@ -50,16 +51,18 @@ typedef struct {
 static const raw_type RAW_TYPES[] = {
     {"rf32_le", 4, 0, 1, ULK_FMT_F32},
     {"ri16_le", 2, 0, 1, ULK_FMT_S16},
-    {"cf32_le", 4, 1, 0, ULK_FMT_F32},
-    {"ci16_le", 2, 1, 0, ULK_FMT_S16},
+    {"cf32_le", 4, 1, 1, ULK_FMT_F32},
+    {"ci16_le", 2, 1, 1, ULK_FMT_S16},
 };
 
-static const raw_type *raw_type_of_fmt(ulk_sample_format f)
+static const raw_type *raw_type_of(ulk_sample_format f, int cplx)
 {
     for (size_t i = 0; i < sizeof RAW_TYPES / sizeof RAW_TYPES[0]; i++)
-        if (RAW_TYPES[i].supported && RAW_TYPES[i].fmt == f) return &RAW_TYPES[i];
+        if (RAW_TYPES[i].supported && RAW_TYPES[i].fmt == f && RAW_TYPES[i].complex_ == !!cplx)
+            return &RAW_TYPES[i];
     return NULL;
 }
+
 
 static const raw_type *raw_type_of_name(const char *name)
 {
@@ -84,10 +87,15 @@ static int ends_with(const char *s, const char *suffix)
     return n >= m && strcasecmp(s + n - m, suffix) == 0;
 }
 
+/* Whether the extension names complex samples (.cf32, .ci16). */
+static int ext_complex(const char *path) { return ends_with(path, ".cf32") || ends_with(path, ".ci16"); }
+
 /* What the extension says: 1 and *c, *f set when recognised (*f = -1: no format implied). */
 static int ext_kind(const char *path, ulk_container *c, int *f)
 {
     if (ends_with(path, ".wav")) { *c = ULK_CONTAINER_WAV; *f = -1; return 1; }
+    if (ends_with(path, ".cf32")) { *c = ULK_CONTAINER_RAW; *f = ULK_FMT_F32; return 1; }
+    if (ends_with(path, ".ci16")) { *c = ULK_CONTAINER_RAW; *f = ULK_FMT_S16; return 1; }
     if (ends_with(path, ".f32")) { *c = ULK_CONTAINER_RAW; *f = ULK_FMT_F32; return 1; }
     if (ends_with(path, ".s16")) { *c = ULK_CONTAINER_RAW; *f = ULK_FMT_S16; return 1; }
     if (ends_with(path, ".sigmf-data")) { *c = ULK_CONTAINER_RAW; *f = -1; return 1; }
@@ -100,6 +108,7 @@ static char *meta_path_of(const char *path)
 {
     size_t n = strlen(path);
     if (ends_with(path, ".f32") || ends_with(path, ".s16")) n -= 4;
+    else if (ext_complex(path)) n -= 5;
     else if (ends_with(path, ".sigmf-data")) n -= 11;
     char *m = ulk_malloc(n + 12);
     if (!m) return NULL;
@@ -114,7 +123,8 @@ struct ulk_writer {
     ulk_container container;
     ulk_sample_format format;
     double fs_hz;
-    int channels;
+    int channels;     /* components per frame: 1 real, 2 complex I/Q (or a stereo WAV) */
+    const raw_type *rt; /* raw: the SigMF datatype */
     char *path, *tmp; /* tmp NULL when writing a device or pipe directly */
     int direct;
     FILE *fp;         /* raw */
@@ -160,7 +170,7 @@ void ulk_writer_abort(ulk_writer *w)
 /* Builds the SigMF document of a raw file (everything but the data). */
 static int build_meta(ulk_writer *w, const ulk_sample_info *info, ulk_diag *diag)
 {
-    const raw_type *t = raw_type_of_fmt(w->format);
+    const raw_type *t = w->rt;
     cJSON *root = cJSON_CreateObject();
     cJSON *g = cJSON_AddObjectToObject(root, "global");
     if (!root || !g) goto oom;
@@ -169,7 +179,8 @@ static int build_meta(ulk_writer *w, const ulk_sample_info *info, ulk_diag *diag
     if (!cJSON_AddStringToObject(g, "core:datatype", t->datatype)) goto oom;
     if (!cJSON_AddNumberToObject(g, "core:sample_rate", w->fs_hz)) goto oom;
     if (!cJSON_AddStringToObject(g, "core:version", "1.0.0")) goto oom;
-    if (!cJSON_AddNumberToObject(g, "core:num_channels", w->channels)) goto oom;
+    /* a complex file is one channel of I/Q pairs */
+    if (!cJSON_AddNumberToObject(g, "core:num_channels", t->complex_ ? 1 : w->channels)) goto oom;
     if (!cJSON_AddStringToObject(g, "core:recorder", "ulk")) goto oom;
     if (info->description && !cJSON_AddStringToObject(g, "core:description", info->description)) goto oom;
     {
@@ -256,8 +267,9 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     if (!path || !*path || !info || !out) return ulk_fail(diag, ULK_EINVAL, "sample writer: missing path or settings");
     if (!(info->fs_hz > 0) || !isfinite(info->fs_hz))
         return ulk_fail(diag, ULK_EINVAL, "%s: sample rate must be a positive number", path);
-    if (info->channels > 1)
-        return ulk_fail(diag, ULK_EINVAL, "%s: only single-channel (real) output is supported", path);
+    if (info->channels > 2)
+        return ulk_fail(diag, ULK_EINVAL, "%s: only real (1 channel) or complex I/Q (2 channels) output is supported", path);
+    const int cplx = info->channels == 2;
     if (info->format != ULK_FMT_F32 && info->format != ULK_FMT_S16)
         return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", path);
 
@@ -278,6 +290,9 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     if (efmt >= 0 && efmt != (int)info->format)
         return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but %s was asked for", path,
                         efmt == ULK_FMT_F32 ? "f32" : "s16", info->format == ULK_FMT_F32 ? "f32" : "s16");
+    if (cont == ULK_CONTAINER_RAW && !direct && !ends_with(path, ".sigmf-data") && ext_complex(path) != cplx)
+        return ulk_fail(diag, ULK_EINVAL, "%s: %s samples go to a file ending %s", path,
+                        cplx ? "complex (I/Q)" : "real", cplx ? ".cf32 or .ci16" : ".f32 or .s16");
     if (cont == ULK_CONTAINER_WAV && info->fs_hz != floor(info->fs_hz))
         return ulk_fail(diag, ULK_EINVAL,
                         "%s: WAV holds whole-number sample rates only (asked for %.17g Hz); write raw .f32 or "
@@ -294,10 +309,11 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     w->container = cont;
     w->format = info->format;
     w->fs_hz = info->fs_hz;
-    w->channels = 1;
+    w->channels = cplx ? 2 : 1;
+    w->rt = raw_type_of(info->format, cont == ULK_CONTAINER_RAW && cplx);
     w->direct = direct;
     w->path = ulk_strdup(path);
-    w->conv = ulk_malloc(IO_CHUNK * 4);
+    w->conv = ulk_malloc(IO_CHUNK * 4); /* IO_CHUNK values (not frames) are converted at a time */
     if (!w->path || !w->conv) { writer_free(w); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
     if (cont == ULK_CONTAINER_RAW && !direct) {
         int rc = build_meta(w, info, diag);
@@ -333,7 +349,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
         SF_INFO si;
         memset(&si, 0, sizeof si);
         si.samplerate = (int)info->fs_hz;
-        si.channels = 1;
+        si.channels = w->channels; /* complex: left I, right Q */
         /* RF64 that downgrades itself to plain WAV when the data stays under 4 GiB: hour-long
          * outputs at high rates stay readable, ordinary ones are ordinary WAV files. */
         si.format = SF_FORMAT_RF64 | (info->format == ULK_FMT_S16 ? SF_FORMAT_PCM_16 : SF_FORMAT_FLOAT);
@@ -392,9 +408,10 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n)
     if (w->err) return w->err;
     if (!x && n) return wfail(w, ULK_EINVAL, "no samples given");
     const int le = host_is_le();
+    const size_t nv = n * (size_t)w->channels; /* values: frames times components */
     size_t done = 0;
-    while (done < n) {
-        size_t m = n - done < IO_CHUNK ? n - done : IO_CHUNK;
+    while (done < nv) {
+        size_t m = nv - done < IO_CHUNK ? nv - done : IO_CHUNK;
         const float *s = x + done;
         int rc;
         if (w->format == ULK_FMT_S16) {
@@ -405,8 +422,9 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n)
                 double r = y >= 0 ? floor(y + 0.5) : -floor(-y + 0.5);
                 if (!(r <= 32767.0 && r >= -32767.0))
                     return wfail(w, ULK_ELIMIT,
-                                 "sample %llu is %g: it does not fit 16-bit output (would clip); nothing written",
-                                 (unsigned long long)(w->n_frames + done + k), (double)s[k]);
+                                 "sample %llu%s is %g: it does not fit 16-bit output (would clip); nothing written",
+                                 (unsigned long long)(w->n_frames + (done + k) / (size_t)w->channels),
+                                 w->channels == 2 ? ((done + k) % 2 ? " (Q)" : " (I)") : "", (double)s[k]);
                 v[k] = (int16_t)r;
             }
             if (w->container == ULK_CONTAINER_WAV) rc = wav_put(w, v, m, 1);
@@ -641,8 +659,9 @@ static int read_meta(ulk_reader *r, const char *mp, const ulk_sample_info *hint,
     const raw_type *t = raw_type_of_name(dt->valuestring);
     if (!t || !t->supported) {
         loc.path = "global.core:datatype";
-        ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "datatype \"%s\" is not supported%s: expected rf32_le or ri16_le",
-                     dt->valuestring, t && t->complex_ ? " yet (complex samples)" : "");
+        ulk_diag_add(diag, ULK_SEV_ERROR, &loc,
+                     "datatype \"%s\" is not supported: expected rf32_le, ri16_le, cf32_le or ci16_le",
+                     dt->valuestring);
         rc = ULK_EFORMAT;
         goto done;
     }
@@ -673,6 +692,16 @@ static int read_meta(ulk_reader *r, const char *mp, const ulk_sample_info *hint,
         }
         nch = (int)nc->valuedouble;
     }
+    /* the file name (.f32/.s16 real, .cf32/.ci16 complex) and the datatype must agree */
+    int name_says = ext_complex(r->path) ? 1 : (ends_with(r->path, ".f32") || ends_with(r->path, ".s16")) ? 0 : -1;
+    if (name_says >= 0 && name_says != t->complex_) {
+        loc.path = "global.core:datatype";
+        ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "datatype \"%s\" (%s samples) contradicts the file name %s (%s samples)",
+                     dt->valuestring, t->complex_ ? "complex" : "real", r->path, name_says ? "complex" : "real");
+        rc = ULK_EFORMAT;
+        goto done;
+    }
+    if ((r->rt ? r->rt : t)->complex_) nch *= 2; /* I and Q are channels 0 and 1 */
     rc = pick_channel(r, nch, channel, diag);
     if (rc < 0) goto done;
     const cJSON *v;
@@ -699,7 +728,7 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
         if (!isfinite(hint->fs_hz)) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: bad sample rate", r->path); }
         r->info.fs_hz = hint->fs_hz;
         r->info.format = hint->format;
-        r->rt = raw_type_of_fmt(hint->format);
+        r->rt = raw_type_of(hint->format, ext_complex(r->path));
         if (!r->rt) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", r->path); }
         if (efmt >= 0 && efmt != (int)hint->format) {
             ulk_free(mp);
@@ -708,7 +737,7 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
         }
         /* the metadata, when there, still tells channels and our annotations */
         if (have_meta) rc = read_meta(r, mp, hint, channel, diag);
-        else rc = pick_channel(r, 1, channel, diag);
+        else rc = pick_channel(r, r->rt->complex_ ? 2 : 1, channel, diag);
     } else {
         if (!have_meta) {
             rc = ulk_fail(diag, ULK_EINVAL,
@@ -717,9 +746,11 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
                           r->path, mp);
         } else {
             rc = read_meta(r, mp, NULL, channel, diag);
-            if (rc == 0 && efmt >= 0 && efmt != (int)r->info.format)
-                rc = ulk_fail(diag, ULK_EFORMAT, "%s: the extension says %s samples but %s says %s", r->path,
-                              efmt == ULK_FMT_F32 ? "f32" : "s16", mp, r->rt->datatype);
+            if (rc == 0 && efmt >= 0 && (efmt != (int)r->info.format ||
+                                         (!ends_with(r->path, ".sigmf-data") && ext_complex(r->path) != r->rt->complex_)))
+                rc = ulk_fail(diag, ULK_EFORMAT, "%s: the extension says %s%s samples but %s says %s", r->path,
+                              ext_complex(r->path) ? "complex " : "", efmt == ULK_FMT_F32 ? "f32" : "s16", mp,
+                              r->rt->datatype);
         }
     }
     ulk_free(mp);
@@ -767,8 +798,8 @@ int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel, 
     /* BASE.sigmf-meta names its recording: BASE.sigmf-data, else BASE.f32 or BASE.s16 */
     if (ends_with(path, ".sigmf-meta")) {
         size_t n = strlen(path) - 11;
-        static const char *exts[] = {".sigmf-data", ".f32", ".s16"};
-        for (int k = 0; k < 3 && !r->path; k++) {
+        static const char *exts[] = {".sigmf-data", ".f32", ".s16", ".cf32", ".ci16"};
+        for (int k = 0; k < 5 && !r->path; k++) {
             char *cand = ulk_malloc(n + 12);
             if (!cand) break;
             memcpy(cand, path, n);

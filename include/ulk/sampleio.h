@@ -23,7 +23,10 @@ typedef struct {
     double fs_hz;              /* sample rate */
     ulk_sample_format format;
     ulk_container container;
-    int channels;              /* 1 = real; readers mix nothing: see ulk_reader_open */
+    int channels;              /* 1 = real; 2 = complex I/Q (writer: .cf32/.ci16 raw with SigMF
+                                * cf32_le/ci16_le, or a two-channel WAV, left I, right Q; reader: a
+                                * complex raw file is two channels, I = 0, Q = 1); readers mix
+                                * nothing: see ulk_reader_open */
     /* SigMF annotations (writer: written when non-zero/non-NULL; reader: read when present) */
     double fsc_hz, bit_rate, subbit_rate;
     const char *description;   /* e.g. upload identity */
@@ -36,16 +39,18 @@ typedef struct {
 } ulk_sample_info;
 
 typedef struct ulk_writer ulk_writer;
-/* Opens path for writing (container from the extension: .wav, .f32, .s16, .sigmf-data;
- * the raw ones also write BASE.sigmf-meta). Data goes to "<path>.tmp.XXXXXX" in the same
+/* Opens path for writing (container from the extension: .wav, .f32, .s16, .cf32, .ci16,
+ * .sigmf-data; the raw ones also write BASE.sigmf-meta; .cf32/.ci16 need info->channels 2,
+ * .f32/.s16 need 1). Data goes to "<path>.tmp.XXXXXX" in the same
  * folder until ulk_writer_commit(). A path that exists and is not a regular file (a device
  * such as /dev/null or /dev/full, a pipe) is written directly, with info->container for its
- * type and no metadata file. Mono only. Returns 0 and *out, or ULK_EINVAL (unknown extension,
+ * type and no metadata file. One channel (real) or two (complex I/Q). Returns 0 and *out, or ULK_EINVAL (unknown extension,
  * extension contradicting info->format, a rate WAV cannot hold, bad extra_json), ULK_EIO
  * (cannot create: the reason, e.g. "Permission denied", names the path), ULK_ENOMEM. The
  * writer is freed by ulk_writer_commit() or ulk_writer_abort(). */
 int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **out, ulk_diag *diag);
-/* Writes n samples (float, full scale 1.0). s16 output rounds round(32767*x), halves away from
+/* Writes n frames (float, full scale 1.0): n samples when real, n interleaved I, Q pairs (2n
+ * floats) when the writer was opened with two channels. s16 output rounds round(32767*x), halves away from
  * zero, and fails with ULK_ELIMIT if |x| > 1 would clip. Sticky errors: after one failure every
  * call returns it. */
 int ulk_writer_write(ulk_writer *w, const float *x, size_t n);
@@ -69,7 +74,7 @@ typedef struct ulk_reader ulk_reader;
 /* Opens a capture. For raw files hint supplies rate and format (fs_hz 0 = take them from the
  * .sigmf-meta beside the file). channel: which channel of a multi-channel WAV (0-based);
  * -1 refuses multi-channel files with a message saying so.
- * Which reader: .f32/.s16/.sigmf-data are raw; BASE.sigmf-meta opens BASE.sigmf-data (or
+ * Which reader: .f32/.s16/.cf32/.ci16/.sigmf-data are raw (complex ones: two channels); BASE.sigmf-meta opens BASE.sigmf-data (or
  * BASE.f32, BASE.s16); any other name is read by libsndfile (WAV, FLAC, ...), except that a
  * file libsndfile does not recognise, or a pipe, is read raw when hint gives a rate.
  * Returns 0 and *out (close with ulk_reader_close), or ULK_EIO (cannot open), ULK_EFORMAT

@@ -169,6 +169,8 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
 
 int cmd_modulate(int argc, char **argv)
 {
+    for (int i = 1; i < argc; i++) /* complex composite-carrier output: cmd_modulate_carrier.c */
+        if (!strcmp(argv[i], "--carrier")) return cmd_modulate_carrier(argc, argv);
     const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *fmt_text = NULL, *timing_path = NULL;
     int quiet = 0;
     for (int i = 1; i < argc; i++) {
