@@ -131,7 +131,7 @@ static int tc_build(const ulk_link *l, const ulk_unit_request *req, uint16_t seq
         return ULK_ELIMIT;
     }
     uint8_t data[ULK_TCF_MAX_OCTETS], pkt[ULK_TCF_MAX_OCTETS];
-    size_t nd, np, nf, nc;
+    size_t nd = 0, np = 0, nf = 0, nc = 0;
     int rc = ulk_ccsds_command_data(req->opcode, req->arg_bits, req->n_arg_bits, data, sizeof data, &nd);
     if (!rc) rc = ulk_spp_build((uint16_t)req->system_addr, seq, data, nd, pkt, sizeof pkt, &np);
     size_t n_frame = ulk_tcf_octets(tc, np);

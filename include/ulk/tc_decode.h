@@ -1,0 +1,102 @@
+/* ulk/tc_decode.h - decoding the CCSDS telecommand profile (ccsds-tc-profile.md section 4)
+ * from the shared demodulator front end's soft channel symbols to commands.
+ *
+ * Why a stage of its own: the blind front end (subcarrier, clock, matched filter; ulk/demod.h)
+ * is the same for both profiles and hands over soft symbols; what differs is what a unit is.
+ * Here hard decisions go to the CLTU decoder of ulk/ccsds.h: start-sequence search with the
+ * dictionary's start_errors tolerance in both polarities (EB90 and its complement 146F
+ * resolve the 180 degree ambiguity; nrz-m is decoded differentially, which has none),
+ * codeblocks in the configured mode, derandomizing, frame and FECF, packet; then the
+ * dictionary (APID -> system, opcode -> command, argument bits -> values). Every CLTU found
+ * is reported, accepted or rejected with its reason ("start", "codeblock 2 uncorrectable",
+ * "FECF ...", "frame header ...", "unknown APID or opcode ...", "argument ...").
+ *
+ * Memory stays flat: bits are kept only as long as a CLTU may still need them.
+ *
+ * Usage:
+ *     ulk_tc_decoder *t;
+ *     ulk_tc_decoder_create(dict, on_unit, user, &t, diag);
+ *     ulk_tc_decoder_push(t, times_s, soft, n);     // any chunk size, in time order
+ *     ulk_tc_decoder_finish(t);
+ *     ulk_tc_decoder_destroy(t);
+ * or ulk_tc_decode_samples() for the front end and the decoder together.
+ */
+#ifndef ULK_TC_DECODE_H
+#define ULK_TC_DECODE_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "ulk/ccsds.h"
+#include "ulk/demod.h"
+#include "ulk/dict.h"
+#include "ulk/error.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define ULK_TC_MAX_ARGS 1024 /* a 1010-octet data field holds at most this many 1..64-bit fields */
+
+typedef struct {
+    const ulk_arg *arg;       /* the dictionary's argument */
+    uint64_t raw;             /* raw field, right-aligned */
+    double eng;               /* engineering value (enum: code; boolean: 0/1) */
+    const char *label;        /* enum label, else NULL */
+    char text[64];            /* value in command-list syntax (ulk_arg_format) */
+} ulk_tc_arg;
+
+typedef enum { ULK_TC_ACCEPTED = 0, ULK_TC_REJECTED = 1 } ulk_tc_status;
+
+/* One CLTU found in the stream. Large (about 70 kB): the decoder owns the one it reports. */
+typedef struct {
+    ulk_tc_status status;
+    char reason[200];         /* rejected only: "codeblock 2 uncorrectable", "FECF ...", ... */
+    double start_s;           /* time of the first bit of its start sequence */
+    int polarity;             /* +1 as sent, -1 inverted (nrz-l); always +1 for nrz-m */
+    int start_errors;         /* bit errors in its start sequence */
+    int n_codeblocks, n_corrected;
+    const ulk_command *cmd;   /* accepted (and "argument" rejections): the command */
+    uint32_t apid, opcode;    /* when the packet was read */
+    uint16_t seq_count;       /* packet sequence count */
+    uint8_t frame_seq;        /* N(S) */
+    int n_args;
+    ulk_tc_arg args[ULK_TC_MAX_ARGS];
+    char data_hex[2 * ULK_TCF_MAX_OCTETS + 1]; /* the packet data field (opcode, arguments) when
+                                                  the CLTU was decoded, else "" */
+} ulk_tc_unit;
+
+typedef void (*ulk_tc_unit_fn)(const ulk_tc_unit *u, void *user);
+
+typedef struct ulk_tc_decoder ulk_tc_decoder;
+
+/* Creates a decoder for a ccsds-tc dictionary (d must outlive it). on_unit is called for
+ * every CLTU in time order; the unit is valid during the call. Returns 0 with *out;
+ * ULK_EINVAL (message in diag) when d is not a ccsds-tc dictionary; ULK_ENOMEM. */
+int ulk_tc_decoder_create(const ulk_dict *d, ulk_tc_unit_fn on_unit, void *user, ulk_tc_decoder **out,
+                          ulk_diag *diag);
+/* Feeds n soft symbols (value about +-1 as received, polarity unresolved, before nrz-m
+ * decoding) and their start times. Returns 0 or a sticky ULK_ENOMEM. */
+int ulk_tc_decoder_push(ulk_tc_decoder *t, const double *t_s, const float *soft, size_t n);
+/* Decodes what is left (a CLTU cut off by the end is reported rejected, "truncated").
+ * Returns 0 or the sticky status. */
+int ulk_tc_decoder_finish(ulk_tc_decoder *t);
+/* CLTUs reported so far, and how many of them were accepted. */
+size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t);
+size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t);
+void ulk_tc_decoder_destroy(ulk_tc_decoder *t); /* NULL does nothing */
+
+/* The blind front end (ulk/demod.h, run on the link as n = 1 symbols) and the decoder over
+ * a whole capture given in memory. est (may be NULL) receives the front end's estimates.
+ * Returns 0, or the first failure's status (message in diag). */
+int ulk_tc_decode_samples(const ulk_dict *d, const float *x, size_t n, double fs_hz, ulk_tc_unit_fn on_unit,
+                          void *user, ulk_demod_estimates *est, ulk_diag *diag);
+
+/* The sub-bit link that drives the shared front end for a ccsds-tc link: n = 1, Z = "0",
+ * O = "1", the same rate, line code and subcarrier. (Its word stage is not used.) */
+void ulk_tc_front_end_link(const ulk_link *tc_link, ulk_link *out);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

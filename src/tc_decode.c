@@ -1,0 +1,325 @@
+/* src/tc_decode.c - the ccsds-tc decoder: soft channel symbols from the shared front end ->
+ * hard bits -> CLTUs (ccsds.c, both polarities) -> commands through the dictionary
+ * (ccsds-tc-profile.md section 4).
+ */
+#include <math.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "ulk/tc_decode.h"
+#include "util.h"
+
+struct ulk_tc_decoder {
+    const ulk_dict *d;
+    const ulk_ccsds_tc *tc;
+    ulk_tc_unit_fn fn;
+    void *user;
+    int status;
+    int finished;
+    int nrzm;
+    float prev;              /* previous soft symbol (nrz-m differential decoding) */
+    int have_prev;
+    uint8_t *bits, *inv;     /* hard bits as received and inverted, from absolute index base */
+    double *t;               /* start time of each bit */
+    size_t n, cap;
+    uint64_t base;
+    size_t from;             /* next search position (buffer index) */
+    size_t n_units, n_accepted;
+    ulk_cltu_result res[2];
+    ulk_tc_unit unit;
+};
+
+void ulk_tc_front_end_link(const ulk_link *tc_link, ulk_link *out)
+{
+    *out = *tc_link;
+    out->profile = ULK_PROFILE_SUBBIT;
+    out->n_subbits = 1;
+    memset(out->zero, 0, sizeof out->zero);
+    memset(out->one, 0, sizeof out->one);
+    memset(out->idle, 0, sizeof out->idle);
+    out->one[0] = 1;
+    out->has_pilot = 0;
+    /* The front end needs a word length for its own word stage, which is not used here. */
+    out->argument_bits = 0;
+    out->vehicle_bits = out->system_bits = 0;
+    out->opcode_bits = 1;
+    out->check = ULK_CHECK_NONE;
+    out->check_bits = 0;
+    out->word_bits = 1;
+}
+
+int ulk_tc_decoder_create(const ulk_dict *d, ulk_tc_unit_fn on_unit, void *user, ulk_tc_decoder **out,
+                          ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!d || d->link.profile != ULK_PROFILE_CCSDS_TC)
+        return ulk_fail(diag, ULK_EINVAL, "ccsds-tc decoder: the dictionary is not a ccsds-tc one");
+    ulk_tc_decoder *t = ulk_calloc(1, sizeof *t);
+    if (!t) return ulk_fail(diag, ULK_ENOMEM, "ccsds-tc decoder: out of memory");
+    t->d = d;
+    t->tc = &d->link.tc.frame;
+    t->fn = on_unit;
+    t->user = user;
+    t->nrzm = d->link.line_code == ULK_LINE_NRZM;
+    *out = t;
+    return 0;
+}
+
+void ulk_tc_decoder_destroy(ulk_tc_decoder *t)
+{
+    if (!t) return;
+    ulk_free(t->bits);
+    ulk_free(t->inv);
+    ulk_free(t->t);
+    ulk_free(t);
+}
+
+size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t) { return t ? t->n_units : 0; }
+size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t) { return t ? t->n_accepted : 0; }
+
+static int reject(ulk_tc_unit *u, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static int reject(ulk_tc_unit *u, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(u->reason, sizeof u->reason, fmt, ap);
+    va_end(ap);
+    u->status = ULK_TC_REJECTED;
+    return 0;
+}
+
+/* Within range, allowing half a raw step beyond the ends (the compiler sends the raw nearest
+ * to the operator's value, whose calibrated value may lie just outside the range). */
+static int in_range(const ulk_arg *a, uint64_t raw, double eng)
+{
+    if (!a->has_range) return 1;
+    if (isnan(eng)) return 0;
+    if (eng >= a->range_min && eng <= a->range_max) return 1;
+    if (a->type == ULK_ARG_FLOAT32 || a->cal == ULK_CAL_NONE) return 0;
+    uint64_t m = a->bits >= 64 ? ~0ull : ((1ull << a->bits) - 1);
+    double step = INFINITY;
+    uint64_t nb[2] = {(raw + 1) & m, (raw - 1) & m};
+    for (int i = 0; i < 2; i++) {
+        double e2 = ulk_arg_raw_to_eng(a, nb[i]);
+        if (fabs(e2 - eng) < step) step = fabs(e2 - eng);
+    }
+    return isfinite(step) && eng >= a->range_min - step / 2 && eng <= a->range_max + step / 2;
+}
+
+/* The packet's data field through the dictionary. */
+static void interpret(const ulk_dict *d, const ulk_cltu_result *r, ulk_tc_unit *u)
+{
+    u->apid = r->packet_hdr.apid;
+    u->seq_count = r->packet_hdr.seq_count;
+    u->frame_seq = r->frame_hdr.seq_num;
+    u->opcode = r->data[0];
+    const ulk_command *c = ulk_dict_find_opcode(d, u->apid, u->opcode);
+    if (!c) {
+        int s = ulk_dict_find_system_addr(d, u->apid);
+        if (s < 0) reject(u, "unknown APID 0x%03X", u->apid);
+        else reject(u, "unknown opcode %u of system %s (APID 0x%03X)", u->opcode, d->systems[s].name, u->apid);
+        return;
+    }
+    u->cmd = c;
+    size_t need = 1 + ((size_t)c->packed_bits + 7) / 8;
+    if (r->n_data != need) {
+        reject(u, "argument: %s takes a %zu-octet data field, the packet has %zu", c->mnemonic, need, r->n_data);
+        return;
+    }
+    size_t pos = 8;
+    for (int k = 0; k < c->n_args && k < ULK_TC_MAX_ARGS; k++) {
+        const ulk_arg *a = &c->args[k];
+        uint64_t raw = 0;
+        for (int b = 0; b < a->bits; b++, pos++) raw = (raw << 1) | ((r->data[pos >> 3] >> (7 - (pos & 7))) & 1u);
+        ulk_tc_arg *ta = &u->args[u->n_args++];
+        ta->arg = a;
+        ta->raw = raw;
+        ta->eng = ulk_arg_raw_to_eng(a, raw);
+        ta->label = a->type == ULK_ARG_ENUM ? ulk_arg_label(a, (int64_t)raw) : NULL;
+        ulk_arg_format(a, raw, ta->text, sizeof ta->text);
+        if (a->type == ULK_ARG_ENUM && !ta->label) {
+            reject(u, "argument: %s %s carries the undefined enum code %llu", c->mnemonic, a->name,
+                   (unsigned long long)raw);
+            return;
+        }
+        if (!in_range(a, raw, ta->eng)) {
+            reject(u, "argument: %s %s value %s is outside the range [%g, %g]", c->mnemonic, a->name, ta->text,
+                   a->range_min, a->range_max);
+            return;
+        }
+    }
+    for (; pos < 8 * r->n_data; pos++)
+        if ((r->data[pos >> 3] >> (7 - (pos & 7))) & 1u) {
+            reject(u, "argument: %s padding bits are not zero", c->mnemonic);
+            return;
+        }
+    u->status = ULK_TC_ACCEPTED;
+}
+
+static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
+{
+    ulk_tc_unit *u = &t->unit;
+    /* Only the header fields; args[] is filled up to n_args. */
+    memset(u, 0, offsetof(ulk_tc_unit, args));
+    u->data_hex[0] = 0;
+    u->polarity = pol;
+    u->start_s = t->t[r->start_bit];
+    u->start_errors = r->start_errors;
+    u->n_codeblocks = r->n_codeblocks;
+    u->n_corrected = r->n_corrected;
+    if (r->verdict == ULK_CLTU_ACCEPTED) {
+        for (size_t i = 0; i < r->n_data; i++) snprintf(u->data_hex + 2 * i, 3, "%02X", r->data[i]);
+        interpret(t->d, r, u);
+    } else {
+        reject(u, "%s", r->reason[0] ? r->reason : ulk_cltu_verdict_str(r->verdict));
+        if (r->verdict >= ULK_CLTU_FRAME_HEADER) {
+            u->apid = r->packet_hdr.apid;
+            u->frame_seq = r->frame_hdr.seq_num;
+        }
+    }
+    t->n_units++;
+    if (u->status == ULK_TC_ACCEPTED) t->n_accepted++;
+    if (t->fn) t->fn(u, t->user);
+}
+
+/* Decodes what the buffer allows; with flush, also CLTUs cut off by its end. */
+static void process(ulk_tc_decoder *t, int flush)
+{
+    while (t->n >= t->from + ULK_CLTU_START_BITS) {
+        int m = t->nrzm ? 1 : 2;
+        for (int p = 0; p < m; p++)
+            ulk_cltu_decode(t->tc, p ? t->inv : t->bits, t->n, t->from, &t->res[p]);
+        int best = -1;
+        for (int p = 0; p < m; p++)
+            if (t->res[p].verdict != ULK_CLTU_NO_START &&
+                (best < 0 || t->res[p].start_bit < t->res[best].start_bit))
+                best = p;
+        if (best < 0) {
+            /* nothing here: everything before n - 15 has been searched */
+            t->from = t->n - (ULK_CLTU_START_BITS - 1);
+            break;
+        }
+        const ulk_cltu_result *r = &t->res[best];
+        if (r->verdict == ULK_CLTU_TRUNCATED) {
+            if (!flush) {
+                t->from = r->start_bit;
+                break;
+            }
+            report(t, r, best ? -1 : 1);
+            t->from = r->start_bit + ULK_CLTU_START_BITS;
+            continue;
+        }
+        report(t, r, best ? -1 : 1);
+        t->from = r->end_bit > r->start_bit ? r->end_bit : r->start_bit + 1;
+    }
+    /* Drop what no CLTU can need any more. */
+    if (t->from > 0 && (t->from > t->cap / 2 || t->from == t->n)) {
+        size_t k = t->from;
+        memmove(t->bits, t->bits + k, t->n - k);
+        memmove(t->inv, t->inv + k, t->n - k);
+        memmove(t->t, t->t + k, (t->n - k) * sizeof *t->t);
+        t->n -= k;
+        t->base += k;
+        t->from = 0;
+    }
+}
+
+int ulk_tc_decoder_push(ulk_tc_decoder *t, const double *t_s, const float *soft, size_t n)
+{
+    if (!t) return ULK_EINVAL;
+    if (t->status) return t->status;
+    if (t->finished) return ULK_EINVAL;
+    if (n == 0) return 0;
+    if (!t_s || !soft) return ULK_EINVAL;
+    if (t->n + n > t->cap) {
+        size_t nc = t->cap ? t->cap : 4 * ULK_CLTU_MAX_OCTETS * 8;
+        while (nc < t->n + n) nc *= 2;
+        uint8_t *b = ulk_realloc(t->bits, nc);
+        if (b) t->bits = b;
+        uint8_t *iv = b ? ulk_realloc(t->inv, nc) : NULL;
+        if (iv) t->inv = iv;
+        double *tt = iv ? ulk_realloc(t->t, nc * sizeof *tt) : NULL;
+        if (!tt) return t->status = ULK_ENOMEM;
+        t->t = tt;
+        t->cap = nc;
+    }
+    for (size_t i = 0; i < n; i++) {
+        uint8_t b;
+        if (t->nrzm) {
+            /* a 1 toggles the level: differential detection, free of the polarity */
+            b = t->have_prev ? (uint8_t)((soft[i] < 0) != (t->prev < 0)) : 0;
+            t->prev = soft[i];
+            t->have_prev = 1;
+        } else {
+            b = soft[i] > 0;
+        }
+        t->bits[t->n] = b;
+        t->inv[t->n] = (uint8_t)(1 - b);
+        t->t[t->n] = t_s[i];
+        t->n++;
+    }
+    process(t, 0);
+    return 0;
+}
+
+int ulk_tc_decoder_finish(ulk_tc_decoder *t)
+{
+    if (!t) return ULK_EINVAL;
+    if (t->status) return t->status;
+    if (!t->finished) process(t, 1);
+    t->finished = 1;
+    return 0;
+}
+
+/* ---------------------------------------------------------------- front end + decoder */
+
+typedef struct {
+    ulk_tc_decoder *t;
+    double ts[1024];
+    float sv[1024];
+    size_t n;
+} soft_batch;
+
+static void on_soft(double t_s, float soft, void *user)
+{
+    soft_batch *b = user;
+    b->ts[b->n] = t_s;
+    b->sv[b->n] = soft;
+    if (++b->n == 1024) {
+        ulk_tc_decoder_push(b->t, b->ts, b->sv, b->n);
+        b->n = 0;
+    }
+}
+
+static void on_word_ignored(const ulk_demod_word *w, void *user)
+{
+    (void)w;
+    (void)user;
+}
+
+int ulk_tc_decode_samples(const ulk_dict *d, const float *x, size_t n, double fs_hz, ulk_tc_unit_fn on_unit,
+                          void *user, ulk_demod_estimates *est, ulk_diag *diag)
+{
+    if (!d || (!x && n)) return ulk_fail(diag, ULK_EINVAL, "ccsds-tc decode: nothing to decode");
+    soft_batch *b = ulk_calloc(1, sizeof *b);
+    if (!b) return ulk_fail(diag, ULK_ENOMEM, "ccsds-tc decode: out of memory");
+    int rc = ulk_tc_decoder_create(d, on_unit, user, &b->t, diag);
+    ulk_link fl;
+    ulk_tc_front_end_link(&d->link, &fl);
+    ulk_demod_options opt = {on_word_ignored, on_soft, b, 0, 0};
+    ulk_demod *dm = NULL;
+    if (!rc) rc = ulk_demod_create(&fl, fs_hz, &opt, &dm, diag);
+    for (size_t i = 0; !rc && i < n; i += 65536) rc = ulk_demod_push(dm, x + i, n - i < 65536 ? n - i : 65536);
+    if (!rc) rc = ulk_demod_finish(dm);
+    if (!rc && b->n) rc = ulk_tc_decoder_push(b->t, b->ts, b->sv, b->n);
+    if (!rc) rc = ulk_tc_decoder_finish(b->t);
+    if (!rc && est) ulk_demod_get_estimates(dm, est);
+    if (rc == ULK_ENOMEM && ulk_diag_errors(diag) == 0) ulk_fail(diag, rc, "ccsds-tc decode: out of memory");
+    ulk_demod_destroy(dm);
+    ulk_tc_decoder_destroy(b->t);
+    ulk_free(b);
+    return rc;
+}
