@@ -16,6 +16,7 @@
 
 #include "cli.h"
 #include "ulk/mod.h"
+#include "ulk/profile.h"
 #include "ulk/sampleio.h"
 #include "ulk/upload.h"
 #include "util.h"
@@ -33,6 +34,8 @@ static void usage(FILE *out)
             "Turns an upload (from ulk compile) into PSK-on-subcarrier samples, exactly as the\n"
             "sub-bit profile's section 4 defines them, and/or writes its timing table (one row per\n"
             "sub-bit: index,start_s,first_sample,word,bit,bit_value,subbit,level,phase_deg).\n"
+            "A ccsds-tc upload is one symbol per channel bit (n = 1, R_s = R, no pilot): word is\n"
+            "the CLTU number, bit the index in the CLTU, -1 on acquisition and idle rows.\n"
             "\n"
             "  OUT ending .wav          WAV file, float (f32, default) or 16-bit PCM (s16)\n"
             "  OUT ending .f32 / .s16   raw little-endian samples, with OUT's base + .sigmf-meta\n"
@@ -126,6 +129,7 @@ static char *identity_json(const ulk_upload *u, const char *upload_path, uint64_
     ulk_ratio_format(l->fsc, buf, sizeof buf);
     ok &= cJSON_AddStringToObject(o, "ulk:subcarrier_hz_exact", buf) != NULL;
     ok &= cJSON_AddNumberToObject(o, "ulk:subbits_per_bit", l->n_subbits) != NULL;
+    ok &= cJSON_AddStringToObject(o, "ulk:profile", l->profile == ULK_PROFILE_CCSDS_TC ? "ccsds-tc" : "subbit") != NULL;
     ok &= cJSON_AddStringToObject(o, "ulk:waveform", ulk_waveform_name(l->waveform)) != NULL;
     ok &= cJSON_AddStringToObject(o, "ulk:line_code", ulk_line_code_name(l->line_code)) != NULL;
     ok &= cJSON_AddNumberToObject(o, "ulk:amplitude", l->amplitude) != NULL;
@@ -146,21 +150,28 @@ static char *identity_json(const ulk_upload *u, const char *upload_path, uint64_
     return s;
 }
 
-/* One SigMF annotation per word: its samples, mnemonic, source line and hex. */
+/* One SigMF annotation per word (ccsds-tc: per CLTU): its samples, mnemonic, source line and
+ * hex (ccsds-tc: APID, packet count and N(S)). */
 static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
 {
     const ulk_link *l = &u->link;
+    const ulk_profile_ops *prof = ulk_profile_ops_for(l->profile);
     uint64_t pat = 0; /* patterns before the current point */
     for (size_t k = 0; k < u->n_cmds && k < MAX_ANNOTATIONS; k++) {
         pat += u->cmds[k].idles_before;
-        uint64_t s0, s1;
+        uint64_t s0, s1, bits = prof->unit_bits(l, &u->cmds[k]);
         if (ulk_mod_first_sample(l, fs, pat * (uint64_t)l->n_subbits, &s0) < 0 ||
-            ulk_mod_first_sample(l, fs, (pat + (uint64_t)l->word_bits) * (uint64_t)l->n_subbits, &s1) < 0)
+            ulk_mod_first_sample(l, fs, (pat + bits) * (uint64_t)l->n_subbits, &s1) < 0)
             return 0; /* rates too fine: the modulator would have refused already */
-        pat += (uint64_t)l->word_bits;
+        pat += bits;
         char hex[40], comment[160];
-        ulk_word_hex(&u->cmds[k].word, hex);
-        snprintf(comment, sizeof comment, "word %zu, line %d, %s", k + 1, u->cmds[k].line, hex);
+        if (l->profile == ULK_PROFILE_CCSDS_TC) {
+            snprintf(comment, sizeof comment, "CLTU %zu, line %d, APID 0x%03X count %u N(S) %u", k + 1, u->cmds[k].line,
+                     u->cmds[k].system_addr, u->cmds[k].seq_count, u->cmds[k].frame_seq);
+        } else {
+            ulk_word_hex(&u->cmds[k].word, hex);
+            snprintf(comment, sizeof comment, "word %zu, line %d, %s", k + 1, u->cmds[k].line, hex);
+        }
         int rc = ulk_writer_annotate(w, s0, s1 - s0, u->cmds[k].mnemonic, comment);
         if (rc < 0) return rc;
     }
@@ -312,9 +323,10 @@ int cmd_modulate(int argc, char **argv)
         }
         ulk_ratio rs = ulk_link_subbit_rate(&up->link);
         char desc[512];
-        snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu words", up_path,
+        snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu %s", up_path,
                  up->source ? up->source : "?", up->dict_name ? up->dict_name : "?",
-                 up->dict_version ? up->dict_version : "?", up->n_cmds);
+                 up->dict_version ? up->dict_version : "?", up->n_cmds,
+                 up->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words");
         extra = identity_json(up, up_path, ulk_upload_n_subbits(up));
         buf = ulk_malloc(CHUNK * sizeof(float));
         if (!extra || !buf) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", out_path); code = 2; goto fail; }
@@ -393,8 +405,9 @@ int cmd_modulate(int argc, char **argv)
                    (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(fs), rate_norm,
                    fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : "raw + SigMF");
         if (timing_path && strcmp(timing_path, "-"))
-            printf("timing table %s: %llu sub-bits at %s Hz\n", timing_path,
-                   (unsigned long long)ulk_upload_n_subbits(up), rate_norm);
+            printf("timing table %s: %llu %s at %s Hz\n", timing_path,
+                   (unsigned long long)ulk_upload_n_subbits(up),
+                   up->link.profile == ULK_PROFILE_CCSDS_TC ? "channel bits" : "sub-bits", rate_norm);
     }
     goto done;
 

@@ -244,6 +244,17 @@ def main():
             n_samp = os.path.getsize(os.path.join(tmp, name + ".f32")) // 4
             want = -(-len(rows) * 48000 // int(up["link"]["bit_rate"]))
             check(n_samp == want, "%s: %d samples, want %d" % (name, n_samp, want))
+            # SigMF: one annotation per CLTU over exactly its samples, ceil(j * fs / R) from its first bit
+            with open(os.path.join(tmp, name + ".sigmf-meta"), encoding="utf-8") as f:
+                meta = json.load(f)
+            ann = meta.get("annotations", [])
+            rate = fractions.Fraction(up["link"]["bit_rate"])
+            starts = [i for i, r in enumerate(rows) if r[0] > 0 and r[1] == 0]
+            first = lambda j: -((-j * 48000 * rate.denominator) // rate.numerator)
+            want_ann = [(first(j), first(j + 8 * len(units[k][3])) - first(j)) for k, j in enumerate(starts)]
+            got_ann = [(a["core:sample_start"], a["core:sample_count"]) for a in ann]
+            check(got_ann == want_ann and all(a["core:label"] == c["mnemonic"] for a, c in zip(ann, up["commands"])),
+                  "%s: SigMF annotations %s, want %s" % (name, got_ann[:3], want_ann[:3]))
             n_cases += 1
         check(n_cases == 16, "all 16 combinations ran (%d)" % n_cases)
 
