@@ -22,5 +22,18 @@ step "impair: Eb/N0 12 dB, +150 ppm clock, 0.3 s leading noise, -20 dB level, in
   --amplitude 0.1 --invert --seed 1
 step "decode the impaired capture blind" bash -c "\"$ulk\" decode --dict \"$dict\" \"$out/demo-rx.wav\" | head -n 40"
 step "verify the capture against the upload" "$ulk" verify --dict "$dict" --upload "$out/demo.ulku" "$out/demo-rx.wav"
+
+# The second link profile: the same commands and exit codes on CCSDS telecommand
+# (dictionaries/demo-ccsds.yaml: one Space Packet per TC frame per CLTU).
+tdict=dictionaries/demo-ccsds.yaml
+tlist=dictionaries/demo-ccsds.cmd
+step "ccsds-tc: validate the demo dictionary (YAML and JSON)" "$ulk" validate "$tdict" dictionaries/demo-ccsds.json
+step "ccsds-tc: compile the demo command list" "$ulk" compile --dict "$tdict" "$tlist" -o "$out/demo-ccsds.ulku"
+step "ccsds-tc: inspect the upload (first CLTUs)" bash -c "\"$ulk\" inspect \"$out/demo-ccsds.ulku\" | head -n 36"
+step "ccsds-tc: modulate to a 48 kHz WAV and write the timing table" \
+  "$ulk" modulate "$out/demo-ccsds.ulku" -o "$out/demo-ccsds.wav" --rate 48000 --timing "$out/demo-ccsds-timing.csv"
+step "ccsds-tc: impair: Eb/N0 12 dB, -120 ppm clock, 0.2 s leading noise, inverted" \
+  "$ulk" impair "$out/demo-ccsds.wav" "$out/demo-ccsds-rx.wav" --dict "$tdict" --ebn0 12 --ppm -120 --delay 0.2 \
+  --invert --seed 2
 echo
 echo "demo outputs are in $out/"
