@@ -13,6 +13,7 @@ int cmd_impair(int argc, char **argv);
 int cmd_plan(int argc, char **argv);
 /* `ulk modulate UPLOAD --carrier ...` (src/cli/cmd_modulate_carrier.c), called by cmd_modulate. */
 int cmd_modulate_carrier(int argc, char **argv);
+int cmd_spectrum(int argc, char **argv);
 
 /* The caution printed by every command that produces a radiatable waveform. */
 extern const char ULK_CAUTION[];

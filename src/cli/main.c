@@ -22,6 +22,7 @@ static const struct {
     {"decode", cmd_decode, "recover words and commands from a capture, blind"},
     {"verify", cmd_verify, "check that a capture holds exactly an upload's commands"},
     {"plan", cmd_plan, "composite carrier: power per channel, margins, index solver"},
+    {"spectrum", cmd_spectrum, "power spectrum of a real or complex capture, channels marked"},
 };
 
 static void usage(FILE *out)
