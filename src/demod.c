@@ -21,6 +21,9 @@
 #include <string.h>
 
 #include "ulk/demod.h"
+
+#define ULK_DEMOD_MAX_FS_HZ 1e9
+#define ULK_DEMOD_MAX_SPS 200000
 #include "util.h"
 
 #define TAB_BITS 12
@@ -804,6 +807,13 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         return ulk_fail(diag, ULK_EINVAL,
                         "demodulator: sample rate %g Hz is too low for this link (needs at least 2.5 (f_sc + R_s) = %g Hz)",
                         fs_hz, 2.5 * (fsc + rs));
+    /* The block buffers scale with the samples per sub-bit; bound them (about 200 bytes a
+     * sample per sub-bit) so a hostile rate is refused before anything is allocated. */
+    if (fs_hz > ULK_DEMOD_MAX_FS_HZ || fs_hz / rs > ULK_DEMOD_MAX_SPS)
+        return ulk_fail(diag, ULK_ELIMIT,
+                        "demodulator: sample rate %g Hz is beyond the decoder's limit (at most %g Hz and %g samples "
+                        "per sub-bit; this link's sub-bit rate is %g Hz): resample the capture to a lower rate",
+                        fs_hz, ULK_DEMOD_MAX_FS_HZ, (double)ULK_DEMOD_MAX_SPS, rs);
 
     ulk_demod *d = ulk_calloc(1, sizeof *d);
     if (!d) return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
