@@ -259,7 +259,7 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
         if (it->kind == ULK_CL_WAIT) {
             ulk_ratio sum;
             if (ratio_add(pending, it->wait_s, &sum) < 0 ||
-                sum.num > (int64_t)ULK_CMDLIST_MAX_WAIT_S * sum.den) {
+                sum.num / sum.den > ULK_CMDLIST_MAX_WAIT_S || (sum.num / sum.den == ULK_CMDLIST_MAX_WAIT_S && sum.num % sum.den)) {
                 ulk_diag_add(diag, ULK_SEV_ERROR, &loc,
                              "the waits before one word add up to more than the limit of %d s",
                              ULK_CMDLIST_MAX_WAIT_S);

@@ -205,6 +205,10 @@ printf 'OBC_NOOP\nwait 1e300s\n' >v7.cmd
 row list-wait-1e300 1 "more digits than can be kept" --absent out.ulku -- "$ULK" compile --dict "$DICT" v7.cmd -o out.ulku
 printf 'OBC_NOOP\nwait 86400s\nwait 86400s\nOBC_NOOP\n' >v8.cmd
 row list-waits-beyond-a-day 1 "limit of 86400" --absent out.ulku -- "$ULK" compile --dict "$DICT" v8.cmd -o out.ulku
+# found by fuzz_cmdlist (bugs-compile.md C2): a wait with 15 decimals overflowed the limit check
+printf 'wait 0.000000000000001s\nOBC_NOOP\nwait 86400s\nOBC_NOOP\n' >v13.cmd
+row list-wait-fraction-1e-15 0 "compiled" --  "$ULK" compile --dict "$DICT" v13.cmd -o out.ulku
+rm -f out.ulku
 printf 'OBC_NOOP\nwait nan s\n' >v9.cmd
 row list-wait-nan 1 "expected a duration" --absent out.ulku -- "$ULK" compile --dict "$DICT" v9.cmd -o out.ulku
 printf 'OBC_NOOP\0\n' >v10.cmd
