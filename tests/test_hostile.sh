@@ -244,17 +244,15 @@ row modulate-rate-inf 2 "expected a positive decimal" --absent out.wav -- "$ULK"
 row modulate-rate-30-digits 2 "too many digits" --absent out.wav -- "$ULK" modulate one.ulku -o out.wav --rate 123456789012345678901234567890
 row modulate-rate-1 1 "too low" --absent out.wav -- "$ULK" modulate one.ulku -o out.wav --rate 1
 row modulate-rate-1e12-wav 2 "1000000000000 Hz" --absent out.wav -- "$ULK" modulate one.ulku -o out.wav --rate 1e12
-# bugs-modulate.md M1: no upper limit on the rate; a 0.1 s upload at 1e12 Hz starts writing
-# 424 GB of raw samples (here stopped by the file-size limit).
-row modulate-rate-1e12-raw "1|2" "rate" --absent out.f32 --absent out.sigmf-meta --xfail M1 -- "$ULK" modulate one.ulku -o out.f32 --rate 1e12 -q
+# was bugs-modulate.md M1: a 0.1 s upload at 1e12 Hz started writing 424 GB of raw samples
+row modulate-rate-1e12-raw "1|2" "is above the highest this tool writes" --absent out.f32 --absent out.sigmf-meta -- "$ULK" modulate one.ulku -o out.f32 --rate 1e12 -q
 
 # ---------------------------------------------------------------- writing where one cannot
 # Every row that names a device or a read-only folder runs as an unprivileged user: as root a
 # writer that renames a temporary file over its target would replace /dev/full with a regular
 # file (bugs-compile.md C1 did exactly that).
-# bugs-compile.md C1: the upload writer makes "<path>.tmp.XXXXXX" beside a device and renames
-# it over the device instead of writing the device itself, so it never sees ENOSPC.
-row compile-to-dev-full 2 "No space left" --as-user --xfail C1 -- "$ULK" compile --dict "$DICT" "$work/one.cmd" -o /dev/full
+# was bugs-compile.md C1: the upload writer renamed a temporary file over the device
+row compile-to-dev-full 2 "No space left" --as-user -- "$ULK" compile --dict "$DICT" "$work/one.cmd" -o /dev/full
 row compile-to-proc 2 "/proc/ulk-cannot-exist/x.ulku" --absent /proc/ulk-cannot-exist/x.ulku -- "$ULK" compile --dict "$DICT" one.cmd -o /proc/ulk-cannot-exist/x.ulku
 row compile-read-only-folder 2 "Permission denied" --absent ro/x.ulku --as-user -- "$ULK" compile --dict "$DICT" "$work/one.cmd" -o "$work/ro/x.ulku"
 row modulate-wav-to-dev-full 2 "No space left" --as-user -- "$ULK" modulate "$work/one.ulku" -o /dev/full --rate 48000 -q
@@ -292,8 +290,8 @@ printf '\x00\x00\x80\x3f\x00\x00\x80' >c7.f32
 row decode-raw-truncated 2 "truncated" --needs decode -- "$ULK" decode --dict "$DICT" c7.f32 --rate 48000 --format f32
 head -c 40000 /dev/zero >c8.f32
 row decode-raw-rate-0 2 "rate" --needs decode -- "$ULK" decode --dict "$DICT" c8.f32 --rate 0 --format f32
-# bugs-decode.md X1: buffers sized from the rate without a limit (43 GB at 1e12 Hz)
-row decode-raw-rate-1e12 "1|2" "rate" --xfail X1 --needs decode -- "$ULK" decode --dict "$DICT" c8.f32 --rate 1e12 --format f32
+# was bugs-decode.md X1: buffers sized from the rate without a limit (43 GB at 1e12 Hz)
+row decode-raw-rate-1e12 2 "beyond the decoder's limit" --needs decode -- "$ULK" decode --dict "$DICT" c8.f32 --rate 1e12 --format f32
 { repeat '\x00\x00\xc0\x7f' 10000; } >c9.f32
 row decode-raw-all-nan 1 "" --needs decode -- "$ULK" decode --dict "$DICT" c9.f32 --rate 48000 --format f32
 
