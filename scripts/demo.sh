@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # scripts/demo.sh ULK - the whole job on the bundled demo: validate, compile, inspect,
 # modulate (samples and timing table), impair (noise, clock error, delay, inversion),
-# decode and verify. Outputs go to out/demo/. Exits non-zero when any step fails.
+# decode and verify; then the same on the ccsds-tc demo (dictionaries/demo-ccsds.*).
+# Outputs go to out/demo/. Exits non-zero when any step fails.
 set -euo pipefail
 ulk=${1:-build/ulk}
 here=$(cd "$(dirname "$0")/.." && pwd)
@@ -35,5 +36,9 @@ step "ccsds-tc: modulate to a 48 kHz WAV and write the timing table" \
 step "ccsds-tc: impair: Eb/N0 12 dB, -120 ppm clock, 0.2 s leading noise, inverted" \
   "$ulk" impair "$out/demo-ccsds.wav" "$out/demo-ccsds-rx.wav" --dict "$tdict" --ebn0 12 --ppm -120 --delay 0.2 \
   --invert --seed 2
+step "ccsds-tc: decode the impaired capture blind" \
+  bash -c "\"$ulk\" decode --dict \"$tdict\" \"$out/demo-ccsds-rx.wav\" | head -n 40"
+step "ccsds-tc: verify the capture against the upload" \
+  "$ulk" verify --dict "$tdict" --upload "$out/demo-ccsds.ulku" "$out/demo-ccsds-rx.wav"
 echo
 echo "demo outputs are in $out/"

@@ -80,9 +80,10 @@ void ulk_tc_decoder_destroy(ulk_tc_decoder *t)
 size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t) { return t ? t->n_units : 0; }
 size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t) { return t ? t->n_accepted : 0; }
 
-static int reject(ulk_tc_unit *u, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static int reject(ulk_tc_unit *u, const char *fmt, ...)
+static int reject(ulk_tc_unit *u, ulk_reject_kind k, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+static int reject(ulk_tc_unit *u, ulk_reject_kind k, const char *fmt, ...)
 {
+    u->reject = k;
     va_list ap;
     va_start(ap, fmt);
     vsnprintf(u->reason, sizeof u->reason, fmt, ap);
@@ -119,14 +120,14 @@ static void interpret(const ulk_dict *d, const ulk_cltu_result *r, ulk_tc_unit *
     const ulk_command *c = ulk_dict_find_opcode(d, u->apid, u->opcode);
     if (!c) {
         int s = ulk_dict_find_system_addr(d, u->apid);
-        if (s < 0) reject(u, "unknown APID 0x%03X", u->apid);
-        else reject(u, "unknown opcode %u of system %s (APID 0x%03X)", u->opcode, d->systems[s].name, u->apid);
+        if (s < 0) reject(u, ULK_REJ_SYSTEM, "unknown APID 0x%03X", u->apid);
+        else reject(u, ULK_REJ_OPCODE, "unknown opcode %u of system %s (APID 0x%03X)", u->opcode, d->systems[s].name, u->apid);
         return;
     }
     u->cmd = c;
     size_t need = 1 + ((size_t)c->packed_bits + 7) / 8;
     if (r->n_data != need) {
-        reject(u, "argument: %s takes a %zu-octet data field, the packet has %zu", c->mnemonic, need, r->n_data);
+        reject(u, ULK_REJ_LENGTH, "argument: %s takes a %zu-octet data field, the packet has %zu", c->mnemonic, need, r->n_data);
         return;
     }
     size_t pos = 8;
@@ -141,22 +142,23 @@ static void interpret(const ulk_dict *d, const ulk_cltu_result *r, ulk_tc_unit *
         ta->label = a->type == ULK_ARG_ENUM ? ulk_arg_label(a, (int64_t)raw) : NULL;
         ulk_arg_format(a, raw, ta->text, sizeof ta->text);
         if (a->type == ULK_ARG_ENUM && !ta->label) {
-            reject(u, "argument: %s %s carries the undefined enum code %llu", c->mnemonic, a->name,
+            reject(u, ULK_REJ_ENUM, "argument: %s %s carries the undefined enum code %llu", c->mnemonic, a->name,
                    (unsigned long long)raw);
             return;
         }
         if (!in_range(a, raw, ta->eng)) {
-            reject(u, "argument: %s %s value %s is outside the range [%g, %g]", c->mnemonic, a->name, ta->text,
+            reject(u, ULK_REJ_RANGE, "argument: %s %s value %s is outside the range [%g, %g]", c->mnemonic, a->name, ta->text,
                    a->range_min, a->range_max);
             return;
         }
     }
     for (; pos < 8 * r->n_data; pos++)
         if ((r->data[pos >> 3] >> (7 - (pos & 7))) & 1u) {
-            reject(u, "argument: %s padding bits are not zero", c->mnemonic);
+            reject(u, ULK_REJ_PADDING, "argument: %s padding bits are not zero", c->mnemonic);
             return;
         }
     u->status = ULK_TC_ACCEPTED;
+    u->reject = ULK_REJ_NONE;
 }
 
 static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
@@ -174,7 +176,7 @@ static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
         for (size_t i = 0; i < r->n_data; i++) snprintf(u->data_hex + 2 * i, 3, "%02X", r->data[i]);
         interpret(t->d, r, u);
     } else {
-        reject(u, "%s", r->reason[0] ? r->reason : ulk_cltu_verdict_str(r->verdict));
+        reject(u, ULK_REJ_CHECK, "%s", r->reason[0] ? r->reason : ulk_cltu_verdict_str(r->verdict));
         if (r->verdict >= ULK_CLTU_FRAME_HEADER) {
             u->apid = r->packet_hdr.apid;
             u->frame_seq = r->frame_hdr.seq_num;

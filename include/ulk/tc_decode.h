@@ -28,6 +28,7 @@
 #include <stdint.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/decode.h"
 #include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/error.h"
@@ -52,6 +53,9 @@ typedef enum { ULK_TC_ACCEPTED = 0, ULK_TC_REJECTED = 1 } ulk_tc_status;
 typedef struct {
     ulk_tc_status status;
     char reason[200];         /* rejected only: "codeblock 2 uncorrectable", "FECF ...", ... */
+    ulk_reject_kind reject;   /* the sub-bit decoder's kinds: CLTU, frame or packet failures are
+                                 ULK_REJ_CHECK; then SYSTEM (unknown APID), OPCODE, LENGTH (data
+                                 field), ENUM, RANGE, PADDING; ULK_REJ_NONE when accepted */
     double start_s;           /* time of the first bit of its start sequence */
     int polarity;             /* +1 as sent, -1 inverted (nrz-l); always +1 for nrz-m */
     int start_errors;         /* bit errors in its start sequence */

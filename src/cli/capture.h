@@ -1,5 +1,7 @@
 /* src/cli/capture.h - shared by `ulk decode` and `ulk verify`: options that name a capture,
- * and one pass of the blind demodulator plus word interpretation over it. */
+ * and one pass of the blind demodulator plus word interpretation over it. For a ccsds-tc
+ * dictionary each "word" is a CLTU (ulk/tc_decode.h): dec holds its command (system = APID)
+ * and the tc members its packet's identity and data field. */
 #ifndef ULK_CLI_CAPTURE_H
 #define ULK_CLI_CAPTURE_H
 
@@ -20,8 +22,14 @@ typedef struct {
 } cli_capture_opts;
 
 typedef struct {
-    ulk_demod_word dw;
+    ulk_demod_word dw;       /* ccsds-tc: start_s, polarity, margin = 1 - corrected/codeblocks */
     ulk_decoded dec;
+    /* ccsds-tc only: */
+    int tc;
+    uint16_t seq_count;      /* packet sequence count */
+    uint8_t frame_seq;       /* N(S) */
+    int n_corrected;         /* codeblocks with one bit corrected */
+    char *data_hex;          /* packet data field (opcode, arguments) in hex, "" when not read; owned */
 } cli_word;
 
 typedef struct {

@@ -40,7 +40,10 @@ static void usage(FILE *out)
             "  -h, --help              this text\n"
             "\n"
             "Human output lists accepted commands in command-list syntax with their start times,\n"
-            "and rejected words with their reason. Estimates: E_b/N_0 as the sub-bit profile\n"
+            "and rejected words with their reason. With a ccsds-tc dictionary each unit is a CLTU:\n"
+            "start sequence found in either polarity, codeblocks decoded, frame, FECF and packet\n"
+            "checked, then the command; \"hex\" is the packet data field.\n"
+            "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
             "measured against the capture's sample clock.\n"
             "\nexit: 0 words found, 1 no word found, 2 usage, dictionary or I/O error\n");
@@ -112,7 +115,14 @@ static int print_json(const cli_capture *c)
             ok &= cJSON_AddStringToObject(o, "reason", w->dec.reason) != NULL;
             ok &= cJSON_AddStringToObject(o, "reject", ulk_reject_name(w->dec.reject)) != NULL;
         }
-        ok &= cJSON_AddStringToObject(o, "hex", w->dec.hex) != NULL;
+        ok &= cJSON_AddStringToObject(o, "hex", w->tc ? w->data_hex : w->dec.hex) != NULL;
+        if (w->tc) {
+            /* ccsds-tc: hex is the packet data field (opcode, arguments); the packet's identity */
+            ok &= cJSON_AddNumberToObject(o, "apid", w->dec.system) != NULL;
+            ok &= cJSON_AddNumberToObject(o, "sequence_count", w->seq_count) != NULL;
+            ok &= cJSON_AddNumberToObject(o, "frame_sequence", w->frame_seq) != NULL;
+            ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", w->n_corrected) != NULL;
+        }
         snprintf(buf, sizeof buf, "%.3f", w->dw.margin);
         ok &= cJSON_AddItemToObject(o, "margin", cJSON_CreateRaw(buf));
         ok &= cJSON_AddNumberToObject(o, "polarity", w->dw.polarity) != NULL;
@@ -151,13 +161,21 @@ static void print_human(const char *path, const cli_capture *c)
         if (w->dec.status == ULK_WORD_ACCEPTED) {
             acc++;
             ulk_decoded_format(&w->dec, line, sizeof line);
-            printf("%12.6f s  %-48s # margin %.2f\n", w->dw.start_s, line, w->dw.margin);
+            if (w->tc)
+                printf("%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", w->dw.start_s, line,
+                       w->dec.system, w->seq_count, w->frame_seq, w->n_corrected);
+            else
+                printf("%12.6f s  %-48s # margin %.2f\n", w->dw.start_s, line, w->dw.margin);
+        } else if (w->tc) {
+            printf("%12.6f s  # rejected CLTU (%s): %s%s%s%s\n", w->dw.start_s, ulk_reject_name(w->dec.reject),
+                   w->dec.reason, w->data_hex[0] ? " [data " : "", w->data_hex, w->data_hex[0] ? "]" : "");
         } else {
             printf("%12.6f s  # rejected (%s): %s [hex %s]\n", w->dw.start_s, ulk_reject_name(w->dec.reject),
                    w->dec.reason, w->dec.hex);
         }
     }
-    printf("%zu word%s: %zu accepted, %zu rejected", c->n, c->n == 1 ? "" : "s", acc, c->n - acc);
+    int tc = c->n && c->w[0].tc;
+    printf("%zu %s%s: %zu accepted, %zu rejected", c->n, tc ? "CLTU" : "word", c->n == 1 ? "" : "s", acc, c->n - acc);
     if (c->est.n_truncated) printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->est.n_truncated);
     printf("\n");
 }
@@ -204,10 +222,6 @@ int cmd_decode(int argc, char **argv)
     if (ulk_dict_load(dict_path, &dict, diag) < 0) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk decode: cannot use dictionary %s\n", dict_path);
-        goto out;
-    }
-    if (dict->link.profile != ULK_PROFILE_SUBBIT) {
-        fprintf(stderr, "ulk decode: %s is not a sub-bit profile dictionary\n", dict_path);
         goto out;
     }
     ulk_diag_clear(diag);

@@ -9,6 +9,7 @@
 
 #include "capture.h"
 #include "cli.h"
+#include "ulk/ccsds.h"
 #include "ulk/decode.h"
 #include "ulk/dict.h"
 #include "ulk/upload.h"
@@ -27,6 +28,8 @@ static void usage(FILE *out)
             "  changed   an upload command received with other argument values (field by field)\n"
             "  rejected  words found but refused (check failed, unknown command, ...)\n"
             "The upload must have been compiled with DICT (same dictionary SHA-256).\n"
+            "With a ccsds-tc dictionary the words are CLTUs, compared by command, APID, packet\n"
+            "sequence count, N(S) and argument values.\n"
             "\n"
             "options:\n"
             "  --dict DICT        the dictionary\n"
@@ -41,6 +44,38 @@ static void usage(FILE *out)
 static int same_word(const ulk_word *a, const ulk_word *b)
 {
     return a->n_bits == b->n_bits && !memcmp(a->bits, b->bits, (size_t)a->n_bits);
+}
+
+/* The upload's command and a received word (or CLTU) are the same: the same bits; for
+ * ccsds-tc the same command, APID, packet count, N(S) and argument raws (the frame and CLTU
+ * are functions of these, checked when the upload was read and when the CLTU was decoded). */
+static int same_unit(const ulk_upload_cmd *c, const cli_word *w)
+{
+    if (!w->tc) return same_word(&c->word, &w->dw.word);
+    if (!w->dec.cmd || strcmp(c->mnemonic, w->dec.cmd->mnemonic) || c->system_addr != w->dec.system ||
+        c->seq_count != w->seq_count || c->frame_seq != w->frame_seq || c->n_args != w->dec.n_args)
+        return 0;
+    for (int k = 0; k < c->n_args; k++)
+        if (c->args[k].raw != w->dec.args[k].raw) return 0;
+    return 1;
+}
+
+/* The upload command's identity as the report shows it: the word in hex, or (ccsds-tc) its
+ * packet data field, read from the frame. */
+static void sent_hex(const ulk_upload *u, const ulk_upload_cmd *c, char *buf, size_t len)
+{
+    if (u->link.profile != ULK_PROFILE_CCSDS_TC) {
+        char hx[40];
+        ulk_word_hex(&c->word, hx);
+        snprintf(buf, len, "%s", hx);
+        return;
+    }
+    const ulk_ccsds_tc *tc = &u->link.tc.frame;
+    size_t a = ULK_TCF_HDR_OCTETS + (tc->segment_header ? 1 : 0) + ULK_SPP_HDR_OCTETS;
+    size_t b = c->n_frame - (tc->fecf ? 2 : 0);
+    size_t k = 0;
+    for (size_t i = a; i < b && k + 3 <= len; i++, k += 2) snprintf(buf + k, 3, "%02X", c->frame[i]);
+    buf[k < len ? k : len - 1] = 0;
 }
 
 typedef enum { OP_MATCH, OP_CHANGED, OP_MISSING, OP_EXTRA } op_kind;
@@ -68,7 +103,7 @@ static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **o
                 for (size_t j = 1; j <= na; j++) {
                     unsigned best = C(i - 1, j) + 1;
                     if (C(i, j - 1) + 1 < best) best = C(i, j - 1) + 1;
-                    if (same_word(&u->cmds[i - 1].word, &acc[j - 1]->dw.word)) {
+                    if (same_unit(&u->cmds[i - 1], acc[j - 1])) {
                         if (C(i - 1, j - 1) < best) best = C(i - 1, j - 1);
                     } else if (!strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic)) {
                         if (C(i - 1, j - 1) + 1 < best) best = C(i - 1, j - 1) + 1;
@@ -78,7 +113,7 @@ static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **o
             size_t i = nu, j = na;
             while (i > 0 || j > 0) {
                 if (i > 0 && j > 0) {
-                    int eq = same_word(&u->cmds[i - 1].word, &acc[j - 1]->dw.word);
+                    int eq = same_unit(&u->cmds[i - 1], acc[j - 1]);
                     int sm = !strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic);
                     if (eq && C(i, j) == C(i - 1, j - 1)) { ops[n++] = (op){OP_MATCH, i - 1, j - 1}; i--; j--; continue; }
                     if (!eq && sm && C(i, j) == C(i - 1, j - 1) + 1) { ops[n++] = (op){OP_CHANGED, i - 1, j - 1}; i--; j--; continue; }
@@ -96,7 +131,7 @@ static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **o
     /* greedy: walk both lists in order */
     size_t i = 0, j = 0;
     while (i < nu || j < na) {
-        if (i < nu && j < na && same_word(&u->cmds[i].word, &acc[j]->dw.word)) { ops[n++] = (op){OP_MATCH, i++, j++}; continue; }
+        if (i < nu && j < na && same_unit(&u->cmds[i], acc[j])) { ops[n++] = (op){OP_MATCH, i++, j++}; continue; }
         if (i < nu && j < na && !strcmp(u->cmds[i].mnemonic, acc[j]->dec.cmd->mnemonic)) { ops[n++] = (op){OP_CHANGED, i++, j++}; continue; }
         if (i < nu) ops[n++] = (op){OP_MISSING, i++, 0};
         else ops[n++] = (op){OP_EXTRA, 0, j++};
@@ -203,8 +238,8 @@ int cmd_verify(int argc, char **argv)
             if (p->k == OP_MATCH) { cJSON_Delete(e); continue; }
             if (p->k == OP_MISSING || p->k == OP_CHANGED) {
                 const ulk_upload_cmd *uc = &u->cmds[p->ui];
-                char hx[33];
-                ulk_word_hex(&uc->word, hx);
+                char hx[2 * ULK_TCF_MAX_OCTETS + 1];
+                sent_hex(u, uc, hx, sizeof hx);
                 cJSON_AddNumberToObject(e, "index", (double)(p->ui + 1));
                 cJSON_AddNumberToObject(e, "line", uc->line);
                 cJSON_AddStringToObject(e, "mnemonic", uc->mnemonic);
@@ -214,7 +249,11 @@ int cmd_verify(int argc, char **argv)
                 const cli_word *w = acc[p->ai];
                 cJSON_AddNumberToObject(e, "start_s", w->dw.start_s);
                 if (p->k == OP_EXTRA) cJSON_AddStringToObject(e, "mnemonic", w->dec.cmd->mnemonic);
-                cJSON_AddStringToObject(e, p->k == OP_CHANGED ? "hex_received" : "hex", w->dec.hex);
+                cJSON_AddStringToObject(e, p->k == OP_CHANGED ? "hex_received" : "hex", w->tc ? w->data_hex : w->dec.hex);
+                if (w->tc) {
+                    cJSON_AddNumberToObject(e, "sequence_count", w->seq_count);
+                    cJSON_AddNumberToObject(e, "frame_sequence", w->frame_seq);
+                }
             }
             if (p->k == OP_CHANGED) {
                 const ulk_upload_cmd *uc = &u->cmds[p->ui];
@@ -239,7 +278,7 @@ int cmd_verify(int argc, char **argv)
             cJSON_AddNumberToObject(e, "start_s", c.w[i].dw.start_s);
             cJSON_AddStringToObject(e, "reason", c.w[i].dec.reason);
             cJSON_AddStringToObject(e, "reject", ulk_reject_name(c.w[i].dec.reject));
-            cJSON_AddStringToObject(e, "hex", c.w[i].dec.hex);
+            cJSON_AddStringToObject(e, "hex", c.w[i].tc ? c.w[i].data_hex : c.w[i].dec.hex);
             cJSON_AddItemToArray(jr, e);
         }
         char *txt = cJSON_Print(root);
@@ -261,6 +300,9 @@ int cmd_verify(int argc, char **argv)
                 const ulk_upload_cmd *uc = &u->cmds[p->ui];
                 const cli_word *w = acc[p->ai];
                 printf("  changed  word %zu (line %d) at %.6f s: %s\n", p->ui + 1, uc->line, w->dw.start_s, uc->mnemonic);
+                if (w->tc && (uc->seq_count != w->seq_count || uc->frame_seq != w->frame_seq))
+                    printf("           packet count / N(S): sent %u / %u, received %u / %u\n", uc->seq_count, uc->frame_seq,
+                           w->seq_count, w->frame_seq);
                 for (int a = 0; a < w->dec.n_args && a < uc->n_args; a++) {
                     if (uc->args[a].raw == w->dec.args[a].raw) continue;
                     char sent[64];
@@ -271,7 +313,8 @@ int cmd_verify(int argc, char **argv)
         }
         for (size_t i = 0; i < c.n; i++)
             if (c.w[i].dec.status != ULK_WORD_ACCEPTED)
-                printf("  rejected at %.6f s: %s [hex %s]\n", c.w[i].dw.start_s, c.w[i].dec.reason, c.w[i].dec.hex);
+                printf("  rejected at %.6f s: %s [hex %s]\n", c.w[i].dw.start_s, c.w[i].dec.reason,
+                       c.w[i].tc ? c.w[i].data_hex : c.w[i].dec.hex);
         if (good)
             printf("VERIFIED: the capture holds exactly the upload's %zu word(s), in order\n", u->n_cmds);
         else

@@ -319,6 +319,49 @@ def main():
             rc, out, err = run("inspect", p)
             check(rc == 1 and msg in err, "tamper %s: exit %d, message %r" % (what, rc, err.strip()[:200]))
 
+        # Blind decode and verify through the CLI: impaired capture (noise, clock error, delay,
+        # inversion) of the demo upload.
+        wav = os.path.join(tmp, "demo.wav")
+        rx = os.path.join(tmp, "demo-rx.wav")
+        ddict = os.path.join(SRC, "dictionaries", "demo-ccsds.yaml")
+        rc, _, err = run("modulate", upath, "-o", wav, "--rate", "48000")
+        check(rc == 0, "demo modulate: %s" % err)
+        rc, _, err = run("impair", wav, rx, "--dict", ddict, "--ebn0", "12", "--ppm", "-150", "--delay", "0.25",
+                         "--invert", "--seed", "7")
+        check(rc == 0, "impair: %s" % err)
+        rc, out, err = run("decode", "--dict", ddict, rx, "--json")
+        check(rc == 0, "decode exit %d: %s" % (rc, err))
+        dj = json.loads(out) if rc == 0 else {"words": []}
+        acc = [w for w in dj["words"] if w["status"] == "accepted"]
+        check(len(acc) == 18, "decode: %d accepted CLTUs, want 18" % len(acc))
+        for w, c in zip(acc, up["commands"]):
+            check(w["mnemonic"] == c["mnemonic"] and w["apid"] == c["system_address"] and
+                  w["sequence_count"] == c["sequence_count"] and w["frame_sequence"] == c["frame_sequence"],
+                  "decode: %s (APID %s count %s) for %s" % (w.get("mnemonic"), w.get("apid"), w.get("sequence_count"),
+                                                            c["mnemonic"]))
+            data = bytes([c["opcode"]]) + bits_to_octets(sum(([(int(a["raw"], 16) >> (a["bits"] - 1 - i)) & 1
+                                                              for i in range(a["bits"])] for a in c["args"]), []))
+            check(w["hex"] == data.hex().upper(), "decode: %s data field %s, want %s" % (c["mnemonic"], w["hex"],
+                                                                                          data.hex().upper()))
+        check(all(w.get("reason") for w in dj["words"] if w["status"] == "rejected"), "every rejection has a reason")
+        rc, out, err = run("verify", "--dict", ddict, "--upload", upath, rx)
+        check(rc == 0 and "VERIFIED" in out, "verify the capture against its upload: exit %d %s" % (rc, out[-300:]))
+        # Another list (one command left out, one value changed): not verified, exit 1.
+        with open(cmd_list, encoding="utf-8") as f:
+            lst = f.read()
+        other = lst.replace("RELAY_STOP\n", "").replace("speed=-1500rpm", "speed=-1400rpm")
+        opath = os.path.join(tmp, "other.cmd")
+        with open(opath, "w", encoding="utf-8") as f:
+            f.write(other)
+        oup = os.path.join(tmp, "other.upl")
+        rc, _, err = run("compile", "-q", "--dict", ddict, opath, "-o", oup)
+        check(rc == 0, "other compile: %s" % err)
+        rc, out, err = run("verify", "--dict", ddict, "--upload", oup, rx)
+        check(rc == 1 and "NOT VERIFIED" in out and "changed" in out and "speed: sent -1400, received -1500" in out,
+              "verify against another upload: exit %d %s" % (rc, out[-600:]))
+        rc, out, err = run("verify", "--dict", os.path.join(SRC, "dictionaries", "demo-subbit.yaml"), "--upload", upath, rx)
+        check(rc == 2, "verify with another dictionary: exit %d" % rc)
+
     print("%d checks, %d failed" % (checks, len(failures)))
     return 1 if failures else 0
 
