@@ -244,6 +244,40 @@ void ulk_cgen_destroy(ulk_cgen *g);
 int ulk_voice_tone_phase(ulk_ratio fv, ulk_ratio dev, ulk_ratio fa, ulk_ratio fs, uint64_t i,
                          double *phase_rad);
 
+/* ---- ranging correlation (composite-carrier.md section 3) ----
+ * The received chip index of a capture delayed by D chips is floor(t * chip_rate - D) mod N.
+ * The correlator folds the complex capture onto one code period -- sample i adds to bin
+ * floor(K * ((i * chip_rate / fs) mod N)), K = ULK_RCORR_BINS_PER_CHIP, taken exactly on the
+ * sample index -- after removing the section's carrier offset f_o, and at the end correlates
+ * the folded period circularly with the code (one complex FFT of N*K points). |correlation|
+ * is used, so the carrier phase need not be known; the fold is coherent, so a carrier
+ * frequency error e beyond f_o must keep e * capture length well below 1 (no carrier loop
+ * yet). Memory: N * K complex bins, whatever the capture's length. */
+
+#define ULK_RCORR_BINS_PER_CHIP 16
+
+typedef struct {
+    double phase_chips;   /* D in [0, N), refined by a parabola through the peak's neighbours */
+    double delay_s;       /* D / chip_rate */
+    double peak_to_mean;  /* |peak| over the mean |correlation| of all lags: ~1 without a code */
+    uint64_t n_samples;   /* samples folded */
+    double n_periods;     /* code periods they span */
+} ulk_ranging_result;
+
+typedef struct ulk_rcorr ulk_rcorr;
+
+/* Creates a correlator for c's ranging code at exact rate fs. Returns 0 and *out;
+ * ULK_EINVAL (NULL, rate not > 0, no ranging channel); ULK_ELIMIT (rates too fine for exact
+ * arithmetic); ULK_EFORMAT (built without FFTW3); ULK_ENOMEM. Reason in diag. */
+int ulk_rcorr_create(const ulk_carrier *c, ulk_ratio fs, ulk_rcorr **out, ulk_diag *diag);
+/* Folds n complex samples (interleaved I, Q), in order from sample 0. Returns 0 or ULK_EINVAL. */
+int ulk_rcorr_feed(ulk_rcorr *r, const float *iq, size_t n);
+/* Correlates what was folded. Returns 0 with *out; ULK_EINVAL (NULL); ULK_ELIMIT (less than one
+ * code period folded: the phase would be ambiguous); ULK_ENOMEM. */
+int ulk_rcorr_result(ulk_rcorr *r, ulk_ranging_result *out);
+/* Frees r; NULL does nothing. */
+void ulk_rcorr_destroy(ulk_rcorr *r);
+
 /* ---- plot ---- */
 
 /* Draws two panels to path (SVG or PNG by its extension ".svg"/".png"): the modelled line
