@@ -208,7 +208,7 @@ int cmd_spectrum(int argc, char **argv)
     bi = ulk_malloc(CHUNK * sizeof *bi);
     bq = ulk_malloc(CHUNK * sizeof *bq);
     if (!bi || !bq) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", cap); code = 2; goto fail; }
-    uint64_t total = 0;
+    uint64_t total = 0, n_bad = 0;
     for (;;) {
         long gi = ulk_reader_read(ri, bi, CHUNK);
         if (gi < 0) {
@@ -226,9 +226,17 @@ int cmd_spectrum(int argc, char **argv)
                 goto fail;
             }
         }
+        /* NaN or infinite samples would spread over every bin: counted and taken as 0 */
+        for (long k = 0; k < gi; k++) {
+            if (!isfinite(bi[k])) { bi[k] = 0; n_bad++; }
+            if (is_complex && !isfinite(bq[k])) { bq[k] = 0; n_bad++; }
+        }
         ulk_welch_feed(w, bi, is_complex ? bq : NULL, (size_t)gi);
         total += (uint64_t)gi;
     }
+    if (n_bad)
+        fprintf(stderr, "ulk spectrum: warning: %s: %llu sample value%s not finite (NaN or infinite), taken as 0\n",
+                cap, (unsigned long long)n_bad, n_bad == 1 ? " is" : "s are");
     const double *f, *p;
     size_t nb;
     uint64_t nseg;
@@ -279,6 +287,7 @@ int cmd_spectrum(int argc, char **argv)
         cJSON_AddNumberToObject(o, "samples", (double)total);
         cJSON_AddNumberToObject(o, "nfft", (double)nfft);
         cJSON_AddNumberToObject(o, "segments", (double)nseg);
+        cJSON_AddNumberToObject(o, "non_finite_values", (double)n_bad);
         cJSON_AddNumberToObject(o, "bin_hz", fs_hz / (double)nfft);
         cJSON_AddNumberToObject(o, "peak_hz", peak_hz);
         cJSON_AddNumberToObject(o, "peak_bin_hz", f[kmax]);

@@ -136,6 +136,16 @@ def main():
                 print("   complex: worst relative difference to scipy.signal.welch %.2e" % rel)
                 check(rel < 1e-3, "complex: power matches scipy.signal.welch within 1e-3")
 
+        # --- NaN and infinite samples: counted, taken as 0, the rest of the spectrum kept ---
+        xn = (0.5 * np.sin(2 * np.pi * 2500.0 * np.arange(20000) / 8000)).astype(np.float32)
+        xn[100], xn[200] = np.nan, np.inf
+        nw = os.path.join(tmp, "nan.wav")
+        wavfile.write(nw, 8000, xn)
+        rc, out, err = run("spectrum", nw, "--nfft", 1024, "--json")
+        s = json.loads(out) if rc == 0 else {}
+        check(rc == 0 and s.get("non_finite_values") == 2 and "not finite" in err, "non-finite samples counted", err)
+        check(rc == 0 and abs(s["peak_hz"] - 2500.0) <= 8000 / 1024 / 2, "tone still found beside NaN samples")
+
         # --- refusals ---
         rc, _, err = run("spectrum", wv, "--nfft", 1000)
         check(rc == 2, "nfft not a power of two refused", err)
