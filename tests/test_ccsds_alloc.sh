@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # tests/test_ccsds_alloc.sh - allocation-failure injection (ULK_FAIL_ALLOC=N, src/util.h)
-# along the ccsds-tc job: validate, compile and inspect on dictionaries/demo-ccsds.yaml.
+# along the ccsds-tc job: validate, compile, inspect, decode and verify on
+# dictionaries/demo-ccsds.yaml (decode and verify on a three-command capture).
 # Every run must end in a message that says memory ran out and exit 1 or 2 -- never a crash,
 # a sanitizer report (ASan exit 99, UBSan 98), or a partial upload -- until N passes the
 # number of allocations the job makes and the run succeeds.
@@ -15,6 +16,10 @@ list=$SRC/dictionaries/demo-ccsds.cmd
 export ASAN_OPTIONS=${ASAN_OPTIONS:-}:exitcode=99:detect_leaks=1:abort_on_error=0
 export UBSAN_OPTIONS=halt_on_error=1:exitcode=98
 "$ULK" compile -q --dict "$dict" "$list" -o "$work/ok.ulku" >/dev/null 2>&1 || { echo "setup: compile failed"; exit 1; }
+printf 'OBC_PING\nRF_SET_POWER level=20dBm\nPROP_ARM arm=true key=7 confirm\n' > "$work/three.cmd"
+"$ULK" compile -q --dict "$dict" "$work/three.cmd" -o "$work/three.ulku" >/dev/null 2>&1 &&
+  "$ULK" modulate "$work/three.ulku" -o "$work/three.wav" --rate 48000 >/dev/null 2>&1 ||
+  { echo "setup: three-command capture failed"; exit 1; }
 failed=0
 sweep() { # name, output-file-or-empty, command...
   local name=$1 out=$2; shift 2
@@ -41,4 +46,6 @@ sweep validate "" "$ULK" validate "$dict"
 sweep compile "$work/out.ulku" "$ULK" compile -q --dict "$dict" "$list" -o "$work/out.ulku"
 sweep inspect "" "$ULK" inspect "$work/ok.ulku"
 sweep inspect-json "" "$ULK" inspect --json "$work/ok.ulku"
+sweep decode "" "$ULK" decode --dict "$dict" "$work/three.wav"
+sweep verify "" "$ULK" verify --dict "$dict" --upload "$work/three.ulku" "$work/three.wav"
 exit $failed
