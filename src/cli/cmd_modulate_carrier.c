@@ -45,6 +45,7 @@ static void usage(FILE *out)
             "  OUT ending .cf32 / .ci16  raw interleaved I/Q, little-endian float or round(32767 x)\n"
             "                            16-bit, with OUT's base + .sigmf-meta (cf32_le / ci16_le)\n"
             "  OUT ending .wav           two-channel WAV: left I, right Q (f32 default, or s16)\n"
+            "  a device or pipe          raw interleaved I/Q written directly (--format f32|s16)\n"
             "\n"
             "options:\n"
             "  --carrier          complex composite-carrier output (this mode of the command)\n"
@@ -215,6 +216,8 @@ int cmd_modulate_carrier(int argc, char **argv)
     /* the sample type: the raw extensions say it, a WAV takes --format (f32 by default) */
     ulk_sample_format fmt = ULK_FMT_F32;
     ulk_container cont;
+    struct stat dst;
+    int direct = 0;
     if (has_suffix(out_path, ".cf32") || has_suffix(out_path, ".ci16")) {
         cont = ULK_CONTAINER_RAW;
         fmt = has_suffix(out_path, ".ci16") ? ULK_FMT_S16 : ULK_FMT_F32;
@@ -233,6 +236,15 @@ int cmd_modulate_carrier(int argc, char **argv)
         if (fs.den != 1 || fs.num > INT_MAX) {
             fprintf(stderr, "ulk modulate: %s: WAV holds whole-number sample rates up to 2147483647 Hz; write raw "
                             ".cf32 or .ci16 with SigMF metadata instead\n", out_path);
+            return 2;
+        }
+    } else if (stat(out_path, &dst) == 0 && !S_ISREG(dst.st_mode) && !S_ISDIR(dst.st_mode)) {
+        /* a device or pipe gets raw interleaved I/Q directly (no metadata), as real output */
+        cont = ULK_CONTAINER_RAW;
+        direct = 1;
+        if (fmt_text && !strcmp(fmt_text, "s16")) fmt = ULK_FMT_S16;
+        else if (fmt_text && strcmp(fmt_text, "f32")) {
+            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
             return 2;
         }
     } else {
@@ -385,7 +397,7 @@ int cmd_modulate_carrier(int argc, char **argv)
         ulk_ratio_format(cc.offset_hz, off, sizeof off);
         printf("modulated %s -> %s: mode %s, %llu complex samples (%.6f s) at %s Hz, offset %s Hz, %s %s\n", up_path,
                out_path, mo->name, (unsigned long long)n_samples, (double)n_samples / fs_hz, rate_norm, off,
-               fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV (left I, right Q)" : "raw I/Q + SigMF");
+               fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV (left I, right Q)" : direct ? "raw I/Q" : "raw I/Q + SigMF");
     }
     goto done;
 

@@ -170,6 +170,14 @@ def main():
         rc, _, err = run("modulate", upl, "--carrier", "--mode", "full", "--dict", DICT, "-o",
                          os.path.join(tmp, "bad.f32"), "--rate", fs)
         check(rc == 2, "a real extension refused for complex output", err)
+        if os.path.exists("/dev/full"):
+            rc, _, err = run("modulate", upl, "--carrier", "--mode", "command", "--dict", DICT, "-o", "/dev/full",
+                             "--rate", fs)
+            check(rc == 2 and "No space" in err, "a full device: exit 2 with the reason", err)
+        p = subprocess.run([ULK, "modulate", upl, "--carrier", "--mode", "command", "--dict", DICT, "-o",
+                            "/dev/stdout", "--rate", str(fs), "-q"], capture_output=True)
+        check(p.returncode == 0 and p.stdout == open(cf, "rb").read(), "a pipe gets the same raw I/Q as .cf32",
+              "rc %d, %d bytes" % (p.returncode, len(p.stdout)))
         left = [n for n in os.listdir(tmp) if n.startswith("bad")]
         check(not left, "nothing left behind", str(left))
 
