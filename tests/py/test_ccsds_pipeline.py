@@ -206,6 +206,24 @@ def main():
 
     with open(os.path.join(SRC, "dictionaries", "demo-ccsds.yaml"), encoding="utf-8") as f:
         base = f.read()
+    # ulk validate: the demo pair is clean, same hash; its summary; a broken one exits 1 with line:col.
+    rc, out, err = run("validate", "--json", os.path.join(SRC, "dictionaries", "demo-ccsds.yaml"),
+                       os.path.join(SRC, "dictionaries", "demo-ccsds.json"))
+    v = json.loads(out) if rc == 0 else {"dictionaries": []}
+    sums = [d["summary"] for d in v["dictionaries"]]
+    check(rc == 0 and len(sums) == 2 and sums[0]["sha256"] == sums[1]["sha256"] and
+          all(d["warnings"] == 0 for d in v["dictionaries"]), "validate the demo pair: exit %d" % rc)
+    if sums:
+        # frame of the largest command: 5 + 1 + 6 + 1 + ceil(152/8) + 2 = 34 octets; CLTU 2 + 8*5 + 8
+        check(sums[0]["profile"] == "ccsds-tc" and sums[0]["max_frame_octets"] == 34 and
+              sums[0]["max_cltu_octets"] == 50 and sums[0]["tc"]["spacecraft_id"] == 0x1A7, "validate summary")
+    with tempfile.TemporaryDirectory() as tmp:
+        bad = os.path.join(tmp, "bad.yaml")
+        with open(bad, "w", encoding="utf-8") as f:
+            f.write(base.replace("address: 0x056", "address: 0x7FF"))
+        rc, out, err = run("validate", bad)
+        check(rc == 1 and re.search(r"bad.yaml:\d+:\d+: error: APID 0x7FF is reserved for idle packets", out),
+              "validate refuses the idle APID with its position: exit %d %s" % (rc, out[:300]))
     cmd_list = os.path.join(SRC, "dictionaries", "demo-ccsds.cmd")
     with tempfile.TemporaryDirectory() as tmp:
         n_cases = 0
