@@ -36,10 +36,17 @@ logs=$bdir/valgrind
 rm -rf "$logs"; mkdir -p "$logs"
 # The hostile-input test runs some ulk commands as 'nobody': the logs folder must take their logs.
 chmod 1777 "$logs"
-VG="valgrind --error-exitcode=97 --leak-check=full --errors-for-leak-kinds=definite,indirect --show-leak-kinds=definite,indirect --num-callers=30"
+VG="valgrind --suppressions=$here/scripts/valgrind.supp --error-exitcode=97 --leak-check=full --errors-for-leak-kinds=definite,indirect --show-leak-kinds=definite,indirect --num-callers=30"
 wrap=$logs/ulk-under-valgrind
+# Why compile runs natively by default: valgrind computes x87 long double with 64-bit precision
+# (a documented valgrind limitation), and the argument rounding of src/argval.c needs the 80-bit
+# type to decide exact ties, so under valgrind `ulk compile` refuses the demo list and every
+# later step of those tests never runs. The compiler's memory use is still checked by the cmocka
+# programs (test_cmdlist, test_upload) under valgrind and by the fuzzers under ASan.
+# VALGRIND_COMPILE=1 puts compile under valgrind too.
 cat >"$wrap" <<EOF
 #!/bin/sh
+if [ "\$1" = compile ] && [ "\${VALGRIND_COMPILE:-0}" != 1 ]; then exec "$bdir/ulk" "\$@"; fi
 exec $VG --log-file="$logs/ulk.%p.log" "$bdir/ulk" "\$@"
 EOF
 chmod 755 "$wrap"
@@ -71,6 +78,7 @@ def scan(pattern):
     return n, errs, bad
 
 total_fail = total_err = total_proc = 0
+err_in_passing = 0
 t_start = time.time()
 for t in tests:
     name = t["name"]
@@ -105,6 +113,8 @@ for t in tests:
     total_proc += n
     total_err += errs
     verdict = "ok" if rc == 0 and errs == 0 else "FAIL"
+    if rc == 0:
+        err_in_passing += errs
     if verdict == "FAIL":
         total_fail += 1
     print(f"{verdict:4} {name:32} exit {rc:3}  {n:5} processes under valgrind  {errs:3} errors  {time.time() - t0:7.1f} s", flush=True)
@@ -116,6 +126,6 @@ for t in tests:
         start = next((i for i, l in enumerate(lines) if re.search(r"Invalid|uninit|lost in|Mismatched|Syscall|Process terminating", l)), 0)
         print("     | " + "\n     | ".join(lines[start:start + 14]))
 print(f"valgrind: {total_proc} processes, {total_err} errors (incl. definite/indirect leaks), "
-      f"{total_fail} failing tests, {time.time() - t_start:.0f} s")
+      f"{err_in_passing} of them in tests that passed, {total_fail} failing tests, {time.time() - t_start:.0f} s")
 sys.exit(1 if total_fail or total_err else 0)
 EOF
