@@ -30,6 +30,8 @@ static void usage(FILE *out)
     fprintf(out,
             "usage: ulk modulate UPLOAD -o OUT --rate HZ [--format f32|s16] [--timing TABLE.csv]\n"
             "       ulk modulate UPLOAD --timing TABLE.csv --rate HZ        (timing table only)\n"
+            "       ulk modulate UPLOAD --carrier --mode NAME --dict DICT -o OUT.cf32|.ci16|.wav --rate HZ\n"
+            "                    (complex composite carrier: ulk modulate --carrier --help)\n"
             "\n"
             "Turns an upload (from ulk compile) into PSK-on-subcarrier samples, exactly as the\n"
             "sub-bit profile's section 4 defines them, and/or writes its timing table (one row per\n"
