@@ -40,5 +40,10 @@ step "ccsds-tc: decode the impaired capture blind" \
   bash -c "\"$ulk\" decode --dict \"$tdict\" \"$out/demo-ccsds-rx.wav\" | head -n 40"
 step "ccsds-tc: verify the capture against the upload" \
   "$ulk" verify --dict "$tdict" --upload "$out/demo-ccsds.ulku" "$out/demo-ccsds-rx.wav"
+step "composite carrier: power division and margins per mode" "$ulk" plan "$dict" --plot "$out/plan.png"
+step "composite carrier: complex baseband of mode 'full' (data, voice, ranging)" \
+  "$ulk" modulate "$out/demo.ulku" --carrier --mode full --dict "$dict" -o "$out/demo-full.cf32" --rate 192000
+step "composite carrier: spectrum picture with the channels marked" \
+  "$ulk" spectrum "$out/demo-full.cf32" --dict "$dict" -o "$out/spectrum-full.png"
 echo
 echo "demo outputs are in $out/"
