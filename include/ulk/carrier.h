@@ -278,6 +278,83 @@ int ulk_rcorr_result(ulk_rcorr *r, ulk_ranging_result *out);
 /* Frees r; NULL does nothing. */
 void ulk_rcorr_destroy(ulk_rcorr *r);
 
+/* ---- carrier recovery (composite-carrier.md section 3) ----
+ * Finds the residual carrier of a complex capture and tracks it, so that the phase of the
+ * de-rotated signal is the composite phase phi(t) = sum_k m_k c_k(t).
+ *
+ * Coarse: one Hann-windowed FFT of the first block (ulk_crec_acquire; a power of two of at
+ * least 0.5 s, or the whole capture when shorter), the strongest bin within +-max_offset_hz,
+ * refined by a parabola through the log magnitudes of its neighbours: the error is a few
+ * hundredths of a bin (bin 1 / block length, <= 2 Hz). The residual carrier is the line of
+ * amplitude prod J0(m_k) prod cos(m_k); a mode whose line is near zero (a sinusoidal index
+ * near 2.405, a binary one near pi/2) has nothing to acquire -- the caller checks the plan.
+ * Tracking: a second-order phase-locked loop (proportional-integral loop filter, perfect
+ * integrator NCO) whose phase detector is atan2 of the de-rotated sample: its mean is the
+ * phase error whatever the indices (unit gain, so the loop bandwidth is what is asked as long
+ * as sum m_k < pi, where atan2 returns phi(t) without wrapping). Gains from the one-sided
+ * noise bandwidth B_L and damping zeta (Gardner, Phaselock Techniques; from memory):
+ * w_n = 8 zeta B_L / (4 zeta^2 + 1), K_p = 2 zeta w_n T, K_i = (w_n T)^2, T = 1 / f_s.
+ * With the default B_L = 20 Hz and zeta = 0.707 the loop pulls in a frequency error of about
+ * +-8 Hz (2 zeta w_n), far beyond the coarse step's error. The channels are outside the loop
+ * bandwidth (subcarriers at kHz; the ranging code's power within B_L is ~B_L / chip_rate of it).
+ */
+typedef struct {
+    double fs_hz;          /* sample rate, > 0 */
+    double max_offset_hz;  /* coarse search range +-; 0 = 5000; at most 0.45 fs */
+    double loop_bw_hz;     /* B_L; 0 = 20 */
+    double damping;        /* zeta; 0 = 0.7071 */
+} ulk_crec_config;
+
+typedef struct {
+    double coarse_hz;      /* carrier offset from the coarse FFT */
+    double line_db;        /* the line's bin over the mean bin within the search range, dB */
+    double freq_hz;        /* the loop's frequency now */
+    double mean_freq_hz;   /* the loop's frequency averaged over the tracked samples */
+    double phase_rms_rad;  /* rms of the phase detector output (phi(t) plus noise) */
+    uint64_t n_tracked;
+} ulk_crec_status;
+
+typedef struct ulk_crec ulk_crec;
+
+/* Creates a carrier-recovery object. Returns 0 and *out; ULK_EINVAL (NULL, rate not > 0, a
+ * range beyond 0.45 fs, bandwidth or damping not > 0 or a bandwidth beyond fs / 20);
+ * ULK_ENOMEM. Reason in diag. Free with ulk_crec_destroy. */
+int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag);
+/* Coarse acquisition on n complex samples (interleaved I, Q; uses at most the first
+ * ulk_crec_block(r) of them, at least 64): sets the loop's frequency to the line found.
+ * Returns 0; ULK_EINVAL (NULL, n < 64); ULK_EFORMAT (built without FFTW3); ULK_ENOMEM. */
+int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n);
+/* Samples the coarse step wants: the power of two >= 0.5 s. */
+size_t ulk_crec_block(const ulk_crec *r);
+/* Tracks n complex samples in order. Each output may be NULL: derot gets the de-rotated
+ * samples x exp(-j theta) (2n floats), phi the composite phase atan2(Q, I) of them (n
+ * floats, in (-pi, pi]). Returns 0 or ULK_EINVAL (NULL r, or iq NULL with n > 0). */
+int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi);
+/* Status so far; r and st must not be NULL. */
+void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st);
+/* Frees r; NULL does nothing. */
+void ulk_crec_destroy(ulk_crec *r);
+
+/* ---- voice demodulation ----
+ * From the composite phase phi(t) (ulk_crec_track): mix the voice subcarrier f_v to 0 Hz,
+ * low-pass it to Carson's half-bandwidth Delta + f_a (Blackman-windowed sinc; f_a the tone,
+ * at least 3400 Hz so that speech passes), FM discriminator arg(z_n conj z_{n-1}) f_s / (2 pi)
+ * divided by Delta (audio of peak 1 for a full deviation), low-pass to 0.45 of the output
+ * rate and keep every D-th sample: the output rate f_s / D is the lowest whole rate
+ * >= 16 kHz that divides f_s (f_s itself when no such divisor exists). */
+typedef struct ulk_vdemod ulk_vdemod;
+/* Returns 0 and *out; ULK_EINVAL (NULL, rates not > 0, f_v + Delta + f_a not below f_s / 2,
+ * f_s not a whole number of Hz); ULK_ENOMEM. Reason in diag. */
+int ulk_vdemod_create(double fs_hz, double fv_hz, double dev_hz, double tone_hz, ulk_vdemod **out,
+                      ulk_diag *diag);
+/* Output sample rate, Hz (whole). */
+int ulk_vdemod_rate(const ulk_vdemod *v);
+/* Feeds n phase samples; writes at most n / D + 1 audio samples to audio and returns their
+ * count (>= 0), or ULK_EINVAL. */
+long ulk_vdemod_push(ulk_vdemod *v, const float *phi, size_t n, float *audio);
+/* Frees v; NULL does nothing. */
+void ulk_vdemod_destroy(ulk_vdemod *v);
+
 /* ---- plot ---- */
 
 /* Draws two panels to path (SVG or PNG by its extension ".svg"/".png"): the modelled line
