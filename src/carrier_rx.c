@@ -61,7 +61,7 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     r->kp = 2 * z * wt;
     r->ki = wt * wt;
     size_t b = 64;
-    while ((double)b < 0.5 * fs && b < ((size_t)1 << 26)) b <<= 1;
+    while ((double)b < 0.5 * fs && b < ((size_t)1 << 20)) b <<= 1; /* 1 M samples at most (8 MB) */
     r->block = b;
     *out = r;
     return 0;

@@ -324,7 +324,7 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag);
  * ulk_crec_block(r) of them, at least 64): sets the loop's frequency to the line found.
  * Returns 0; ULK_EINVAL (NULL, n < 64); ULK_EFORMAT (built without FFTW3); ULK_ENOMEM. */
 int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n);
-/* Samples the coarse step wants: the power of two >= 0.5 s. */
+/* Samples the coarse step wants: the power of two >= 0.5 s, at most 2^20. */
 size_t ulk_crec_block(const ulk_crec *r);
 /* Tracks n complex samples in order. Each output may be NULL: derot gets the de-rotated
  * samples x exp(-j theta) (2n floats), phi the composite phase atan2(Q, I) of them (n

@@ -1,6 +1,8 @@
 /* src/cli/cmd_decode.c - `ulk decode --dict DICT CAPTURE [--json] [--plot FILE]
- * [--rate HZ --format f32|s16] [--channel N]`: recover words and commands from a capture,
- * blind (unknown start, clock error, level, DC, polarity, noise).
+ * [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME] [--max-offset HZ]
+ * [--voice OUT.wav] [--ranging]`: recover words and commands from a capture, blind (unknown
+ * start, clock error, level, DC, polarity, noise); a complex capture of the composite carrier
+ * through carrier recovery first, with its voice and ranging channels on request.
  * Exit 0 words found; 1 no word found; 2 usage, dictionary or I/O error. */
 #include <cjson/cJSON.h>
 #include <math.h>
@@ -21,6 +23,7 @@ static void usage(FILE *out)
     fprintf(out,
             "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png]\n"
             "                  [--rate HZ --format f32|s16] [--channel N]\n"
+            "                  [--iq] [--mode NAME] [--max-offset HZ] [--voice OUT.wav] [--ranging]\n"
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
@@ -37,6 +40,14 @@ static void usage(FILE *out)
             "  --rate HZ               sample rate of a raw capture\n"
             "  --format f32|s16        sample type of a raw capture\n"
             "  --channel N             channel of a multi-channel WAV (0 = first)\n"
+            "complex captures of the composite carrier (.cf32/.ci16 with SigMF, or a two-channel\n"
+            "WAV with --iq; the dictionary's carrier section, docs/carrier.md):\n"
+            "  --iq                    a two-channel WAV is I (left) and Q (right)\n"
+            "  --mode NAME             the carrier mode (default: the one in the SigMF metadata)\n"
+            "  --max-offset HZ         carrier offset search range +-HZ (default 5000)\n"
+            "  --voice OUT.wav         demodulate the voice FM subcarrier to OUT.wav (float)\n"
+            "  --ranging               report the ranging code phase (chips, seconds from the\n"
+            "                          capture start) and the correlation's peak-to-mean ratio\n"
             "  -h, --help              this text\n"
             "\n"
             "Human output lists accepted commands in command-list syntax with their start times,\n"
@@ -138,6 +149,35 @@ static int print_json(const cli_capture *c)
     } else {
         ok = 0;
     }
+    if (ok && c->complex_) {
+        cJSON *k = cJSON_AddObjectToObject(root, "carrier");
+        ok &= k != NULL;
+        if (k) {
+            ok &= cJSON_AddStringToObject(k, "mode", c->mode) != NULL;
+            ok &= cJSON_AddItemToObject(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
+            ok &= cJSON_AddItemToObject(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
+            ok &= cJSON_AddItemToObject(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
+            ok &= cJSON_AddItemToObject(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
+            ok &= cJSON_AddItemToObject(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
+        }
+    }
+    if (ok && c->has_ranging) {
+        cJSON *k = cJSON_AddObjectToObject(root, "ranging");
+        ok &= k != NULL;
+        if (k) {
+            ok &= cJSON_AddItemToObject(k, "code_phase_chips", num_or_null(1, round(c->ranging.phase_chips * 1e4) / 1e4));
+            ok &= cJSON_AddItemToObject(k, "delay_s", num_or_null(1, c->ranging.delay_s));
+            ok &= cJSON_AddItemToObject(k, "peak_to_mean", num_or_null(1, round(c->ranging.peak_to_mean * 100) / 100));
+        }
+    }
+    if (ok && c->voice_rate_hz) {
+        cJSON *k = cJSON_AddObjectToObject(root, "voice");
+        ok &= k != NULL;
+        if (k) {
+            ok &= cJSON_AddNumberToObject(k, "rate_hz", c->voice_rate_hz) != NULL;
+            ok &= cJSON_AddNumberToObject(k, "samples", (double)c->voice_samples) != NULL;
+        }
+    }
     char *txt = ok ? cJSON_Print(root) : NULL;
     cJSON_Delete(root);
     if (!txt) { fprintf(stderr, "ulk decode: out of memory\n"); return -1; }
@@ -154,6 +194,17 @@ static void print_human(const char *path, const cli_capture *c)
                c->est.rate_error_ppm);
     else
         printf("; no signal found\n");
+    if (c->complex_) {
+        printf("carrier: mode %s, offset %+.3f Hz (coarse %+.3f Hz, line %.1f dB over the mean bin), loop B_L %g Hz",
+               c->mode, c->crec.mean_freq_hz, c->crec.coarse_hz, c->crec.line_db, c->loop_bw_hz);
+        if (c->m_data > 0) printf("; data = phase / %g rad\n", c->m_data);
+        else printf("; data is off in this mode\n");
+    }
+    if (c->has_ranging)
+        printf("ranging: code phase %.4f chips, %.9f s from the capture start (peak/mean %.1f, %.2f code periods)\n",
+               c->ranging.phase_chips, c->ranging.delay_s, c->ranging.peak_to_mean, c->ranging.n_periods);
+    if (c->voice_rate_hz)
+        printf("voice: %llu samples at %d Hz written\n", (unsigned long long)c->voice_samples, c->voice_rate_hz);
     size_t acc = 0;
     char line[4096];
     for (size_t i = 0; i < c->n; i++) {
@@ -195,9 +246,11 @@ int cmd_decode(int argc, char **argv)
         if (r > 0) continue;
         if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
         else if (!strcmp(a, "--json")) json = 1;
-        else if (!strcmp(a, "--dict") || !strcmp(a, "--plot")) {
+        else if (!strcmp(a, "--ranging")) o.ranging = 1;
+        else if (!strcmp(a, "--dict") || !strcmp(a, "--plot") || !strcmp(a, "--voice")) {
             if (i + 1 >= argc) { fprintf(stderr, "ulk decode: %s needs a value\n", a); return 2; }
             if (!strcmp(a, "--dict")) dict_path = argv[++i];
+            else if (!strcmp(a, "--voice")) o.voice_path = argv[++i];
             else plot_path = argv[++i];
         } else if (a[0] == '-' && a[1]) {
             fprintf(stderr, "ulk decode: unknown option '%s' (ulk decode --help)\n", a);

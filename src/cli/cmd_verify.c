@@ -19,7 +19,7 @@ static void usage(FILE *out)
 {
     fprintf(out,
             "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
-            "                  [--rate HZ --format f32|s16] [--channel N]\n"
+            "                  [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME]\n"
             "\n"
             "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
@@ -36,6 +36,7 @@ static void usage(FILE *out)
             "  --upload UPLOAD    the upload file (from ulk compile)\n"
             "  --json             machine-readable report\n"
             "  --rate HZ, --format f32|s16, --channel N   as for ulk decode\n"
+            "  --iq, --mode NAME, --max-offset HZ         complex captures, as for ulk decode\n"
             "  -h, --help         this text\n"
             "\nexit: 0 the capture holds exactly the upload; 1 it does not; 2 usage or I/O error,\n"
             "      or the upload was compiled with another dictionary (refused, nothing compared)\n");
