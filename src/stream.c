@@ -1,5 +1,7 @@
 /* src/stream.c - expands an upload into its sub-bit stream, chunk by chunk
  * (subbit-profile.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern.
+ * Commands are read through the ulk_upload_* accessors, so a lean upload (ULK_UPLOAD_LEAN:
+ * idles and packed unit octets only) streams exactly as a full one.
  * The link profile (ulk/profile.h) says what a unit's bits are (word or CLTU) and what its
  * filler is (the idle pattern, or ccsds-tc-profile.md section 3's alternating bits that
  * restart at 0 on every run); the layout is the same for both. */
@@ -21,9 +23,9 @@ struct ulk_stream {
 
 uint64_t ulk_upload_n_subbits(const ulk_upload *u)
 {
-    const ulk_profile_ops *p = ulk_profile_ops_for(u->link.profile);
+    if (u->lean) return u->lean->n_subbits;
     uint64_t patterns = u->idles_after;
-    for (size_t i = 0; i < u->n_cmds; i++) patterns += u->cmds[i].idles_before + p->unit_bits(&u->link, &u->cmds[i]);
+    for (size_t i = 0; i < u->n_cmds; i++) patterns += ulk_upload_idles_before(u, i) + ulk_upload_unit_bits(u, i);
     return patterns * (uint64_t)u->link.n_subbits;
 }
 
@@ -54,8 +56,8 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
         int is_word;
         if (s->cmd > s->u->n_cmds) break;
         if (s->cmd == s->u->n_cmds) { part_len = s->u->idles_after; is_word = 0; }
-        else if (!s->in_word) { part_len = s->u->cmds[s->cmd].idles_before; is_word = 0; }
-        else { part_len = s->prof->unit_bits(l, &s->u->cmds[s->cmd]); is_word = 1; }
+        else if (!s->in_word) { part_len = ulk_upload_idles_before(s->u, s->cmd); is_word = 0; }
+        else { part_len = ulk_upload_unit_bits(s->u, s->cmd); is_word = 1; }
         if (s->pos >= part_len) {
             /* next part */
             if (s->cmd == s->u->n_cmds) { s->cmd++; break; }
@@ -68,7 +70,7 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
         const uint8_t *pat = NULL;
         int bitv = -1;
         if (is_word) {
-            bitv = s->prof->unit_bit(l, &s->u->cmds[s->cmd], s->pos);
+            bitv = ulk_upload_unit_bit(s->u, s->cmd, s->pos);
             pat = bitv ? l->one : l->zero;
         }
         while (s->sub < n && got < max) {
@@ -88,11 +90,10 @@ size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, s
 
 double ulk_stream_word_start_s(const ulk_upload *u, size_t k)
 {
-    const ulk_profile_ops *p = ulk_profile_ops_for(u->link.profile);
     uint64_t patterns = 0;
     for (size_t i = 0; i < k && i < u->n_cmds; i++) {
-        patterns += u->cmds[i].idles_before;
-        if (i + 1 < k) patterns += p->unit_bits(&u->link, &u->cmds[i]);
+        patterns += ulk_upload_idles_before(u, i);
+        if (i + 1 < k) patterns += ulk_upload_unit_bits(u, i);
     }
     /* one pattern lasts 1/R_b */
     return (double)patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;

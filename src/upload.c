@@ -3,12 +3,16 @@
  * Why a digest: an upload sits on disk between compilation and transmission; a changed
  * byte (edit, bad copy, disk) must be caught before anything radiates. The writer builds
  * the whole document in memory, hashes every byte before the final "digest" line with
- * SHA-256 and writes it atomically. The reader checks the digest first, then every field,
- * and finally rebuilds each word's fields from the word bits and compares them, so a file
- * whose digest was recomputed by hand is still refused when it is inconsistent.
+ * SHA-256 and writes it atomically. The reader streams the file (see "streaming source"
+ * below: one command's cJSON tree at a time, SHA-256 as the bytes arrive), checks every
+ * field and rebuilds each word's fields from the word bits and compares them, so a file
+ * whose digest was recomputed by hand is still refused when it is inconsistent; the digest,
+ * known at the end, decides first: a changed file is reported as changed and nothing read
+ * from it is returned.
  */
 #define _GNU_SOURCE /* memmem */
 #include <ctype.h>
+#include <errno.h>
 #include <limits.h>
 #include <math.h>
 #include <stdarg.h>
@@ -45,11 +49,22 @@ static void cmd_free_parts(ulk_upload_cmd *c)
     ulk_free(c->system_name);
 }
 
+static void lean_free(ulk_upload_lean *z)
+{
+    if (!z) return;
+    ulk_free(z->idles);
+    ulk_free(z->units);
+    ulk_free(z->unit_off);
+    ulk_free(z);
+}
+
 void ulk_upload_destroy(ulk_upload *u)
 {
     if (!u) return;
-    for (size_t i = 0; i < u->n_cmds && u->cmds; i++) cmd_free_parts(&u->cmds[i]);
+    size_t nf = ulk_upload_n_full(u);
+    for (size_t i = 0; i < nf && u->cmds; i++) cmd_free_parts(&u->cmds[i]);
     ulk_free(u->cmds);
+    lean_free(u->lean);
     ulk_free(u->dict_name);
     ulk_free(u->dict_version);
     ulk_free(u->source);
@@ -308,6 +323,22 @@ static void build_doc(const ulk_upload *u, sbuf *b)
 int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag)
 {
     if (!u || !path) return ulk_fail(diag, ULK_EINVAL, "upload write: nothing to write");
+    if (u->lean) return ulk_fail(diag, ULK_EINVAL, "%s: a lean upload cannot be written", path);
+    /* never write what the reader refuses: the limits keep ulk modulate under 64 MB */
+    if (u->n_cmds > ULK_UPLOAD_MAX_CMDS)
+        return ulk_fail(diag, ULK_ELIMIT,
+                        "%s: %zu commands; an upload holds at most %u (the limit that keeps ulk modulate under "
+                        "64 MB); nothing written",
+                        path, u->n_cmds, ULK_UPLOAD_MAX_CMDS);
+    size_t unit_octets = 0;
+    for (size_t i = 0; i < u->n_cmds; i++)
+        unit_octets += u->link.profile == ULK_PROFILE_CCSDS_TC ? u->cmds[i].n_cltu : (size_t)(u->link.word_bits + 7) / 8;
+    if (unit_octets > ULK_UPLOAD_MAX_UNIT_OCTETS)
+        return ulk_fail(diag, ULK_ELIMIT,
+                        "%s: the %s of the upload take %zu octets; the limit is %zu (what keeps ulk modulate under "
+                        "64 MB); split the command list; nothing written",
+                        path, u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words", unit_octets,
+                        ULK_UPLOAD_MAX_UNIT_OCTETS);
     sbuf b = {0};
     build_doc(u, &b);
     char hex[65];
@@ -330,30 +361,44 @@ int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag)
 
 /* ------------------------------------------------------------------ reader */
 
+/* The first error is kept, not reported at once: the digest is only known at the end of the
+ * file, and a changed file must be reported as changed (ULK_EINTEGRITY) rather than by the
+ * parse error its change caused. rd_emit() reports it. */
 typedef struct {
     const char *name;
     ulk_diag *diag;
     int status;
+    int has_path;
+    char path[96];
+    char msg[600];
 } rd_t;
 
 static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...) __attribute__((format(printf, 4, 5)));
 static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...)
 {
-    char msg[600];
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(msg, sizeof msg, fmt, ap);
-    va_end(ap);
     if (!r->status) {
-        ulk_loc loc = {r->name, 0, 0, path};
-        ulk_diag_add(r->diag, ULK_SEV_ERROR, &loc, "%s", msg);
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(r->msg, sizeof r->msg, fmt, ap);
+        va_end(ap);
+        r->has_path = path != NULL;
+        snprintf(r->path, sizeof r->path, "%s", path ? path : "");
         r->status = code;
     }
     return code;
 }
 
-/* The members of obj must be exactly keys (each once). */
-static int want_keys(rd_t *r, const cJSON *obj, const char *path, const char *const *keys, int n)
+static int rd_emit(rd_t *r)
+{
+    if (r->status) {
+        ulk_loc loc = {r->name, 0, 0, r->has_path ? r->path : NULL};
+        ulk_diag_add(r->diag, ULK_SEV_ERROR, &loc, "%s", r->msg);
+    }
+    return r->status;
+}
+
+/* The members of obj must be exactly keys (each once); partial: missing ones are not (yet) an error. */
+static int want_keys_p(rd_t *r, const cJSON *obj, const char *path, const char *const *keys, int n, int partial)
 {
     if (!cJSON_IsObject(obj)) return rfail(r, ULK_EPARSE, path, "expected an object");
     unsigned seen = 0;
@@ -365,9 +410,14 @@ static int want_keys(rd_t *r, const cJSON *obj, const char *path, const char *co
         if (seen & (1u << k)) return rfail(r, ULK_EPARSE, path, "member '%s' appears twice", keys[k]);
         seen |= 1u << k;
     }
-    for (int i = 0; i < n; i++)
+    for (int i = 0; i < n && !partial; i++)
         if (!(seen & (1u << i))) return rfail(r, ULK_EPARSE, path, "missing member '%s'", keys[i]);
     return 0;
+}
+
+static int want_keys(rd_t *r, const cJSON *obj, const char *path, const char *const *keys, int n)
+{
+    return want_keys_p(r, obj, path, keys, n, 0);
 }
 
 static const cJSON *member(const cJSON *o, const char *k) { return cJSON_GetObjectItemCaseSensitive(o, k); }
@@ -627,19 +677,24 @@ static int read_tc_unit(rd_t *r, const cJSON *cj, const char *path, ulk_upload_c
     const char *fh = get_str(r, cj, "frame", path, 2 * ULK_TCF_MAX_OCTETS);
     const char *ch = fh ? get_str(r, cj, "cltu", path, 2 * ULK_CLTU_MAX_OCTETS) : NULL;
     if (!ch) return r->status;
-    uint8_t *buf = ulk_malloc(ULK_CLTU_MAX_OCTETS + ULK_TCF_MAX_OCTETS);
-    if (!buf) return rfail(r, ULK_ENOMEM, path, "out of memory");
-    c->cltu = buf;
-    c->frame = buf + ULK_CLTU_MAX_OCTETS;
-    long nf = hex_octets(fh, c->frame, ULK_TCF_MAX_OCTETS), nc = hex_octets(ch, c->cltu, ULK_CLTU_MAX_OCTETS);
+    /* decoded on the stack, then kept in one allocation of the exact size */
+    uint8_t fb[ULK_TCF_MAX_OCTETS], cb[ULK_CLTU_MAX_OCTETS];
+    long nf = hex_octets(fh, fb, sizeof fb), nc = hex_octets(ch, cb, sizeof cb);
     if (nf < 0) return rfail(r, ULK_EPARSE, path, "'frame' must be hex digits of 1 to %d octets", ULK_TCF_MAX_OCTETS);
     if (nc < 0) return rfail(r, ULK_EPARSE, path, "'cltu' must be hex digits of 1 to %d octets", ULK_CLTU_MAX_OCTETS);
+    uint8_t *buf = ulk_malloc((size_t)nc + (size_t)nf);
+    if (!buf) return rfail(r, ULK_ENOMEM, path, "out of memory");
+    memcpy(buf, cb, (size_t)nc);
+    memcpy(buf + nc, fb, (size_t)nf);
+    c->cltu = buf;
+    c->frame = buf + nc;
     c->n_frame = (size_t)nf;
     c->n_cltu = (size_t)nc;
     return 0;
 }
 
-static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk_upload_cmd *c)
+/* prev_line: the previous command's line (unused for idx 0). */
+static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const ulk_link *l, ulk_upload_cmd *c)
 {
     char path[64];
     snprintf(path, sizeof path, "commands[%zu]", idx);
@@ -655,9 +710,9 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
     uint64_t uv;
     if (get_int(r, cj, "line", path, 1, (double)(1 << 30), NULL, &v)) return r->status;
     c->line = (int)v;
-    if (idx > 0 && c->line <= c[-1].line)
+    if (idx > 0 && c->line <= prev_line)
         return rfail(r, ULK_EPARSE, path, "'line' %d does not follow the previous command's line %d", c->line,
-                     c[-1].line);
+                     prev_line);
     const char *mn = get_str(r, cj, "mnemonic", path, 256);
     const char *sn = mn ? get_str(r, cj, "system", path, 256) : NULL;
     if (!mn || !sn) return r->status;
@@ -785,137 +840,539 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, const ulk_link *l, ulk
     return 0;
 }
 
-/* Packet sequence counts run per APID from 0 and N(S) from first_sequence, as the compiler
- * numbers them (ccsds-tc-profile.md section 2): a reordered or spliced upload is refused. */
-static int check_tc_counts(rd_t *r, const ulk_upload *u)
+/* ------------------------------------------------------------------ streaming source
+ *
+ * Why streaming: a whole-document cJSON tree costs about ten times the file, and every
+ * command in full about 300 bytes more; the modulator needs neither. The file is read in
+ * chunks into a window; SHA-256 runs over the bytes as they arrive, holding back the last
+ * DIGEST_LINE_LEN bytes (the digest line, known only at the end); the top-level members are
+ * cut out of the window by a small bracket- and string-aware scanner and each is parsed alone
+ * by cJSON, so only one command's tree exists at a time. Nothing read is handed out before
+ * the digest has been checked at the end: the upload is built, then discarded on mismatch. */
+
+#define RD_CHUNK 65536
+
+typedef struct {
+    FILE *fp;                    /* the file, or NULL to read mem */
+    const char *mem;
+    size_t mem_len, mem_off;
+    EVP_MD_CTX *md;
+    unsigned char hold[DIGEST_LINE_LEN]; /* the last bytes read, not hashed yet */
+    size_t n_hold;
+    uint64_t n_read;             /* bytes read so far */
+    int eof, ioerr, oom, has_nul, too_big, md_bad;
+    char *buf;                   /* window: buf[mark..end) kept, buf[pos..end) unread */
+    size_t cap, mark, pos, end;
+} src_t;
+
+/* Hashes everything read except the last DIGEST_LINE_LEN bytes, which wait in hold. */
+static void src_hash(src_t *s, const unsigned char *p, size_t n)
 {
-    uint16_t *next = ulk_calloc(ULK_SPP_MAX_APID + 1, sizeof *next);
-    if (!next) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
-    const ulk_tc_params *t = &u->link.tc;
-    int rc = 0;
-    for (size_t i = 0; i < u->n_cmds && !rc; i++) {
-        const ulk_upload_cmd *c = &u->cmds[i];
-        char path[64];
-        snprintf(path, sizeof path, "commands[%zu]", i);
-        uint8_t ns = t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? (uint8_t)((t->first_sequence + i) & 0xFF) : 0;
-        if (c->seq_count != next[c->system_addr])
-            rc = rfail(r, ULK_EPARSE, path, "'sequence_count' %u is not %u, the next count of APID 0x%X", c->seq_count,
-                       next[c->system_addr], c->system_addr);
-        else if (c->frame_seq != ns)
-            rc = rfail(r, ULK_EPARSE, path, "'frame_sequence' %u is not %u, the N(S) of frame %zu", c->frame_seq, ns, i);
-        next[c->system_addr] = (uint16_t)((next[c->system_addr] + 1u) & ULK_SPP_MAX_SEQ_COUNT);
+    if (s->n_hold + n <= DIGEST_LINE_LEN) {
+        memcpy(s->hold + s->n_hold, p, n);
+        s->n_hold += n;
+        return;
     }
-    ulk_free(next);
+    size_t to_hash = s->n_hold + n - DIGEST_LINE_LEN;
+    size_t from_hold = to_hash < s->n_hold ? to_hash : s->n_hold, from_p = to_hash - from_hold;
+    if (EVP_DigestUpdate(s->md, s->hold, from_hold) != 1 || EVP_DigestUpdate(s->md, p, from_p) != 1) s->md_bad = 1;
+    memmove(s->hold, s->hold + from_hold, s->n_hold - from_hold);
+    memcpy(s->hold + (s->n_hold - from_hold), p + from_p, n - from_p);
+    s->n_hold = DIGEST_LINE_LEN;
+}
+
+/* Reads more into the window, dropping what lies before mark. Returns the count read (0 at
+ * the end of the file, on a read error, or beyond ULK_UPLOAD_MAX_BYTES). */
+static size_t src_more(src_t *s)
+{
+    if (s->eof) return 0;
+    if (s->mark > 0) {
+        memmove(s->buf, s->buf + s->mark, s->end - s->mark);
+        s->pos -= s->mark;
+        s->end -= s->mark;
+        s->mark = 0;
+    }
+    if (s->cap - s->end < RD_CHUNK) {
+        /* only a value being scanned keeps the window growing; sc_value bounds it */
+        size_t nc = s->end + RD_CHUNK;
+        char *nb = ulk_realloc(s->buf, nc);
+        if (!nb) { s->eof = s->oom = 1; return 0; }
+        s->buf = nb;
+        s->cap = nc;
+    }
+    size_t want = RD_CHUNK, got;
+    if (s->n_read + want > ULK_UPLOAD_MAX_BYTES + (uint64_t)1) want = (size_t)(ULK_UPLOAD_MAX_BYTES + 1 - s->n_read);
+    if (s->fp) {
+        got = fread(s->buf + s->end, 1, want, s->fp);
+        if (got == 0 && ferror(s->fp)) s->ioerr = 1;
+    } else {
+        got = s->mem_len - s->mem_off < want ? s->mem_len - s->mem_off : want;
+        memcpy(s->buf + s->end, s->mem + s->mem_off, got);
+        s->mem_off += got;
+    }
+    if (got == 0) { s->eof = 1; return 0; }
+    if (memchr(s->buf + s->end, 0, got)) s->has_nul = 1;
+    src_hash(s, (const unsigned char *)s->buf + s->end, got);
+    s->n_read += got;
+    s->end += got;
+    if (s->n_read > ULK_UPLOAD_MAX_BYTES) { s->too_big = 1; s->eof = 1; }
+    return got;
+}
+
+static int sc_peek(src_t *s)
+{
+    if (s->pos == s->end) {
+        s->mark = s->pos;
+        if (!src_more(s)) return -1;
+    }
+    return (unsigned char)s->buf[s->pos];
+}
+
+static int sc_is_ws(int c) { return c == ' ' || c == '\n' || c == '\t' || c == '\r'; }
+
+static void sc_ws(src_t *s)
+{
+    while (sc_is_ws(sc_peek(s))) s->pos++;
+}
+
+/* The extent buf[mark..pos) of one JSON value at pos (whitespace skipped before). Strings
+ * and brackets are followed so that a ',' or ']' inside a string does not end it; whether
+ * it is valid JSON is cJSON's to say. Returns 0, -1 when the text ends first or no value
+ * starts here, -2 when it is longer than ULK_UPLOAD_MAX_VALUE_BYTES. */
+static int sc_value(src_t *s)
+{
+    sc_ws(s);
+    s->mark = s->pos;
+    int depth = 0, in_str = 0, esc = 0;
+    for (;;) {
+        if (s->pos - s->mark > ULK_UPLOAD_MAX_VALUE_BYTES) return -2;
+        int c;
+        if (s->pos == s->end) { /* keep buf[mark..] while reading on */
+            if (!src_more(s)) return (!depth && !in_str && s->pos > s->mark) ? 0 : -1;
+        }
+        c = (unsigned char)s->buf[s->pos];
+        if (in_str) {
+            s->pos++;
+            if (esc) esc = 0;
+            else if (c == '\\') esc = 1;
+            else if (c == '"') { in_str = 0; if (!depth) return 0; }
+            continue;
+        }
+        if (c == '"') { if (!depth && s->pos > s->mark) return 0; in_str = 1; s->pos++; continue; }
+        if (c == '{' || c == '[') { if (!depth && s->pos > s->mark) return 0; depth++; s->pos++; continue; }
+        if (c == '}' || c == ']') {
+            if (!depth) return s->pos > s->mark ? 0 : -1;
+            s->pos++;
+            if (!--depth) return 0;
+            continue;
+        }
+        if (!depth && (c == ',' || c == ':' || sc_is_ws(c))) return s->pos > s->mark ? 0 : -1;
+        s->pos++;
+    }
+}
+
+/* cJSON of the value just scanned (whole extent, nothing after it); NULL when not JSON. */
+static cJSON *sc_parse(src_t *s)
+{
+    const char *end = NULL;
+    cJSON *v = cJSON_ParseWithLengthOpts(s->buf + s->mark, s->pos - s->mark, &end, 0);
+    if (v && end != s->buf + s->pos) { cJSON_Delete(v); v = NULL; }
+    return v;
+}
+
+/* ------------------------------------------------------------------ reader */
+
+/* What the reader builds as the commands pass by. */
+typedef struct {
+    rd_t *r;
+    ulk_upload *u;
+    unsigned flags;
+    size_t n_full_want;          /* lean: commands kept in full */
+    size_t cap_full, cap_lean, cap_units, cap_octets;
+    size_t unit_octets;          /* words or CLTUs so far */
+    uint64_t patterns;           /* filler units + unit bits so far */
+    uint16_t *next_seq;          /* ccsds-tc: next packet count per APID */
+    int prev_line;
+    int head_done;               /* format, version, dictionary, source and link checked */
+    ulk_upload_cmd scratch;      /* lean: the command being read */
+} build_t;
+
+static int grow(void **p, size_t *cap, size_t need, size_t elem)
+{
+    if (need <= *cap) return 0;
+    size_t nc = *cap ? *cap : 1024;
+    while (nc < need) nc *= 2;
+    void *np = ulk_realloc(*p, nc * elem);
+    if (!np) return -1;
+    *p = np;
+    *cap = nc;
+    return 0;
+}
+
+/* One command, checked, into the upload (full, or lean: its idles and unit bytes). */
+static int take_cmd(build_t *b, const cJSON *cj)
+{
+    rd_t *r = b->r;
+    ulk_upload *u = b->u;
+    const ulk_link *l = &u->link;
+    const int tc = l->profile == ULK_PROFILE_CCSDS_TC;
+    size_t idx = u->n_cmds;
+    char path[64];
+    snprintf(path, sizeof path, "commands[%zu]", idx);
+    if (idx >= ULK_UPLOAD_MAX_CMDS)
+        return rfail(r, ULK_ELIMIT, "commands",
+                     "more than %u commands (the limit that keeps ulk modulate under 64 MB)", ULK_UPLOAD_MAX_CMDS);
+    ulk_upload_lean *z = u->lean;
+    int full = !z || idx < b->n_full_want;
+    ulk_upload_cmd *c = &b->scratch;
+    if (full) {
+        if (grow((void **)&u->cmds, &b->cap_full, ulk_upload_n_full(u) + 1, sizeof *u->cmds))
+            return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+        c = &u->cmds[ulk_upload_n_full(u)];
+    }
+    memset(c, 0, sizeof *c);
+    int rc = read_cmd(r, cj, idx, b->prev_line, l, c);
+    if (full && (c->block_ || c->cltu || rc == 0)) { /* counted, so that destroy frees its parts */
+        if (z) z->n_full++;
+        else u->n_cmds++;
+    }
+    if (rc) { if (!full) cmd_free_parts(c); return rc; }
+    b->prev_line = c->line;
+    uint64_t ub = ulk_profile_ops_for(l->profile)->unit_bits(l, c);
+    size_t octets = tc ? c->n_cltu : (size_t)(l->word_bits + 7) / 8;
+    if (tc) {
+        /* packet counts per APID from 0 and N(S) from first_sequence, as the compiler numbers
+         * them (ccsds-tc-profile.md section 2): a reordered or spliced upload is refused */
+        const ulk_tc_params *t = &l->tc;
+        uint8_t ns = t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? (uint8_t)((t->first_sequence + idx) & 0xFF) : 0;
+        if (c->seq_count != b->next_seq[c->system_addr])
+            rc = rfail(r, ULK_EPARSE, path, "'sequence_count' %u is not %u, the next count of APID 0x%X", c->seq_count,
+                       b->next_seq[c->system_addr], c->system_addr);
+        else if (c->frame_seq != ns)
+            rc = rfail(r, ULK_EPARSE, path, "'frame_sequence' %u is not %u, the N(S) of frame %zu", c->frame_seq, ns, idx);
+        b->next_seq[c->system_addr] = (uint16_t)((b->next_seq[c->system_addr] + 1u) & ULK_SPP_MAX_SEQ_COUNT);
+    }
+    if (!rc && b->unit_octets + octets > ULK_UPLOAD_MAX_UNIT_OCTETS)
+        rc = rfail(r, ULK_ELIMIT, path,
+                   "the %s of the upload exceed %zu octets (the limit that keeps ulk modulate under 64 MB)",
+                   tc ? "CLTUs" : "words", ULK_UPLOAD_MAX_UNIT_OCTETS);
+    if (!rc && z) {
+        if (grow((void **)&z->idles, &b->cap_lean, idx + 1, sizeof *z->idles) ||
+            (tc && grow((void **)&z->unit_off, &b->cap_units, idx + 2, sizeof *z->unit_off)) ||
+            grow((void **)&z->units, &b->cap_octets, b->unit_octets + octets, 1))
+            rc = rfail(r, ULK_ENOMEM, NULL, "out of memory");
+    }
+    if (!rc && z) {
+        z->idles[idx] = c->idles_before;
+        uint8_t *dst = z->units + b->unit_octets;
+        if (tc) {
+            if (idx == 0) z->unit_off[0] = 0;
+            z->unit_off[idx + 1] = (uint32_t)(b->unit_octets + octets);
+            memcpy(dst, c->cltu, octets);
+        } else {
+            memset(dst, 0, octets);
+            for (int i = 0; i < l->word_bits; i++)
+                if (c->word.bits[i]) dst[i >> 3] |= (uint8_t)(0x80u >> (i & 7));
+        }
+    }
+    if (!rc) {
+        b->unit_octets += octets;
+        b->patterns += c->idles_before + ub;
+        if (z) u->n_cmds++;
+    }
+    if (!full) cmd_free_parts(c);
     return rc;
 }
 
-int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag)
+static const char *const root_keys[] = {"format", "version", "dictionary", "source", "link", "commands",
+                                        "wait_after_s", "idles_after", "totals", "digest"};
+
+/* Format, version, the members so far, dictionary, source and link: what must be known
+ * before the commands (the writer puts them first). final: at the end of the document. */
+static int check_head(build_t *b, const cJSON *root, int final)
 {
-    *out = NULL;
-    rd_t r = {name ? name : "<upload>", diag, 0};
-    if (len > ULK_UPLOAD_MAX_BYTES) return rfail(&r, ULK_ELIMIT, NULL, "file is larger than the limit of %zu bytes", ULK_UPLOAD_MAX_BYTES);
-    if (len < 2 || text[0] != '{' || memmem(text, len < 200 ? len : 200, "\"ulk-upload\"", 12) == NULL)
-        return rfail(&r, ULK_EFORMAT, NULL, "not an ulk upload file (no \"format\": \"ulk-upload\" at its start)");
-    /* integrity first: everything before the digest line, as written */
-    if (len < DIGEST_LINE_LEN || memcmp(text + len - (sizeof DIGEST_TAIL - 1), DIGEST_TAIL, sizeof DIGEST_TAIL - 1) ||
-        memcmp(text + len - DIGEST_LINE_LEN, DIGEST_HEAD, sizeof DIGEST_HEAD - 1))
-        return rfail(&r, ULK_EINTEGRITY, NULL,
-                     "the file does not end with its digest line; it was changed or cut short after it was written");
-    size_t covered = len - DIGEST_LINE_LEN;
-    char want[65], got[65];
-    memcpy(want, text + covered + sizeof DIGEST_HEAD - 1, 64);
-    want[64] = 0;
-    sha256_hex(text, covered, got);
-    if (strcmp(want, got))
-        return rfail(&r, ULK_EINTEGRITY, NULL,
-                     "SHA-256 digest mismatch (recorded %.12s..., computed %.12s...): the file was changed after it "
-                     "was written; recompile it from its command list",
-                     want, got);
-    if (memchr(text, 0, len)) return rfail(&r, ULK_EPARSE, NULL, "NUL byte in the file");
-    cJSON *root = cJSON_ParseWithLength(text, len);
-    if (!root) return rfail(&r, ULK_EPARSE, NULL, "not valid JSON");
-    ulk_upload *u = ulk_calloc(1, sizeof *u);
-    if (!u) { cJSON_Delete(root); return rfail(&r, ULK_ENOMEM, NULL, "out of memory"); }
-    static const char *const rk[] = {"format", "version", "dictionary", "source", "link", "commands",
-                                     "wait_after_s", "idles_after", "totals", "digest"};
+    rd_t *r = b->r;
+    ulk_upload *u = b->u;
+    b->head_done = 1;
     const cJSON *f = member(root, "format");
-    if (!cJSON_IsString(f) || strcmp(f->valuestring, "ulk-upload")) { rfail(&r, ULK_EFORMAT, "format", "not an ulk upload file"); goto out; }
+    if (!cJSON_IsString(f) || strcmp(f->valuestring, "ulk-upload")) return rfail(r, ULK_EFORMAT, "format", "not an ulk upload file");
     const cJSON *ver = member(root, "version");
-    if (!cJSON_IsNumber(ver) || ver->valuedouble != ULK_UPLOAD_FORMAT_VERSION) {
-        rfail(&r, ULK_EFORMAT, "version", "upload format version %g is not supported (this build reads version %d)",
-              cJSON_IsNumber(ver) ? ver->valuedouble : -1.0, ULK_UPLOAD_FORMAT_VERSION);
-        goto out;
-    }
+    if (!cJSON_IsNumber(ver) || ver->valuedouble != ULK_UPLOAD_FORMAT_VERSION)
+        return rfail(r, ULK_EFORMAT, "version", "upload format version %g is not supported (this build reads version %d)",
+                     cJSON_IsNumber(ver) ? ver->valuedouble : -1.0, ULK_UPLOAD_FORMAT_VERSION);
     u->format_version = ULK_UPLOAD_FORMAT_VERSION;
-    if (want_keys(&r, root, "", rk, 10)) goto out;
+    if (want_keys_p(r, root, "", root_keys, 10, !final)) return r->status;
     const cJSON *dj = member(root, "dictionary");
+    if (!dj) return rfail(r, ULK_EPARSE, "", "'dictionary' must come before 'commands'");
     static const char *const dk[] = {"name", "version", "sha256"};
-    if (want_keys(&r, dj, "dictionary", dk, 3)) goto out;
-    const char *dn = get_str(&r, dj, "name", "dictionary", 256), *dv = dn ? get_str(&r, dj, "version", "dictionary", 256) : NULL;
-    const char *dh = dv ? get_str(&r, dj, "sha256", "dictionary", 64) : NULL;
-    if (!dh) goto out;
-    if (strlen(dh) != 64 && strlen(dh) != 0) { rfail(&r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits"); goto out; }
+    if (want_keys(r, dj, "dictionary", dk, 3)) return r->status;
+    const char *dn = get_str(r, dj, "name", "dictionary", 256), *dv = dn ? get_str(r, dj, "version", "dictionary", 256) : NULL;
+    const char *dh = dv ? get_str(r, dj, "sha256", "dictionary", 64) : NULL;
+    if (!dh) return r->status;
+    if (strlen(dh) != 64 && strlen(dh) != 0) return rfail(r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits");
     for (const char *q = dh; *q; q++)
-        if (!isxdigit((unsigned char)*q)) { rfail(&r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits"); goto out; }
+        if (!isxdigit((unsigned char)*q)) return rfail(r, ULK_EPARSE, "dictionary.sha256", "expected 64 hex digits");
     u->dict_name = ulk_strdup(dn);
     u->dict_version = ulk_strdup(dv);
     memcpy(u->dict_sha256, dh, strlen(dh) + 1);
-    const char *src = get_str(&r, root, "source", "", 4096);
-    if (!src) goto out;
+    if (!member(root, "source")) return rfail(r, ULK_EPARSE, "", "'source' must come before 'commands'");
+    const char *src = get_str(r, root, "source", "", 4096);
+    if (!src) return r->status;
     u->source = ulk_strdup(src);
-    if (!u->dict_name || !u->dict_version || !u->source) { rfail(&r, ULK_ENOMEM, NULL, "out of memory"); goto out; }
-    if (read_link(&r, member(root, "link"), &u->link)) goto out;
-    const cJSON *cmds = member(root, "commands");
-    if (!cJSON_IsArray(cmds)) { rfail(&r, ULK_EPARSE, "commands", "expected an array"); goto out; }
-    int nc = cJSON_GetArraySize(cmds);
-    if (nc < 1) { rfail(&r, ULK_EPARSE, "commands", "an upload holds at least one command"); goto out; }
-    if ((unsigned)nc > ULK_UPLOAD_MAX_CMDS) { rfail(&r, ULK_ELIMIT, "commands", "more than %u commands", ULK_UPLOAD_MAX_CMDS); goto out; }
-    u->cmds = ulk_calloc((size_t)nc, sizeof *u->cmds);
-    if (!u->cmds) { rfail(&r, ULK_ENOMEM, NULL, "out of memory"); goto out; }
-    const cJSON *cj;
-    cJSON_ArrayForEach(cj, cmds) {
-        ulk_upload_cmd *c = &u->cmds[u->n_cmds];
-        int rc = read_cmd(&r, cj, u->n_cmds, &u->link, c);
-        if (c->block_ || c->cltu || rc == 0) u->n_cmds++;
-        if (rc) goto out;
+    if (!u->dict_name || !u->dict_version || !u->source) return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+    const cJSON *lj = member(root, "link");
+    if (!lj) return rfail(r, ULK_EPARSE, "", "'link' must come before 'commands'");
+    if (read_link(r, lj, &u->link)) return r->status;
+    if (u->link.profile == ULK_PROFILE_CCSDS_TC) {
+        b->next_seq = ulk_calloc(ULK_SPP_MAX_APID + 1, sizeof *b->next_seq);
+        if (!b->next_seq) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
     }
-    if (u->link.profile == ULK_PROFILE_CCSDS_TC && check_tc_counts(&r, u)) goto out;
-    if (get_ratio(&r, root, "wait_after_s", "", 1, &u->wait_after)) goto out;
-    if (u->wait_after.num > 86400 * u->wait_after.den) { rfail(&r, ULK_ELIMIT, "wait_after_s", "beyond the limit of 86400 s"); goto out; }
-    u->wait_after_s = ulk_ratio_to_double(u->wait_after);
-    if (get_int(&r, root, "idles_after", "", (double)ulk_profile_ops_for(u->link.profile)->gap_units(&u->link, ULK_GAP_LAST),
-                (double)ULK_UPLOAD_MAX_IDLES, &u->idles_after, NULL))
-        goto out;
-    {
-        const cJSON *tj = member(root, "totals");
-        static const char *const tk[] = {"words", "subbits", "duration_s"};
-        if (want_keys(&r, tj, "totals", tk, 3)) goto out;
-        uint64_t words, subbits;
-        if (get_int(&r, tj, "words", "totals", 0, 1e15, &words, NULL)) goto out;
-        if (get_int(&r, tj, "subbits", "totals", 0, 9e15, &subbits, NULL)) goto out;
-        uint64_t pat = total_patterns(u);
-        if (words != u->n_cmds || subbits != pat * (uint64_t)u->link.n_subbits) {
-            rfail(&r, ULK_EPARSE, "totals", "the totals do not match the commands");
-            goto out;
+    if (b->flags & ULK_UPLOAD_LEAN) {
+        u->lean = ulk_calloc(1, sizeof *u->lean);
+        if (!u->lean) return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+        u->lean->unit_stride = (size_t)(u->link.word_bits + 7) / 8;
+    }
+    return 0;
+}
+
+/* The "commands" array, one element at a time. */
+static int read_commands(build_t *b, src_t *s)
+{
+    rd_t *r = b->r;
+    sc_ws(s);
+    if (sc_peek(s) != '[') return rfail(r, ULK_EPARSE, "commands", "expected an array");
+    s->pos++;
+    sc_ws(s);
+    if (sc_peek(s) == ']') {
+        s->pos++;
+    } else {
+        for (;;) {
+            int k = sc_value(s);
+            char path[64];
+            snprintf(path, sizeof path, "commands[%zu]", b->u->n_cmds);
+            if (k == -2)
+                return rfail(r, ULK_ELIMIT, path, "longer than %zu bytes", (size_t)ULK_UPLOAD_MAX_VALUE_BYTES);
+            cJSON *cj = k ? NULL : sc_parse(s);
+            if (!cj) return rfail(r, ULK_EPARSE, path, "not valid JSON");
+            int rc = take_cmd(b, cj);
+            cJSON_Delete(cj);
+            if (rc) return rc;
+            sc_ws(s);
+            int c = sc_peek(s);
+            s->pos += c >= 0;
+            if (c == ']') break;
+            if (c != ',') return rfail(r, ULK_EPARSE, "commands", "not valid JSON (expected ',' or ']' after %s)", path);
         }
     }
-out:
+    if (b->u->n_cmds < 1) return rfail(r, ULK_EPARSE, "commands", "an upload holds at least one command");
+    return 0;
+}
+
+/* The document: '{', members (commands streamed, the others parsed alone and kept in root),
+ * '}', nothing after. */
+static int read_doc(build_t *b, src_t *s, cJSON *root)
+{
+    rd_t *r = b->r;
+    ulk_upload *u = b->u;
+    sc_ws(s);
+    if (sc_peek(s) != '{') return rfail(r, ULK_EPARSE, NULL, "not valid JSON");
+    s->pos++;
+    int seen_commands = 0;
+    for (int first = 1;; first = 0) {
+        sc_ws(s);
+        if (first && sc_peek(s) == '}') { s->pos++; break; }
+        int k = sc_value(s);
+        cJSON *key = k ? NULL : sc_parse(s);
+        if (!cJSON_IsString(key)) { cJSON_Delete(key); return rfail(r, ULK_EPARSE, NULL, "not valid JSON (expected a member name)"); }
+        sc_ws(s);
+        if (sc_peek(s) != ':') { cJSON_Delete(key); return rfail(r, ULK_EPARSE, NULL, "not valid JSON (expected ':')"); }
+        s->pos++;
+        cJSON *v;
+        if (!strcmp(key->valuestring, "commands")) {
+            if (seen_commands++) { cJSON_Delete(key); return rfail(r, ULK_EPARSE, "", "member 'commands' appears twice"); }
+            if (check_head(b, root, 0) || read_commands(b, s)) { cJSON_Delete(key); return r->status; }
+            v = cJSON_CreateNull(); /* in its place, for the member checks */
+        } else {
+            k = sc_value(s);
+            if (k == -2) { cJSON_Delete(key); return rfail(r, ULK_ELIMIT, NULL, "a member is longer than %zu bytes", (size_t)ULK_UPLOAD_MAX_VALUE_BYTES); }
+            v = k ? NULL : sc_parse(s);
+            if (!v) { cJSON_Delete(key); return rfail(r, ULK_EPARSE, NULL, "not valid JSON"); }
+        }
+        if (!v || !cJSON_AddItemToObject(root, key->valuestring, v)) {
+            cJSON_Delete(v);
+            cJSON_Delete(key);
+            return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+        }
+        cJSON_Delete(key);
+        sc_ws(s);
+        int c = sc_peek(s);
+        s->pos += c >= 0;
+        if (c == '}') break;
+        if (c != ',') return rfail(r, ULK_EPARSE, NULL, "not valid JSON (expected ',' or '}')");
+    }
+    sc_ws(s);
+    if (sc_peek(s) >= 0) return rfail(r, ULK_EPARSE, NULL, "not valid JSON (text after the end)");
+    if (!b->head_done && check_head(b, root, 1)) return r->status;
+    if (want_keys(r, root, "", root_keys, 10)) return r->status;
+    if (get_ratio(r, root, "wait_after_s", "", 1, &u->wait_after)) return r->status;
+    if (u->wait_after.num > 86400 * u->wait_after.den) return rfail(r, ULK_ELIMIT, "wait_after_s", "beyond the limit of 86400 s");
+    u->wait_after_s = ulk_ratio_to_double(u->wait_after);
+    if (get_int(r, root, "idles_after", "", (double)ulk_profile_ops_for(u->link.profile)->gap_units(&u->link, ULK_GAP_LAST),
+                (double)ULK_UPLOAD_MAX_IDLES, &u->idles_after, NULL))
+        return r->status;
+    const cJSON *tj = member(root, "totals");
+    static const char *const tk[] = {"words", "subbits", "duration_s"};
+    if (want_keys(r, tj, "totals", tk, 3)) return r->status;
+    uint64_t words, subbits;
+    if (get_int(r, tj, "words", "totals", 0, 1e15, &words, NULL)) return r->status;
+    if (get_int(r, tj, "subbits", "totals", 0, 9e15, &subbits, NULL)) return r->status;
+    uint64_t pat = b->patterns + u->idles_after;
+    if (words != u->n_cmds || subbits != pat * (uint64_t)u->link.n_subbits)
+        return rfail(r, ULK_EPARSE, "totals", "the totals do not match the commands");
+    if (u->lean) u->lean->n_subbits = pat * (uint64_t)u->link.n_subbits;
+    return 0;
+}
+
+/* The whole reader over one source (file or memory). */
+static int read_src(const char *name, src_t *s, unsigned flags, size_t n_full, ulk_upload **out, ulk_diag *diag)
+{
+    *out = NULL;
+    rd_t r = {name ? name : "<upload>", diag, 0, 0, "", ""};
+    s->md = EVP_MD_CTX_new();
+    if (!s->md || EVP_DigestInit_ex(s->md, EVP_sha256(), NULL) != 1) {
+        EVP_MD_CTX_free(s->md);
+        return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", r.name);
+    }
+    ulk_upload *u = NULL;
+    cJSON *root = NULL;
+    /* the start: '{' and the format name in the first 200 bytes */
+    while (s->end < 200 && src_more(s)) {}
+    if (s->too_big) { rfail(&r, ULK_ELIMIT, NULL, "file is larger than the limit of %zu bytes", ULK_UPLOAD_MAX_BYTES); goto fin; }
+    if (s->oom) { rfail(&r, ULK_ENOMEM, NULL, "out of memory"); goto fin; }
+    if (s->ioerr) { rfail(&r, ULK_EIO, NULL, "read error"); goto fin; }
+    if (s->end < 2 || s->buf[0] != '{' || memmem(s->buf, s->end < 200 ? s->end : 200, "\"ulk-upload\"", 12) == NULL) {
+        rfail(&r, ULK_EFORMAT, NULL, "not an ulk upload file (no \"format\": \"ulk-upload\" at its start)");
+        goto fin;
+    }
+    build_t b;
+    memset(&b, 0, sizeof b);
+    b.r = &r;
+    b.flags = flags;
+    b.n_full_want = n_full;
+    u = b.u = ulk_calloc(1, sizeof *u);
+    root = cJSON_CreateObject();
+    if (!u || !root) rfail(&r, ULK_ENOMEM, NULL, "out of memory");
+    else read_doc(&b, s, root);
+    ulk_free(b.next_seq);
+    /* the rest of the file, to its digest line: a changed file is reported as changed */
+    if (r.status != ULK_ENOMEM) {
+        s->mark = s->pos = s->end;
+        while (src_more(s)) s->mark = s->pos = s->end;
+    }
+    if (s->oom) {
+        r.status = 0;
+        rfail(&r, ULK_ENOMEM, NULL, "out of memory");
+    } else if (s->too_big) {
+        r.status = 0;
+        rfail(&r, ULK_ELIMIT, NULL, "file is larger than the limit of %zu bytes", ULK_UPLOAD_MAX_BYTES);
+    } else if (s->ioerr && r.status != ULK_ENOMEM) {
+        r.status = 0;
+        rfail(&r, ULK_EIO, NULL, "read error");
+    } else if (r.status != ULK_ENOMEM) {
+        unsigned char md[EVP_MAX_MD_SIZE];
+        unsigned int mdlen = 0;
+        char got[65], want[65];
+        if (s->n_hold < DIGEST_LINE_LEN || memcmp(s->hold + DIGEST_LINE_LEN - (sizeof DIGEST_TAIL - 1), DIGEST_TAIL, sizeof DIGEST_TAIL - 1) ||
+            memcmp(s->hold, DIGEST_HEAD, sizeof DIGEST_HEAD - 1)) {
+            r.status = 0;
+            rfail(&r, ULK_EINTEGRITY, NULL,
+                  "the file does not end with its digest line; it was changed or cut short after it was written");
+        } else if (s->md_bad || EVP_DigestFinal_ex(s->md, md, &mdlen) != 1) {
+            r.status = 0;
+            rfail(&r, ULK_ENOMEM, NULL, "out of memory");
+        } else {
+            for (unsigned i = 0; i < 32; i++) snprintf(got + 2 * i, 3, "%02x", md[i]);
+            memcpy(want, s->hold + sizeof DIGEST_HEAD - 1, 64);
+            want[64] = 0;
+            if (strcmp(want, got)) {
+                r.status = 0;
+                rfail(&r, ULK_EINTEGRITY, NULL,
+                      "SHA-256 digest mismatch (recorded %.12s..., computed %.12s...): the file was changed after it "
+                      "was written; recompile it from its command list",
+                      want, got);
+            } else if (s->has_nul) {
+                r.status = 0;
+                rfail(&r, ULK_EPARSE, NULL, "NUL byte in the file");
+            }
+        }
+    }
+fin:
     cJSON_Delete(root);
-    if (r.status) { ulk_upload_destroy(u); return r.status; }
+    EVP_MD_CTX_free(s->md);
+    ulk_free(s->buf);
+    if (r.status) {
+        ulk_upload_destroy(u);
+        return rd_emit(&r);
+    }
     *out = u;
     return 0;
 }
 
-int ulk_upload_read(const char *path, ulk_upload **out, ulk_diag *diag)
+int ulk_upload_read_mem_opts(const char *name, const char *text, size_t len, unsigned flags, size_t n_full,
+                             ulk_upload **out, ulk_diag *diag)
+{
+    src_t s;
+    memset(&s, 0, sizeof s);
+    s.mem = text;
+    s.mem_len = len;
+    return read_src(name, &s, flags, n_full, out, diag);
+}
+
+int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag)
+{
+    return ulk_upload_read_mem_opts(name, text, len, 0, 0, out, diag);
+}
+
+int ulk_upload_read_opts(const char *path, unsigned flags, size_t n_full, ulk_upload **out, ulk_diag *diag)
 {
     *out = NULL;
-    char *buf;
-    size_t len;
-    int rc = ulk_read_file(path, ULK_UPLOAD_MAX_BYTES, &buf, &len, diag);
-    if (rc < 0) return rc;
-    rc = ulk_upload_read_mem(path, buf, len, out, diag);
-    ulk_free(buf);
+    src_t s;
+    memset(&s, 0, sizeof s);
+    s.fp = fopen(path, "rb");
+    if (!s.fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
+    int rc = read_src(path, &s, flags, n_full, out, diag);
+    fclose(s.fp);
     return rc;
+}
+
+int ulk_upload_read(const char *path, ulk_upload **out, ulk_diag *diag)
+{
+    return ulk_upload_read_opts(path, 0, 0, out, diag);
+}
+
+/* ------------------------------------------------------------------ accessors (either form) */
+
+size_t ulk_upload_n_full(const ulk_upload *u) { return u->lean ? u->lean->n_full : u->n_cmds; }
+
+uint64_t ulk_upload_idles_before(const ulk_upload *u, size_t i)
+{
+    return u->lean ? u->lean->idles[i] : u->cmds[i].idles_before;
+}
+
+uint64_t ulk_upload_unit_bits(const ulk_upload *u, size_t i)
+{
+    const ulk_upload_lean *z = u->lean;
+    if (!z) return ulk_profile_ops_for(u->link.profile)->unit_bits(&u->link, &u->cmds[i]);
+    if (z->unit_off) return 8u * (uint64_t)(z->unit_off[i + 1] - z->unit_off[i]);
+    return (uint64_t)u->link.word_bits;
+}
+
+int ulk_upload_unit_bit(const ulk_upload *u, size_t i, uint64_t b)
+{
+    const ulk_upload_lean *z = u->lean;
+    if (!z) return ulk_profile_ops_for(u->link.profile)->unit_bit(&u->link, &u->cmds[i], b);
+    const uint8_t *p = z->units + (z->unit_off ? z->unit_off[i] : i * z->unit_stride);
+    return (p[b >> 3] >> (7 - (b & 7))) & 1;
 }
 
 /* ------------------------------------------------------------------ back to a command list */

@@ -60,12 +60,32 @@ typedef struct ulk_upload {
     double wait_after_s;
     uint64_t idles_after;     /* postamble */
     ulk_ratio wait_after;     /* exact seconds of the waits after the last command */
+    struct ulk_upload_lean *lean; /* NULL for a full upload; see ulk_upload_read_opts() */
 } ulk_upload;
 
-/* Limits that ulk_upload_read enforces (and the compiler never exceeds). */
+/* The lean form of an upload (ULK_UPLOAD_LEAN): only what the stream (modulator, timing
+ * table) needs, in compact arrays. Then cmds holds the first n_full commands only (in full,
+ * for annotations) while n_cmds counts them all; read commands through the
+ * ulk_upload_idles_before() / ulk_upload_unit_*() accessors, which work on both forms. */
+typedef struct ulk_upload_lean {
+    size_t n_full;          /* commands also held in full in ulk_upload.cmds (the first ones) */
+    uint64_t *idles;        /* idles_before of every command, n_cmds entries */
+    uint8_t *units;         /* every command's unit (word or CLTU) packed MSB first, back to back */
+    uint32_t *unit_off;     /* ccsds-tc: octet offset of command i's CLTU, n_cmds + 1 entries;
+                               NULL for the sub-bit profile (fixed stride ceil(W / 8)) */
+    size_t unit_stride;     /* sub-bit: ceil(W / 8) octets a word */
+    uint64_t n_subbits;     /* total sub-bits (channel bits) of the stream */
+} ulk_upload_lean;
+
+/* Limits that ulk_upload_read enforces (and the compiler and ulk_upload_write never exceed).
+ * MAX_CMDS and MAX_UNIT_OCTETS are what keeps `ulk modulate` (the lean form: about 8 bytes a
+ * command plus its word or CLTU octets) under 64 MB resident for every accepted upload
+ * (docs/upload-format.md, "Reader and memory"). */
 #define ULK_UPLOAD_FORMAT_VERSION 1
 #define ULK_UPLOAD_MAX_BYTES ((size_t)1 << 30)
-#define ULK_UPLOAD_MAX_CMDS 10000000u
+#define ULK_UPLOAD_MAX_CMDS 1000000u
+#define ULK_UPLOAD_MAX_UNIT_OCTETS ((size_t)24 << 20) /* words (ceil(W/8) octets each) or CLTUs, all commands */
+#define ULK_UPLOAD_MAX_VALUE_BYTES ((size_t)256 << 10) /* one command (or header member) as text */
 #define ULK_UPLOAD_MAX_IDLES 1000000000000ull   /* idle patterns before one word or after the last */
 
 /* Frees u and everything it holds; NULL does nothing. */
@@ -79,7 +99,9 @@ double ulk_upload_duration_s(const ulk_upload *u);
 uint64_t ulk_upload_n_subbits(const ulk_upload *u);
 
 /* Writes u to path atomically (temporary file in the same folder, renamed on success).
- * Returns 0, or ULK_EIO with the reason in diag; nothing is left behind on failure. */
+ * Returns 0; ULK_ELIMIT when u is beyond the reader's limits (more than ULK_UPLOAD_MAX_CMDS
+ * commands or ULK_UPLOAD_MAX_UNIT_OCTETS of words/CLTUs: the modulator could not take it);
+ * ULK_EIO with the reason in diag; nothing is left behind on failure. u must be full. */
 int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag);
 /* Reads and checks an upload file: format name and version (ULK_EFORMAT), the integrity
  * digest (ULK_EINTEGRITY: "the file was changed after it was written"), then every field
@@ -90,6 +112,26 @@ int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag);
 int ulk_upload_read(const char *path, ulk_upload **out, ulk_diag *diag);
 /* The same from memory; name is used in messages. */
 int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_upload **out, ulk_diag *diag);
+
+/* Reader options (flags of ulk_upload_read_opts). */
+#define ULK_UPLOAD_LEAN 1u /* keep the lean form (ulk_upload_lean) instead of every command in full */
+/* ulk_upload_read with options: the same checks, byte for byte, whatever the flags. With
+ * ULK_UPLOAD_LEAN the upload keeps every command's idles and unit (word or CLTU) compactly
+ * and only the first n_full commands in full in cmds (mnemonic, line, arguments ...); such
+ * an upload serves ulk_stream_*, ulk_timing_*, ulk_mod_*, ulk_upload_n_subbits and the
+ * accessors below, not inspect/verify/print/write. Without it, n_full is ignored. */
+int ulk_upload_read_opts(const char *path, unsigned flags, size_t n_full, ulk_upload **out, ulk_diag *diag);
+int ulk_upload_read_mem_opts(const char *name, const char *text, size_t len, unsigned flags, size_t n_full,
+                             ulk_upload **out, ulk_diag *diag);
+
+/* Commands of u held in full in u->cmds: n_cmds, or the lean form's n_full. */
+size_t ulk_upload_n_full(const ulk_upload *u);
+/* Idle patterns (ccsds-tc: idle bits) before command i (0-based, i < n_cmds), either form. */
+uint64_t ulk_upload_idles_before(const ulk_upload *u, size_t i);
+/* Channel bits of command i's unit (W, or 8 x CLTU octets), either form. */
+uint64_t ulk_upload_unit_bits(const ulk_upload *u, size_t i);
+/* Bit b (0 = first sent, b < ulk_upload_unit_bits) of command i's unit, either form. */
+int ulk_upload_unit_bit(const ulk_upload *u, size_t i, uint64_t b);
 
 /* Prints u back as a command list (interfaces.md syntax): waits, each command with its
  * arguments in engineering form, 'confirm' on critical ones. Each command stays on its

@@ -159,7 +159,7 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
     const ulk_link *l = &u->link;
     const ulk_profile_ops *prof = ulk_profile_ops_for(l->profile);
     uint64_t pat = 0; /* patterns before the current point */
-    for (size_t k = 0; k < u->n_cmds && k < MAX_ANNOTATIONS; k++) {
+    for (size_t k = 0; k < ulk_upload_n_full(u) && k < MAX_ANNOTATIONS; k++) {
         pat += u->cmds[k].idles_before;
         uint64_t s0, s1, bits = prof->unit_bits(l, &u->cmds[k]);
         if (ulk_mod_first_sample(l, fs, pat * (uint64_t)l->n_subbits, &s0) < 0 ||
@@ -277,7 +277,9 @@ int cmd_modulate(int argc, char **argv)
     ulk_afile tf;
     int have_tf = 0, code = 0, rc;
 
-    rc = ulk_upload_read(up_path, &up, diag);
+    /* lean: idles and words/CLTUs only, the first MAX_ANNOTATIONS commands in full for the
+     * annotations; what keeps any accepted upload under 64 MB (docs/upload-format.md) */
+    rc = ulk_upload_read_opts(up_path, ULK_UPLOAD_LEAN, MAX_ANNOTATIONS, &up, diag);
     if (rc < 0) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk modulate: upload %s refused; nothing written\n", up_path);
