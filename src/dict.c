@@ -1612,6 +1612,113 @@ static void canonical_link_tc(sbuf *b, const ulk_link *L)
               T->frame.spacecraft_id, T->frame.start_errors, T->frame.virtual_channel);
 }
 
+static void sb_bounds(sbuf *b, const ulk_carrier *c, int ch)
+{
+    sb_puts(b, "\"bounds\":[");
+    sb_double(b, c->bound_lo[ch]);
+    sb_puts(b, ",");
+    sb_double(b, c->bound_hi[ch]);
+    sb_puts(b, "]");
+}
+
+static int int_desc(const void *x, const void *y) { return *(const int *)y - *(const int *)x; }
+
+static int mode_name_cmp(const void *x, const void *y)
+{
+    return strcmp((*(const ulk_carrier_mode *const *)x)->name, (*(const ulk_carrier_mode *const *)y)->name);
+}
+
+/* The carrier object of the canonical form (docs/dictionary.md section 6), keys in byte
+ * order, from the checked model; modes sorted by name (a mapping has no order), the
+ * polynomial's exponents in decreasing order (any order may be written). */
+static void canonical_carrier(sbuf *b, const ulk_carrier *c)
+{
+    int first = 1;
+#define SEP() (first ? (first = 0, "") : ",")
+    sb_puts(b, "{");
+    if (c->has_pt_n0) {
+        sb_printf(b, "%s\"budget\":{\"pt_n0_dbhz\":", SEP());
+        sb_double(b, c->pt_n0_dbhz);
+        sb_puts(b, "}");
+    }
+    if (c->has_data) {
+        sb_printf(b, "%s\"data\":{", SEP());
+        sb_bounds(b, c, ULK_CH_DATA);
+        sb_puts(b, ",\"info_rate\":");
+        sb_ratio(b, c->data_rb);
+        if (c->has_data_need) {
+            sb_puts(b, ",\"required_ebn0_db\":");
+            sb_double(b, c->data_ebn0_req_db);
+        }
+        sb_puts(b, "}");
+    }
+    if (c->has_loop) {
+        sb_printf(b, "%s\"loop\":{\"bandwidth_hz\":", SEP());
+        sb_double(b, c->loop_bw_hz);
+        sb_puts(b, ",\"required_snr_db\":");
+        sb_double(b, c->loop_snr_req_db);
+        sb_puts(b, "}");
+    }
+    sb_printf(b, "%s\"modes\":{", SEP());
+    const ulk_carrier_mode **mo = ulk_malloc((size_t)(c->n_modes + 1) * sizeof *mo);
+    if (!mo) { b->oom = 1; return; }
+    for (int k = 0; k < c->n_modes; k++) mo[k] = &c->modes[k];
+    qsort(mo, (size_t)c->n_modes, sizeof *mo, mode_name_cmp);
+    for (int k = 0; k < c->n_modes; k++) {
+        if (k) sb_puts(b, ",");
+        sb_str(b, mo[k]->name);
+        sb_puts(b, ":{");
+        /* byte order of the channel names: data, ranging, voice */
+        static const ulk_channel order[] = {ULK_CH_DATA, ULK_CH_RANGING, ULK_CH_VOICE};
+        int f2 = 1;
+        for (int t = 0; t < 3; t++) {
+            if (!mo[k]->on[order[t]]) continue;
+            sb_printf(b, "%s\"%s\":", f2 ? "" : ",", ulk_channel_name(order[t]));
+            sb_double(b, mo[k]->m_rad[order[t]]);
+            f2 = 0;
+        }
+        sb_puts(b, "}");
+    }
+    ulk_free(mo);
+    sb_puts(b, "},\"offset_hz\":");
+    sb_ratio(b, c->offset_hz);
+    if (c->has_ranging) {
+        sb_puts(b, ",\"ranging\":{");
+        sb_bounds(b, c, ULK_CH_RANGING);
+        sb_puts(b, ",\"chip_rate\":");
+        sb_ratio(b, c->chip_rate);
+        int ex[ULK_MLS_MAX_DEGREE + 1];
+        int ne = c->n_poly_exps < ULK_MLS_MAX_DEGREE + 1 ? c->n_poly_exps : ULK_MLS_MAX_DEGREE + 1;
+        memcpy(ex, c->poly_exps, (size_t)ne * sizeof *ex);
+        qsort(ex, (size_t)ne, sizeof *ex, int_desc);
+        sb_puts(b, ",\"polynomial\":[");
+        for (int k = 0; k < ne; k++) sb_printf(b, "%s%d", k ? "," : "", ex[k]);
+        sb_puts(b, "]");
+        if (c->has_ranging_need) {
+            sb_puts(b, ",\"required_pn0_dbhz\":");
+            sb_double(b, c->ranging_pn0_req_dbhz);
+        }
+        sb_puts(b, "}");
+    }
+    if (c->has_voice) {
+        sb_puts(b, ",\"voice\":{");
+        sb_bounds(b, c, ULK_CH_VOICE);
+        sb_puts(b, ",\"deviation_hz\":");
+        sb_ratio(b, c->voice_dev_hz);
+        if (c->has_voice_need) {
+            sb_puts(b, ",\"required_pn0_dbhz\":");
+            sb_double(b, c->voice_pn0_req_dbhz);
+        }
+        sb_puts(b, ",\"subcarrier_hz\":");
+        sb_ratio(b, c->voice_fv_hz);
+        sb_puts(b, ",\"tone_hz\":");
+        sb_ratio(b, c->voice_tone_hz);
+        sb_puts(b, "}");
+    }
+    sb_puts(b, "}");
+#undef SEP
+}
+
 int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
 {
     *out = NULL;
@@ -1619,7 +1726,16 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
     if (!d) return ULK_EINVAL;
     sbuf b = {0};
     const ulk_link *L = &d->link;
-    sb_puts(&b, "{\"commands\":[");
+    /* The carrier section, when present, leads ("carrier" < "commands"); without one the
+     * content (and the hash) is what it was before the section existed. */
+    const ulk_carrier *car = ulk_dict_carrier(d);
+    if (car) {
+        sb_puts(&b, "{\"carrier\":");
+        canonical_carrier(&b, car);
+        sb_puts(&b, ",\"commands\":[");
+    } else {
+        sb_puts(&b, "{\"commands\":[");
+    }
     for (int i = 0; i < d->n_commands; i++) {
         const ulk_command *k = &d->commands[i];
         sb_puts(&b, i ? ",{\"arguments\":[" : "{\"arguments\":[");

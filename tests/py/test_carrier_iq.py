@@ -108,7 +108,15 @@ def main():
         with open(d2, "w", encoding="utf-8") as f:
             f.write(inc)
         cf2 = os.path.join(tmp, "full.cf32")
-        rc, out, err = run("modulate", upl, "--carrier", "--mode", "full", "--dict", d2, "-o", cf2, "--rate", fs)
+        # the carrier section is part of the dictionary's hash: the edited dictionary needs
+        # its own upload, and the demo upload is refused with it
+        rc, _, err = run("modulate", upl, "--carrier", "--mode", "full", "--dict", d2, "-o", cf2, "--rate", fs)
+        check(rc == 1 and "compiled with" in err and not os.path.exists(cf2),
+              "carrier edit changes the dictionary hash: upload refused", err)
+        upl2 = os.path.join(tmp, "inc.upl")
+        rc, _, err = run("compile", "--dict", d2, CMDS, "-o", upl2)
+        check(rc == 0, "compile with the edited dictionary", err)
+        rc, out, err = run("modulate", upl2, "--carrier", "--mode", "full", "--dict", d2, "-o", cf2, "--rate", fs)
         check(rc == 0, "modulate --carrier --mode full (incommensurate)", err)
         if rc == 0:
             x2 = read_cf32(cf2)

@@ -142,6 +142,40 @@ def rebuild(src):
             "systems": [{"address": s["address"], "name": s["name"]} for s in src["systems"]]}
 
 
+def rebuild_carrier(src):
+    """The canonical carrier object of docs/dictionary.md section 6, from the YAML tree: every
+    rate as exact text, bounds with their default [0, 1.5], data's info_rate defaulting to
+    the link's bit rate (sub-bit profile), modes as a mapping, exponents in decreasing order."""
+    C = src["carrier"]
+    out = {"modes": {name: dict(ix) for name, ix in C["modes"].items()},
+           "offset_hz": ratio_text(C.get("offset_hz", 0))}
+    if "budget" in C:
+        out["budget"] = {"pt_n0_dbhz": C["budget"]["pt_n0_dbhz"]}
+    if "loop" in C:
+        out["loop"] = {"bandwidth_hz": C["loop"]["bandwidth_hz"], "required_snr_db": C["loop"]["required_snr_db"]}
+    if "data" in C:
+        d = C["data"]
+        o = {"bounds": d.get("bounds", [0, 1.5]), "info_rate": ratio_text(d.get("info_rate", src["link"]["bit_rate"]))}
+        if "required_ebn0_db" in d:
+            o["required_ebn0_db"] = d["required_ebn0_db"]
+        out["data"] = o
+    if "voice" in C:
+        v = C["voice"]
+        o = {"bounds": v.get("bounds", [0, 1.5]), "deviation_hz": ratio_text(v["deviation_hz"]),
+             "subcarrier_hz": ratio_text(v["subcarrier_hz"]), "tone_hz": ratio_text(v["tone_hz"])}
+        if "required_pn0_dbhz" in v:
+            o["required_pn0_dbhz"] = v["required_pn0_dbhz"]
+        out["voice"] = o
+    if "ranging" in C:
+        r = C["ranging"]
+        o = {"bounds": r.get("bounds", [0, 1.5]), "chip_rate": ratio_text(r["chip_rate"]),
+             "polynomial": sorted(r["polynomial"], reverse=True)}
+        if "required_pn0_dbhz" in r:
+            o["required_pn0_dbhz"] = r["required_pn0_dbhz"]
+        out["ranging"] = o
+    return out
+
+
 def numeq(a, b):
     """Structural equality, numbers compared by value (1 == 1.0)."""
     if isinstance(a, dict) and isinstance(b, dict):
@@ -181,6 +215,42 @@ def main():
             a.pop("default", None)
     for part in ("dictionary", "link", "systems", "commands"):
         check(numeq(obj[part], ref[part]), "canonical '%s' differs from the independent rebuild" % part)
+    # The carrier section is part of the content when present (docs/dictionary.md section 6).
+    check("carrier" in src and numeq(obj.get("carrier"), rebuild_carrier(src)),
+          "canonical 'carrier' differs from the independent rebuild")
+    check(set(obj) == {"carrier", "commands", "dictionary", "link", "systems"}, "canonical top-level keys")
+    with tempfile.TemporaryDirectory() as tmp:
+        # Without the section: the content is the one before carriers existed (no key), so
+        # the hash of a dictionary without a carrier section did not move.
+        plain = dict(src)
+        del plain["carrier"]
+        pj = os.path.join(tmp, "plain.json")
+        with open(pj, "w", encoding="utf-8") as f:
+            json.dump(plain, f)
+        rc, out, err = run("--canonical", pj)
+        pobj = json.loads(out.split("\n")[0]) if rc == 0 else {}
+        check(rc == 0 and "carrier" not in pobj and numeq({k: pobj[k] for k in ("dictionary", "link", "systems")},
+                                                           {k: ref[k] for k in ("dictionary", "link", "systems")}),
+              "without a carrier section: no carrier key (exit %d, %s)" % (rc, err))
+        # A carrier edit changes the hash; a reordering of modes and exponents does not.
+        def sha_of(tree, name):
+            path = os.path.join(tmp, name)
+            with open(path, "w", encoding="utf-8") as f:
+                json.dump(tree, f)
+            r, o, e = run("--json", path)
+            return json.loads(o)["dictionaries"][0]["summary"]["sha256"] if r == 0 else None
+        base = sha_of(src, "base.json")
+        check(base == shas[0], "demo as JSON: same hash as the YAML")
+        edited = json.loads(json.dumps(src))
+        edited["carrier"]["modes"]["full"]["voice"] = 0.8
+        check(sha_of(edited, "edited.json") not in (None, base), "a carrier index edit changes the hash")
+        edited = json.loads(json.dumps(src))
+        edited["carrier"]["ranging"]["chip_rate"] = 2001
+        check(sha_of(edited, "chip.json") not in (None, base), "a chip-rate edit changes the hash")
+        shuffled = json.loads(json.dumps(src))
+        shuffled["carrier"]["modes"] = dict(reversed(list(shuffled["carrier"]["modes"].items())))
+        shuffled["carrier"]["ranging"]["polynomial"] = [0, 10, 3]
+        check(sha_of(shuffled, "shuffled.json") == base, "mode order and exponent order do not change the hash")
     # Summary figures against the link section: W, W / R_b, R_s = n R_b, k = f_sc / R_s.
     s = doc["dictionaries"][0]["summary"]
     L = src["link"]
