@@ -45,13 +45,15 @@ char *ulk_strdup(const char *s) { return s ? ulk_strndup(s, strlen(s)) : NULL; }
 
 int ulk_edit_distance(const char *a, const char *b, int cap)
 {
+    /* Optimal-string-alignment distance, case-insensitive: a swap of two neighbouring
+     * letters ("gian" for "gain") counts as one edit, the commonest typing slip. */
     size_t la = strlen(a), lb = strlen(b);
     if (la > 64 || lb > 64) return cap + 1;
-    int prev[66], cur[66];
+    int rows[3][66];
+    int *pp = rows[0], *prev = rows[1], *cur = rows[2];
     for (size_t j = 0; j <= lb; j++) prev[j] = (int)j;
     for (size_t i = 1; i <= la; i++) {
         cur[0] = (int)i;
-        int best = cur[0];
         for (size_t j = 1; j <= lb; j++) {
             char ca = a[i - 1], cb = b[j - 1];
             if (ca >= 'A' && ca <= 'Z') ca = (char)(ca - 'A' + 'a');
@@ -59,11 +61,15 @@ int ulk_edit_distance(const char *a, const char *b, int cap)
             int c = prev[j - 1] + (ca != cb);
             if (prev[j] + 1 < c) c = prev[j] + 1;
             if (cur[j - 1] + 1 < c) c = cur[j - 1] + 1;
+            if (i > 1 && j > 1) {
+                char pa = a[i - 2], pb = b[j - 2];
+                if (pa >= 'A' && pa <= 'Z') pa = (char)(pa - 'A' + 'a');
+                if (pb >= 'A' && pb <= 'Z') pb = (char)(pb - 'A' + 'a');
+                if (ca == pb && pa == cb && ca != cb && pp[j - 2] + 1 < c) c = pp[j - 2] + 1;
+            }
             cur[j] = c;
-            if (c < best) best = c;
         }
-        if (best > cap) return cap + 1;
-        memcpy(prev, cur, sizeof(int) * (lb + 1));
+        int *t = pp; pp = prev; prev = cur; cur = t;
     }
     return prev[lb] > cap ? cap + 1 : prev[lb];
 }

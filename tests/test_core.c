@@ -74,6 +74,11 @@ static void test_suggest(void **st)
     assert_string_equal(ulk_suggest("opcode_bit", c, 5), "opcode_bits");
     assert_string_equal(ulk_suggest("chek", c, 5), "check");
     assert_null(ulk_suggest("banana", c, 5));
+    /* a swap of neighbouring letters is one edit */
+    const char *g[] = {"gain", "mode"};
+    assert_string_equal(ulk_suggest("gian", g, 2), "gain");
+    assert_int_equal(ulk_edit_distance("gian", "gain", 3), 1);
+    assert_int_equal(ulk_edit_distance("kitten", "sitting", 5), 3);
 }
 
 static void test_afile_atomic(void **st)
