@@ -137,3 +137,23 @@ void ulk_diag_print(const ulk_diag *d, FILE *out)
     }
     if (d->lost) fprintf(out, "error: %zu further findings lost (out of memory)\n", d->lost);
 }
+
+/* Stable insertion order within one place; findings without a line sort after those with. */
+void ulk_diag_sort(ulk_diag *d)
+{
+    if (!d) return;
+    for (size_t i = 1; i < d->n; i++) {
+        ulk_finding f = d->v[i];
+        size_t j = i;
+        while (j > 0) {
+            const ulk_finding *p = &d->v[j - 1];
+            const char *fa = p->file ? p->file : "", *fb = f.file ? f.file : "";
+            int c = strcmp(fa, fb);
+            long la = p->line > 0 ? p->line : 0x7fffffffL, lb = f.line > 0 ? f.line : 0x7fffffffL;
+            if (c < 0 || (c == 0 && (la < lb || (la == lb && p->col <= f.col)))) break;
+            d->v[j] = d->v[j - 1];
+            j--;
+        }
+        d->v[j] = f;
+    }
+}

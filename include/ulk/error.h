@@ -83,6 +83,8 @@ const ulk_finding *ulk_diag_first_error(const ulk_diag *d);
 void ulk_diag_print(const ulk_diag *d, FILE *out);
 /* Formats one finding into buf as above (no newline). */
 void ulk_finding_format(const ulk_finding *f, char *buf, size_t len);
+/* Orders the findings by file, line and column (stable), so a list's errors read top down. */
+void ulk_diag_sort(ulk_diag *d);
 /* Drops all findings. */
 void ulk_diag_clear(ulk_diag *d);
 

@@ -75,6 +75,7 @@ int cmd_compile(int argc, char **argv)
         goto done;
     }
     rc = ulk_compile(dict, list, &up, diag);
+    ulk_diag_sort(diag);
     ulk_diag_print(diag, stderr);
     if (rc < 0 || !up) {
         fprintf(stderr, "ulk compile: %zu error%s in %s; no upload written\n", ulk_diag_errors(diag),
