@@ -19,6 +19,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include <cjson/cJSON.h>
 #include <openssl/evp.h>
@@ -860,6 +861,7 @@ typedef struct {
     unsigned char hold[DIGEST_LINE_LEN]; /* the last bytes read, not hashed yet */
     size_t n_hold;
     uint64_t n_read;             /* bytes read so far */
+    uint64_t size_hint;          /* size of a regular file or of mem, else 0 */
     int eof, ioerr, oom, has_nul, too_big, md_bad;
     char *buf;                   /* window: buf[mark..end) kept, buf[pos..end) unread */
     size_t cap, mark, pos, end;
@@ -988,6 +990,9 @@ typedef struct {
     ulk_upload *u;
     unsigned flags;
     size_t n_full_want;          /* lean: commands kept in full */
+    size_t full_bytes;           /* lean: what they take */
+    uint64_t size_hint;          /* file size when known, else 0 */
+    int full_closed;             /* lean: no more commands kept in full */
     size_t cap_full, cap_lean, cap_units, cap_octets;
     size_t unit_octets;          /* words or CLTUs so far */
     uint64_t patterns;           /* filler units + unit bits so far */
@@ -1023,7 +1028,7 @@ static int take_cmd(build_t *b, const cJSON *cj)
         return rfail(r, ULK_ELIMIT, "commands",
                      "more than %u commands (the limit that keeps ulk modulate under 64 MB)", ULK_UPLOAD_MAX_CMDS);
     ulk_upload_lean *z = u->lean;
-    int full = !z || idx < b->n_full_want;
+    int full = !z || (idx < b->n_full_want && !b->full_closed);
     ulk_upload_cmd *c = &b->scratch;
     if (full) {
         if (grow((void **)&u->cmds, &b->cap_full, ulk_upload_n_full(u) + 1, sizeof *u->cmds))
@@ -1038,6 +1043,23 @@ static int take_cmd(build_t *b, const cJSON *cj)
     }
     if (rc) { if (!full) cmd_free_parts(c); return rc; }
     b->prev_line = c->line;
+    if (z && full) {
+        /* the full copies (for annotations) have a budget: a hostile upload of long names
+         * or large frames keeps fewer of them, never more memory */
+        size_t sz = sizeof *c + c->n_cltu + c->n_frame + 64 + strlen(c->mnemonic) + strlen(c->system_name);
+        for (int k = 0; k < c->n_args; k++)
+            sz += sizeof c->args[k] + strlen(c->args[k].name) + strlen(c->args[k].text) +
+                  (c->args[k].units ? strlen(c->args[k].units) + 1 : 0) + 2;
+        b->full_bytes += sz;
+        if (b->full_bytes > ULK_UPLOAD_LEAN_FULL_BYTES) {
+            /* over budget: this one goes back to the lean form only */
+            b->full_closed = 1;
+            z->n_full--;
+            full = 0;
+            b->scratch = *c;
+            c = &b->scratch;
+        }
+    }
     uint64_t ub = ulk_profile_ops_for(l->profile)->unit_bits(l, c);
     size_t octets = tc ? c->n_cltu : (size_t)(l->word_bits + 7) / 8;
     if (tc) {
@@ -1128,9 +1150,24 @@ static int check_head(build_t *b, const cJSON *root, int final)
         if (!b->next_seq) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
     }
     if (b->flags & ULK_UPLOAD_LEAN) {
-        u->lean = ulk_calloc(1, sizeof *u->lean);
-        if (!u->lean) return rfail(r, ULK_ENOMEM, NULL, "out of memory");
-        u->lean->unit_stride = (size_t)(u->link.word_bits + 7) / 8;
+        ulk_upload_lean *z = u->lean = ulk_calloc(1, sizeof *z);
+        if (!z) return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+        z->unit_stride = (size_t)(u->link.word_bits + 7) / 8;
+        if (b->size_hint) {
+            /* reserved once from the file size (a command takes more than 64 bytes of text,
+             * a unit octet at least one): growing by copies would hold old and new arrays at
+             * once; pages never written are not resident */
+            uint64_t nc = b->size_hint / 64 + 2, no = b->size_hint + 16;
+            if (nc > ULK_UPLOAD_MAX_CMDS + 2u) nc = ULK_UPLOAD_MAX_CMDS + 2u;
+            if (no > ULK_UPLOAD_MAX_UNIT_OCTETS) no = ULK_UPLOAD_MAX_UNIT_OCTETS;
+            size_t nf = b->n_full_want < nc ? b->n_full_want : (size_t)nc;
+            if (grow((void **)&z->idles, &b->cap_lean, (size_t)nc, sizeof *z->idles) ||
+                (u->link.profile == ULK_PROFILE_CCSDS_TC &&
+                 grow((void **)&z->unit_off, &b->cap_units, (size_t)nc, sizeof *z->unit_off)) ||
+                grow((void **)&z->units, &b->cap_octets, (size_t)no, 1) ||
+                (nf && grow((void **)&u->cmds, &b->cap_full, nf, sizeof *u->cmds)))
+                return rfail(r, ULK_ENOMEM, NULL, "out of memory");
+        }
     }
     return 0;
 }
@@ -1259,6 +1296,7 @@ static int read_src(const char *name, src_t *s, unsigned flags, size_t n_full, u
     b.r = &r;
     b.flags = flags;
     b.n_full_want = n_full;
+    b.size_hint = s->size_hint;
     u = b.u = ulk_calloc(1, sizeof *u);
     root = cJSON_CreateObject();
     if (!u || !root) rfail(&r, ULK_ENOMEM, NULL, "out of memory");
@@ -1325,6 +1363,7 @@ int ulk_upload_read_mem_opts(const char *name, const char *text, size_t len, uns
     memset(&s, 0, sizeof s);
     s.mem = text;
     s.mem_len = len;
+    s.size_hint = len;
     return read_src(name, &s, flags, n_full, out, diag);
 }
 
@@ -1340,6 +1379,8 @@ int ulk_upload_read_opts(const char *path, unsigned flags, size_t n_full, ulk_up
     memset(&s, 0, sizeof s);
     s.fp = fopen(path, "rb");
     if (!s.fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
+    struct stat st;
+    if (fstat(fileno(s.fp), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0) s.size_hint = (uint64_t)st.st_size;
     int rc = read_src(path, &s, flags, n_full, out, diag);
     fclose(s.fp);
     return rc;

@@ -84,7 +84,8 @@ typedef struct ulk_upload_lean {
 #define ULK_UPLOAD_FORMAT_VERSION 1
 #define ULK_UPLOAD_MAX_BYTES ((size_t)1 << 30)
 #define ULK_UPLOAD_MAX_CMDS 1000000u
-#define ULK_UPLOAD_MAX_UNIT_OCTETS ((size_t)24 << 20) /* words (ceil(W/8) octets each) or CLTUs, all commands */
+#define ULK_UPLOAD_MAX_UNIT_OCTETS ((size_t)16 << 20) /* words (ceil(W/8) octets each) or CLTUs, all commands */
+#define ULK_UPLOAD_LEAN_FULL_BYTES ((size_t)6 << 20)  /* lean: memory for the commands kept in full */
 #define ULK_UPLOAD_MAX_VALUE_BYTES ((size_t)256 << 10) /* one command (or header member) as text */
 #define ULK_UPLOAD_MAX_IDLES 1000000000000ull   /* idle patterns before one word or after the last */
 
@@ -119,7 +120,9 @@ int ulk_upload_read_mem(const char *name, const char *text, size_t len, ulk_uplo
  * ULK_UPLOAD_LEAN the upload keeps every command's idles and unit (word or CLTU) compactly
  * and only the first n_full commands in full in cmds (mnemonic, line, arguments ...); such
  * an upload serves ulk_stream_*, ulk_timing_*, ulk_mod_*, ulk_upload_n_subbits and the
- * accessors below, not inspect/verify/print/write. Without it, n_full is ignored. */
+ * accessors below, not inspect/verify/print/write. The commands kept in full stop at n_full
+ * or when they would take more than ULK_UPLOAD_LEAN_FULL_BYTES, whichever comes first.
+ * Without ULK_UPLOAD_LEAN, n_full is ignored. */
 int ulk_upload_read_opts(const char *path, unsigned flags, size_t n_full, ulk_upload **out, ulk_diag *diag);
 int ulk_upload_read_mem_opts(const char *name, const char *text, size_t len, unsigned flags, size_t n_full,
                              ulk_upload **out, ulk_diag *diag);
