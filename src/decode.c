@@ -25,6 +25,7 @@ const char *ulk_reject_name(ulk_reject_kind k)
     case ULK_REJ_RANGE: return "range";
     case ULK_REJ_PADDING: return "padding";
     case ULK_REJ_LENGTH: return "length";
+    case ULK_REJ_ALIGNMENT: return "alignment";
     }
     return "?";
 }
@@ -141,4 +142,18 @@ int ulk_decoded_format(const ulk_decoded *r, char *buf, size_t len)
     }
     if (r->cmd->critical) n += (size_t)snprintf(n < len ? buf + n : NULL, n < len ? len - n : 0, " confirm");
     return (int)n;
+}
+
+int ulk_decode_demod_word(const ulk_dict *dict, const ulk_demod_word *w, ulk_decoded *r)
+{
+    if (!dict || !w || !r) return ULK_EINVAL;
+    int rc = ulk_decode_word(dict, &w->word, r);
+    if (rc || !w->ambiguous || r->reject == ULK_REJ_LENGTH) return rc;
+    char hex[sizeof r->hex];
+    memcpy(hex, r->hex, sizeof hex);
+    memset(r, 0, sizeof *r);
+    memcpy(r->hex, hex, sizeof hex);
+    return reject(r, ULK_REJ_ALIGNMENT,
+                  "ambiguous alignment: a one-sub-bit shift fits the word nearly as well "
+                  "(bits as read: %s)", hex);
 }

@@ -94,6 +94,9 @@ struct ulk_demod {
     uint64_t min_start;       /* earliest sub-bit a next word may start at */
     double M[ULK_MAX_SUBBITS][2];
     int idle_run, after_word;
+    int locked, lock_a;       /* group alignment locked by an accepted word (see lock_ok) */
+    double lock_pol;
+    uint64_t n_ambiguous;     /* words whose alignment could not be decided */
     int have_last;
     double last_t;
 
@@ -262,10 +265,113 @@ static void best_alignment(const ulk_demod *d, int *a_out, double *pol_out)
     *pol_out = bp ? -1.0 : 1.0;
 }
 
-static void decode_word_at(ulk_demod *d, uint64_t s, double pol)
+/* Soft value of sub-bit j, 0 (no evidence) outside what the ring still holds. */
+static double soft_at(const ulk_demod *d, int64_t j)
+{
+    int64_t lo = d->cnt > d->pcap ? (int64_t)(d->cnt - d->pcap) : 0;
+    if (j < lo || j >= (int64_t)d->cnt) return 0.0;
+    return d->pv[(uint64_t)j % d->pcap];
+}
+
+/* group_corr on any sub-bit index (out-of-range sub-bits count 0), for the alignment test. */
+static void group_corr_at(const ulk_demod *d, int64_t g, double pol, double *ci, double *cz, double *co)
+{
+    double a = 0, z = 0, o = 0, sc = pattern_scale(d);
+    if (d->nrzm) {
+        a = z = o = soft_at(d, g - 1);
+        for (int t = 0; t < d->n; t++) {
+            double v = soft_at(d, g + t);
+            a += d->lidle[t] * v;
+            z += d->lz[t] * v;
+            o += d->lo[t] * v;
+        }
+        *ci = sc * fabs(a);
+        *cz = sc * fabs(z);
+        *co = sc * fabs(o);
+        return;
+    }
+    for (int t = 0; t < d->n; t++) {
+        double v = soft_at(d, g + t);
+        a += d->pidle[t] * v;
+        z += d->pz[t] * v;
+        o += d->po[t] * v;
+    }
+    *ci = pol * sc * a;
+    *cz = pol * sc * z;
+    *co = pol * sc * o;
+}
+
+/* Log-likelihood (times the noise-to-signal ratio) of "a word starts at sub-bit s with
+ * polarity pol", over the word and ALIGN_EDGE groups on either side: idle before it (or the
+ * previous word's bits when words are back to back), idle after it (or, with no gap, either).
+ * Every candidate covers the same number of groups, so the values compare directly. */
+#define ALIGN_EDGE 2
+static double word_hyp_ll(const ulk_demod *d, int64_t s, double pol, int back_to_back)
+{
+    const int64_t n = d->n;
+    double ll = 0, ci, cz, co;
+    for (int g = 1; g <= ALIGN_EDGE; g++) {
+        group_corr_at(d, s - g * n, pol, &ci, &cz, &co);
+        ll += back_to_back ? (cz > co ? cz : co) : ci;
+    }
+    for (int b = 0; b < d->W; b++) {
+        group_corr_at(d, s + b * n, pol, &ci, &cz, &co);
+        ll += cz > co ? cz : co;
+    }
+    for (int g = 0; g < ALIGN_EDGE; g++) {
+        group_corr_at(d, s + (d->W + g) * n, pol, &ci, &cz, &co);
+        double m = cz > co ? cz : co;
+        ll += d->l.gap > 0 ? ci : (ci > m ? ci : m);
+    }
+    return ll;
+}
+
+/* Smallest log-likelihood ratio (nats) between the best alignment hypothesis and any other
+ * that the decoder accepts a word on. The LLR of two hypotheses is (difference of the
+ * normalised correlations) / (N/S) for soft values y/a = d + noise of variance N/S; 9.2 nats
+ * puts the odds of the runner-up below 1e-4 before the check field is even looked at
+ * (common practice: a sync decision needs a much lower error rate than a bit). */
+#define ALIGN_MIN_LLR 9.2
+
+/* Tries every start within one group of s (n - 1 sub-bits either way). Sets *s_best and
+ * *pol_best to the most likely hypothesis and returns its LLR over the runner-up. The
+ * polarity is not retried: it comes from the idle patterns of the stream (the validator
+ * guarantees complement(I) differs from I, Z and O), while a word alone cannot tell it when
+ * O = complement(Z) (the demo profile). Why the shifts: a sub-bit pattern can be shift-confusable (nrz-m 01/10: a one-sub-bit
+ * slip complements every bit; nrz-l 0011/0110), and an idle pattern with no transitions
+ * (00 under nrz-m, 0000 under nrz-l) says nothing about where groups start, so the grid
+ * carried across a long idle run can be off; only the word itself and its edges decide. */
+static double align_test(const ulk_demod *d, uint64_t s, double pol, int back_to_back, uint64_t *s_best,
+                         double *pol_best)
+{
+    double best = -1e300, second = -1e300;
+    *s_best = s;
+    *pol_best = pol;
+    {
+        double pl = pol;
+        for (int del = -(d->n - 1); del <= d->n - 1; del++) {
+            int64_t c = (int64_t)s + del;
+            if (c < 0) continue;
+            double ll = word_hyp_ll(d, c, pl, back_to_back);
+            if (ll > best) {
+                second = best;
+                best = ll;
+                *s_best = (uint64_t)c;
+                *pol_best = pl;
+            } else if (ll > second) {
+                second = ll;
+            }
+        }
+    }
+    double nsr = d->nsr_ref > 1e-6 ? d->nsr_ref : 1e-6;
+    return second > -1e299 ? (best - second) / nsr : 1e300;
+}
+
+static void decode_word_at(ulk_demod *d, uint64_t s, double pol, int ambiguous)
 {
     ulk_demod_word w;
     memset(&w, 0, sizeof w);
+    w.ambiguous = ambiguous;
     w.word.n_bits = d->W;
     double margin = 1e300;
     for (int b = 0; b < d->W; b++) {
@@ -276,6 +382,12 @@ static void decode_word_at(ulk_demod *d, uint64_t s, double pol)
         if (m < margin) margin = m;
     }
     w.margin = margin;
+    if (ambiguous) {
+        w.start_s = d->pt[s % d->pcap];
+        w.polarity = pol < 0 ? -1 : 1;
+        emit_word(d, &w);
+        return;
+    }
     /* E_b/N_0 from the word's own sub-bits (M2M4 moments): noise next to the signal in the
      * edge blocks does not enter. */
     for (uint64_t t = 0; t < (uint64_t)d->W * (uint64_t)d->n; t++) {
@@ -301,6 +413,20 @@ static void pattern_decide(ulk_demod *d, int flush)
         int a;
         double pol;
         best_alignment(d, &a, &pol);
+        if (d->locked) {
+            /* Once a word has fixed the grid, the grid is kept (the sub-bit count is continuous
+             * while the clock is locked): an idle pattern without transitions carries no
+             * alignment at all, and the metric, which looks far ahead, may by then be fed by
+             * noise after the transmission. Only overwhelming evidence moves it: half the
+             * noiseless metric of its whole memory (48 groups of n), far beyond what noise
+             * reaches (its spread is about 5 sqrt(n N/S)). Each word is checked on its own. */
+            if (d->M[a][pol < 0] - d->M[d->lock_a][d->lock_pol < 0] > 24.0 * d->n) {
+                d->lock_a = a;
+                d->lock_pol = pol;
+            }
+            a = d->lock_a;
+            pol = d->lock_pol;
+        }
         if (d->p % n != (uint64_t)a) {
             /* Realign: skip to the next group start of the better alignment. */
             d->p += ((uint64_t)a + n - d->p % n) % n;
@@ -344,10 +470,18 @@ static void pattern_decide(ulk_demod *d, int flush)
         if (!found) {
             /* A word start with no room left for its W bits: cut off by the end. */
             if (flush) {
-                double mean_b = 0;
+                /* Counted only when it looks like a word start: idle before it, groups after it
+                 * that look like bits rather than idle, and signal energy in them (noise or
+                 * silence after a transmission is none of these). */
+                double mean_b = 0, e = 0, aref = d->a_ref > 0 ? d->a_ref : 1.0;
                 uint64_t ng = (d->cnt - d->p) / n;
                 for (uint64_t g = 0; g < ng; g++) mean_b += bitness(d, d->p + g * n, pol);
-                if (ng >= 4 && mean_b > 0 && word_energy_ok(d, d->p - (d->p >= W * n ? 0 : 0)))
+                for (uint64_t t = 0; t < ng * n; t++) {
+                    double y = d->py[(d->p + t) % d->pcap] / aref;
+                    e += y * y;
+                }
+                if (ng >= 4 && mean_b > 0 && e / (double)(ng * n) >= 0.5 + d->nsr_ref &&
+                    idle_before_ok(d, d->p, pol))
                     d->n_truncated++;
                 d->p = d->cnt;
             }
@@ -367,7 +501,25 @@ static void pattern_decide(ulk_demod *d, int flush)
             d->after_word = 0;
             continue;
         }
-        decode_word_at(d, best_s, pol);
+        {
+            /* The grid and polarity this word was found on are a hypothesis: test the word
+             * against every one-sub-bit shift and the other polarity, edges included, and
+             * refuse to guess when they are too close (the word is handed on as ambiguous,
+             * which the dictionary stage rejects). */
+            uint64_t s2;
+            double pol2;
+            int amb = align_test(d, best_s, pol, back_to_back, &s2, &pol2) < ALIGN_MIN_LLR;
+            best_s = s2;
+            if (amb) {
+                d->n_ambiguous++;
+            } else {
+                pol = pol2;
+                d->locked = 1;
+                d->lock_a = (int)(best_s % n);
+                d->lock_pol = pol;
+            }
+            decode_word_at(d, best_s, amb ? pol2 : pol, amb);
+        }
         d->p = best_s + W * n;
         d->min_start = d->p + (d->l.gap > 0 ? n : 0);
         d->after_word = 1;
@@ -385,6 +537,7 @@ static void pattern_reset(ulk_demod *d)
     d->idle_run = 0;
     d->after_word = 0;
     d->have_last = 0;
+    d->locked = 0;
 }
 
 /* One soft sub-bit (raw dump value) with its start time. */
@@ -567,8 +720,18 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     if ((f1 > f2 ? f1 : f2) < bestp) fhat = bestf;
     dft_at(d, M, mc, fhat, &xr, &xi);
     double coh = sqrt(xr * xr + xi * xi) / upow;
-    /* Noise only: coh^2 is about exponential with mean 2/M per independent bin. */
-    double thr2 = (d->prev_locked ? 14.0 : 22.0) / M;
+    /* Detection. On noise alone U_m is complex Gaussian, so X = sum U_m^2 (...) has
+     * E|X|^2 = M E|U|^4 = 2 M (E|U|^2)^2 and coh^2 = |X|^2 / (sum |U|^2)^2 is about
+     * exponential with mean 2/M at any one frequency: P(coh^2 > t) = exp(-t M / 2). The search
+     * tries n_try = 4 x (2 f_max M) frequencies (4x oversampled; counting them all as
+     * independent is conservative), so the threshold t = (2/M) ln(n_try / P_fa) holds the
+     * false-alarm probability per block to P_fa: 1e-6 to acquire (a 30-minute capture of the
+     * demo profile has about 700 blocks), 1e-2 to stay locked (a false continuation is only
+     * a few noise blocks that the word stage rejects). Measured on a signal, coh^2 is 0.28 at
+     * E_b/N_0 = 7.5 dB in the demo profile, about 8x the acquisition threshold. */
+    double n_try = 8.0 * fmax * M;
+    if (n_try < 1) n_try = 1;
+    double thr2 = 2.0 / M * log(n_try / (d->prev_locked ? 1e-2 : 1e-6));
     if (!(coh * coh >= thr2)) { block_unlock(d); return; } /* NaN-safe */
 
     /* 2. sub-bit clock theta(i) = i rho + beta, modulo 1/(2k) */
@@ -654,6 +817,13 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         d->qh[i] += d->qh[i - 1];
     }
     int64_t Hlast = (int64_t)floor(twok * ((double)(s_hi - 1) * rho + beta)); /* last (maybe partial) */
+    if (d->finished && s_hi == d->n_in) {
+        /* End of the capture: the file holds ceil(L f_s / R_s) samples, so the last sub-bit's
+         * last half-cycle lacks less than one sample interval; it counts as complete (half a
+         * sample of slack for the clock estimate). Without this a word that ends with the
+         * file (postamble 0) loses its last sub-bit. */
+        Hlast = (int64_t)floor(twok * (((double)s_hi + 0.5) * rho + beta));
+    }
     int64_t nfull = Hlast - H0;  /* half-cycles known complete: [H0, Hlast) */
     if (nfull > (int64_t)nh) nfull = (int64_t)nh;
     if (nfull < twok) { block_unlock(d); return; }
@@ -968,6 +1138,7 @@ void ulk_demod_get_estimates(const ulk_demod *d, ulk_demod_estimates *e)
     e->signal_found = d->signal_found;
     e->n_subbits = d->n_subbits;
     e->n_truncated = d->n_truncated;
+    e->n_ambiguous = d->n_ambiguous;
     double eps = d->eps_iw > 0 ? d->eps_isum / d->eps_iw : d->eps_w > 0 ? d->eps_sum / d->eps_w : 0;
     if (d->fit_w > 0) eps = d->fit_sum / d->fit_w;
     else if (d->run_n >= 3 && d->r_w > 0) {
@@ -975,6 +1146,11 @@ void ulk_demod_get_estimates(const ulk_demod *d, ulk_demod_estimates *e)
         double sxx = d->r_xx / d->r_w - mx * mx, sxy = d->r_xy / d->r_w - mx * my;
         if (sxx > 0) eps = sxy / sxx * d->sps;
     }
+    /* Reported only when locked, and never outside the searched range (a fit over a run
+     * can step a little past it). */
+    if (!d->signal_found) eps = 0;
+    if (eps > d->eps_max) eps = d->eps_max;
+    if (eps < -d->eps_max) eps = -d->eps_max;
     e->rate_error_ppm = eps * 1e6;
     e->subcarrier_hz = d->fsc_hz * (1 + eps);
     if (d->ns >= 16) {

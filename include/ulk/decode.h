@@ -17,6 +17,7 @@
 
 #include <stddef.h>
 #include <stdint.h>
+#include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/word.h"
 
@@ -35,7 +36,8 @@ typedef enum {
     ULK_REJ_ENUM,       /* an enum argument carries an undefined code */
     ULK_REJ_RANGE,      /* an argument's engineering value is outside its range */
     ULK_REJ_PADDING,    /* argument-field bits after the packed arguments are not zero */
-    ULK_REJ_LENGTH      /* the word's length is not the dictionary's W */
+    ULK_REJ_LENGTH,     /* the word's length is not the dictionary's W */
+    ULK_REJ_ALIGNMENT   /* the demodulator could not decide the word's sub-bit alignment */
 } ulk_reject_kind;
 
 #define ULK_DECODE_MAX_ARGS 64 /* D <= 64 bits, every argument at least one bit */
@@ -62,6 +64,12 @@ typedef struct {
 /* Classifies w against dict into *out (fully overwritten). Returns 0, or ULK_EINVAL when an
  * argument is NULL. A rejection is a result (status), never an error. */
 int ulk_decode_word(const ulk_dict *dict, const ulk_word *w, ulk_decoded *out);
+/* As ulk_decode_word, for a word from the demodulator: a word marked ambiguous (its sub-bit
+ * alignment not decided, ulk_demod_word.ambiguous) is rejected with
+ * ULK_REJ_ALIGNMENT ("alignment") whatever its bits say, since a slipped reading can pass the
+ * check (nrz-m 01/10 with parity: every bit flips). Length is still checked first. Same
+ * returns as ulk_decode_word. */
+int ulk_decode_demod_word(const ulk_dict *dict, const ulk_demod_word *w, ulk_decoded *out);
 
 /* Short stable name of a rejection kind ("check", "vehicle", "system", "opcode", "enum",
  * "range", "padding", "length", "none"). */

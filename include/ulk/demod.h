@@ -55,6 +55,10 @@ typedef struct {
                            c the correlation of the soft group with the pattern and a the
                            estimated amplitude; 1 = noiseless, 0 = a tie, < 0 impossible */
     int polarity;       /* +1 as sent, -1 when the capture is inverted (always +1 for nrz-m) */
+    int ambiguous;      /* 1: a one-sub-bit shift fits the word and its
+                           edges nearly as well (log-likelihood ratio below 9.2 nats); the bits
+                           are the likelier reading but must not be trusted: the dictionary
+                           stage rejects such a word ("alignment") */
 } ulk_demod_word;
 
 /* Estimates over the parts of the capture where a signal was found. */
@@ -67,6 +71,7 @@ typedef struct {
     double amplitude;       /* estimated data amplitude A (full scale 1.0) */
     uint64_t n_subbits;     /* soft sub-bits produced */
     uint64_t n_truncated;   /* words cut off by the end of the capture or a loss of signal */
+    uint64_t n_ambiguous;   /* words handed on with ambiguous set (alignment not decided) */
 } ulk_demod_estimates;
 
 /* Called for every word, in time order. */

@@ -139,7 +139,7 @@ static void on_word(const ulk_demod_word *w, void *user)
     cli_word *cw = &c->w[c->n++];
     memset(cw, 0, sizeof *cw);
     cw->dw = *w;
-    ulk_decode_word(x->dict, &w->word, &cw->dec);
+    ulk_decode_demod_word(x->dict, w, &cw->dec); /* ambiguous alignment: rejected */
     if (x->o->on_word) x->o->on_word(w->start_s, w->margin, cw->dec.status == ULK_WORD_ACCEPTED, x->o->user);
 }
 
