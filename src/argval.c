@@ -14,6 +14,7 @@
  * raw step. Polynomials are monotonic (the dictionary validator checks it), so the nearest
  * raw is found by bisection over the raw range and a comparison of the two neighbours.
  */
+#include <stdint.h>
 #include <ctype.h>
 #include <errno.h>
 #include <fenv.h>
@@ -78,6 +79,16 @@ static int scale_pow10(double scale)
     return 99;
 }
 
+/* i128 -> long double through 64-bit integers where the value fits (every raw value and every
+ * accepted integer does): the 128-bit conversion helper is a libgcc routine that some tools
+ * (valgrind's x87 emulation) compute wrongly, and there is no need to depend on it. */
+static long double i128_ld(i128 v)
+{
+    if (v >= INT64_MIN && v <= INT64_MAX) return (long double)(int64_t)v;
+    if (v > 0 && v <= (i128)UINT64_MAX) return (long double)(uint64_t)v;
+    return (long double)v;
+}
+
 static void i128_to_dec(i128 v, char *buf)
 {
     char tmp[48];
@@ -132,7 +143,7 @@ static int num_parse(const char *text, double scale, num_t *x, char *err, size_t
         snprintf(x->canon, sizeof x->canon, "%se0", dec);
         if (k10 != 0) {
             /* a hex value never carries a unit; a caller-supplied scale still applies */
-            if (k10 == 99) { x->approx = 1; x->xn = (long double)x->ival * scale; x->is_int = 0; x->fits = 0; return 0; }
+            if (k10 == 99) { x->approx = 1; x->xn = i128_ld(x->ival) * scale; x->is_int = 0; x->fits = 0; return 0; }
             snprintf(x->canon, sizeof x->canon, "%se%d", dec, k10);
             x->is_int = k10 > 0 || x->ival == 0;
             x->fits = 0;
@@ -221,7 +232,7 @@ static int num_parse(const char *text, double scale, num_t *x, char *err, size_t
     }
 finish:
     if (x->fits) {
-        x->xn = (long double)x->ival; /* exact: 64-bit mantissa */
+        x->xn = i128_ld(x->ival); /* exact: 64-bit mantissa */
         if (x->ival == 0 && x->neg) x->xn = -0.0L;
         x->exact_known = x->exact = 1;
     } else {
@@ -284,7 +295,7 @@ static void raw_range(const ulk_arg *a, i128 *lo, i128 *hi)
 
 static long double cal_eval(const ulk_arg *a, i128 r)
 {
-    long double x = (long double)r;
+    long double x = i128_ld(r);
     if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_offset + (long double)a->cal_scale * x;
     long double acc = 0.0L;
     for (int k = a->n_poly - 1; k >= 0; k--) acc = acc * x + (long double)a->poly[k];
