@@ -9,6 +9,7 @@
 # subcarrier) makes 200,000 commands 74 million sub-bits, too many rows and samples for a
 # test; 2-sub-bit patterns, gap 0 and a 2 kHz subcarrier keep the same words (W = 66) at
 # 13 million sub-bits and 5 samples a sub-bit.
+# It also checks rules of the streaming reader that a whole-file reader did not need.
 #
 # RSS is measured with /usr/bin/time (%M, maximum resident set in KB) in the plain build
 # only: under ASan/UBSan the shadow memory makes it meaningless, so that build checks the
@@ -62,6 +63,37 @@ want_rows=$((1 + (32 + 500 + N * 66 + 8) * 2))
     | { head -c $((4 * S)) > "$T/long_prefix.f32"; cat > /dev/null; } || fail "long samples: $(cat "$T/err")"
 cmp -s "$T/long_prefix.f32" <(head -c $((4 * S)) "$T/short.f32") || fail "samples of the shared prefix differ"
 [ "$(stat -c %s "$T/long_prefix.f32")" = $((4 * S)) ] || fail "long samples cut short"
+
+# the streaming reader keeps the whole-file rules (docs/upload-format.md, "Reader and memory"):
+#  - a changed byte that also breaks a command is reported as a change (digest first), not as the
+#    parse error it causes; SHA-256 by Python's hashlib (FIPS 180-4) reseals the edited files;
+#  - 'link' after 'commands' is refused by name; a command of more than 256 KiB is refused.
+/usr/bin/python3 - "$T" <<'PY' || fail "could not build the edited uploads"
+import hashlib, sys
+t = sys.argv[1]
+data = open(t + "/short.ulku", "rb").read()
+head = b'  "digest": "sha256:'
+body = data[:data.rindex(head)]
+def reseal(b):
+    return b + head + hashlib.sha256(b).hexdigest().encode() + b'"\n}\n'
+i = body.index(b'"mnemonic": "OBC_SET_TIME"')
+open(t + "/changed.ulku", "wb").write(data[:i] + b'"mnemonic" "OBC_SET_TIME"' + data[i + 26:])
+a, c = body.index(b'  "link": {'), body.index(b'  "commands": [')
+w = body.index(b'  "wait_after_s"')
+open(t + "/order.ulku", "wb").write(reseal(body[:a] + body[c:w] + body[a:c] + body[w:]))
+j = body.index(b'"args": [') + len(b'"args": [')
+open(t + "/huge.ulku", "wb").write(reseal(body[:j] + b" " * (300 * 1024) + body[j:]))
+PY
+expect_refused() { # file message...
+    local f=$1; shift
+    "$ULK" inspect "$T/$f" >/dev/null 2>"$T/err" && fail "$f accepted"
+    for m in "$@"; do grep -qF -- "$m" "$T/err" || fail "$f: no '$m' in: $(cat "$T/err")"; done
+}
+expect_refused changed.ulku "SHA-256 digest mismatch"
+expect_refused order.ulku "'link' must come before 'commands'"
+expect_refused huge.ulku "commands[0]" "longer than 262144 bytes"
+"$ULK" modulate "$T/huge.ulku" -o "$T/huge.f32" --rate $RATE -q 2>/dev/null && fail "modulate took huge.ulku"
+[ -e "$T/huge.f32" ] && fail "modulate left huge.f32 behind"
 
 read -r kb_t s_t < "$T/rss_timing"
 read -r kb_m s_m < "$T/rss_mod"
