@@ -478,6 +478,68 @@ static void build_subbits(bctx *c, ulk_node *sb)
     c->patterns_ok = !bad;
 }
 
+/* One-sub-bit slips (review of the decoder): a receiver finds where groups of n sub-bits
+ * start from the stream itself. When the idle pattern is unchanged by a one-sub-bit rotation
+ * (00 under nrz-m, 0000 under nrz-l) a long wait says nothing about that; when a rotated idle
+ * or a one-sub-bit shift across two bit patterns gives 'zero' or 'one', a slipped reading
+ * looks like bits (nrz-m 01/10: every bit flips and an even-length word keeps its parity).
+ * Sub-bits are compared as sent: under nrz-m a 1 is a transition, which the receiver
+ * sees wherever groups start, so the same comparison holds. Warnings, not errors: the
+ * decoder tests each word against the shifts and rejects ambiguous ones, but such a
+ * profile relies on that test alone. */
+static void shift_warnings(bctx *c, ulk_node *sb)
+{
+    const ulk_link *L = &c->d->link;
+    const int n = L->n_subbits;
+    if (n < 2) return;
+    ulk_node *ni = ulk_node_get(sb, "idle"), *nz = ulk_node_get(sb, "zero");
+    const uint8_t *pat[2] = {L->zero, L->one};
+    static const char *const pname[2] = {"zero", "one"};
+    const char *lc = L->line_code == ULK_LINE_NRZM ? "nrz-m" : "nrz-l";
+    uint8_t w[ULK_MAX_SUBBITS];
+    char bw[20], bi[20];
+    fmt_pattern(L->idle, n, bi);
+    for (int dir = 0; dir < 2; dir++) {
+        for (int i = 0; i < n; i++) w[i] = L->idle[(i + (dir ? n - 1 : 1)) % n];
+        if (!memcmp(w, L->idle, (size_t)n)) {
+            warn(c, ni, "the idle stream (\"%s\" repeated) is unchanged by a one-sub-bit shift: it carries no group "
+                        "alignment, so after a wait the decoder can place words only from their own sub-bits (%s); "
+                        "words it cannot place are rejected as ambiguous",
+                 bi, lc);
+            break;
+        }
+        for (int p = 0; p < 2; p++)
+            if (!memcmp(w, pat[p], (size_t)n)) {
+                fmt_pattern(w, n, bw);
+                warn(c, ni, "the idle stream (\"%s\" repeated) shifted by one sub-bit reads \"%s\", the '%s' pattern: "
+                            "a slipped receiver sees bits in the idle",
+                     bi, bw, pname[p]);
+                dir = 2;
+                break;
+            }
+    }
+    /* Across two bit patterns X Y, a group one sub-bit late is X[1..n) Y[0], one early
+     * X[n-1] Y[0..n-1). */
+    for (int x = 0; x < 2; x++)
+        for (int y = 0; y < 2; y++)
+            for (int dir = 0; dir < 2; dir++) {
+                if (dir == 0) { memcpy(w, pat[x] + 1, (size_t)n - 1); w[n - 1] = pat[y][0]; }
+                else { w[0] = pat[x][n - 1]; memcpy(w + 1, pat[y], (size_t)n - 1); }
+                for (int p = 0; p < 2; p++)
+                    if (!memcmp(w, pat[p], (size_t)n)) {
+                        char bx[20], by[20];
+                        fmt_pattern(pat[x], n, bx);
+                        fmt_pattern(pat[y], n, by);
+                        fmt_pattern(w, n, bw);
+                        warn(c, nz, "a one-sub-bit %s slip across '%s' then '%s' (\"%s%s\") reads \"%s\", the '%s' "
+                                    "pattern (%s): a slipped word can decode to other valid bits, and a check field "
+                                    "need not catch it; choose patterns whose one-sub-bit shifts match neither",
+                             dir ? "early" : "late", pname[x], pname[y], bx, by, bw, pname[p], lc);
+                        return;
+                    }
+            }
+}
+
 static int positive_ratio(bctx *c, ulk_node *n, ulk_ratio *out, const char *what)
 {
     if (!n || !get_ratio(c, n, out)) return 0;
@@ -689,6 +751,7 @@ static void build_link(bctx *c, ulk_node *ln)
         int k = get_choice(c, lc, codes, 2, "line code");
         if (k >= 0) L->line_code = (ulk_line_code)k;
     }
+    if (sb && c->n_ok && c->patterns_ok) shift_warnings(c, sb);
 
     ulk_node *fsc_node = build_subcarrier(c, ulk_node_get(ln, "subcarrier"));
 
