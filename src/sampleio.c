@@ -207,6 +207,10 @@ static int build_meta(ulk_writer *w, const ulk_sample_info *info, ulk_diag *diag
         cJSON *extra = cJSON_Parse(wrapped);
         ulk_free(wrapped);
         if (!extra) {
+            /* cJSON says NULL for bad text and for no memory alike; a small probe tells which. */
+            void *probe = ulk_malloc(64);
+            if (!probe) goto oom;
+            ulk_free(probe);
             cJSON_Delete(root);
             return ulk_fail(diag, ULK_EINVAL, "%s: extra metadata is not a list of JSON object members", w->path);
         }
@@ -222,7 +226,11 @@ static int build_meta(ulk_writer *w, const ulk_sample_info *info, ulk_diag *diag
                                 w->path, name);
             }
             cJSON_DeleteItemFromObjectCaseSensitive(g, it->string); /* a later value replaces */
-            cJSON_AddItemToObject(g, it->string, it);
+            if (!cJSON_AddItemToObject(g, it->string, it)) { /* the key copy failed */
+                cJSON_Delete(it);
+                cJSON_Delete(extra);
+                goto oom;
+            }
         }
         cJSON_Delete(extra);
     }
