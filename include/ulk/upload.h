@@ -85,7 +85,7 @@ typedef struct ulk_upload_lean {
 #define ULK_UPLOAD_MAX_BYTES ((size_t)1 << 30)
 #define ULK_UPLOAD_MAX_CMDS 1000000u
 #define ULK_UPLOAD_MAX_UNIT_OCTETS ((size_t)16 << 20) /* words (ceil(W/8) octets each) or CLTUs, all commands */
-#define ULK_UPLOAD_LEAN_FULL_BYTES ((size_t)6 << 20)  /* lean: memory for the commands kept in full */
+#define ULK_UPLOAD_LEAN_FULL_BYTES ((size_t)10 << 20) /* lean: memory for the commands kept in full */
 #define ULK_UPLOAD_MAX_VALUE_BYTES ((size_t)256 << 10) /* one command (or header member) as text */
 #define ULK_UPLOAD_MAX_IDLES 1000000000000ull   /* idle patterns before one word or after the last */
 
