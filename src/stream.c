@@ -98,3 +98,12 @@ double ulk_stream_word_start_s(const ulk_upload *u, size_t k)
     /* one pattern lasts 1/R_b */
     return (double)patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;
 }
+
+double ulk_stream_start_next(const ulk_upload *u, ulk_start_cursor *c)
+{
+    if (c->k >= u->n_cmds) return -1.0;
+    if (c->k > 0) c->patterns += ulk_upload_unit_bits(u, c->k - 1);
+    c->patterns += ulk_upload_idles_before(u, c->k);
+    c->k++;
+    return (double)c->patterns * (double)u->link.bit_rate.den / (double)u->link.bit_rate.num;
+}

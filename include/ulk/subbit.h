@@ -34,6 +34,14 @@ uint64_t ulk_stream_length(const ulk_stream *s);
 size_t ulk_stream_read(ulk_stream *s, uint8_t *subbits, ulk_subbit_info *info, size_t max);
 /* Start time in seconds of word k (1-based): its first sub-bit index / R_s. */
 double ulk_stream_word_start_s(const ulk_upload *u, size_t k);
+/* The same for every word in turn, in constant time per word (ulk_stream_word_start_s walks
+ * the upload from the start): zero a cursor, then each call returns the start of the next
+ * word (1, 2, ...), or -1 after the last. */
+typedef struct {
+    size_t k;          /* words done */
+    uint64_t patterns; /* filler units and unit bits before word k + 1 */
+} ulk_start_cursor;
+double ulk_stream_start_next(const ulk_upload *u, ulk_start_cursor *c);
 
 #ifdef __cplusplus
 }

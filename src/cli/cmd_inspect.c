@@ -78,13 +78,14 @@ static int print_text(const char *path, const ulk_upload *u)
            ulk_check_name(l->check));
     char *sub = malloc((size_t)l->word_bits * (size_t)(l->n_subbits + 1) + 1);
     if (!sub) return 2;
+    ulk_start_cursor cur = {0, 0};
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
         char hex[40], bin[ULK_MAX_WORD_BITS + 1], v[600];
         ulk_word_hex(&c->word, hex);
         ulk_word_bin(&c->word, bin);
         printf("\nword %zu  line %d  %s%s\n", i + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
-        printf("  start     %.9f s  after %llu idle patterns", ulk_stream_word_start_s(u, i + 1),
+        printf("  start     %.9f s  after %llu idle patterns", ulk_stream_start_next(u, &cur),
                (unsigned long long)c->idles_before);
         if (c->wait_before.num) {
             char w[64];
@@ -167,13 +168,14 @@ static int print_text_tc(const char *path, const ulk_upload *u)
            t->idle_octets);
     char *hx = malloc(2 * ULK_CLTU_MAX_OCTETS + 1);
     if (!hx) return 2;
+    ulk_start_cursor cur = {0, 0};
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
         ulk_tcf_frame fr;
         ulk_spp_packet pk;
         char v[600];
         printf("\nCLTU %zu  line %d  %s%s\n", i + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
-        printf("  start     %.9f s  after %llu idle bits", ulk_stream_word_start_s(u, i + 1),
+        printf("  start     %.9f s  after %llu idle bits", ulk_stream_start_next(u, &cur),
                (unsigned long long)c->idles_before);
         if (c->wait_before.num) {
             char w[64];
@@ -241,6 +243,7 @@ static int print_json_tc(const ulk_upload *u)
     cJSON *units = cJSON_AddArrayToObject(root, "cltus");
     char *hx = malloc(2 * ULK_CLTU_MAX_OCTETS + 1);
     if (!root || !hx) { free(hx); cJSON_Delete(root); return 2; }
+    ulk_start_cursor cur = {0, 0};
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
         ulk_tcf_frame fr;
@@ -251,7 +254,7 @@ static int print_json_tc(const ulk_upload *u)
         cJSON_AddNumberToObject(w, "line", c->line);
         cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
         cJSON_AddBoolToObject(w, "critical", c->critical);
-        cJSON_AddNumberToObject(w, "start_s", ulk_stream_word_start_s(u, i + 1));
+        cJSON_AddNumberToObject(w, "start_s", ulk_stream_start_next(u, &cur));
         cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
         cJSON_AddItemToObject(w, "wait_s", ratio_json(c->wait_before));
         cJSON *s = cJSON_AddObjectToObject(w, "system");
@@ -338,6 +341,7 @@ static int print_json(const ulk_upload *u)
     cJSON *words = cJSON_AddArrayToObject(root, "words");
     char *sub = malloc((size_t)l->word_bits * (size_t)l->n_subbits + 1);
     if (!root || !sub) { free(sub); cJSON_Delete(root); return 2; }
+    ulk_start_cursor cur = {0, 0};
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
         char hex[40], bin[ULK_MAX_WORD_BITS + 1], b[40];
@@ -350,7 +354,7 @@ static int print_json(const ulk_upload *u)
         cJSON_AddNumberToObject(w, "line", c->line);
         cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
         cJSON_AddBoolToObject(w, "critical", c->critical);
-        cJSON_AddNumberToObject(w, "start_s", ulk_stream_word_start_s(u, i + 1));
+        cJSON_AddNumberToObject(w, "start_s", ulk_stream_start_next(u, &cur));
         cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
         cJSON_AddItemToObject(w, "wait_s", ratio_json(c->wait_before));
         cJSON_AddStringToObject(w, "hex", hex);
