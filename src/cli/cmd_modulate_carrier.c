@@ -267,7 +267,7 @@ int cmd_modulate_carrier(int argc, char **argv)
     char *extra = NULL;
     int code = 0, rc;
 
-    rc = ulk_upload_read(up_path, &up, diag);
+    rc = ulk_upload_read_opts(up_path, ULK_UPLOAD_LEAN, 0, &up, diag);
     if (rc < 0) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk modulate: upload %s refused; nothing written\n", up_path);
