@@ -151,7 +151,7 @@ static void on_soft(double t, float v, void *user)
 
 /* ---- complex captures: carrier recovery in front of the link decoder ---- */
 
-void cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len)
+int cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len)
 {
     *complex_ = 0;
     mode[0] = 0;
@@ -160,14 +160,15 @@ void cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len
     if (n > 5 && (!strcmp(path + n - 5, ".cf32") || !strcmp(path + n - 5, ".ci16"))) { cut = 5; *complex_ = 1; }
     else if (n > 11 && !strcmp(path + n - 11, ".sigmf-data")) cut = 11;
     else if (n > 11 && !strcmp(path + n - 11, ".sigmf-meta")) cut = 11;
-    else return;
+    else return 0;
     char *mp = ulk_malloc(n - cut + 12);
-    if (!mp) return;
+    if (!mp) return ULK_ENOMEM;
     memcpy(mp, path, n - cut);
     memcpy(mp + n - cut, ".sigmf-meta", 12);
     char *txt = NULL;
     size_t len = 0;
-    if (ulk_read_file(mp, 1 << 20, &txt, &len, NULL) == 0) {
+    int rc = ulk_read_file(mp, 1 << 20, &txt, &len, NULL);
+    if (rc == 0) {
         cJSON *root = cJSON_Parse(txt);
         const cJSON *g = cJSON_GetObjectItemCaseSensitive(root, "global");
         const cJSON *dt = cJSON_GetObjectItemCaseSensitive(g, "core:datatype");
@@ -179,6 +180,7 @@ void cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len
     }
     ulk_free(txt);
     ulk_free(mp);
+    return rc == ULK_ENOMEM ? ULK_ENOMEM : 0;
 }
 
 #define CX_CHUNK 32768
@@ -386,7 +388,8 @@ int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture
     memset(&cx, 0, sizeof cx);
     int meta_cplx = 0;
     char meta_mode[64];
-    cli_sniff_meta(path, &meta_cplx, meta_mode, sizeof meta_mode);
+    if (cli_sniff_meta(path, &meta_cplx, meta_mode, sizeof meta_mode) < 0)
+        return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
     /* Complex when no channel is picked and the file is complex raw, or a two-channel file
      * with --iq; channel 0 is then I and a second reader gives Q. */
     int rc = ulk_reader_open(path, o->rate_hz > 0 ? &hint : NULL, o->channel >= 0 ? o->channel : 0, &r, diag);

@@ -76,7 +76,7 @@ void cli_capture_free(cli_capture *c);
 /* What the SigMF metadata beside a raw capture says: *complex_ = 1 for a .cf32/.ci16 name or a
  * complex core:datatype, mode = global "ulk:carrier".mode ("" when absent; ulk modulate
  * --carrier and ulk impair record it). Quietly nothing when there is no readable metadata
- * (the reader reports real problems). */
-void cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len);
+ * (the reader reports real problems). Returns 0, or ULK_ENOMEM. */
+int cli_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_len);
 
 #endif

@@ -92,6 +92,17 @@ static cJSON *arg_json(const ulk_decoded_arg *a)
     return cJSON_CreateRaw(a->text);
 }
 
+/* Adds v under key k; on failure v is freed (cJSON leaves it to the caller). Returns 1 or 0. */
+static int add_item(cJSON *o, const char *k, cJSON *v)
+{
+    if (!v) return 0;
+    if (!cJSON_AddItemToObject(o, k, v)) {
+        cJSON_Delete(v);
+        return 0;
+    }
+    return 1;
+}
+
 static cJSON *num_or_null(int have, double v)
 {
     if (!have || !isfinite(v)) return cJSON_CreateNull();
@@ -113,7 +124,7 @@ static int print_json(const cli_capture *c)
         cJSON_AddItemToArray(words, o);
         char buf[64];
         snprintf(buf, sizeof buf, "%.9f", w->dw.start_s);
-        ok &= cJSON_AddItemToObject(o, "start_s", cJSON_CreateRaw(buf));
+        ok &= add_item(o, "start_s", cJSON_CreateRaw(buf));
         int acc = w->dec.status == ULK_WORD_ACCEPTED;
         ok &= cJSON_AddStringToObject(o, "status", acc ? "accepted" : "rejected") != NULL;
         if (acc) {
@@ -121,7 +132,7 @@ static int print_json(const cli_capture *c)
             cJSON *args = cJSON_AddObjectToObject(o, "args");
             ok &= args != NULL;
             for (int k = 0; ok && k < w->dec.n_args; k++)
-                ok &= cJSON_AddItemToObject(args, w->dec.args[k].arg->name, arg_json(&w->dec.args[k]));
+                ok &= add_item(args, w->dec.args[k].arg->name, arg_json(&w->dec.args[k]));
         } else {
             ok &= cJSON_AddStringToObject(o, "reason", w->dec.reason) != NULL;
             ok &= cJSON_AddStringToObject(o, "reject", ulk_reject_name(w->dec.reject)) != NULL;
@@ -135,15 +146,15 @@ static int print_json(const cli_capture *c)
             ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", w->n_corrected) != NULL;
         }
         snprintf(buf, sizeof buf, "%.3f", w->dw.margin);
-        ok &= cJSON_AddItemToObject(o, "margin", cJSON_CreateRaw(buf));
+        ok &= add_item(o, "margin", cJSON_CreateRaw(buf));
         ok &= cJSON_AddNumberToObject(o, "polarity", w->dw.polarity) != NULL;
     }
     cJSON *e = ok ? cJSON_AddObjectToObject(root, "estimates") : NULL;
     if (e) {
         int s = c->est.signal_found;
-        ok &= cJSON_AddItemToObject(e, "ebn0_db", num_or_null(s, round(c->est.ebn0_db * 100) / 100));
-        ok &= cJSON_AddItemToObject(e, "subcarrier_hz", num_or_null(s, round(c->est.subcarrier_hz * 1000) / 1000));
-        ok &= cJSON_AddItemToObject(e, "rate_error_ppm", num_or_null(s, round(c->est.rate_error_ppm * 100) / 100));
+        ok &= add_item(e, "ebn0_db", num_or_null(s, round(c->est.ebn0_db * 100) / 100));
+        ok &= add_item(e, "subcarrier_hz", num_or_null(s, round(c->est.subcarrier_hz * 1000) / 1000));
+        ok &= add_item(e, "rate_error_ppm", num_or_null(s, round(c->est.rate_error_ppm * 100) / 100));
         ok &= cJSON_AddBoolToObject(e, "signal_found", s) != NULL;
         ok &= cJSON_AddNumberToObject(e, "truncated_words", (double)c->est.n_truncated) != NULL;
     } else {
@@ -154,20 +165,20 @@ static int print_json(const cli_capture *c)
         ok &= k != NULL;
         if (k) {
             ok &= cJSON_AddStringToObject(k, "mode", c->mode) != NULL;
-            ok &= cJSON_AddItemToObject(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
-            ok &= cJSON_AddItemToObject(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
-            ok &= cJSON_AddItemToObject(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
-            ok &= cJSON_AddItemToObject(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
-            ok &= cJSON_AddItemToObject(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
+            ok &= add_item(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
+            ok &= add_item(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
+            ok &= add_item(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
+            ok &= add_item(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
+            ok &= add_item(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
         }
     }
     if (ok && c->has_ranging) {
         cJSON *k = cJSON_AddObjectToObject(root, "ranging");
         ok &= k != NULL;
         if (k) {
-            ok &= cJSON_AddItemToObject(k, "code_phase_chips", num_or_null(1, round(c->ranging.phase_chips * 1e4) / 1e4));
-            ok &= cJSON_AddItemToObject(k, "delay_s", num_or_null(1, c->ranging.delay_s));
-            ok &= cJSON_AddItemToObject(k, "peak_to_mean", num_or_null(1, round(c->ranging.peak_to_mean * 100) / 100));
+            ok &= add_item(k, "code_phase_chips", num_or_null(1, round(c->ranging.phase_chips * 1e4) / 1e4));
+            ok &= add_item(k, "delay_s", num_or_null(1, c->ranging.delay_s));
+            ok &= add_item(k, "peak_to_mean", num_or_null(1, round(c->ranging.peak_to_mean * 100) / 100));
         }
     }
     if (ok && c->voice_rate_hz) {

@@ -153,7 +153,7 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     char *extra = NULL;
     cx_out o;
     memset(&o, 0, sizeof o);
-    if (!diag) return 2;
+    if (!diag) { fprintf(stderr, "ulk impair: out of memory\n"); return 2; }
     const char *mname = mode_name ? mode_name : meta_mode[0] ? meta_mode : NULL;
     if (dict_path) {
         if (ulk_dict_load(dict_path, &dict, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
@@ -357,7 +357,10 @@ int cmd_impair(int argc, char **argv)
     if (channel < 0) {
         int meta_cplx = 0, two = 0;
         char meta_mode[64];
-        cli_sniff_meta(in, &meta_cplx, meta_mode, sizeof meta_mode);
+        if (cli_sniff_meta(in, &meta_cplx, meta_mode, sizeof meta_mode) < 0) {
+            fprintf(stderr, "ulk impair: out of memory\n");
+            return 2;
+        }
         if (iq) {
             ulk_reader *t = NULL;
             if (ulk_reader_open(in, NULL, 0, &t, NULL) == 0) two = ulk_reader_info(t)->channels == 2;
@@ -379,7 +382,7 @@ int cmd_impair(int argc, char **argv)
     ulk_writer *w = NULL;
     ulk_impair *p = NULL;
     float *buf = NULL;
-    if (!diag) return 2;
+    if (!diag) { fprintf(stderr, "ulk impair: out of memory\n"); return 2; }
     if (dict_path) {
         if (ulk_dict_load(dict_path, &dict, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
         ulk_diag_clear(diag);
