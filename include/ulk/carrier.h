@@ -251,8 +251,8 @@ int ulk_voice_tone_phase(ulk_ratio fv, ulk_ratio dev, ulk_ratio fa, ulk_ratio fs
  * sample index -- after removing the section's carrier offset f_o, and at the end correlates
  * the folded period circularly with the code (one complex FFT of N*K points). |correlation|
  * is used, so the carrier phase need not be known; the fold is coherent, so a carrier
- * frequency error e beyond f_o must keep e * capture length well below 1 (no carrier loop
- * yet). Memory: N * K complex bins, whatever the capture's length. */
+ * frequency error e beyond f_o must keep e * capture length well below 1 (ulk decode feeds
+ * it the carrier loop's de-rotated samples, ulk_crec_track, with f_o set to 0). Memory: N * K complex bins, whatever the capture's length. */
 
 #define ULK_RCORR_BINS_PER_CHIP 16
 
