@@ -3,6 +3,7 @@
  * Exit 0 it does; 1 it does not (report of missing, extra, changed and rejected words);
  * 2 usage or I/O error, or an upload compiled with another dictionary than DICT. */
 #include <cjson/cJSON.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -85,9 +86,39 @@ typedef struct {
     size_t ui, ai; /* upload index, accepted index */
 } op;
 
+/* Scheduled start of each upload word in seconds from the first word's (sub-bit profile:
+ * idles and words of n sub-bits at R_s), and the capture's offset from the first accepted
+ * word equal to an upload word. NULL (no time preference) for ccsds-tc, or out of memory. */
+static double *schedule(const ulk_upload *u, const cli_word **acc, size_t na, double *offset)
+{
+    size_t nu = u->n_cmds;
+    if (u->link.profile != ULK_PROFILE_SUBBIT || !nu) return NULL;
+    double rs = ulk_ratio_to_double(u->link.bit_rate) * u->link.n_subbits;
+    if (!(rs > 0)) return NULL;
+    double *t = ulk_malloc(nu * sizeof *t);
+    if (!t) return NULL;
+    double g = 0; /* groups (idle patterns and bits) before word i */
+    for (size_t i = 0; i < nu; i++) {
+        g += (double)ulk_upload_idles_before(u, i);
+        t[i] = g * u->link.n_subbits / rs;
+        g += u->link.word_bits;
+    }
+    double t0 = t[0];
+    for (size_t i = 0; i < nu; i++) t[i] -= t0;
+    *offset = 0;
+    for (size_t j = 0; j < na; j++)
+        for (size_t i = 0; i < nu; i++)
+            if (same_unit(&u->cmds[i], acc[j])) { *offset = acc[j]->dw.start_s - t[i]; return t; }
+    return t;
+}
+
 /* Edit script between the upload's words and the accepted words: equal words match (0),
  * the same command with other bits is "changed" (1), else missing/extra (1 each). DP when
- * the table is small enough, else a greedy walk. Returns the op count, ops malloc'd. */
+ * the table is small enough, else a greedy walk. Among scripts of equal cost, the one whose
+ * paired words lie nearest the upload's schedule wins (a tie-break only: the summed penalty
+ * stays below one edit), so that when a word is received twice, once where it was sent and
+ * once in place of another, the word received where it was sent is the one matched.
+ * Returns the op count, ops malloc'd. */
 static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **out)
 {
     size_t nu = u->n_cmds, cap = nu + na + 1, n = 0;
@@ -96,38 +127,61 @@ static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **o
     if (!ops) return 0;
     if ((nu + 1) * (na + 1) <= 20000000u) {
         unsigned *c = ulk_malloc((nu + 1) * (na + 1) * sizeof *c);
+        double off = 0, *sched = (nu + 1) * (na + 1) <= 4000000u ? schedule(u, acc, na, &off) : NULL;
+        float *pt = sched ? ulk_malloc((nu + 1) * (na + 1) * sizeof *pt) : NULL;
         if (c) {
 #define C(i, j) c[(i) * (na + 1) + (j)]
-            for (size_t i = 0; i <= nu; i++) C(i, 0) = (unsigned)i;
-            for (size_t j = 0; j <= na; j++) C(0, j) = (unsigned)j;
+#define P(i, j) (pt ? pt[(i) * (na + 1) + (j)] : 0.0f)
+#define PEN(i, j) (pt ? (float)(fabs(acc[(j)-1]->dw.start_s - off - sched[(i)-1]) / \
+                               (1.0 + fabs(acc[(j)-1]->dw.start_s - off - sched[(i)-1])) / (double)(nu + na + 1)) : 0.0f)
+            for (size_t i = 0; i <= nu; i++) { C(i, 0) = (unsigned)i; if (pt) pt[i * (na + 1)] = 0; }
+            for (size_t j = 0; j <= na; j++) { C(0, j) = (unsigned)j; if (pt) pt[j] = 0; }
             for (size_t i = 1; i <= nu; i++)
                 for (size_t j = 1; j <= na; j++) {
                     unsigned best = C(i - 1, j) + 1;
-                    if (C(i, j - 1) + 1 < best) best = C(i, j - 1) + 1;
-                    if (same_unit(&u->cmds[i - 1], acc[j - 1])) {
-                        if (C(i - 1, j - 1) < best) best = C(i - 1, j - 1);
-                    } else if (!strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic)) {
-                        if (C(i - 1, j - 1) + 1 < best) best = C(i - 1, j - 1) + 1;
+                    float bp = P(i - 1, j);
+                    if (C(i, j - 1) + 1 < best || (C(i, j - 1) + 1 == best && P(i, j - 1) < bp)) {
+                        best = C(i, j - 1) + 1;
+                        bp = P(i, j - 1);
+                    }
+                    unsigned dc = 0;
+                    int diag = 0;
+                    if (same_unit(&u->cmds[i - 1], acc[j - 1])) { dc = C(i - 1, j - 1); diag = 1; }
+                    else if (!strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic)) { dc = C(i - 1, j - 1) + 1; diag = 1; }
+                    if (diag) {
+                        float dp = P(i - 1, j - 1) + PEN(i, j);
+                        if (dc < best || (dc == best && dp < bp)) { best = dc; bp = dp; }
                     }
                     C(i, j) = best;
+                    if (pt) pt[i * (na + 1) + j] = bp;
                 }
             size_t i = nu, j = na;
             while (i > 0 || j > 0) {
                 if (i > 0 && j > 0) {
                     int eq = same_unit(&u->cmds[i - 1], acc[j - 1]);
                     int sm = !strcmp(u->cmds[i - 1].mnemonic, acc[j - 1]->dec.cmd->mnemonic);
-                    if (eq && C(i, j) == C(i - 1, j - 1)) { ops[n++] = (op){OP_MATCH, i - 1, j - 1}; i--; j--; continue; }
-                    if (!eq && sm && C(i, j) == C(i - 1, j - 1) + 1) { ops[n++] = (op){OP_CHANGED, i - 1, j - 1}; i--; j--; continue; }
+                    float dp = P(i - 1, j - 1) + PEN(i, j);
+                    if (eq && C(i, j) == C(i - 1, j - 1) && dp == P(i, j)) { ops[n++] = (op){OP_MATCH, i - 1, j - 1}; i--; j--; continue; }
+                    if (!eq && sm && C(i, j) == C(i - 1, j - 1) + 1 && dp == P(i, j)) { ops[n++] = (op){OP_CHANGED, i - 1, j - 1}; i--; j--; continue; }
                 }
-                if (i > 0 && C(i, j) == C(i - 1, j) + 1) { ops[n++] = (op){OP_MISSING, i - 1, 0}; i--; continue; }
+                if (i > 0 && C(i, j) == C(i - 1, j) + 1 && P(i - 1, j) == P(i, j)) { ops[n++] = (op){OP_MISSING, i - 1, 0}; i--; continue; }
+                if (j > 0 && C(i, j) == C(i, j - 1) + 1 && P(i, j - 1) == P(i, j)) { ops[n++] = (op){OP_EXTRA, 0, j - 1}; j--; continue; }
+                /* unreachable: every cell came from one of the moves above; keep the old walk */
+                if (i > 0 && (j == 0 || C(i, j) == C(i - 1, j) + 1)) { ops[n++] = (op){OP_MISSING, i - 1, 0}; i--; continue; }
                 ops[n++] = (op){OP_EXTRA, 0, j - 1};
                 j--;
             }
+#undef PEN
+#undef P
 #undef C
             ulk_free(c);
+            ulk_free(pt);
+            ulk_free(sched);
             for (size_t a = 0; a < n / 2; a++) { op t = ops[a]; ops[a] = ops[n - 1 - a]; ops[n - 1 - a] = t; }
             return n;
         }
+        ulk_free(pt);
+        ulk_free(sched);
     }
     /* greedy: walk both lists in order */
     size_t i = 0, j = 0;

@@ -162,6 +162,18 @@ class DecodeExt(unittest.TestCase):
         self.assertEqual([e["mnemonic"] for e in rep["extra"]], ["OBC_NOOP"])
         self.assertEqual(rep["changed"], [])
 
+    def test_verify_blames_the_word_out_of_place(self):
+        # Review finding: the capture holds word 3 (THERM_SETPOINT) where it was sent and
+        # again in word 4's place (COMM_TUNE sent). Both scripts cost the same (one missing,
+        # one extra); the report must call the one at word 4's time the extra, not the word
+        # received where it was sent.
+        text = BASE_LIST.replace("COMM_TUNE offset=-2.5kHz\n", "THERM_SETPOINT zone=BATTERY setpoint=21.5degC\n")
+        path, truth = self.capture("dup", text=text, ebn0_db=13, ppm="40", delay_s="0.02", seed=8)
+        rep = self.verify_json(path)
+        self.assertEqual([m["mnemonic"] for m in rep["missing"]], ["COMM_TUNE"])
+        self.assertEqual([e["mnemonic"] for e in rep["extra"]], ["THERM_SETPOINT"])
+        self.assertLess(abs(rep["extra"][0]["start_s"] - truth["words"][3]["start_s"]), 1e-3)
+
     def test_verify_refuses_other_dictionary(self):
         other = os.path.join(self.tmp.name, "other.yaml")
         with open(DICT) as f:
