@@ -48,7 +48,7 @@ typedef struct {
     /* complex captures only: */
     int complex_;            /* 1 when the capture was read as I/Q */
     char mode[64];           /* carrier mode used */
-    double m_data;           /* data index the phase was divided by (0: data off in the mode) */
+    double m_data;           /* data index the quadrature was divided by (0: data off in the mode) */
     double loop_bw_hz;       /* B_L of the carrier loop */
     ulk_crec_status crec;    /* carrier recovery: coarse and tracked offset */
     int has_ranging;
@@ -65,7 +65,8 @@ int cli_capture_opt(const char *cmd, int argc, char **argv, int *i, cli_capture_
 
 /* Reads path, demodulates with dict's link and interprets every word. A complex capture (a
  * .cf32/.ci16 or complex .sigmf-data, or a two-channel WAV with o->iq) goes through carrier
- * recovery first: the data channel is the composite phase divided by the mode's data index;
+ * recovery first: the data channel is the quadrature of the de-rotated signal (sin of the
+ * composite phase) divided by the mode's data index;
  * with o->voice_path / o->ranging the voice WAV is written (atomically, only on success) and
  * the code phase measured. Returns 0, or a
  * negative status with the reason in diag. The caller frees out with cli_capture_free. */

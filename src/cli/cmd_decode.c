@@ -208,7 +208,7 @@ static void print_human(const char *path, const cli_capture *c)
     if (c->complex_) {
         printf("carrier: mode %s, offset %+.3f Hz (coarse %+.3f Hz, line %.1f dB over the mean bin), loop B_L %g Hz",
                c->mode, c->crec.mean_freq_hz, c->crec.coarse_hz, c->crec.line_db, c->loop_bw_hz);
-        if (c->m_data > 0) printf("; data = phase / %g rad\n", c->m_data);
+        if (c->m_data > 0) printf("; data = quadrature / %g rad\n", c->m_data);
         else printf("; data is off in this mode\n");
     }
     if (c->has_ranging)

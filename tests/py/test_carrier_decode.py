@@ -87,6 +87,10 @@ def decode_checks(tag, cap, extra, n_words, d_chips, tone_hz, offset_hz, up, tmp
     acc = [w for w in j["words"] if w["status"] == "accepted"]
     check(len(acc) == n_words and len(j["words"]) == n_words,
           "%s: %d words, all accepted" % (tag, n_words), "got %d of %d" % (len(acc), len(j["words"])))
+    # the data channel (quadrature) carries the planner's P_d, so the decoder's E_b/N_0
+    # estimate (subbit-profile.md s.5 on that channel) is the 12 dB the noise was made for
+    eb = j["estimates"]["ebn0_db"]
+    check(abs(eb - 12) < 0.7, "%s: decoder's E_b/N_0 estimate %.2f dB for 12 dB" % (tag, eb))
     off = j["carrier"]["offset_hz"]
     check(abs(off - offset_hz) < 0.5, "%s: carrier offset %.3f Hz (sent %.1f)" % (tag, off, offset_hz))
     ph = j["ranging"]["code_phase_chips"]
