@@ -210,6 +210,7 @@ void ulk_carrier_destroy(ulk_carrier *c)
     }
     ulk_free(c->modes);
     ulk_free(c->file);
+    ulk_free(c->voice_audio);
     ulk_free(c);
 }
 
@@ -449,6 +450,8 @@ struct ulk_cgen {
     /* voice */
     double m_voice, beta;
     phase_acc pv, pa;
+    ulk_vaudio *va;   /* audio from a file (NULL: the test tone) */
+    double *vcyc;     /* its phase term per sample of a chunk, cycles */
     /* ranging: chip k = floor(i * chip_rate / fs) mod N, kept as count + remainder */
     double m_ranging;
     uint8_t *chips;
@@ -464,6 +467,8 @@ void ulk_cgen_destroy(ulk_cgen *g)
     if (!g) return;
     ulk_free(g->dbuf);
     ulk_free(g->chips);
+    ulk_vaudio_destroy(g->va);
+    ulk_free(g->vcyc);
     ulk_free(g);
 }
 
@@ -498,10 +503,22 @@ int ulk_cgen_create(const ulk_cgen_config *cfg, ulk_cgen **out, ulk_diag *diag)
     }
     if (mo->on[ULK_CH_VOICE]) {
         g->m_voice = mo->m_rad[ULK_CH_VOICE];
-        g->beta = ulk_ratio_to_double(c->voice_dev_hz) / ulk_ratio_to_double(c->voice_tone_hz);
-        if (phase_init(&g->pv, c->voice_fv_hz, cfg->fs) || phase_init(&g->pa, c->voice_tone_hz, cfg->fs)) {
-            rc = ULK_ELIMIT;
-            goto fail;
+        if (c->voice_audio) {
+            if (phase_init(&g->pv, c->voice_fv_hz, cfg->fs)) { rc = ULK_ELIMIT; goto fail; }
+            int vr = ulk_vaudio_create(c->voice_audio, c->voice_audio_channel, cfg->fs,
+                                       ulk_ratio_to_double(c->voice_dev_hz), &g->va, diag);
+            if (vr) {
+                ulk_cgen_destroy(g);
+                return vr; /* the reason, naming the file, is in diag */
+            }
+            g->vcyc = ulk_malloc(CGEN_CHUNK * sizeof(double));
+            if (!g->vcyc) { rc = ULK_ENOMEM; goto fail; }
+        } else {
+            g->beta = ulk_ratio_to_double(c->voice_dev_hz) / ulk_ratio_to_double(c->voice_tone_hz);
+            if (phase_init(&g->pv, c->voice_fv_hz, cfg->fs) || phase_init(&g->pa, c->voice_tone_hz, cfg->fs)) {
+                rc = ULK_ELIMIT;
+                goto fail;
+            }
         }
     }
     if (mo->on[ULK_CH_RANGING]) {
@@ -542,11 +559,16 @@ long ulk_cgen_run(ulk_cgen *g, float *iq, size_t max)
         if ((size_t)got < n) n = (size_t)got;
     }
     if (n == 0) { g->done = 1; return 0; }
+    if (g->va) {
+        long vr = ulk_vaudio_run(g->va, g->vcyc, n);
+        if (vr < 0) return vr;
+    }
     for (size_t i = 0; i < n; i++) {
         double ph = 0;
         if (mo->on[ULK_CH_DATA]) ph += g->m_data * (double)g->dbuf[i];
         if (mo->on[ULK_CH_VOICE]) {
-            double th = 2 * M_PI * phase_frac(&g->pv) + g->beta * (1.0 - cos(2 * M_PI * phase_frac(&g->pa)));
+            double th = g->va ? 2 * M_PI * (phase_frac(&g->pv) + g->vcyc[i])
+                              : 2 * M_PI * phase_frac(&g->pv) + g->beta * (1.0 - cos(2 * M_PI * phase_frac(&g->pa)));
             ph += g->m_voice * sin(th);
             phase_next(&g->pv);
             phase_next(&g->pa);

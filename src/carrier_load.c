@@ -271,18 +271,53 @@ static void load_ranging(lctx *x, ulk_node *rn)
     if (x->n_err == e0) c->has_ranging = 1;
 }
 
+/* Audio bandwidth assumed for Carson's rule when the voice comes from a file and the section
+ * does not say (audio_bandwidth_hz): the telephone speech band's upper edge, common practice. */
+#define AUDIO_BW_DEFAULT_HZ 3400
+
+static char *relative_to(const char *base, const char *rel);
+
 static void load_voice(lctx *x, ulk_node *vn)
 {
     ulk_carrier *c = x->c;
-    static const char *const keys[] = {"subcarrier_hz", "deviation_hz", "tone_hz", "required_pn0_dbhz", "bounds", NULL};
-    static const char *const req[] = {"subcarrier_hz", "deviation_hz", "tone_hz", NULL};
+    static const char *const keys[] = {"subcarrier_hz", "deviation_hz", "tone_hz", "audio", "audio_channel",
+                                       "audio_bandwidth_hz", "required_pn0_dbhz", "bounds", NULL};
+    static const char *const req[] = {"subcarrier_hz", "deviation_hz", NULL};
     if (!want_map(x, vn, "carrier.voice")) return;
     int e0 = x->n_err;
     check_keys(x, vn, "carrier.voice", keys, req);
-    ulk_node *n;
+    ulk_node *n, *tone = ulk_node_get(vn, "tone_hz"), *audio = ulk_node_get(vn, "audio");
     if ((n = ulk_node_get(vn, "subcarrier_hz"))) get_rate(x, n, &c->voice_fv_hz, 0);
     if ((n = ulk_node_get(vn, "deviation_hz"))) get_rate(x, n, &c->voice_dev_hz, 0);
-    if ((n = ulk_node_get(vn, "tone_hz"))) get_rate(x, n, &c->voice_tone_hz, 0);
+    c->voice_audio_channel = -1;
+    if (tone && audio) {
+        err(x, audio, "the voice takes either a test tone (tone_hz) or an audio file (audio), not both");
+    } else if (!tone && !audio) {
+        err(x, vn, "the voice needs its audio: a test tone (tone_hz: HZ) or an audio file (audio: FILE.wav)");
+    }
+    if (tone) get_rate(x, tone, &c->voice_tone_hz, 0);
+    if (!audio) {
+        ulk_node *k = ulk_node_get(vn, "audio_channel") ? ulk_node_get(vn, "audio_channel")
+                                                        : ulk_node_get(vn, "audio_bandwidth_hz");
+        if (k) err(x, k, "audio_channel and audio_bandwidth_hz go with an audio file (audio: FILE.wav)");
+    } else {
+        if (audio->kind != ULK_NODE_SCALAR || ulk_scalar_resolve(audio) != ULK_SC_STRING || !audio->len) {
+            err(x, audio, "audio must be a file name (relative to this file's folder), not %s",
+                ulk_node_type_name(audio));
+        } else {
+            c->voice_audio = x->doc->file ? relative_to(x->doc->file, audio->text) : ulk_strdup(audio->text);
+            if (!c->voice_audio) x->oom = 1;
+        }
+        if ((n = ulk_node_get(vn, "audio_channel"))) {
+            if (n->kind != ULK_NODE_SCALAR || ulk_scalar_resolve(n) != ULK_SC_INT || atol(n->text) < 0 ||
+                atol(n->text) > 255)
+                err(x, n, "audio_channel must be a whole number 0..255 (0 = the first channel)");
+            else
+                c->voice_audio_channel = (int)atol(n->text);
+        }
+        c->voice_tone_hz = ulk_ratio_make(AUDIO_BW_DEFAULT_HZ, 1);
+        if ((n = ulk_node_get(vn, "audio_bandwidth_hz"))) get_rate(x, n, &c->voice_tone_hz, 0);
+    }
     if ((n = ulk_node_get(vn, "required_pn0_dbhz")) && get_num(x, n, &c->voice_pn0_req_dbhz))
         c->has_voice_need = 1;
     get_bounds(x, ulk_node_get(vn, "bounds"), &c->bound_lo[ULK_CH_VOICE], &c->bound_hi[ULK_CH_VOICE]);

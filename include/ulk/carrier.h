@@ -120,7 +120,13 @@ typedef struct {
     int has_voice;
     ulk_ratio voice_fv_hz;     /* f_v */
     ulk_ratio voice_dev_hz;    /* Delta, peak deviation */
-    ulk_ratio voice_tone_hz;   /* f_a of the test tone */
+    ulk_ratio voice_tone_hz;   /* f_a of the test tone; with audio, the audio bandwidth
+                                * (audio_bandwidth_hz, default 3400 Hz) that Carson's rule,
+                                * the rate rule and the voice demodulator use */
+    char *voice_audio;         /* audio file (relative paths resolved against the dictionary's
+                                * folder), NULL: the test tone. Owned by the carrier. */
+    int voice_audio_channel;   /* channel (0-based) of a multi-channel audio file; -1: refuse
+                                * multi-channel files */
     int has_voice_need;
     double voice_pn0_req_dbhz;
 
@@ -226,7 +232,10 @@ typedef struct {
 
 typedef struct ulk_cgen ulk_cgen;
 
-/* Creates a generator. Returns 0 and *out; ULK_EINVAL (NULL, rate not > 0, data on without
+/* Creates a generator. With voice on and carrier->voice_audio set, the voice audio comes
+ * from that file (ulk_vaudio_create, opened here: its errors -- ULK_EIO, ULK_EFORMAT,
+ * ULK_EINVAL for a silent file or a channel choice -- pass on with the file named in diag).
+ * Returns 0 and *out; ULK_EINVAL (NULL, rate not > 0, data on without
  * data_fn, a channel on that the carrier does not define); ULK_ELIMIT (rates whose exact
  * ratios do not fit 62-bit integers, ranging degree above the limit); ULK_ENOMEM. Reason in
  * diag (may be NULL). Free with ulk_cgen_destroy(). */
@@ -243,6 +252,41 @@ void ulk_cgen_destroy(ulk_cgen *g);
  * ULK_ELIMIT (ratios too fine). For tests and the generator. */
 int ulk_voice_tone_phase(ulk_ratio fv, ulk_ratio dev, ulk_ratio fa, ulk_ratio fs, uint64_t i,
                          double *phase_rad);
+
+/* ---- voice audio from a sound file ----
+ * The voice phase term 2 pi Delta integral_0^t a(u) du for audio read from a file (WAV, or
+ * anything libsndfile reads), streamed in chunks so memory stays flat whatever its length:
+ *  - a(t) is the file's samples divided by their largest magnitude (two passes over the
+ *    file: the first finds the peak), so its peak is 1; a silent file is refused;
+ *  - resampled to the output rate by linear interpolation between the two input samples
+ *    around t = i / fs, the position i * f_in / fs taken exactly (integer count and
+ *    remainder on the sample index; f_in is whole for sound files, fs any exact rate). No
+ *    anti-alias filter: the output rate is normally far above the audio's;
+ *  - after the last sample the audio is silent (a = 0; the interpolation runs from the last
+ *    sample to 0 over one input period), so the phase term holds its final value;
+ *  - integrated by the trapezoidal rule on the output samples: I_0 = 0,
+ *    I_i = I_{i-1} + (a_{i-1} + a_i) / (2 fs). */
+typedef struct ulk_vaudio ulk_vaudio;
+/* Opens path (channel: which channel of a multi-channel file, -1 refuses them) for output
+ * rate fs and peak deviation dev_hz. Reads the file once for its peak. Returns 0 and *out;
+ * ULK_EIO / ULK_EFORMAT (cannot open or read; not a sound file), ULK_EINVAL (NULL, rate not
+ * > 0, channel choice, a silent file, a rate that is not a whole number of Hz), ULK_ELIMIT
+ * (rates too fine for exact arithmetic), ULK_ENOMEM; the reason names the file in diag. Free
+ * with ulk_vaudio_destroy. */
+int ulk_vaudio_create(const char *path, int channel, ulk_ratio fs, double dev_hz, ulk_vaudio **out,
+                      ulk_diag *diag);
+/* Writes the next n values of Delta * I_i in cycles, reduced to [0, 1) (the phase term is
+ * 2 pi times it), in order from output sample 0. Returns n, or a negative status (ULK_EINVAL
+ * for NULL, the reader's ULK_EIO / ULK_EFORMAT; sticky). Never ends: silence follows the file. */
+long ulk_vaudio_run(ulk_vaudio *v, double *cycles, size_t n);
+/* The file's largest sample magnitude before normalisation, its rate (Hz) and frames. */
+double ulk_vaudio_peak(const ulk_vaudio *v);
+double ulk_vaudio_rate(const ulk_vaudio *v);
+uint64_t ulk_vaudio_frames(const ulk_vaudio *v);
+/* The reason of the last failed ulk_vaudio_run ("" when none; never NULL for non-NULL v). */
+const char *ulk_vaudio_error(const ulk_vaudio *v);
+/* Frees v; NULL does nothing. */
+void ulk_vaudio_destroy(ulk_vaudio *v);
 
 /* ---- ranging correlation (composite-carrier.md section 3) ----
  * The received chip index of a capture delayed by D chips is floor(t * chip_rate - D) mod N.

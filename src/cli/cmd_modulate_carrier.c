@@ -35,11 +35,12 @@ static void usage(FILE *out)
 {
     fprintf(out,
             "usage: ulk modulate UPLOAD --carrier --mode NAME --dict DICT -o OUT --rate HZ\n"
-            "                    [--offset HZ] [--format f32|s16] [-q]\n"
+            "                    [--offset HZ] [--format f32|s16] [--voice-audio FILE.wav\n"
+            "                    [--voice-channel N]] [-q]\n"
             "\n"
             "Writes the complex baseband x(t) = exp(j(sum_k m_k c_k(t) + 2 pi f_o t)) of one mode of\n"
             "the dictionary's composite carrier: the upload's samples are the data channel, the voice\n"
-            "test tone and the ranging code the other channels (docs/carrier.md). The upload must\n"
+            "(test tone or audio file) and the ranging code the other channels (docs/carrier.md). The upload must\n"
             "have been compiled with this dictionary (its SHA-256 is checked).\n"
             "\n"
             "  OUT ending .cf32 / .ci16  raw interleaved I/Q, little-endian float or round(32767 x)\n"
@@ -58,6 +59,11 @@ static void usage(FILE *out)
             "                     rate) plus |offset|\n"
             "  --offset HZ        carrier offset f_o (default: the section's offset_hz, else 0)\n"
             "  --format f32|s16   sample type for .wav (the raw extensions say it)\n"
+            "  --voice-audio FILE the voice channel's audio from FILE (WAV or another sound file)\n"
+            "                     instead of the section's tone or audio: normalised to peak 1,\n"
+            "                     silence after its end; Carson's rule takes the section's\n"
+            "                     audio_bandwidth_hz, else 3400 Hz\n"
+            "  --voice-channel N  channel N (0-based) of a multi-channel FILE (else refused)\n"
             "  -q, --quiet        no summary\n"
             "  -h, --help         this text\n"
             "\nexit: 0 written, 1 refused (dictionary, mode, rate), 2 usage or I/O error\n\n%s",
@@ -120,7 +126,7 @@ static int has_suffix(const char *s, const char *suf)
 /* SigMF "ulk:" members (without braces) naming the upload, the dictionary and the mode.
  * Returns a cJSON-allocated string (free with cJSON_free) or NULL when out of memory. */
 static char *identity_json(const ulk_upload *u, const char *up_path, const ulk_dict *d, const ulk_carrier_mode *mo,
-                           ulk_ratio offset)
+                           ulk_ratio offset, const char *voice_audio)
 {
     cJSON *o = cJSON_CreateObject();
     cJSON *id = cJSON_AddObjectToObject(o, "ulk:upload");
@@ -141,6 +147,7 @@ static char *identity_json(const ulk_upload *u, const char *up_path, const ulk_d
         if (mo->on[ch]) ok &= cJSON_AddNumberToObject(ix, ulk_channel_name((ulk_channel)ch), mo->m_rad[ch]) != NULL;
     ulk_ratio_format(offset, buf, sizeof buf);
     ok &= cJSON_AddStringToObject(cm, "offset_hz_exact", buf) != NULL;
+    if (voice_audio && mo->on[ULK_CH_VOICE]) ok &= cJSON_AddStringToObject(cm, "voice_audio", voice_audio) != NULL;
     char *s = ok ? cJSON_PrintUnformatted(o) : NULL;
     cJSON_Delete(o);
     if (!s) return NULL;
@@ -155,7 +162,7 @@ static char *identity_json(const ulk_upload *u, const char *up_path, const ulk_d
 int cmd_modulate_carrier(int argc, char **argv)
 {
     const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *mode_name = NULL, *dict_path = NULL,
-               *offset_text = NULL, *fmt_text = NULL;
+               *offset_text = NULL, *fmt_text = NULL, *vaudio = NULL, *vchan_text = NULL;
     int quiet = 0;
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
@@ -173,6 +180,10 @@ int cmd_modulate_carrier(int argc, char **argv)
         else if (!strncmp(a, "--offset=", 9)) offset_text = a + 9;
         else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
         else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
+        else if (!strcmp(a, "--voice-audio") && i + 1 < argc) vaudio = argv[++i];
+        else if (!strncmp(a, "--voice-audio=", 14)) vaudio = a + 14;
+        else if (!strcmp(a, "--voice-channel") && i + 1 < argc) vchan_text = argv[++i];
+        else if (!strncmp(a, "--voice-channel=", 16)) vchan_text = a + 16;
         else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
         else if (!strcmp(a, "--timing") || !strncmp(a, "--timing=", 9)) {
             fprintf(stderr, "ulk modulate: --timing goes with real output only (run it without --carrier)\n");
@@ -194,6 +205,17 @@ int cmd_modulate_carrier(int argc, char **argv)
                     ? " (the carrier section comes from the dictionary the upload was compiled with)" : "");
         usage(stderr);
         return 2;
+    }
+    int vchan = -1;
+    if (vchan_text) {
+        char *end;
+        long v = strtol(vchan_text, &end, 10);
+        if (!vaudio || end == vchan_text || *end || v < 0 || v > 255) {
+            fprintf(stderr, "ulk modulate: --voice-channel '%s': %s\n", vchan_text,
+                    vaudio ? "expected a channel number 0..255" : "goes with --voice-audio FILE");
+            return 2;
+        }
+        vchan = (int)v;
     }
     ulk_ratio fs;
     int prc = ulk_ratio_parse(rate_text, &fs);
@@ -318,6 +340,19 @@ int cmd_modulate_carrier(int argc, char **argv)
     ulk_carrier cc = *c0;
     if (offset_given) cc.offset_hz = offset;
     const ulk_carrier_mode *mo = &cc.modes[mi];
+    if (vaudio) {
+        if (!mo->on[ULK_CH_VOICE]) {
+            fprintf(stderr, "ulk modulate: --voice-audio %s: mode '%s' has no voice channel on; nothing written\n",
+                    vaudio, mo->name);
+            code = 1;
+            goto done;
+        }
+        /* the copy points at the caller's file (relative to the working folder); Carson's
+         * bandwidth stays the section's audio_bandwidth_hz, or 3400 Hz in place of a tone */
+        if (!cc.voice_audio) cc.voice_tone_hz = ulk_ratio_make(3400, 1);
+        cc.voice_audio = (char *)vaudio;
+        cc.voice_audio_channel = vchan;
+    }
     fputs(ULK_CAUTION, stderr);
 
     char rate_norm[64];
@@ -364,7 +399,7 @@ int cmd_modulate_carrier(int argc, char **argv)
     char desc[512];
     snprintf(desc, sizeof desc, "ulk modulate --carrier: upload %s (dictionary %s %s), mode %s", up_path,
              up->dict_name ? up->dict_name : "?", up->dict_version ? up->dict_version : "?", mo->name);
-    extra = identity_json(up, up_path, dict, mo, cc.offset_hz);
+    extra = identity_json(up, up_path, dict, mo, cc.offset_hz, cc.voice_audio);
     buf = ulk_malloc(2 * CHUNK * sizeof(float));
     if (!extra || !buf) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", out_path); code = 2; goto fail; }
     ulk_sample_info info = {0};
