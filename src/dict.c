@@ -189,35 +189,13 @@ static int want_seq(bctx *c, ulk_node *n, const char *what)
     return 0;
 }
 
-static int in_list(const char *s, const char *const *list)
-{
-    for (int i = 0; list && list[i]; i++)
-        if (!strcmp(s, list[i])) return 1;
-    return 0;
-}
+static void report_err(void *ctx, ulk_node *n, const char *msg) { err((bctx *)ctx, n, "%s", msg); }
 
 /* Unknown keys (with did-you-mean) and missing required keys of a mapping. */
 static void check_keys(bctx *c, ulk_node *map, const char *what, const char *const *allowed,
                        const char *const *required)
 {
-    size_t na = 0;
-    while (allowed[na]) na++;
-    for (int i = 0; i < map->n; i++) {
-        const char *k = map->keys[i]->text;
-        if (in_list(k, allowed)) continue;
-        const char *sug = ulk_suggest(k, allowed, na);
-        if (sug) {
-            err(c, map->keys[i], "unknown key '%s' in %s (did you mean '%s'?)", k, what, sug);
-        } else {
-            char list[400] = "";
-            size_t used = 0;
-            for (size_t j = 0; j < na && used + 40 < sizeof list; j++)
-                used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", j ? ", " : "", allowed[j]);
-            err(c, map->keys[i], "unknown key '%s' in %s (expected one of: %s)", k, what, list);
-        }
-    }
-    for (int i = 0; required && required[i]; i++)
-        if (!ulk_node_get(map, required[i])) err(c, map, "%s has no '%s' (required)", what, required[i]);
+    ulk_node_check_keys(map, what, allowed, required, report_err, c);
 }
 
 static const char *key_name(ulk_node *n)

@@ -727,3 +727,38 @@ int ulk_doc_parse(const char *file, const char *text, size_t len, int is_json, u
     *out = doc;
     return 0;
 }
+
+static int key_in_list(const char *s, const char *const *list)
+{
+    for (int i = 0; list && list[i]; i++)
+        if (!strcmp(s, list[i])) return 1;
+    return 0;
+}
+
+void ulk_node_check_keys(ulk_node *map, const char *what, const char *const *allowed,
+                         const char *const *required, ulk_node_report_fn report, void *ctx)
+{
+    char msg[1024];
+    size_t na = 0;
+    while (allowed[na]) na++;
+    for (int i = 0; i < map->n; i++) {
+        const char *k = map->keys[i]->text;
+        if (key_in_list(k, allowed)) continue;
+        const char *sug = ulk_suggest(k, allowed, na);
+        if (sug) {
+            snprintf(msg, sizeof msg, "unknown key '%s' in %s (did you mean '%s'?)", k, what, sug);
+        } else {
+            char list[400] = "";
+            size_t used = 0;
+            for (size_t j = 0; j < na && used + 40 < sizeof list; j++)
+                used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", j ? ", " : "", allowed[j]);
+            snprintf(msg, sizeof msg, "unknown key '%s' in %s (expected one of: %s)", k, what, list);
+        }
+        report(ctx, map->keys[i], msg);
+    }
+    for (int i = 0; required && required[i]; i++)
+        if (!ulk_node_get(map, required[i])) {
+            snprintf(msg, sizeof msg, "%s has no '%s' (required)", what, required[i]);
+            report(ctx, map, msg);
+        }
+}

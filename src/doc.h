@@ -93,4 +93,11 @@ const char *ulk_node_type_name(const ulk_node *n);
  * ULK_ELIMIT when the magnitude exceeds 2^64 - 1. */
 int ulk_parse_int_text(const char *text, int *neg, uint64_t *mag);
 
+/* Reports, through report(ctx, node, message), every key of map that is not in allowed (with a
+ * did-you-mean, or the list of keys expected) and every key of required that map lacks.
+ * allowed and required are NULL-terminated; required may be NULL. */
+typedef void (*ulk_node_report_fn)(void *ctx, ulk_node *n, const char *msg);
+void ulk_node_check_keys(ulk_node *map, const char *what, const char *const *allowed,
+                         const char *const *required, ulk_node_report_fn report, void *ctx);
+
 #endif
