@@ -38,6 +38,15 @@ if [ "$(id -u)" -eq 0 ]; then
   fi
 fi
 
+# The as-user rows run the program and read the dictionary as that user: when the checkout is
+# out of its reach (a clone under /root, say), they get copies in the work folder.
+UULK=$ULK UDICT=$DICT
+if [ ${#AS_USER[@]} -gt 0 ] && ! "${AS_USER[@]}" sh -c 'test -x "$1" && test -r "$2"' sh "$ULK" "$DICT" 2>/dev/null; then
+  cp "$ULK" "$work/ulk-as-user" && cp "$DICT" "$work/dict-as-user.yaml" &&
+    chmod 755 "$work/ulk-as-user" && chmod 644 "$work/dict-as-user.yaml"
+  UULK=$work/ulk-as-user UDICT=$work/dict-as-user.yaml
+fi
+
 passed=0 failed=0 xfailed=0 skipped=0
 # commands this build has (decode and verify came last; a build without them skips their rows)
 have() { ! "$ULK" "$1" --help 2>&1 | grep -q "not available in this build"; }
@@ -252,16 +261,16 @@ row modulate-rate-1e12-raw "1|2" "is above the highest this tool writes" --absen
 # writer that renames a temporary file over its target would replace /dev/full with a regular
 # file (bugs-compile.md C1 did exactly that).
 # was bugs-compile.md C1: the upload writer renamed a temporary file over the device
-row compile-to-dev-full 2 "No space left" --as-user -- "$ULK" compile --dict "$DICT" "$work/one.cmd" -o /dev/full
+row compile-to-dev-full 2 "No space left" --as-user -- "$UULK" compile --dict "$UDICT" "$work/one.cmd" -o /dev/full
 row compile-to-proc 2 "/proc/ulk-cannot-exist/x.ulku" --absent /proc/ulk-cannot-exist/x.ulku -- "$ULK" compile --dict "$DICT" one.cmd -o /proc/ulk-cannot-exist/x.ulku
-row compile-read-only-folder 2 "Permission denied" --absent ro/x.ulku --as-user -- "$ULK" compile --dict "$DICT" "$work/one.cmd" -o "$work/ro/x.ulku"
-row modulate-wav-to-dev-full 2 "No space left" --as-user -- "$ULK" modulate "$work/one.ulku" -o /dev/full --rate 48000 -q
-row modulate-s16-to-dev-full 2 "No space left" --as-user -- "$ULK" modulate "$work/one.ulku" -o /dev/full --format s16 --rate 48000 -q
-row modulate-timing-to-dev-full 2 "No space left" --as-user -- "$ULK" modulate "$work/one.ulku" --timing /dev/full --rate 48000 -q
+row compile-read-only-folder 2 "Permission denied" --absent ro/x.ulku --as-user -- "$UULK" compile --dict "$UDICT" "$work/one.cmd" -o "$work/ro/x.ulku"
+row modulate-wav-to-dev-full 2 "No space left" --as-user -- "$UULK" modulate "$work/one.ulku" -o /dev/full --rate 48000 -q
+row modulate-s16-to-dev-full 2 "No space left" --as-user -- "$UULK" modulate "$work/one.ulku" -o /dev/full --format s16 --rate 48000 -q
+row modulate-timing-to-dev-full 2 "No space left" --as-user -- "$UULK" modulate "$work/one.ulku" --timing /dev/full --rate 48000 -q
 row modulate-to-proc 2 "cannot create" --absent /proc/x.wav -- "$ULK" modulate one.ulku -o /proc/x.wav --rate 48000 -q
-row modulate-wav-read-only-folder 2 "Permission denied" --absent ro/x.wav --as-user -- "$ULK" modulate "$work/one.ulku" -o "$work/ro/x.wav" --rate 48000 -q
-row modulate-raw-read-only-folder 2 "Permission denied" --absent ro/x.f32 --absent ro/x.sigmf-meta --as-user -- "$ULK" modulate "$work/one.ulku" -o "$work/ro/x.f32" --rate 48000 -q
-row modulate-timing-read-only-folder 2 "Permission denied" --absent ro/x.csv --as-user -- "$ULK" modulate "$work/one.ulku" --timing "$work/ro/x.csv" --rate 48000 -q
+row modulate-wav-read-only-folder 2 "Permission denied" --absent ro/x.wav --as-user -- "$UULK" modulate "$work/one.ulku" -o "$work/ro/x.wav" --rate 48000 -q
+row modulate-raw-read-only-folder 2 "Permission denied" --absent ro/x.f32 --absent ro/x.sigmf-meta --as-user -- "$UULK" modulate "$work/one.ulku" -o "$work/ro/x.f32" --rate 48000 -q
+row modulate-timing-read-only-folder 2 "Permission denied" --absent ro/x.csv --as-user -- "$UULK" modulate "$work/one.ulku" --timing "$work/ro/x.csv" --rate 48000 -q
 if [ "$(id -u)" -eq 0 ] && [ ! -c /dev/full ]; then
   failed=$((failed + 1)); echo "FAIL  /dev/full is no longer a character device: a writer replaced it"
 fi
