@@ -86,32 +86,7 @@ static const char BASE_JSON[] =
     "  ]\n"                                                                   /* 20 */
     "}\n";                                                                    /* 21 */
 
-/* Replaces the first occurrence of find in *text (which it frees) by repl. */
-static char *replace(char *text, const char *find, const char *repl)
-{
-    char *at = strstr(text, find);
-    if (!at) fail_msg("row text '%s' is not in the base dictionary", find);
-    size_t a = (size_t)(at - text), fl = strlen(find), rl = strlen(repl), tl = strlen(text);
-    char *out = malloc(tl - fl + rl + 1);
-    memcpy(out, text, a);
-    memcpy(out + a, repl, rl);
-    memcpy(out + a + rl, at + fl, tl - a - fl + 1);
-    free(text);
-    return out;
-}
-
-typedef struct {
-    const char *name;
-    int json;
-    const char *find1, *repl1, *find2, *repl2;
-    ulk_severity sev;
-    const char *expect; /* fragment of the message */
-    int line, col;
-    int loads;          /* 1: only warnings, the dictionary still loads */
-} row;
-
-#define E ULK_SEV_ERROR
-#define W ULK_SEV_WARNING
+#include "dict_rows.h"
 
 static const row rows[] = {
     /* ---- identifiers in range (CCSDS 232.0-B field widths) */
@@ -189,62 +164,9 @@ static const row rows[] = {
      "'start_errors' must be an integer, not a string", 11, 28, 0},
 };
 
-static void run_row(void **state)
-{
-    const row *r = *state;
-    char *text = strdup(r->json ? BASE_JSON : BASE_YAML);
-    text = replace(text, r->find1, r->repl1);
-    if (r->find2) text = replace(text, r->find2, r->repl2);
-    ulk_diag *dg = ulk_diag_create();
-    ulk_dict *d = NULL;
-    int rc = ulk_dict_load_mem(r->json ? "row.json" : "row.yaml", text, strlen(text), r->json, &d, dg);
-    if (r->loads == 2) {
-        /* A row that must load with no finding at all. */
-        if (rc || ulk_diag_count(dg)) {
-            ulk_diag_print(dg, stderr);
-            fail_msg("row %s: status %d, %zu findings; want none", r->name, rc, ulk_diag_count(dg));
-        }
-    } else {
-        int found = 0;
-        for (size_t i = 0; i < ulk_diag_count(dg); i++) {
-            const ulk_finding *f = ulk_diag_get(dg, i);
-            if (f->sev == r->sev && f->line == r->line && f->col == r->col && strstr(f->msg, r->expect)) found = 1;
-        }
-        if (!found) {
-            ulk_diag_print(dg, stderr);
-            fail_msg("row %s: no %s '%s' at %d:%d", r->name, r->sev == E ? "error" : "warning", r->expect, r->line,
-                     r->col);
-        }
-    }
-    if (r->loads) {
-        assert_int_equal(rc, 0);
-        assert_non_null(d);
-        assert_int_equal(ulk_diag_errors(dg), 0);
-        assert_int_equal(d->link.profile, ULK_PROFILE_CCSDS_TC);
-    } else {
-        assert_true(rc == ULK_EPARSE || rc == ULK_ELIMIT);
-        assert_null(d);
-    }
-    for (size_t i = 0; i < ulk_diag_count(dg); i++) assert_non_null(ulk_diag_get(dg, i)->file);
-    ulk_dict_destroy(d);
-    ulk_diag_destroy(dg);
-    free(text);
-}
+static void run_row(void **state) { dict_row_run(*state, BASE_YAML, BASE_JSON, ULK_PROFILE_CCSDS_TC); }
 
 /* ---------------------------------------------------------------- the valid dictionary */
-
-static ulk_dict *load_ok(const char *name, const char *text, int json)
-{
-    ulk_diag *dg = ulk_diag_create();
-    ulk_dict *d = NULL;
-    int rc = ulk_dict_load_mem(name, text, strlen(text), json, &d, dg);
-    if (rc || ulk_diag_count(dg)) {
-        ulk_diag_print(dg, stderr);
-        fail_msg("%s: status %d, %zu findings", name, rc, ulk_diag_count(dg));
-    }
-    ulk_diag_destroy(dg);
-    return d;
-}
 
 static void check_model(const ulk_dict *d)
 {
