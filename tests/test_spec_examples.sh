@@ -55,7 +55,7 @@ for list in "${lists[@]}"; do
     n_checked=$((n_checked + 1))
     if [ "$want_rc" -ne 0 ]; then
         [ -e "$T/$name.upl" ] && fail "$name.cmd: refused, yet an upload was left behind"
-        ls "$T" | grep -q '\.tmp' && fail "$name.cmd: a temporary file was left behind"
+        for left in "$T"/*.tmp*; do fail "$name.cmd: a temporary file was left behind: $left"; done
     fi
     [ -f "$expect" ] || continue
     # messages: fragments of stderr
@@ -99,10 +99,15 @@ sys.exit(1 if bad else 0)
 PY
 )
     prc=$?
-    echo "$out" | grep '^FAIL' && fails=$((fails + $(echo "$out" | grep -c '^FAIL')))
-    [ $prc -eq 0 ] || [ -n "$(echo "$out" | grep '^FAIL')" ] || fail "$name: the comparison did not run (python3 exit $prc): $out"
+    n_bad=$(echo "$out" | grep -c '^FAIL')
+    if [ "$n_bad" -gt 0 ]; then
+        echo "$out" | grep '^FAIL'
+        fails=$((fails + n_bad))
+    elif [ $prc -ne 0 ]; then
+        fail "$name: the comparison did not run (python3 exit $prc): $out"
+    fi
     k=$(echo "$out" | sed -n 's/^facts //p')
-    [ -n "$k" ] && [ "$k" -gt 0 ] || fail "$name.expect: no facts compared"
+    if [ -z "$k" ] || [ "$k" -le 0 ]; then fail "$name.expect: no facts compared"; fi
     n_facts=$((n_facts + ${k:-0}))
 done
 if [ $fails -ne 0 ]; then
