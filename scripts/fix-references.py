@@ -71,9 +71,16 @@ SYSTEM_DIRS = {"tmp", "dev", "usr", "proc", "sys", "etc", "bin", "sbin", "lib", 
 SKIP_FILES = {".gitignore"}  # its patterns are relative to the repository by definition
 
 
+SPEC_REF = re.compile(r"docs/spec/([\w.-]+\.md)")
+
+
 def outside_refs(line):
-    """The references to places outside the repository in one line of text."""
+    """The references to places outside the repository in one line of text, and references
+    into docs/spec/ that name no page there (a rewritten path must land on a real page)."""
     found = [m.group(0) for m in OUTSIDE_NAMES.finditer(line)]
+    for m in SPEC_REF.finditer(line):
+        if not os.path.isfile(os.path.join(ROOT, "docs", "spec", m.group(1))):
+            found.append(m.group(0) + " (no such page)")
     for m in ABS_PATH.finditer(line):
         top = m.group(1)
         if top not in SYSTEM_DIRS and not top.startswith("nonexistent"):
@@ -113,7 +120,10 @@ def main(argv):
         if a == "--check":
             check_only = True
         elif a in ("-h", "--help"):
-            print(__doc__)
+            try:
+                print(__doc__)
+            except BrokenPipeError:
+                pass
             return 0
         elif a.startswith("-"):
             print("fix-references: unknown option %r" % a, file=sys.stderr)
