@@ -104,6 +104,8 @@ static void rx_count(ulk_rx *rx, const ulk_decoded *d)
     } else {
         rx->counts.n_rejected++;
         if (d->reject == ULK_REJ_VEHICLE || d->reject == ULK_REJ_SYSTEM) rx->counts.n_rejected_address++;
+        if (d->reject == ULK_REJ_LENGTH || d->reject == ULK_REJ_ALIGNMENT || d->reject == ULK_REJ_CHECK)
+            rx->counts.n_rejected_damaged++;
     }
 }
 

@@ -95,6 +95,9 @@ typedef struct {
     uint64_t n_rejected;
     uint64_t n_rejected_address; /* rejected for the vehicle or system address (APID): words
                                     of another vehicle, or a wrong dictionary */
+    uint64_t n_rejected_damaged; /* rejected before the address could be trusted: length,
+                                    alignment, check (for a CLTU: start sequence, codeblocks,
+                                    frame, FECF, packet) */
 } ulk_rx_counts;
 
 typedef struct {

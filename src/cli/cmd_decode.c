@@ -3,7 +3,8 @@
  * [--voice OUT.wav] [--ranging]`: recover words and commands from a capture, blind (unknown
  * start, clock error, level, DC, polarity, noise); a complex capture of the composite carrier
  * through carrier recovery first, with its voice and ranging channels on request.
- * Exit 0 words found; 1 no word found; 2 usage, dictionary or I/O error. */
+ * Exit 0 a command accepted; 1 no command found (reason on stderr); 2 usage, dictionary or I/O
+ * error. */
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdio.h>
@@ -57,7 +58,9 @@ static void usage(FILE *out)
             "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
             "measured against the capture's sample clock.\n"
-            "\nexit: 0 words found, 1 no word found, 2 usage, dictionary or I/O error\n");
+            "\nexit: 0 at least one command accepted; 1 no command found (the reason in one line on\n"
+            "      stderr: no signal, or words found but none for this dictionary's addresses, or all\n"
+            "      rejected); 2 usage, dictionary or I/O error\n");
 }
 
 /* One decode's output state: JSON is written as the units arrive (the array incrementally,
@@ -367,6 +370,27 @@ static int parse_args(int argc, char **argv, dec_args *a)
     return cli_capture_check("decode", &a->o) < 0 ? 2 : 0;
 }
 
+/* Exit 0 when a command was accepted; else 1 with the reason in one line on stderr. */
+static int no_command(const dec_ctx *x)
+{
+    const ulk_rx_counts *c = &x->counts;
+    if (c->n_accepted > 0) return 0;
+    unsigned long long n = c->n_units, na = c->n_rejected_address, nd = c->n_rejected_damaged;
+    const char *unit = x->first_is_tc ? "CLTU" : "word";
+    if (n == 0)
+        fprintf(stderr, "ulk decode: no command found: %s\n",
+                x->est.demod.signal_found ? "a signal, but no complete word or CLTU in it" : "no signal in the capture");
+    else if (na > 0 && na + nd == n)
+        fprintf(stderr,
+                "ulk decode: no command found: %llu %s%s found, and none of the %llu intact ones matched the "
+                "dictionary's vehicle and system addresses (another vehicle's uplink, or the wrong dictionary?)\n",
+                n, unit, n == 1 ? "" : "s", na);
+    else
+        fprintf(stderr, "ulk decode: no command found: %llu %s%s found, all rejected (%llu damaged, %llu for another "
+                        "address, %llu for an unknown command or argument)\n", n, unit, n == 1 ? "" : "s", nd, na, n - nd - na);
+    return 1;
+}
+
 /* Runs the receiver over the capture, writing as it goes. Returns the exit code. */
 static int run(const dec_args *a, const ulk_dict *dict, dec_ctx *x, ulk_diag *diag)
 {
@@ -387,7 +411,7 @@ static int run(const dec_args *a, const ulk_dict *dict, dec_ctx *x, ulk_diag *di
         fprintf(stderr, "ulk decode: writing the output failed\n");
         return 2;
     }
-    int ret = x->counts.n_units > 0 ? 0 : 1;
+    int ret = no_command(x);
     if (a->plot_path) {
         char title[512];
         snprintf(title, sizeof title, "%s (%s)", a->capture, dict->name ? dict->name : a->dict_path);
