@@ -11,6 +11,9 @@
 #include "ulk/error.h"
 
 static long g_alloc_count;
+#ifdef ULK_FAULT_INJECTION
+/* Test builds only (CMake's ulk_test library and the ulk_fi program): the shipped library
+ * never reads the variable. */
 static long g_fail_at = -1; /* -1: not yet read from the environment */
 
 static int alloc_should_fail(void)
@@ -22,8 +25,18 @@ static int alloc_should_fail(void)
     g_alloc_count++;
     return g_fail_at > 0 && g_alloc_count >= g_fail_at;
 }
-
 void ulk_alloc_fail_at(long n) { g_fail_at = n; g_alloc_count = 0; }
+#else
+/* The shipped library: allocations are counted, never failed on purpose. */
+static int alloc_should_fail(void)
+{
+    g_alloc_count++;
+    return 0;
+}
+
+void ulk_alloc_fail_at(long n) { (void)n; g_alloc_count = 0; }
+#endif
+
 long ulk_alloc_count(void) { return g_alloc_count; }
 
 void *ulk_malloc(size_t n) { return alloc_should_fail() ? NULL : malloc(n ? n : 1); }

@@ -16,7 +16,8 @@ void *ulk_realloc(void *p, size_t n);
 void ulk_free(void *p);
 char *ulk_strdup(const char *s);
 char *ulk_strndup(const char *s, size_t n);
-/* Fail allocation number n (1-based) and every later one; 0 disables. */
+/* Fail allocation number n (1-based) and every later one; 0 disables. Only in the test build
+ * of the library (ULK_FAULT_INJECTION, CMake's ulk_test); in the shipped one it does nothing. */
 void ulk_alloc_fail_at(long n);
 /* Allocations made so far. */
 long ulk_alloc_count(void);

@@ -3,7 +3,8 @@
  * [--voice OUT.wav] [--ranging]`: recover words and commands from a capture, blind (unknown
  * start, clock error, level, DC, polarity, noise); a complex capture of the composite carrier
  * through carrier recovery first, with its voice and ranging channels on request.
- * Exit 0 words found; 1 no word found; 2 usage, dictionary or I/O error. */
+ * Exit 0 a command accepted; 1 no command found (reason on stderr); 2 usage, dictionary or I/O
+ * error. */
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdio.h>
@@ -13,9 +14,9 @@
 #include "capture.h"
 #include "cli.h"
 #include "ulk/decode.h"
-#include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/plot.h"
+#include "ulk/rx.h"
 #include "util.h"
 
 static void usage(FILE *out)
@@ -57,23 +58,30 @@ static void usage(FILE *out)
             "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
             "measured against the capture's sample clock.\n"
-            "\nexit: 0 words found, 1 no word found, 2 usage, dictionary or I/O error\n");
+            "\nexit: 0 at least one command accepted; 1 no command found (the reason in one line on\n"
+            "      stderr: no signal, or words found but none for this dictionary's addresses, or all\n"
+            "      rejected); 2 usage, dictionary or I/O error\n");
 }
 
+/* One decode's output state: JSON is written as the units arrive (the array incrementally,
+ * byte for byte what one cJSON_Print of the whole document gives); human lines go to an
+ * anonymous temporary file so the summary can lead without holding the words in memory. */
 typedef struct {
+    const char *capture;
+    int json;
     ulk_plot *plot;
-} plot_ctx;
+    FILE *spool;            /* human: the unit lines, copied out after the summary */
+    size_t n_out;           /* units written */
+    int first_is_tc;        /* the first unit was a CLTU (the totals line says "CLTU") */
+    ulk_rx_estimates est;
+    ulk_rx_counts counts;
+    int failed;             /* out of memory building output */
+} dec_ctx;
 
 static void soft_cb(double t, float v, void *user)
 {
-    plot_ctx *p = user;
-    ulk_plot_soft(p->plot, t, v);
-}
-
-static void word_cb(double t, double margin, int accepted, void *user)
-{
-    plot_ctx *p = user;
-    ulk_plot_word(p->plot, t, margin, accepted);
+    dec_ctx *x = user;
+    ulk_plot_soft(x->plot, t, v);
 }
 
 /* A JSON value for one argument: label, boolean, exact integer or engineering number. */
@@ -111,98 +119,165 @@ static cJSON *num_or_null(int have, double v)
     return cJSON_CreateRaw(buf);
 }
 
-static int print_json(const cli_capture *c)
+/* One unit as a JSON object (interfaces.md; ccsds-tc adds the packet's identity). */
+static cJSON *unit_json(const ulk_rx_event *ev)
 {
-    cJSON *root = cJSON_CreateObject();
-    cJSON *words = cJSON_AddArrayToObject(root, "words");
-    int ok = root && words;
-    for (size_t i = 0; ok && i < c->n; i++) {
-        const cli_word *w = &c->w[i];
-        cJSON *o = cJSON_CreateObject();
-        ok = o != NULL;
-        if (!ok) break;
-        cJSON_AddItemToArray(words, o);
-        char buf[64];
-        snprintf(buf, sizeof buf, "%.9f", w->dw.start_s);
-        ok &= add_item(o, "start_s", cJSON_CreateRaw(buf));
-        int acc = w->dec.status == ULK_WORD_ACCEPTED;
-        ok &= cJSON_AddStringToObject(o, "status", acc ? "accepted" : "rejected") != NULL;
-        if (acc) {
-            ok &= cJSON_AddStringToObject(o, "mnemonic", w->dec.cmd->mnemonic) != NULL;
-            cJSON *args = cJSON_AddObjectToObject(o, "args");
-            ok &= args != NULL;
-            for (int k = 0; ok && k < w->dec.n_args; k++)
-                ok &= add_item(args, w->dec.args[k].arg->name, arg_json(&w->dec.args[k]));
-        } else {
-            ok &= cJSON_AddStringToObject(o, "reason", w->dec.reason) != NULL;
-            ok &= cJSON_AddStringToObject(o, "reject", ulk_reject_name(w->dec.reject)) != NULL;
-        }
-        ok &= cJSON_AddStringToObject(o, "hex", w->tc ? w->data_hex : w->dec.hex) != NULL;
-        if (w->tc) {
-            /* ccsds-tc: hex is the packet data field (opcode, arguments); the packet's identity */
-            ok &= cJSON_AddNumberToObject(o, "apid", w->dec.system) != NULL;
-            ok &= cJSON_AddNumberToObject(o, "sequence_count", w->seq_count) != NULL;
-            ok &= cJSON_AddNumberToObject(o, "frame_sequence", w->frame_seq) != NULL;
-            ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", w->n_corrected) != NULL;
-        }
-        snprintf(buf, sizeof buf, "%.3f", w->dw.margin);
-        ok &= add_item(o, "margin", cJSON_CreateRaw(buf));
-        ok &= cJSON_AddNumberToObject(o, "polarity", w->dw.polarity) != NULL;
-    }
-    cJSON *e = ok ? cJSON_AddObjectToObject(root, "estimates") : NULL;
-    if (e) {
-        int s = c->est.signal_found;
-        ok &= add_item(e, "ebn0_db", num_or_null(s, round(c->est.ebn0_db * 100) / 100));
-        ok &= add_item(e, "subcarrier_hz", num_or_null(s, round(c->est.subcarrier_hz * 1000) / 1000));
-        ok &= add_item(e, "rate_error_ppm", num_or_null(s, round(c->est.rate_error_ppm * 100) / 100));
-        ok &= cJSON_AddBoolToObject(e, "signal_found", s) != NULL;
-        ok &= cJSON_AddNumberToObject(e, "truncated_words", (double)c->est.n_truncated) != NULL;
+    const ulk_decoded *d = ev->dec;
+    cJSON *o = cJSON_CreateObject();
+    if (!o) return NULL;
+    char buf[64];
+    snprintf(buf, sizeof buf, "%.9f", ev->dw.start_s);
+    int ok = add_item(o, "start_s", cJSON_CreateRaw(buf));
+    int acc = d->status == ULK_WORD_ACCEPTED;
+    ok &= cJSON_AddStringToObject(o, "status", acc ? "accepted" : "rejected") != NULL;
+    if (acc) {
+        ok &= cJSON_AddStringToObject(o, "mnemonic", d->cmd->mnemonic) != NULL;
+        cJSON *args = cJSON_AddObjectToObject(o, "args");
+        ok &= args != NULL;
+        for (int k = 0; ok && k < d->n_args; k++) ok &= add_item(args, d->args[k].arg->name, arg_json(&d->args[k]));
     } else {
-        ok = 0;
+        ok &= cJSON_AddStringToObject(o, "reason", d->reason) != NULL;
+        ok &= cJSON_AddStringToObject(o, "reject", ulk_reject_name(d->reject)) != NULL;
     }
-    if (ok && c->complex_) {
-        cJSON *k = cJSON_AddObjectToObject(root, "carrier");
-        ok &= k != NULL;
-        if (k) {
-            ok &= cJSON_AddStringToObject(k, "mode", c->mode) != NULL;
-            ok &= add_item(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
-            ok &= add_item(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
-            ok &= add_item(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
-            ok &= add_item(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
-            ok &= add_item(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
-        }
+    ok &= cJSON_AddStringToObject(o, "hex", ev->hex) != NULL;
+    if (ev->kind == ULK_RX_CLTU) {
+        /* ccsds-tc: hex is the packet data field (opcode, arguments); the packet's identity */
+        ok &= cJSON_AddNumberToObject(o, "apid", d->system) != NULL;
+        ok &= cJSON_AddNumberToObject(o, "sequence_count", ev->seq_count) != NULL;
+        ok &= cJSON_AddNumberToObject(o, "frame_sequence", ev->frame_seq) != NULL;
+        ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", ev->n_corrected) != NULL;
     }
-    if (ok && c->has_ranging) {
-        cJSON *k = cJSON_AddObjectToObject(root, "ranging");
-        ok &= k != NULL;
-        if (k) {
-            ok &= add_item(k, "code_phase_chips", num_or_null(1, round(c->ranging.phase_chips * 1e4) / 1e4));
-            ok &= add_item(k, "delay_s", num_or_null(1, c->ranging.delay_s));
-            ok &= add_item(k, "peak_to_mean", num_or_null(1, round(c->ranging.peak_to_mean * 100) / 100));
-        }
+    snprintf(buf, sizeof buf, "%.3f", ev->dw.margin);
+    ok &= add_item(o, "margin", cJSON_CreateRaw(buf));
+    ok &= cJSON_AddNumberToObject(o, "polarity", ev->dw.polarity) != NULL;
+    if (!ok) {
+        cJSON_Delete(o);
+        return NULL;
     }
-    if (ok && c->voice_rate_hz) {
-        cJSON *k = cJSON_AddObjectToObject(root, "voice");
-        ok &= k != NULL;
-        if (k) {
-            ok &= cJSON_AddNumberToObject(k, "rate_hz", c->voice_rate_hz) != NULL;
-            ok &= cJSON_AddNumberToObject(k, "samples", (double)c->voice_samples) != NULL;
-        }
+    return o;
+}
+
+/* Prints o (formatted) as a member at the given depth: cJSON_Print's layout, its newlines
+ * followed by depth tabs. A string never holds a raw newline, so every newline is layout. */
+static int print_nested(const cJSON *o, int depth)
+{
+    char *txt = o ? cJSON_Print(o) : NULL;
+    if (!txt) return -1;
+    for (const char *p = txt; *p; p++) {
+        putchar(*p);
+        if (*p == '\n')
+            for (int k = 0; k < depth; k++) putchar('\t');
     }
-    char *txt = ok ? cJSON_Print(root) : NULL;
-    cJSON_Delete(root);
-    if (!txt) { fprintf(stderr, "ulk decode: out of memory\n"); return -1; }
-    printf("%s\n", txt);
     cJSON_free(txt);
     return 0;
 }
 
-static void print_human(const char *path, const cli_capture *c)
+static void json_unit(dec_ctx *x, const ulk_rx_event *ev)
 {
-    printf("%s: %g Hz, %.3f s", path, c->fs_hz, c->duration_s);
-    if (c->est.signal_found)
-        printf("; E_b/N_0 %.1f dB, subcarrier %.3f Hz, clock error %+.1f ppm\n", c->est.ebn0_db, c->est.subcarrier_hz,
-               c->est.rate_error_ppm);
+    cJSON *o = unit_json(ev);
+    fputs(x->n_out ? ", " : "{\n\t\"words\":\t[", stdout);
+    if (print_nested(o, 2) < 0) x->failed = 1;
+    cJSON_Delete(o);
+}
+
+/* The estimates member. */
+static cJSON *estimates_json(const ulk_demod_estimates *d)
+{
+    cJSON *e = cJSON_CreateObject();
+    int s = d->signal_found, ok = e != NULL;
+    ok = ok && add_item(e, "ebn0_db", num_or_null(s, round(d->ebn0_db * 100) / 100));
+    ok = ok && add_item(e, "subcarrier_hz", num_or_null(s, round(d->subcarrier_hz * 1000) / 1000));
+    ok = ok && add_item(e, "rate_error_ppm", num_or_null(s, round(d->rate_error_ppm * 100) / 100));
+    ok = ok && cJSON_AddBoolToObject(e, "signal_found", s) != NULL;
+    ok = ok && cJSON_AddNumberToObject(e, "truncated_words", (double)d->n_truncated) != NULL;
+    if (!ok) cJSON_Delete(e);
+    return ok ? e : NULL;
+}
+
+/* The complex capture's members: carrier, ranging, voice (NULL where they do not apply). */
+static cJSON *carrier_json(const ulk_rx_estimates *c)
+{
+    cJSON *k = cJSON_CreateObject();
+    int ok = k != NULL;
+    ok = ok && cJSON_AddStringToObject(k, "mode", c->mode) != NULL;
+    ok = ok && add_item(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
+    ok = ok && add_item(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
+    ok = ok && add_item(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
+    ok = ok && add_item(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
+    ok = ok && add_item(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
+    if (!ok) cJSON_Delete(k);
+    return ok ? k : NULL;
+}
+
+static cJSON *ranging_json(const ulk_ranging_result *r)
+{
+    cJSON *k = cJSON_CreateObject();
+    int ok = k != NULL;
+    ok = ok && add_item(k, "code_phase_chips", num_or_null(1, round(r->phase_chips * 1e4) / 1e4));
+    ok = ok && add_item(k, "delay_s", num_or_null(1, r->delay_s));
+    ok = ok && add_item(k, "peak_to_mean", num_or_null(1, round(r->peak_to_mean * 100) / 100));
+    if (!ok) cJSON_Delete(k);
+    return ok ? k : NULL;
+}
+
+static cJSON *voice_json(const ulk_rx_estimates *c)
+{
+    cJSON *k = cJSON_CreateObject();
+    int ok = k != NULL;
+    ok = ok && cJSON_AddNumberToObject(k, "rate_hz", c->voice_rate_hz) != NULL;
+    ok = ok && cJSON_AddNumberToObject(k, "samples", (double)c->voice_samples) != NULL;
+    if (!ok) cJSON_Delete(k);
+    return ok ? k : NULL;
+}
+
+static void json_member(dec_ctx *x, const char *key, cJSON *v)
+{
+    printf(",\n\t\"%s\":\t", key);
+    if (print_nested(v, 1) < 0) x->failed = 1;
+    cJSON_Delete(v);
+}
+
+/* After the last unit: the array closed, then estimates and the complex capture's members. */
+static void json_tail(dec_ctx *x)
+{
+    fputs(x->n_out ? "]" : "{\n\t\"words\":\t[]", stdout);
+    const ulk_rx_estimates *c = &x->est;
+    json_member(x, "estimates", estimates_json(&c->demod));
+    if (c->complex_) json_member(x, "carrier", carrier_json(c));
+    if (c->has_ranging) json_member(x, "ranging", ranging_json(&c->ranging));
+    if (c->voice_rate_hz) json_member(x, "voice", voice_json(c));
+    fputs("\n}\n", stdout);
+}
+
+static void human_unit(dec_ctx *x, const ulk_rx_event *ev)
+{
+    const ulk_decoded *d = ev->dec;
+    char line[4096];
+    FILE *f = x->spool ? x->spool : stdout;
+    if (d->status == ULK_WORD_ACCEPTED) {
+        ulk_decoded_format(d, line, sizeof line);
+        if (ev->kind == ULK_RX_CLTU)
+            fprintf(f, "%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", ev->dw.start_s, line,
+                    d->system, ev->seq_count, ev->frame_seq, ev->n_corrected);
+        else
+            fprintf(f, "%12.6f s  %-48s # margin %.2f\n", ev->dw.start_s, line, ev->dw.margin);
+    } else if (ev->kind == ULK_RX_CLTU) {
+        fprintf(f, "%12.6f s  # rejected CLTU (%s): %s%s%s%s\n", ev->dw.start_s, ulk_reject_name(d->reject), d->reason,
+                ev->hex[0] ? " [data " : "", ev->hex, ev->hex[0] ? "]" : "");
+    } else {
+        fprintf(f, "%12.6f s  # rejected (%s): %s [hex %s]\n", ev->dw.start_s, ulk_reject_name(d->reject), d->reason,
+                d->hex);
+    }
+}
+
+/* After the last unit: the summary, the spooled unit lines, the totals. */
+static void human_tail(dec_ctx *x)
+{
+    const ulk_rx_estimates *c = &x->est;
+    printf("%s: %g Hz, %.3f s", x->capture, c->fs_hz, c->duration_s);
+    if (c->demod.signal_found)
+        printf("; E_b/N_0 %.1f dB, subcarrier %.3f Hz, clock error %+.1f ppm\n", c->demod.ebn0_db,
+               c->demod.subcarrier_hz, c->demod.rate_error_ppm);
     else
         printf("; no signal found\n");
     if (c->complex_) {
@@ -216,108 +291,164 @@ static void print_human(const char *path, const cli_capture *c)
                c->ranging.phase_chips, c->ranging.delay_s, c->ranging.peak_to_mean, c->ranging.n_periods);
     if (c->voice_rate_hz)
         printf("voice: %llu samples at %d Hz written\n", (unsigned long long)c->voice_samples, c->voice_rate_hz);
-    size_t acc = 0;
-    char line[4096];
-    for (size_t i = 0; i < c->n; i++) {
-        const cli_word *w = &c->w[i];
-        if (w->dec.status == ULK_WORD_ACCEPTED) {
-            acc++;
-            ulk_decoded_format(&w->dec, line, sizeof line);
-            if (w->tc)
-                printf("%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", w->dw.start_s, line,
-                       w->dec.system, w->seq_count, w->frame_seq, w->n_corrected);
-            else
-                printf("%12.6f s  %-48s # margin %.2f\n", w->dw.start_s, line, w->dw.margin);
-        } else if (w->tc) {
-            printf("%12.6f s  # rejected CLTU (%s): %s%s%s%s\n", w->dw.start_s, ulk_reject_name(w->dec.reject),
-                   w->dec.reason, w->data_hex[0] ? " [data " : "", w->data_hex, w->data_hex[0] ? "]" : "");
-        } else {
-            printf("%12.6f s  # rejected (%s): %s [hex %s]\n", w->dw.start_s, ulk_reject_name(w->dec.reject),
-                   w->dec.reason, w->dec.hex);
-        }
+    if (x->spool) {
+        char buf[8192];
+        size_t n;
+        rewind(x->spool);
+        while ((n = fread(buf, 1, sizeof buf, x->spool)) > 0) fwrite(buf, 1, n, stdout);
+        if (ferror(x->spool)) x->failed = 1;
     }
-    int tc = c->n && c->w[0].tc;
-    printf("%zu %s%s: %zu accepted, %zu rejected", c->n, tc ? "CLTU" : "word", c->n == 1 ? "" : "s", acc, c->n - acc);
-    if (c->est.n_truncated) printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->est.n_truncated);
+    unsigned long long n = x->counts.n_units, acc = x->counts.n_accepted;
+    printf("%llu %s%s: %llu accepted, %llu rejected", n, x->first_is_tc ? "CLTU" : "word", n == 1 ? "" : "s", acc, n - acc);
+    if (c->demod.n_truncated)
+        printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->demod.n_truncated);
     printf("\n");
 }
 
-int cmd_decode(int argc, char **argv)
+static int on_event(const ulk_rx_event *ev, void *user)
 {
-    const char *dict_path = NULL, *capture = NULL, *plot_path = NULL;
-    int json = 0;
+    dec_ctx *x = user;
+    switch (ev->kind) {
+    case ULK_RX_WARNING:
+        fprintf(stderr, "warning: %s\n", ev->text);
+        break;
+    case ULK_RX_WORD:
+    case ULK_RX_CLTU:
+        if (!x->n_out) x->first_is_tc = ev->kind == ULK_RX_CLTU;
+        if (x->json) json_unit(x, ev);
+        else human_unit(x, ev);
+        if (x->plot) ulk_plot_word(x->plot, ev->dw.start_s, ev->dw.margin, ev->dec->status == ULK_WORD_ACCEPTED);
+        x->n_out++;
+        break;
+    case ULK_RX_ESTIMATES:
+        x->est = *ev->est;
+        break;
+    case ULK_RX_END:
+        x->counts = ev->counts;
+        if (x->json) json_tail(x);
+        else human_tail(x);
+        break;
+    }
+    return x->failed ? ULK_ENOMEM : 0;
+}
+
+typedef struct {
+    const char *dict_path, *capture, *plot_path;
+    int json;
     cli_capture_opts o;
-    memset(&o, 0, sizeof o);
-    o.format = -1;
-    o.channel = -1;
+} dec_args;
+
+/* Returns 0 to go on, 1 after --help (exit 0), or 2 (usage error, message printed). */
+static int parse_args(int argc, char **argv, dec_args *a)
+{
+    memset(a, 0, sizeof *a);
+    cli_capture_init(&a->o);
     for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        int r = cli_capture_opt("decode", argc, argv, &i, &o);
+        const char *s = argv[i];
+        int r = cli_capture_opt("decode", argc, argv, &i, &a->o);
         if (r < 0) return 2;
         if (r > 0) continue;
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--json")) json = 1;
-        else if (!strcmp(a, "--ranging")) o.ranging = 1;
-        else if (!strcmp(a, "--dict") || !strcmp(a, "--plot") || !strcmp(a, "--voice")) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk decode: %s needs a value\n", a); return 2; }
-            if (!strcmp(a, "--dict")) dict_path = argv[++i];
-            else if (!strcmp(a, "--voice")) o.voice_path = argv[++i];
-            else plot_path = argv[++i];
-        } else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk decode: unknown option '%s' (ulk decode --help)\n", a);
+        if (!strcmp(s, "-h") || !strcmp(s, "--help")) { usage(stdout); return 1; }
+        else if (!strcmp(s, "--json")) a->json = 1;
+        else if (!strcmp(s, "--ranging")) a->o.r.ranging = 1;
+        else if (!strcmp(s, "--dict") || !strcmp(s, "--plot") || !strcmp(s, "--voice")) {
+            if (i + 1 >= argc) { fprintf(stderr, "ulk decode: %s needs a value\n", s); return 2; }
+            if (!strcmp(s, "--dict")) a->dict_path = argv[++i];
+            else if (!strcmp(s, "--voice")) a->o.r.voice_path = argv[++i];
+            else a->plot_path = argv[++i];
+        } else if (s[0] == '-' && s[1]) {
+            fprintf(stderr, "ulk decode: unknown option '%s' (ulk decode --help)\n", s);
             return 2;
-        } else if (!capture) capture = a;
-        else { fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", a); return 2; }
+        } else if (!a->capture) a->capture = s;
+        else { fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", s); return 2; }
     }
-    if (!dict_path || !capture) {
-        fprintf(stderr, "ulk decode: %s\n", !dict_path ? "--dict DICT is required" : "no capture given");
+    if (!a->dict_path || !a->capture) {
+        fprintf(stderr, "ulk decode: %s\n", !a->dict_path ? "--dict DICT is required" : "no capture given");
         usage(stderr);
         return 2;
     }
-    if (o.format >= 0 && !(o.rate_hz > 0)) {
-        fprintf(stderr, "ulk decode: --format goes with --rate (a raw capture needs both)\n");
+    return cli_capture_check("decode", &a->o) < 0 ? 2 : 0;
+}
+
+/* Exit 0 when a command was accepted; else 1 with the reason in one line on stderr. */
+static int no_command(const dec_ctx *x)
+{
+    const ulk_rx_counts *c = &x->counts;
+    if (c->n_accepted > 0) return 0;
+    unsigned long long n = c->n_units, na = c->n_rejected_address, nd = c->n_rejected_damaged;
+    const char *unit = x->first_is_tc ? "CLTU" : "word";
+    if (n == 0)
+        fprintf(stderr, "ulk decode: no command found: %s\n",
+                x->est.demod.signal_found ? "a signal, but no complete word or CLTU in it" : "no signal in the capture");
+    else if (na > 0 && na + nd == n)
+        fprintf(stderr,
+                "ulk decode: no command found: %llu %s%s found, and none of the %llu intact ones matched the "
+                "dictionary's vehicle and system addresses (another vehicle's uplink, or the wrong dictionary?)\n",
+                n, unit, n == 1 ? "" : "s", na);
+    else
+        fprintf(stderr, "ulk decode: no command found: %llu %s%s found, all rejected (%llu damaged, %llu for another "
+                        "address, %llu for an unknown command or argument)\n", n, unit, n == 1 ? "" : "s", nd, na, n - nd - na);
+    return 1;
+}
+
+/* Runs the receiver over the capture, writing as it goes. Returns the exit code. */
+static int run(const dec_args *a, const ulk_dict *dict, dec_ctx *x, ulk_diag *diag)
+{
+    ulk_rx_options ro = a->o.r;
+    if (a->plot_path) {
+        ro.on_soft = soft_cb;
+        ro.user = x;
+    }
+    if (!a->json) x->spool = tmpfile(); /* without one, the unit lines come before the summary */
+    int rc = ulk_rx_run_file(dict, a->capture, &a->o.f, &ro, on_event, x, diag);
+    if (x->spool) fclose(x->spool);
+    if (rc < 0) {
+        if (x->failed) fprintf(stderr, "ulk decode: out of memory\n");
+        else ulk_diag_print(diag, stderr);
         return 2;
     }
-    ulk_diag *diag = ulk_diag_create();
-    ulk_dict *dict = NULL;
-    plot_ctx pc = {NULL};
-    int ret = 2;
-    if (!diag) { fprintf(stderr, "ulk decode: out of memory\n"); return 2; }
-    if (ulk_dict_load(dict_path, &dict, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk decode: cannot use dictionary %s\n", dict_path);
-        goto out;
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+        fprintf(stderr, "ulk decode: writing the output failed\n");
+        return 2;
     }
-    ulk_diag_clear(diag);
-    if (plot_path) {
-        pc.plot = ulk_plot_create();
-        if (!pc.plot) { fprintf(stderr, "ulk decode: out of memory\n"); goto out; }
-        o.on_soft = soft_cb;
-        o.on_word = word_cb;
-        o.user = &pc;
-    }
-    cli_capture c;
-    if (cli_capture_decode(dict, capture, &o, &c, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        goto out;
-    }
-    if (json) {
-        if (print_json(&c) < 0) { cli_capture_free(&c); goto out; }
-    } else {
-        print_human(capture, &c);
-    }
-    ret = c.n > 0 ? 0 : 1;
-    if (plot_path) {
+    int ret = no_command(x);
+    if (a->plot_path) {
         char title[512];
-        snprintf(title, sizeof title, "%s (%s)", capture, dict->name ? dict->name : dict_path);
-        if (ulk_plot_write_png(pc.plot, plot_path, title, diag) < 0) {
+        snprintf(title, sizeof title, "%s (%s)", a->capture, dict->name ? dict->name : a->dict_path);
+        if (ulk_plot_write_png(x->plot, a->plot_path, title, diag) < 0) {
             ulk_diag_print(diag, stderr);
             ret = 2;
         }
     }
-    cli_capture_free(&c);
+    return ret;
+}
+
+int cmd_decode(int argc, char **argv)
+{
+    dec_args a;
+    int r = parse_args(argc, argv, &a);
+    if (r) return r == 1 ? 0 : 2;
+    ulk_diag *diag = ulk_diag_create();
+    ulk_dict *dict = NULL;
+    dec_ctx x;
+    memset(&x, 0, sizeof x);
+    x.capture = a.capture;
+    x.json = a.json;
+    int ret = 2;
+    if (!diag) { fprintf(stderr, "ulk decode: out of memory\n"); return 2; }
+    if (ulk_dict_load(a.dict_path, &dict, diag) < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk decode: cannot use dictionary %s\n", a.dict_path);
+        goto out;
+    }
+    ulk_diag_clear(diag);
+    if (a.plot_path && !(x.plot = ulk_plot_create())) {
+        fprintf(stderr, "ulk decode: out of memory\n");
+        goto out;
+    }
+    ret = run(&a, dict, &x, diag);
 out:
-    ulk_plot_destroy(pc.plot);
+    ulk_plot_destroy(x.plot);
     ulk_dict_destroy(dict);
     ulk_diag_destroy(diag);
     return ret;

@@ -17,12 +17,11 @@
 #include "ulk/carrier.h"
 #include "ulk/dict.h"
 #include "ulk/link.h"
+#include "ulk/rx.h"
 #include "ulk/sampleio.h"
 #include "ulk/spectrum.h"
 #include "util.h"
 
-#define CHUNK 65536
-#define MAX_MARKS 12
 
 static void usage(FILE *out)
 {
@@ -56,82 +55,105 @@ static int exit_for(int rc)
     return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
 }
 
-static void add_mark(ulk_spectrum_mark *m, int *n, double f, double half, const char *label)
+static int print_json(const char *cap, const char *out_path, const ulk_rx_spectrum *s)
 {
-    if (*n >= MAX_MARKS) return;
-    m[*n].f_hz = f;
-    m[*n].f_lo_hz = f - half;
-    m[*n].f_hi_hz = f + half;
-    m[*n].label = label;
-    (*n)++;
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddStringToObject(o, "file", cap);
+    cJSON_AddBoolToObject(o, "complex", s->complex_);
+    cJSON_AddNumberToObject(o, "fs_hz", s->fs_hz);
+    cJSON_AddNumberToObject(o, "samples", (double)s->n_samples);
+    cJSON_AddNumberToObject(o, "nfft", (double)s->nfft);
+    cJSON_AddNumberToObject(o, "segments", (double)s->n_segments);
+    cJSON_AddNumberToObject(o, "non_finite_values", (double)s->n_nonfinite);
+    cJSON_AddNumberToObject(o, "bin_hz", s->fs_hz / (double)s->nfft);
+    cJSON_AddNumberToObject(o, "peak_hz", s->peak_hz);
+    cJSON_AddNumberToObject(o, "peak_bin_hz", s->peak_bin_hz);
+    if (isfinite(s->peak_db)) cJSON_AddNumberToObject(o, "peak_db", s->peak_db);
+    else cJSON_AddNullToObject(o, "peak_db");
+    cJSON *ma = cJSON_AddArrayToObject(o, "marks");
+    for (int i = 0; i < s->n_marks; i++) {
+        cJSON *m = cJSON_CreateObject();
+        cJSON_AddStringToObject(m, "label", s->marks[i].label);
+        cJSON_AddNumberToObject(m, "f_hz", s->marks[i].f_hz);
+        cJSON_AddNumberToObject(m, "f_lo_hz", s->marks[i].f_lo_hz);
+        cJSON_AddNumberToObject(m, "f_hi_hz", s->marks[i].f_hi_hz);
+        cJSON_AddItemToArray(ma, m);
+    }
+    if (out_path) cJSON_AddStringToObject(o, "plot", out_path);
+    char *txt = cJSON_Print(o);
+    cJSON_Delete(o);
+    if (!txt) return -1;
+    puts(txt);
+    cJSON_free(txt);
+    return 0;
 }
 
-/* The dictionary's channels as marks: at +f for a real capture, at f_o +- f for a complex one. */
-static int build_marks(const ulk_dict *d, int is_complex, ulk_spectrum_mark *m)
+static void print_human(const char *cap, const char *out_path, const ulk_rx_spectrum *s)
 {
-    int n = 0;
-    const ulk_link *l = &d->link;
-    const ulk_carrier *c = ulk_dict_carrier(d);
-    double fo = c && is_complex ? ulk_ratio_to_double(c->offset_hz) : 0.0;
-    double rs = l->profile == ULK_PROFILE_CCSDS_TC ? ulk_ratio_to_double(l->bit_rate)
-                                                    : ulk_ratio_to_double(ulk_link_subbit_rate(l));
-    double fsc = ulk_ratio_to_double(l->fsc);
-    if (c && is_complex) add_mark(m, &n, fo, 0, "carrier");
-    add_mark(m, &n, fo + fsc, rs, "data");
-    if (is_complex) add_mark(m, &n, fo - fsc, rs, "data");
-    if (l->has_pilot) {
-        double fp = ulk_ratio_to_double(l->fp);
-        add_mark(m, &n, fo + fp, 0, "pilot");
-        if (is_complex) add_mark(m, &n, fo - fp, 0, "pilot");
-    }
-    if (c && c->has_voice) {
-        double fv = ulk_ratio_to_double(c->voice_fv_hz);
-        double hv = ulk_ratio_to_double(c->voice_dev_hz) + ulk_ratio_to_double(c->voice_tone_hz);
-        add_mark(m, &n, fo + fv, hv, "voice");
-        if (is_complex) add_mark(m, &n, fo - fv, hv, "voice");
-    }
-    if (c && c->has_ranging) add_mark(m, &n, fo, ulk_ratio_to_double(c->chip_rate), "ranging");
-    return n;
+    printf("%s: %s capture, %llu samples at %.10g Hz; %llu segments of %zu (Hann, 50 %% overlap), bin %.6g Hz\n",
+           cap, s->complex_ ? "complex" : "real", (unsigned long long)s->n_samples, s->fs_hz,
+           (unsigned long long)s->n_segments, s->nfft, s->fs_hz / (double)s->nfft);
+    printf("strongest line: %.3f Hz, %.2f dB\n", s->peak_hz, s->peak_db);
+    for (int i = 0; i < s->n_marks; i++)
+        printf("  mark %-8s %12.3f Hz  band %.3f .. %.3f Hz\n", s->marks[i].label, s->marks[i].f_hz,
+               s->marks[i].f_lo_hz, s->marks[i].f_hi_hz);
+    if (out_path) printf("plot: %s\n", out_path);
 }
 
-int cmd_spectrum(int argc, char **argv)
+static int write_csv(const char *path, const ulk_rx_spectrum *s, ulk_diag *diag)
 {
-    const char *cap = NULL, *out_path = NULL, *dict_path = NULL, *csv_path = NULL, *nfft_text = NULL, *rate_text = NULL,
-               *fmt_text = NULL;
-    int json = 0;
+    ulk_afile af;
+    int rc = ulk_afile_open(&af, path, diag);
+    if (rc < 0) return rc;
+    fputs("f_hz,power\n", af.fp);
+    for (size_t k = 0; k < s->n_bins; k++) fprintf(af.fp, "%.17g,%.9g\n", s->f_hz[k], s->power[k]);
+    return ulk_afile_commit(&af, diag);
+}
+
+typedef struct {
+    const char *cap, *out_path, *dict_path, *csv_path;
+    int json;
+    size_t nfft;
+    int have_hint;
+    ulk_sample_info hint;
+} spec_args;
+
+/* Returns 0 to go on, 1 after --help (exit 0), or 2 (usage error, message printed). */
+static int parse_args(int argc, char **argv, spec_args *x)
+{
+    const char *nfft_text = NULL, *rate_text = NULL, *fmt_text = NULL;
+    memset(x, 0, sizeof *x);
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--dict") && i + 1 < argc) dict_path = argv[++i];
-        else if (!strncmp(a, "--dict=", 7)) dict_path = a + 7;
+        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 1; }
+        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) x->out_path = argv[++i];
+        else if (!strncmp(a, "--output=", 9)) x->out_path = a + 9;
+        else if (!strcmp(a, "--dict") && i + 1 < argc) x->dict_path = argv[++i];
+        else if (!strncmp(a, "--dict=", 7)) x->dict_path = a + 7;
         else if (!strcmp(a, "--nfft") && i + 1 < argc) nfft_text = argv[++i];
         else if (!strncmp(a, "--nfft=", 7)) nfft_text = a + 7;
         else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
         else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
         else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
         else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--csv") && i + 1 < argc) csv_path = argv[++i];
-        else if (!strncmp(a, "--csv=", 6)) csv_path = a + 6;
-        else if (!strcmp(a, "--json")) json = 1;
+        else if (!strcmp(a, "--csv") && i + 1 < argc) x->csv_path = argv[++i];
+        else if (!strncmp(a, "--csv=", 6)) x->csv_path = a + 6;
+        else if (!strcmp(a, "--json")) x->json = 1;
         else if (a[0] == '-' && a[1]) {
             fprintf(stderr, "ulk spectrum: unknown or incomplete option '%s'\n", a);
             usage(stderr);
             return 2;
-        } else if (!cap) cap = a;
+        } else if (!x->cap) x->cap = a;
         else {
-            fprintf(stderr, "ulk spectrum: more than one capture ('%s' and '%s')\n", cap, a);
+            fprintf(stderr, "ulk spectrum: more than one capture ('%s' and '%s')\n", x->cap, a);
             return 2;
         }
     }
-    if (!cap) {
+    if (!x->cap) {
         fprintf(stderr, "ulk spectrum: CAPTURE is required\n");
         usage(stderr);
         return 2;
     }
-    size_t nfft = 8192;
-    int nfft_given = 0;
     if (nfft_text) {
         char *end;
         unsigned long long v = strtoull(nfft_text, &end, 10);
@@ -139,196 +161,78 @@ int cmd_spectrum(int argc, char **argv)
             fprintf(stderr, "ulk spectrum: --nfft '%s': expected a power of two from 16 to 4194304\n", nfft_text);
             return 2;
         }
-        nfft = (size_t)v;
-        nfft_given = 1;
+        x->nfft = (size_t)v;
     }
-    ulk_sample_info hint = {0};
     if (rate_text) {
         ulk_ratio r;
         if (ulk_ratio_parse(rate_text, &r) < 0 || r.num <= 0) {
             fprintf(stderr, "ulk spectrum: --rate '%s': expected a positive decimal number of Hz\n", rate_text);
             return 2;
         }
-        hint.fs_hz = ulk_ratio_to_double(r);
-        hint.container = ULK_CONTAINER_RAW;
+        x->hint.fs_hz = ulk_ratio_to_double(r);
+        x->hint.container = ULK_CONTAINER_RAW;
+        x->have_hint = 1;
     }
     if (fmt_text) {
-        if (!strcmp(fmt_text, "f32")) hint.format = ULK_FMT_F32;
-        else if (!strcmp(fmt_text, "s16")) hint.format = ULK_FMT_S16;
+        if (!strcmp(fmt_text, "f32")) x->hint.format = ULK_FMT_F32;
+        else if (!strcmp(fmt_text, "s16")) x->hint.format = ULK_FMT_S16;
         else {
             fprintf(stderr, "ulk spectrum: --format '%s': expected f32 or s16\n", fmt_text);
             return 2;
         }
     }
+    return 0;
+}
 
+/* The outputs of one spectrum: plot, CSV, report. Returns 0 or the exit code. */
+static int report(const spec_args *x, const ulk_rx_spectrum *s, ulk_diag *diag)
+{
+    int rc;
+    if (x->out_path) {
+        char title[600];
+        snprintf(title, sizeof title, "%s: %s, %.10g Hz, %llu segments of %zu (bin %.4g Hz)%s%s", x->cap,
+                 s->complex_ ? "complex" : "real", s->fs_hz, (unsigned long long)s->n_segments, s->nfft,
+                 s->fs_hz / (double)s->nfft, x->dict_path ? ", marks from " : "", x->dict_path ? x->dict_path : "");
+        rc = ulk_spectrum_plot(s->f_hz, s->power, s->n_bins, s->marks, s->n_marks, title, x->out_path, diag);
+        if (rc < 0) return exit_for(rc);
+    }
+    if (x->csv_path && (rc = write_csv(x->csv_path, s, diag)) < 0) return exit_for(rc);
+    if (x->json) {
+        if (print_json(x->cap, x->out_path, s) < 0) return ulk_fail(diag, ULK_ENOMEM, "out of memory"), 2;
+    } else {
+        print_human(x->cap, x->out_path, s);
+    }
+    return 0;
+}
+
+int cmd_spectrum(int argc, char **argv)
+{
+    spec_args x;
+    int r = parse_args(argc, argv, &x);
+    if (r) return r == 1 ? 0 : 2;
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk spectrum: out of memory\n"); return 2; }
     ulk_dict *dict = NULL;
-    ulk_reader *ri = NULL, *rq = NULL;
-    ulk_welch *w = NULL;
-    float *bi = NULL, *bq = NULL;
+    ulk_rx_spectrum s;
+    memset(&s, 0, sizeof s);
     int code = 0, rc;
-
-    if (dict_path) {
-        rc = ulk_dict_load(dict_path, &dict, diag);
-        if (rc < 0) {
-            ulk_diag_print(diag, stderr);
-            fprintf(stderr, "ulk spectrum: dictionary %s refused\n", dict_path);
-            code = rc == ULK_EIO || rc == ULK_ENOMEM ? 2 : 1;
-            goto done;
-        }
+    if (x.dict_path && (rc = ulk_dict_load(x.dict_path, &dict, diag)) < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk spectrum: dictionary %s refused\n", x.dict_path);
+        code = rc == ULK_EIO || rc == ULK_ENOMEM ? 2 : 1;
+        goto done;
     }
-    rc = ulk_reader_open(cap, rate_text ? &hint : NULL, 0, &ri, diag);
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-    const ulk_sample_info *info = ulk_reader_info(ri);
-    if (info->channels > 2) {
-        rc = ulk_fail(diag, ULK_EINVAL, "%s: has %d channels; a capture is real (1) or complex I/Q (2)", cap,
-                      info->channels);
-        code = 2;
-        goto fail;
-    }
-    const int is_complex = info->channels == 2;
-    if (is_complex) {
-        rc = ulk_reader_open(cap, rate_text ? &hint : NULL, 1, &rq, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-    }
-    const double fs_hz = info->fs_hz;
-    int64_t len = ulk_reader_length(ri);
-    if (len >= 0 && (uint64_t)len < nfft) {
-        if (nfft_given || len < 16) {
-            rc = ulk_fail(diag, ULK_ELIMIT, "%s: %lld samples are fewer than one segment of %zu", cap, (long long)len,
-                          nfft_given ? nfft : (size_t)16);
-            code = 1;
-            goto fail;
-        }
-        while (nfft > (uint64_t)len) nfft /= 2;
-    }
-    rc = ulk_welch_create(nfft, is_complex, fs_hz, &w, diag);
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-    bi = ulk_malloc(CHUNK * sizeof *bi);
-    bq = ulk_malloc(CHUNK * sizeof *bq);
-    if (!bi || !bq) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", cap); code = 2; goto fail; }
-    uint64_t total = 0, n_bad = 0;
-    for (;;) {
-        long gi = ulk_reader_read(ri, bi, CHUNK);
-        if (gi < 0) {
-            rc = ulk_fail(diag, (int)gi, "%s", ulk_reader_error(ri));
-            code = exit_for((int)gi);
-            goto fail;
-        }
-        if (gi == 0) break;
-        if (is_complex) {
-            long gq = ulk_reader_read(rq, bq, (size_t)gi);
-            if (gq != gi) {
-                rc = ulk_fail(diag, ULK_EFORMAT, "%s: I and Q differ in length%s%s", cap, gq < 0 ? ": " : "",
-                              gq < 0 ? ulk_reader_error(rq) : "");
-                code = 1;
-                goto fail;
-            }
-        }
-        /* NaN or infinite samples would spread over every bin: counted and taken as 0 */
-        for (long k = 0; k < gi; k++) {
-            if (!isfinite(bi[k])) { bi[k] = 0; n_bad++; }
-            if (is_complex && !isfinite(bq[k])) { bq[k] = 0; n_bad++; }
-        }
-        ulk_welch_feed(w, bi, is_complex ? bq : NULL, (size_t)gi);
-        total += (uint64_t)gi;
-    }
-    if (n_bad)
+    rc = ulk_rx_spectrum_file(x.cap, x.have_hint ? &x.hint : NULL, x.nfft, dict, &s, diag);
+    if (rc >= 0 && s.n_nonfinite)
         fprintf(stderr, "ulk spectrum: warning: %s: %llu sample value%s not finite (NaN or infinite), taken as 0\n",
-                cap, (unsigned long long)n_bad, n_bad == 1 ? " is" : "s are");
-    const double *f, *p;
-    size_t nb;
-    uint64_t nseg;
-    rc = ulk_welch_result(w, &f, &p, &nb, &nseg);
-    if (rc < 0) {
-        rc = ulk_fail(diag, ULK_ELIMIT, "%s: %llu samples are fewer than one segment of %zu", cap,
-                      (unsigned long long)total, nfft);
-        code = 1;
-        goto fail;
+                x.cap, (unsigned long long)s.n_nonfinite, s.n_nonfinite == 1 ? " is" : "s are");
+    code = rc < 0 ? exit_for(rc) : report(&x, &s, diag);
+    if (code) {
+        ulk_diag_print(diag, stderr);
+        if (x.out_path) fprintf(stderr, "ulk spectrum: no plot written\n");
     }
-    /* the strongest line, refined by a parabola through the dB values of its neighbours */
-    size_t kmax = 0;
-    for (size_t k = 1; k < nb; k++)
-        if (p[k] > p[kmax]) kmax = k;
-    double peak_hz = f[kmax], peak_db = p[kmax] > 0 ? 10 * log10(p[kmax]) : -HUGE_VAL;
-    if (kmax > 0 && kmax + 1 < nb && p[kmax - 1] > 0 && p[kmax + 1] > 0 && p[kmax] > 0) {
-        double a = 10 * log10(p[kmax - 1]), b = peak_db, c = 10 * log10(p[kmax + 1]);
-        double den = a - 2 * b + c;
-        if (den < 0) {
-            double dk = 0.5 * (a - c) / den;
-            peak_hz += dk * (f[kmax + 1] - f[kmax]);
-        }
-    }
-    ulk_spectrum_mark marks[MAX_MARKS];
-    int n_marks = dict ? build_marks(dict, is_complex, marks) : 0;
-    if (out_path) {
-        char title[600];
-        snprintf(title, sizeof title, "%s: %s, %.10g Hz, %llu segments of %zu (bin %.4g Hz)%s%s", cap,
-                 is_complex ? "complex" : "real", fs_hz, (unsigned long long)nseg, nfft, fs_hz / (double)nfft,
-                 dict ? ", marks from " : "", dict ? dict_path : "");
-        rc = ulk_spectrum_plot(f, p, nb, marks, n_marks, title, out_path, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-    }
-    if (csv_path) {
-        ulk_afile af;
-        rc = ulk_afile_open(&af, csv_path, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-        fputs("f_hz,power\n", af.fp);
-        for (size_t k = 0; k < nb; k++) fprintf(af.fp, "%.17g,%.9g\n", f[k], p[k]);
-        rc = ulk_afile_commit(&af, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-    }
-    if (json) {
-        cJSON *o = cJSON_CreateObject();
-        cJSON_AddStringToObject(o, "file", cap);
-        cJSON_AddBoolToObject(o, "complex", is_complex);
-        cJSON_AddNumberToObject(o, "fs_hz", fs_hz);
-        cJSON_AddNumberToObject(o, "samples", (double)total);
-        cJSON_AddNumberToObject(o, "nfft", (double)nfft);
-        cJSON_AddNumberToObject(o, "segments", (double)nseg);
-        cJSON_AddNumberToObject(o, "non_finite_values", (double)n_bad);
-        cJSON_AddNumberToObject(o, "bin_hz", fs_hz / (double)nfft);
-        cJSON_AddNumberToObject(o, "peak_hz", peak_hz);
-        cJSON_AddNumberToObject(o, "peak_bin_hz", f[kmax]);
-        if (isfinite(peak_db)) cJSON_AddNumberToObject(o, "peak_db", peak_db);
-        else cJSON_AddNullToObject(o, "peak_db");
-        cJSON *ma = cJSON_AddArrayToObject(o, "marks");
-        for (int i = 0; i < n_marks; i++) {
-            cJSON *m = cJSON_CreateObject();
-            cJSON_AddStringToObject(m, "label", marks[i].label);
-            cJSON_AddNumberToObject(m, "f_hz", marks[i].f_hz);
-            cJSON_AddNumberToObject(m, "f_lo_hz", marks[i].f_lo_hz);
-            cJSON_AddNumberToObject(m, "f_hi_hz", marks[i].f_hi_hz);
-            cJSON_AddItemToArray(ma, m);
-        }
-        if (out_path) cJSON_AddStringToObject(o, "plot", out_path);
-        char *s = cJSON_Print(o);
-        cJSON_Delete(o);
-        if (!s) { rc = ulk_fail(diag, ULK_ENOMEM, "out of memory"); code = 2; goto fail; }
-        puts(s);
-        cJSON_free(s);
-    } else {
-        printf("%s: %s capture, %llu samples at %.10g Hz; %llu segments of %zu (Hann, 50 %% overlap), bin %.6g Hz\n",
-               cap, is_complex ? "complex" : "real", (unsigned long long)total, fs_hz, (unsigned long long)nseg,
-               nfft, fs_hz / (double)nfft);
-        printf("strongest line: %.3f Hz, %.2f dB\n", peak_hz, peak_db);
-        for (int i = 0; i < n_marks; i++)
-            printf("  mark %-8s %12.3f Hz  band %.3f .. %.3f Hz\n", marks[i].label, marks[i].f_hz, marks[i].f_lo_hz,
-                   marks[i].f_hi_hz);
-        if (out_path) printf("plot: %s\n", out_path);
-    }
-    goto done;
-
-fail:
-    ulk_diag_print(diag, stderr);
-    if (out_path) fprintf(stderr, "ulk spectrum: no plot written\n");
 done:
-    ulk_free(bi);
-    ulk_free(bq);
-    ulk_welch_destroy(w);
-    ulk_reader_close(ri);
-    ulk_reader_close(rq);
+    ulk_rx_spectrum_free(&s);
     ulk_dict_destroy(dict);
     ulk_diag_destroy(diag);
     return code;
