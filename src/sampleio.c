@@ -127,6 +127,7 @@ struct ulk_writer {
     const raw_type *rt; /* raw: the SigMF datatype */
     char *path, *tmp; /* tmp NULL when writing a device or pipe directly */
     int direct;
+    int tmp_slot;     /* temporary-file registry slot (util.h), 0: none */
     FILE *fp;         /* raw */
     SNDFILE *sf;      /* WAV */
     int err;          /* sticky status */
@@ -151,6 +152,7 @@ static int wfail(ulk_writer *w, int code, const char *fmt, ...)
 static void writer_free(ulk_writer *w)
 {
     if (!w) return;
+    ulk_tmp_forget(w->tmp_slot);
     ulk_free(w->path);
     ulk_free(w->tmp);
     ulk_free(w->conv);
@@ -281,10 +283,12 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     if (info->format != ULK_FMT_F32 && info->format != ULK_FMT_S16)
         return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", path);
 
+    /* "-" is standard output: raw samples written directly, like a pipe */
+    const int is_std = !strcmp(path, "-");
     struct stat stt;
-    int exists = stat(path, &stt) == 0;
-    int direct = exists && !S_ISREG(stt.st_mode);
-    if (exists && S_ISDIR(stt.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a file", path);
+    int exists = is_std || stat(path, &stt) == 0;
+    int direct = is_std || (exists && !S_ISREG(stt.st_mode));
+    if (!is_std && exists && S_ISDIR(stt.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a file", path);
 
     ulk_container cont;
     int efmt;
@@ -330,7 +334,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
 
     int fd;
     if (direct) {
-        fd = open(path, O_WRONLY | O_CLOEXEC);
+        fd = is_std ? dup(1) : open(path, O_WRONLY | O_CLOEXEC);
         if (fd < 0) {
             int e = errno;
             writer_free(w);
@@ -350,6 +354,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
             writer_free(w);
             return ulk_fail(diag, ULK_EIO, "%s: cannot create output file: %s", path, strerror(e));
         }
+        w->tmp_slot = ulk_tmp_register(w->tmp);
         fchmod(fd, 0644);
     }
 
@@ -526,6 +531,8 @@ int ulk_writer_commit(ulk_writer *w, ulk_diag *diag)
     }
     ulk_free(w->tmp);
     w->tmp = NULL;
+    ulk_tmp_forget(w->tmp_slot);
+    w->tmp_slot = 0;
     if (have_meta) {
         int rc = ulk_afile_commit(&mf, diag);
         if (rc < 0) {
