@@ -13,6 +13,7 @@
 #include "ulk/carrier.h"
 #include "ulk/dict.h"
 #include "ulk/impair.h"
+#include "ulk/limits.h"
 #include "ulk/sampleio.h"
 #include "util.h"
 
@@ -22,10 +23,12 @@
 
 #define CHUNK 65536
 
+static int g_quiet; /* -q: no "wrote" line (the caution is always printed) */
+
 static void usage(FILE *out)
 {
     fprintf(out,
-            "usage: ulk impair IN OUT --ebn0 DB [--seed N] [--ppm X] [--delay S] [--amplitude A]\n"
+            "usage: ulk impair IN -o OUT --ebn0 DB [--seed N] [--ppm X] [--delay S] [--amplitude A]\n"
             "                  [--dc X] [--invert] [--dict DICT | --pd P --bit-rate R]\n"
             "                  [--rate HZ --format f32|s16] [--channel N]\n"
             "\n"
@@ -33,8 +36,9 @@ static void usage(FILE *out)
             "profile defines it (E_b/N_0 = P_d f_s / (2 sigma^2 R_b)), a clock error, a noise-only\n"
             "lead-in, a gain, a DC offset and inversion. The same seed gives the same output.\n"
             "\n"
-            "  IN, OUT            WAV or raw .f32/.s16 (OUT's type from its extension; a raw OUT\n"
-            "                     gets a .sigmf-meta beside it)\n"
+            "  IN, -o OUT         WAV or raw .f32/.s16 (OUT's type from its extension; a raw OUT\n"
+            "                     gets a .sigmf-meta beside it); `ulk impair IN OUT` also works;\n"
+            "                     OUT may not be IN\n"
             "options:\n"
             "  --ebn0 DB          noise level (required unless --no-noise)\n"
             "  --no-noise         add no noise\n"
@@ -42,13 +46,14 @@ static void usage(FILE *out)
             "  --pd P --bit-rate R  or give them (P_d in full-scale units of IN); R_b may also come\n"
             "                     from IN's SigMF metadata\n"
             "  --seed N           noise seed (default 1)\n"
-            "  --ppm X            clock error: the signal's clock runs X ppm fast (|X| <= 10000);\n"
+            "  --ppm X            clock error: the signal's clock runs X ppm fast (|X| <= " ULK_STR(ULK_IMPAIR_MAX_PPM) ");\n"
             "                     by windowed-sinc resampling (32 taps, Blackman window)\n"
             "  --delay S          seconds of noise-only samples before the signal\n"
             "  --amplitude A      gain on the signal (0.01 = -40 dB)\n"
             "  --dc X             DC offset added to every sample\n"
             "  --invert           invert the signal (180 degrees)\n"
             "  --rate HZ, --format f32|s16, --channel N   for a raw or multi-channel IN\n"
+            "  -q, --quiet        no line saying what was written (the caution stays)\n"
             "complex IN (.cf32/.ci16 with SigMF, or a two-channel WAV with --iq; OUT .cf32, .ci16\n"
             "or .wav): complex noise of total variance sigma^2, half in I and half in Q, with\n"
             "N_0 = sigma^2 / f_s and E_b/N_0 = P_d / (N_0 R_b), P_d = the data channel's useful\n"
@@ -56,22 +61,10 @@ static void usage(FILE *out)
             "envelope 1 (and --amplitude^2); R_b the carrier section's information rate:\n"
             "  --iq               a two-channel IN is I (left) and Q (right)\n"
             "  --mode NAME        the carrier mode (default: from IN's SigMF metadata)\n"
-            "  --offset-hz F      rotate by exp(j 2 pi F t): an extra carrier offset\n"
+            "  --offset HZ        rotate by exp(j 2 pi F t): an extra carrier offset F = HZ\n"
             "  --delay S          also delays the ranging code by S * chip_rate chips\n"
             "\nexit: 0 written, 1 refused (16-bit output would clip), 2 usage or I/O error\n\n%s",
             ULK_CAUTION);
-}
-
-static int parse_num(const char *opt, const char *v, double *out)
-{
-    char *end;
-    double x = strtod(v, &end);
-    if (!*v || *end || !isfinite(x)) {
-        fprintf(stderr, "ulk impair: %s '%s' is not a number\n", opt, v);
-        return -1;
-    }
-    *out = x;
-    return 0;
 }
 
 static int sink(const float *x, size_t n, void *user) { return ulk_writer_write(user, x, n); }
@@ -268,7 +261,7 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     }
     if (ulk_writer_commit(o.w, diag) < 0) { o.w = NULL; ulk_diag_print(diag, stderr); goto out; }
     o.w = NULL;
-    fprintf(stderr, "wrote %s: complex, %g Hz, noise sigma %.6g per component (total variance %.6g), P_d %.6g, R_b %g\n",
+    if (!g_quiet) fprintf(stderr, "wrote %s: complex, %g Hz, noise sigma %.6g per component (total variance %.6g), P_d %.6g, R_b %g\n",
             outp, info->fs_hz, ulk_impair_sigma(pi), 2 * ulk_impair_sigma(pi) * ulk_impair_sigma(pi), pd, rb);
     fprintf(stderr, "%s", ULK_CAUTION);
     ret = 0;
@@ -289,69 +282,104 @@ out:
     return ret;
 }
 
+enum { O_OUTPUT = 'o', O_QUIET = 'q', O_INVERT = CLI_LONG, O_NONOISE, O_IQ, O_EBN0, O_SEED, O_PPM, O_DELAY, O_AMPL,
+       O_DC, O_DICT, O_PD, O_BITRATE, O_RATE, O_FORMAT, O_CHANNEL, O_MODE, O_OFFSET };
+static const struct option opts[] = {
+    {"output", required_argument, 0, O_OUTPUT},  {"invert", no_argument, 0, O_INVERT},
+    {"no-noise", no_argument, 0, O_NONOISE},     {"iq", no_argument, 0, O_IQ},
+    {"ebn0", required_argument, 0, O_EBN0},      {"seed", required_argument, 0, O_SEED},
+    {"ppm", required_argument, 0, O_PPM},        {"delay", required_argument, 0, O_DELAY},
+    {"amplitude", required_argument, 0, O_AMPL}, {"dc", required_argument, 0, O_DC},
+    {"dict", required_argument, 0, O_DICT},      {"pd", required_argument, 0, O_PD},
+    {"bit-rate", required_argument, 0, O_BITRATE}, {"rate", required_argument, 0, O_RATE},
+    {"format", required_argument, 0, O_FORMAT},  {"channel", required_argument, 0, O_CHANNEL},
+    {"mode", required_argument, 0, O_MODE},      {"offset", required_argument, 0, O_OFFSET},
+    {"quiet", no_argument, 0, O_QUIET},          {"help", no_argument, 0, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"impair", opts, usage};
+
+typedef struct {
+    ulk_impair_config c;
+    const char *outp, *dict_path, *mode_name;
+    int have_ebn0, no_noise, channel, fmt, fmt_complex, iq, quiet;
+    double rate, pd, rb, off_hz;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    double x = 0;
+    unsigned long long u;
+    int r;
+    switch (v) {
+    case O_OUTPUT: a->outp = arg; return 0;
+    case O_INVERT: a->c.invert = 1; return 0;
+    case O_NONOISE: a->no_noise = 1; return 0;
+    case O_IQ: a->iq = 1; return 0;
+    case O_QUIET: a->quiet = 1; return 0;
+    case O_DICT: a->dict_path = arg; return 0;
+    case O_MODE: a->mode_name = arg; return 0;
+    case O_FORMAT: return cli_format("impair", arg, &a->fmt, &a->fmt_complex);
+    case O_SEED:
+        if ((r = cli_uint("impair", "--seed", arg, ~0ull, &u))) return r;
+        a->c.seed = u;
+        return 0;
+    case O_CHANNEL:
+        if ((r = cli_uint("impair", "--channel", arg, 255, &u))) return r;
+        a->channel = (int)u;
+        return 0;
+    default: break;
+    }
+    const struct option *o = opts;
+    while (o->name && o->val != v) o++;
+    char name[32];
+    snprintf(name, sizeof name, "--%s", o->name ? o->name : "?");
+    if ((r = cli_number("impair", name, arg, &x))) return r;
+    switch (v) {
+    case O_EBN0: a->c.ebn0_db = x; a->have_ebn0 = 1; break;
+    case O_PPM: a->c.ppm = x; break;
+    case O_DELAY: a->c.delay_s = x; break;
+    case O_AMPL:
+        if (!(x > 0)) { fprintf(stderr, "ulk impair: --amplitude must be > 0, not %s\n", arg); return CLI_EXIT_USAGE_IO; }
+        a->c.amplitude = x;
+        break;
+    case O_DC: a->c.dc = x; break;
+    case O_PD: a->pd = x; break;
+    case O_BITRATE: a->rb = x; break;
+    case O_OFFSET: a->off_hz = x; break;
+    case O_RATE: a->rate = x; break;
+    default: break;
+    }
+    return 0;
+}
+
 int cmd_impair(int argc, char **argv)
 {
-    const char *in = NULL, *outp = NULL, *dict_path = NULL;
-    ulk_impair_config c;
-    memset(&c, 0, sizeof c);
-    c.seed = 1;
-    c.add_noise = 1;
-    int have_ebn0 = 0, no_noise = 0, channel = -1, fmt = -1, iq = 0;
-    double rate = 0, pd = 0, rb = 0, off_hz = 0;
-    const char *mode_name = NULL;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        if (!strcmp(a, "--invert")) { c.invert = 1; continue; }
-        if (!strcmp(a, "--no-noise")) { no_noise = 1; continue; }
-        if (!strcmp(a, "--iq")) { iq = 1; continue; }
-        int takes = !strcmp(a, "--ebn0") || !strcmp(a, "--seed") || !strcmp(a, "--ppm") || !strcmp(a, "--delay") ||
-                    !strcmp(a, "--amplitude") || !strcmp(a, "--dc") || !strcmp(a, "--dict") || !strcmp(a, "--pd") ||
-                    !strcmp(a, "--bit-rate") || !strcmp(a, "--rate") || !strcmp(a, "--format") || !strcmp(a, "--channel") ||
-                    !strcmp(a, "--mode") || !strcmp(a, "--offset-hz");
-        if (takes) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk impair: %s needs a value\n", a); return 2; }
-            const char *v = argv[++i];
-            double x = 0;
-            if (!strcmp(a, "--dict")) { dict_path = v; continue; }
-            if (!strcmp(a, "--mode")) { mode_name = v; continue; }
-            if (!strcmp(a, "--format")) {
-                if (!strcmp(v, "f32")) fmt = ULK_FMT_F32;
-                else if (!strcmp(v, "s16")) fmt = ULK_FMT_S16;
-                else { fprintf(stderr, "ulk impair: --format '%s': expected f32 or s16\n", v); return 2; }
-                continue;
-            }
-            if (!strcmp(a, "--seed")) {
-                char *end;
-                unsigned long long s = strtoull(v, &end, 0);
-                if (!*v || *end || v[0] == '-') { fprintf(stderr, "ulk impair: --seed '%s' is not a whole number >= 0\n", v); return 2; }
-                c.seed = s;
-                continue;
-            }
-            if (parse_num(a, v, &x) < 0) return 2;
-            if (!strcmp(a, "--ebn0")) { c.ebn0_db = x; have_ebn0 = 1; }
-            else if (!strcmp(a, "--ppm")) c.ppm = x;
-            else if (!strcmp(a, "--delay")) c.delay_s = x;
-            else if (!strcmp(a, "--amplitude")) {
-                if (!(x > 0)) { fprintf(stderr, "ulk impair: --amplitude must be > 0\n"); return 2; }
-                c.amplitude = x;
-            } else if (!strcmp(a, "--dc")) c.dc = x;
-            else if (!strcmp(a, "--pd")) pd = x;
-            else if (!strcmp(a, "--bit-rate")) rb = x;
-            else if (!strcmp(a, "--offset-hz")) off_hz = x;
-            else if (!strcmp(a, "--rate")) rate = x;
-            else if (!strcmp(a, "--channel")) {
-                if (x < 0 || x > 255 || x != floor(x)) { fprintf(stderr, "ulk impair: --channel must be 0..255\n"); return 2; }
-                channel = (int)x;
-            }
-            continue;
-        }
-        if (a[0] == '-' && a[1]) { fprintf(stderr, "ulk impair: unknown option '%s' (ulk impair --help)\n", a); return 2; }
-        if (!in) in = a;
-        else if (!outp) outp = a;
-        else { fprintf(stderr, "ulk impair: too many files ('%s')\n", a); return 2; }
+    args o;
+    memset(&o, 0, sizeof o);
+    o.c.seed = 1;
+    o.channel = -1;
+    o.fmt = -1;
+    int first, pr = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (pr >= 0) return pr;
+    const char *in = first < argc ? argv[first] : NULL, *outp = o.outp, *dict_path = o.dict_path,
+               *mode_name = o.mode_name;
+    int nops = argc - first;
+    if (!outp && nops == 2) outp = argv[first + 1]; /* IN OUT, as before -o */
+    else if (nops > 1) {
+        fprintf(stderr, "ulk impair: too many files ('%s')\n", argv[first + (outp ? 1 : 2)]);
+        return CLI_EXIT_USAGE_IO;
     }
-    if (!in || !outp) { fprintf(stderr, "ulk impair: IN and OUT are required\n"); usage(stderr); return 2; }
+    ulk_impair_config c = o.c;
+    c.add_noise = 1;
+    g_quiet = o.quiet;
+    int have_ebn0 = o.have_ebn0, no_noise = o.no_noise, channel = o.channel, fmt = o.fmt, iq = o.iq;
+    double rate = o.rate, pd = o.pd, rb = o.rb, off_hz = o.off_hz;
+    if (in && outp) {
+        const char *ins[] = {in, dict_path}, *what[] = {"input capture", "dictionary"};
+        if ((pr = cli_refuse_overwrite("impair", outp, ins, what, 2))) return pr;
+    }
+    if (!in || !outp) { fprintf(stderr, "ulk impair: IN and -o OUT are required\n"); usage(stderr); return 2; }
     if (!have_ebn0 && !no_noise) { fprintf(stderr, "ulk impair: --ebn0 DB is required (or --no-noise)\n"); return 2; }
     c.add_noise = !no_noise;
     if (channel < 0) {
@@ -371,7 +399,7 @@ int cmd_impair(int argc, char **argv)
             return impair_complex(in, outp, dict_path, mode_name, meta_mode, c, pd, rb, rate, fmt, off_hz);
     }
     if (mode_name || off_hz != 0) {
-        fprintf(stderr, "ulk impair: --mode and --offset-hz are for complex (I/Q) captures; %s is real\n", in);
+        fprintf(stderr, "ulk impair: --mode and --offset are for complex (I/Q) captures; %s is real\n", in);
         return 2;
     }
 
@@ -446,7 +474,7 @@ int cmd_impair(int argc, char **argv)
     }
     if (ulk_writer_commit(w, diag) < 0) { w = NULL; ulk_diag_print(diag, stderr); goto out; }
     w = NULL;
-    fprintf(stderr, "wrote %s: %g Hz, noise sigma %.6g per sample\n", outp, info->fs_hz, ulk_impair_sigma(p));
+    if (!g_quiet) fprintf(stderr, "wrote %s: %g Hz, noise sigma %.6g per sample\n", outp, info->fs_hz, ulk_impair_sigma(p));
     fprintf(stderr, "%s", ULK_CAUTION);
     ret = 0;
 out:

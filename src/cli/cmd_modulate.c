@@ -4,7 +4,6 @@
  * refused); 2 usage or I/O error. Nothing is left behind on failure. */
 #include <cjson/cJSON.h>
 #include <limits.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -56,35 +55,13 @@ static void usage(FILE *out)
             ULK_CAUTION);
 }
 
-static int exit_for(int rc)
-{
-    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
-}
+static int exit_for(int rc) { return cli_exit_for(rc); }
 
 static double now_s(void)
 {
     struct timespec ts;
     clock_gettime(CLOCK_MONOTONIC, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-/* Temporary files of this run, for the signal handler: an interrupted run (Ctrl-C, kill,
- * hang-up) removes them before it dies, so nothing is left behind. Plain arrays: the handler
- * may only call async-signal-safe functions (unlink, signal, raise). */
-static char g_tmp[2][4096];
-
-static void on_fatal_signal(int sig)
-{
-    for (int k = 0; k < 2; k++)
-        if (g_tmp[k][0]) unlink(g_tmp[k]);
-    signal(sig, SIG_DFL);
-    raise(sig);
-}
-
-static void track_tmp(int k, const char *path)
-{
-    if (path && strlen(path) < sizeof g_tmp[k]) strcpy(g_tmp[k], path);
-    else g_tmp[k][0] = 0;
 }
 
 /* Free bytes in the folder that will hold path, or -1 when it cannot be told. */
@@ -180,32 +157,53 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
     return 0;
 }
 
+enum { O_OUTPUT = 'o', O_QUIET = 'q', O_RATE = CLI_LONG, O_FORMAT, O_TIMING };
+static const struct option opts[] = {{"output", required_argument, NULL, O_OUTPUT},
+                                     {"rate", required_argument, NULL, O_RATE},
+                                     {"format", required_argument, NULL, O_FORMAT},
+                                     {"timing", required_argument, NULL, O_TIMING},
+                                     {"quiet", no_argument, NULL, O_QUIET},
+                                     {"help", no_argument, NULL, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"modulate", opts, usage};
+
+typedef struct {
+    const char *out_path, *rate_text, *fmt_text, *timing_path;
+    int quiet;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    if (v == O_OUTPUT) a->out_path = arg;
+    else if (v == O_RATE) a->rate_text = arg;
+    else if (v == O_FORMAT) a->fmt_text = arg;
+    else if (v == O_TIMING) a->timing_path = arg;
+    else if (v == O_QUIET) a->quiet = 1;
+    return 0;
+}
+
 int cmd_modulate(int argc, char **argv)
 {
     for (int i = 1; i < argc; i++) /* complex composite-carrier output: cmd_modulate_carrier.c */
         if (!strcmp(argv[i], "--carrier")) return cmd_modulate_carrier(argc, argv);
-    const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *fmt_text = NULL, *timing_path = NULL;
-    int quiet = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
-        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
-        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
-        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--timing") && i + 1 < argc) timing_path = argv[++i];
-        else if (!strncmp(a, "--timing=", 9)) timing_path = a + 9;
-        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
-        else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk modulate: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!up_path) up_path = a;
-        else {
-            fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", up_path, a);
-            return 2;
+    args o = {0};
+    int first, r = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (r >= 0) return r;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *up_path = first < argc ? argv[first] : NULL, *out_path = o.out_path, *rate_text = o.rate_text,
+               *fmt_text = o.fmt_text, *timing_path = o.timing_path;
+    int quiet = o.quiet;
+    {
+        const char *ins[] = {up_path, timing_path}, *what[] = {"upload", "timing table"};
+        if (out_path && (r = cli_refuse_overwrite("modulate", out_path, ins, what, 2))) return r;
+        if (timing_path && (r = cli_refuse_overwrite("modulate", timing_path, ins, what, 1))) return r;
+        if (cli_is_std(out_path) && cli_is_std(timing_path)) {
+            fprintf(stderr, "ulk modulate: the samples and the timing table cannot both go to standard output\n");
+            return CLI_EXIT_USAGE_IO;
         }
     }
     if (!up_path || !rate_text || (!out_path && !timing_path)) {
@@ -251,24 +249,18 @@ int cmd_modulate(int argc, char **argv)
     }
 
     if (out_path && cont == ULK_CONTAINER_WAV && (fs.den != 1 || fs.num > INT_MAX)) {
-        char r[64];
-        ulk_ratio_format(fs, r, sizeof r);
+        char rt[64];
+        ulk_ratio_format(fs, rt, sizeof rt);
         fprintf(stderr,
                 "ulk modulate: %s: WAV %s, not %s Hz; write raw .f32 or .s16 samples with SigMF metadata "
                 "instead\n",
                 out_path, fs.den != 1 ? "holds whole-number sample rates only" : "(as libsndfile writes it) holds sample rates up to 2147483647 Hz",
-                r);
+                rt);
         return 2;
     }
 
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
-    /* a file-size limit makes writes fail (EFBIG, reported) instead of killing the run;
-     * interruptions remove this run's temporary files */
-    signal(SIGXFSZ, SIG_IGN);
-    signal(SIGINT, on_fatal_signal);
-    signal(SIGTERM, on_fatal_signal);
-    signal(SIGHUP, on_fatal_signal);
     ulk_upload *up = NULL;
     ulk_mod *mod = NULL;
     ulk_writer *w = NULL;
@@ -297,7 +289,6 @@ int cmd_modulate(int argc, char **argv)
         rc = ulk_afile_open(&tf, timing_path, diag);
         if (rc == 0) {
             have_tf = 1;
-            track_tmp(1, tf.tmp);
             rc = ulk_timing_write_fp(up, fs, tf.fp, timing_path, diag);
         }
         if (rc < 0) { code = exit_for(rc); goto fail; }
@@ -313,7 +304,7 @@ int cmd_modulate(int argc, char **argv)
         n_samples = ulk_mod_n_samples(mod);
         /* a size the folder cannot hold is refused before anything is created */
         struct stat ost;
-        int regular = stat(out_path, &ost) != 0 || S_ISREG(ost.st_mode);
+        int regular = !cli_is_std(out_path) && (stat(out_path, &ost) != 0 || S_ISREG(ost.st_mode));
         double need = (double)n_samples * (fmt == ULK_FMT_S16 ? 2.0 : 4.0) + 65536.0;
         double avail = regular ? free_bytes_for(out_path) : -1;
         if (avail >= 0 && need > avail) {
@@ -347,7 +338,6 @@ int cmd_modulate(int argc, char **argv)
         info.fs_exact = rate_norm;
         rc = ulk_writer_open(out_path, &info, &w, diag);
         if (rc < 0) { code = exit_for(rc); goto fail; }
-        track_tmp(0, ulk_writer_temp_path(w));
         rc = annotate_words(w, up, fs);
         if (rc < 0) { ulk_fail(diag, rc, "%s: out of memory", out_path); code = 2; goto fail; }
 
@@ -369,13 +359,11 @@ int cmd_modulate(int argc, char **argv)
         if (show) fprintf(stderr, "\r%60s\r", "");
         rc = ulk_writer_commit(w, diag);
         w = NULL;
-        g_tmp[0][0] = 0;
         if (rc < 0) { code = exit_for(rc); goto fail; }
     }
     if (have_tf) {
         have_tf = 0;
         rc = ulk_afile_commit(&tf, diag);
-        g_tmp[1][0] = 0;
         if (rc < 0) {
             /* the samples landed but their table did not: take the samples back too */
             if (out_path) {
@@ -403,13 +391,15 @@ int cmd_modulate(int argc, char **argv)
             goto done;
         }
     }
+    /* samples or table on standard output: the summary goes to standard error */
+    FILE *say = cli_is_std(out_path) || cli_is_std(timing_path) ? stderr : stdout;
     if (!quiet) {
         if (out_path)
-            printf("modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", up_path, out_path,
+            fprintf(say, "modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", up_path, out_path,
                    (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(fs), rate_norm,
-                   fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : "raw + SigMF");
+                   fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : cli_is_std(out_path) ? "raw" : "raw + SigMF");
         if (timing_path && strcmp(timing_path, "-"))
-            printf("timing table %s: %llu %s at %s Hz\n", timing_path,
+            fprintf(say, "timing table %s: %llu %s at %s Hz\n", timing_path,
                    (unsigned long long)ulk_upload_n_subbits(up),
                    up->link.profile == ULK_PROFILE_CCSDS_TC ? "channel bits" : "sub-bits", rate_norm);
     }

@@ -12,7 +12,6 @@
 #include <cjson/cJSON.h>
 #include <limits.h>
 #include <math.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -70,20 +69,7 @@ static void usage(FILE *out)
             ULK_CAUTION);
 }
 
-static int exit_for(int rc)
-{
-    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
-}
-
-/* The temporary file of this run, for the signal handler (async-signal-safe: unlink). */
-static char g_tmp[4096];
-
-static void on_fatal_signal(int sig)
-{
-    if (g_tmp[0]) unlink(g_tmp);
-    signal(sig, SIG_DFL);
-    raise(sig);
-}
+static int exit_for(int rc) { return cli_exit_for(rc); }
 
 /* Data channel source: the modulator's samples divided by the link's peak A + A_p. */
 typedef struct {
@@ -159,44 +145,60 @@ static char *identity_json(const ulk_upload *u, const char *up_path, const ulk_d
     return s;
 }
 
+enum { O_OUTPUT = 'o', O_QUIET = 'q', O_CARRIER = CLI_LONG, O_RATE, O_MODE, O_DICT, O_OFFSET, O_FORMAT, O_VAUDIO,
+       O_VCHAN, O_TIMING };
+static const struct option opts[] = {
+    {"carrier", no_argument, NULL, O_CARRIER},           {"output", required_argument, NULL, O_OUTPUT},
+    {"rate", required_argument, NULL, O_RATE},           {"mode", required_argument, NULL, O_MODE},
+    {"dict", required_argument, NULL, O_DICT},           {"offset", required_argument, NULL, O_OFFSET},
+    {"format", required_argument, NULL, O_FORMAT},       {"voice-audio", required_argument, NULL, O_VAUDIO},
+    {"voice-channel", required_argument, NULL, O_VCHAN}, {"timing", required_argument, NULL, O_TIMING},
+    {"quiet", no_argument, NULL, O_QUIET},               {"help", no_argument, NULL, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"modulate", opts, usage};
+
+typedef struct {
+    const char *out_path, *rate_text, *mode_name, *dict_path, *offset_text, *fmt_text, *vaudio, *vchan_text;
+    int quiet;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    switch (v) {
+    case O_OUTPUT: a->out_path = arg; break;
+    case O_RATE: a->rate_text = arg; break;
+    case O_MODE: a->mode_name = arg; break;
+    case O_DICT: a->dict_path = arg; break;
+    case O_OFFSET: a->offset_text = arg; break;
+    case O_FORMAT: a->fmt_text = arg; break;
+    case O_VAUDIO: a->vaudio = arg; break;
+    case O_VCHAN: a->vchan_text = arg; break;
+    case O_QUIET: a->quiet = 1; break;
+    case O_TIMING:
+        fprintf(stderr, "ulk modulate: --timing goes with real output only (run it without --carrier)\n");
+        return CLI_EXIT_USAGE_IO;
+    default: break;
+    }
+    return 0;
+}
+
 int cmd_modulate_carrier(int argc, char **argv)
 {
-    const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *mode_name = NULL, *dict_path = NULL,
-               *offset_text = NULL, *fmt_text = NULL, *vaudio = NULL, *vchan_text = NULL;
-    int quiet = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--carrier")) continue;
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
-        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
-        else if (!strcmp(a, "--mode") && i + 1 < argc) mode_name = argv[++i];
-        else if (!strncmp(a, "--mode=", 7)) mode_name = a + 7;
-        else if (!strcmp(a, "--dict") && i + 1 < argc) dict_path = argv[++i];
-        else if (!strncmp(a, "--dict=", 7)) dict_path = a + 7;
-        else if (!strcmp(a, "--offset") && i + 1 < argc) offset_text = argv[++i];
-        else if (!strncmp(a, "--offset=", 9)) offset_text = a + 9;
-        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
-        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--voice-audio") && i + 1 < argc) vaudio = argv[++i];
-        else if (!strncmp(a, "--voice-audio=", 14)) vaudio = a + 14;
-        else if (!strcmp(a, "--voice-channel") && i + 1 < argc) vchan_text = argv[++i];
-        else if (!strncmp(a, "--voice-channel=", 16)) vchan_text = a + 16;
-        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
-        else if (!strcmp(a, "--timing") || !strncmp(a, "--timing=", 9)) {
-            fprintf(stderr, "ulk modulate: --timing goes with real output only (run it without --carrier)\n");
-            return 2;
-        } else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk modulate --carrier: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!up_path) up_path = a;
-        else {
-            fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", up_path, a);
-            return 2;
-        }
+    args o = {0};
+    int first, r = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (r >= 0) return r;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *up_path = first < argc ? argv[first] : NULL, *out_path = o.out_path, *rate_text = o.rate_text,
+               *mode_name = o.mode_name, *dict_path = o.dict_path, *offset_text = o.offset_text,
+               *fmt_text = o.fmt_text, *vaudio = o.vaudio, *vchan_text = o.vchan_text;
+    int quiet = o.quiet;
+    if (out_path) {
+        const char *ins[] = {up_path, dict_path, vaudio}, *what[] = {"upload", "dictionary", "voice audio"};
+        if ((r = cli_refuse_overwrite("modulate", out_path, ins, what, 3))) return r;
     }
     if (!up_path || !out_path || !rate_text || !mode_name || !dict_path) {
         fprintf(stderr, "ulk modulate --carrier: %s is required%s\n",
@@ -276,10 +278,6 @@ int cmd_modulate_carrier(int argc, char **argv)
 
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
-    signal(SIGXFSZ, SIG_IGN);
-    signal(SIGINT, on_fatal_signal);
-    signal(SIGTERM, on_fatal_signal);
-    signal(SIGHUP, on_fatal_signal);
     ulk_upload *up = NULL;
     ulk_dict *dict = NULL;
     ulk_mod *mod = NULL;
@@ -296,11 +294,8 @@ int cmd_modulate_carrier(int argc, char **argv)
         code = exit_for(rc);
         goto done;
     }
-    rc = ulk_dict_load(dict_path, &dict, diag);
-    if (rc < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk modulate: dictionary %s refused; nothing written\n", dict_path);
-        code = rc == ULK_EIO || rc == ULK_ENOMEM ? 2 : 1;
+    if ((code = cli_load_dict("modulate", dict_path, &dict))) {
+        fprintf(stderr, "ulk modulate: nothing written\n");
         goto done;
     }
     if (strcmp(dict->sha256, up->dict_sha256)) {
@@ -412,8 +407,6 @@ int cmd_modulate_carrier(int argc, char **argv)
     info.fs_exact = rate_norm;
     rc = ulk_writer_open(out_path, &info, &w, diag);
     if (rc < 0) { code = exit_for(rc); goto fail; }
-    const char *tp = ulk_writer_temp_path(w);
-    if (tp && strlen(tp) < sizeof g_tmp) strcpy(g_tmp, tp);
 
     long got;
     while ((got = ulk_cgen_run(gen, buf, CHUNK)) > 0)
@@ -425,7 +418,6 @@ int cmd_modulate_carrier(int argc, char **argv)
     }
     rc = ulk_writer_commit(w, diag);
     w = NULL;
-    g_tmp[0] = 0;
     if (rc < 0) { code = exit_for(rc); goto fail; }
     if (!quiet) {
         char off[64];
@@ -440,7 +432,6 @@ fail:
     ulk_diag_print(diag, stderr);
     fprintf(stderr, "ulk modulate: nothing written\n");
     ulk_writer_abort(w);
-    g_tmp[0] = 0;
 done:
     cJSON_free(extra);
     ulk_free(buf);

@@ -135,7 +135,7 @@ def main():
         rc, out, err = run("modulate", up, "--carrier", "--mode", "full", "--dict", DICT, "-o", clean, "--rate", FS)
         check(rc == 0, "modulate --carrier full", err)
         noisy = os.path.join(tmp, "noisy.cf32")
-        rc, out, err = run("impair", clean, noisy, "--dict", DICT, "--ebn0", 12, "--offset-hz", 3200,
+        rc, out, err = run("impair", clean, noisy, "--dict", DICT, "--ebn0", 12, "--offset", 3200,
                            "--delay", 0.05, "--seed", 11)
         check(rc == 0, "impair complex", err)
         # the noise the impairment claims: total variance sigma^2 = P_d f_s / (R_b E_b/N_0),
@@ -206,7 +206,7 @@ def main():
         check(rc == 0, "ccsds-tc: compile", err)
         rc, out, err = run("modulate", tcu, "--carrier", "--mode", "full", "--dict", tcd, "-o", tcc, "--rate", FS)
         check(rc == 0, "ccsds-tc: modulate --carrier", err)
-        rc, out, err = run("impair", tcc, tcn, "--dict", tcd, "--ebn0", 10, "--offset-hz", -4100, "--seed", 5)
+        rc, out, err = run("impair", tcc, tcn, "--dict", tcd, "--ebn0", 10, "--offset", -4100, "--seed", 5)
         check(rc == 0, "ccsds-tc: impair", err)
         rc, out, err = run("decode", "--dict", tcd, tcn, "--json")
         j = json.loads(out) if rc == 0 else {"words": [None]}
