@@ -70,6 +70,10 @@ int cli_same_file(const char *out, const char *in);
  * returns 0 otherwise. */
 int cli_refuse_overwrite(const char *cmd, const char *out, const char *const *ins, const char *const *what, size_t n);
 
+/* Refuses (message, returns the exit code) a picture name whose extension is not .png or
+ * .svg, before any work is done; returns 0 otherwise. */
+int cli_check_picture(const char *cmd, const char *path);
+
 /* Loads a dictionary, printing its findings; returns 0 (dict set) or the exit code, the same
  * for every command: 1 when the dictionary breaks a rule, 2 when it cannot be read. */
 int cli_load_dict(const char *cmd, const char *path, struct ulk_dict **dict);

@@ -11,6 +11,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "picture.h"
 #include "ulk/dict.h"
 #include "ulk/error.h"
 #include "ulk/sampleio.h"
@@ -142,6 +143,18 @@ int cli_refuse_overwrite(const char *cmd, const char *out, const char *const *in
             return CLI_EXIT_USAGE_IO;
         }
     return 0;
+}
+
+int cli_check_picture(const char *cmd, const char *path)
+{
+    ulk_diag *diag = ulk_diag_create();
+    int rc = ulk_picture_check(path, diag);
+    if (rc) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk %s: nothing done\n", cmd);
+    }
+    ulk_diag_destroy(diag);
+    return rc ? cli_exit_for(rc) : 0;
 }
 
 int cli_load_dict(const char *cmd, const char *path, ulk_dict **dict)

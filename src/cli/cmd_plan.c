@@ -169,6 +169,7 @@ int cmd_plan(int argc, char **argv)
     if (plot) {
         const char *ins[] = {argv[optind_]}, *what[] = {"dictionary"};
         if ((r = cli_refuse_overwrite("plan", plot, ins, what, 1))) return r;
+        if ((r = cli_check_picture("plan", plot))) return r;
     }
     int sweep_ch = -1;
     if (sweep) {

@@ -163,7 +163,7 @@ def main():
         i = np.arange(n, dtype=np.int64)
         dat = np.zeros(n)
         dat[lead_n:] = data
-        fv, dev, fa = 30000, 4000, Fraction(24690, 20)  # f_a = 1234.5 Hz
+        fv, dev, fa = 28500, 4000, Fraction(24690, 20)  # f_a = 1234.5 Hz
         ph_v = 2 * np.pi * ((i * fv) % FS) / FS
         fa_num, fa_den = fa.numerator, fa.denominator
         ph_a = 2 * np.pi * ((i * fa_num) % (FS * fa_den)) / (FS * fa_den)
@@ -194,7 +194,7 @@ def main():
         with open(os.path.join(SRC, "dictionaries", "demo-ccsds.yaml"), encoding="utf-8") as f:
             t = f.read()
         car = ("\ncarrier:\n  loop: {bandwidth_hz: 20, required_snr_db: 12}\n"
-               "  voice: {subcarrier_hz: 30000, deviation_hz: 4000, tone_hz: 1000}\n"
+               "  voice: {subcarrier_hz: 28500, deviation_hz: 4000, tone_hz: 1000}\n"
                "  ranging: {chip_rate: 2000, polynomial: [10, 3, 0]}\n  data: {}\n"
                "  modes:\n    full: {data: 0.9, voice: 0.9, ranging: 0.4}\n")
         k = t.index("\nsystems:")
