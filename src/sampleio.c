@@ -733,6 +733,11 @@ done:
     return rc;
 }
 
+static const char *fmt_name(int fmt, int cplx)
+{
+    return fmt == ULK_FMT_S16 ? (cplx ? "ci16" : "s16") : (cplx ? "cf32" : "f32");
+}
+
 static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int efmt, ulk_diag *diag)
 {
     char *mp = meta_path_of(r->path);
@@ -741,24 +746,38 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
     int rc = 0;
     if (hint && hint->fs_hz > 0) {
         if (!isfinite(hint->fs_hz)) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: bad sample rate", r->path); }
-        r->info.fs_hz = hint->fs_hz;
-        r->info.format = hint->format;
-        r->rt = raw_type_of(hint->format, ext_complex(r->path));
-        if (!r->rt) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", r->path); }
-        if (efmt >= 0 && efmt != (int)hint->format) {
+        /* the extension decides the sample type unless the user named one; a named one must agree */
+        int given_cplx = hint->format_given && hint->channels == 2;
+        int cplx = ext_complex(r->path) || given_cplx;
+        int fmt = efmt >= 0 && !hint->format_given ? efmt : (int)hint->format;
+        if (hint->format_given && efmt >= 0 &&
+            (efmt != (int)hint->format || (given_cplx && !ext_complex(r->path)) ||
+             (!given_cplx && ext_complex(r->path)))) {
             ulk_free(mp);
-            return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but %s was given", r->path,
-                            efmt == ULK_FMT_F32 ? "f32" : "s16", hint->format == ULK_FMT_F32 ? "f32" : "s16");
+            return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but --format %s was given; drop "
+                                              "--format (the extension decides) or rename the file",
+                            r->path, fmt_name(efmt, ext_complex(r->path)), fmt_name(hint->format, given_cplx));
         }
+        r->info.fs_hz = hint->fs_hz;
+        r->info.format = (ulk_sample_format)fmt;
+        r->rt = raw_type_of((ulk_sample_format)fmt, cplx);
+        if (!r->rt) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", r->path); }
         /* the metadata, when there, still tells channels and our annotations */
         if (have_meta) rc = read_meta(r, mp, hint, channel, diag);
         else rc = pick_channel(r, r->rt->complex_ ? 2 : 1, channel, diag);
     } else {
         if (!have_meta) {
-            rc = ulk_fail(diag, ULK_EINVAL,
-                          "%s: raw samples need a sample rate and format: no %s beside it; give the rate and "
-                          "format (--rate HZ --format f32|s16)",
-                          r->path, mp);
+            /* say what is missing and which options give it */
+            if (efmt >= 0)
+                rc = ulk_fail(diag, ULK_EINVAL,
+                              "%s: raw %s samples without metadata (no %s beside it): the sample rate is missing; "
+                              "give it with --rate HZ (the extension gives the sample type)",
+                              r->path, fmt_name(efmt, ext_complex(r->path)), mp);
+            else
+                rc = ulk_fail(diag, ULK_EINVAL,
+                              "%s: raw samples without metadata (no %s beside it): the sample rate and the sample "
+                              "type are missing; give them with --rate HZ --format f32|s16|cf32|ci16",
+                              r->path, mp);
         } else {
             rc = read_meta(r, mp, NULL, channel, diag);
             if (rc == 0 && efmt >= 0 && (efmt != (int)r->info.format ||

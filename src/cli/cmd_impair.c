@@ -23,7 +23,8 @@
 
 #define CHUNK 65536
 
-static int g_quiet; /* -q: no "wrote" line (the caution is always printed) */
+static int g_quiet;       /* -q: no "wrote" line (the caution is always printed) */
+static int g_fmt_complex; /* --format cf32 / ci16 */
 
 static void usage(FILE *out)
 {
@@ -52,7 +53,8 @@ static void usage(FILE *out)
             "  --amplitude A      gain on the signal (0.01 = -40 dB)\n"
             "  --dc X             DC offset added to every sample\n"
             "  --invert           invert the signal (180 degrees)\n"
-            "  --rate HZ, --format f32|s16, --channel N   for a raw or multi-channel IN\n"
+            "  --rate HZ, --format f32|s16|cf32|ci16, --channel N   for a raw or multi-channel IN\n"
+            "                     (the extension .f32/.s16/.cf32/.ci16 gives the format)\n"
             "  -q, --quiet        no line saying what was written (the caution stays)\n"
             "complex IN (.cf32/.ci16 with SigMF, or a two-channel WAV with --iq; OUT .cf32, .ci16\n"
             "or .wav): complex noise of total variance sigma^2, half in I and half in Q, with\n"
@@ -179,6 +181,8 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     memset(&hint, 0, sizeof hint);
     hint.fs_hz = rate;
     hint.format = fmt == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
+    hint.format_given = fmt >= 0;
+    hint.channels = g_fmt_complex ? 2 : 1;
     hint.container = ULK_CONTAINER_RAW;
     if (ulk_reader_open(in, rate > 0 ? &hint : NULL, 0, &ri, diag) < 0 ||
         ulk_reader_open(in, rate > 0 ? &hint : NULL, 1, &rq, diag) < 0) {
@@ -373,6 +377,7 @@ int cmd_impair(int argc, char **argv)
     ulk_impair_config c = o.c;
     c.add_noise = 1;
     g_quiet = o.quiet;
+    g_fmt_complex = o.fmt_complex;
     int have_ebn0 = o.have_ebn0, no_noise = o.no_noise, channel = o.channel, fmt = o.fmt, iq = o.iq;
     double rate = o.rate, pd = o.pd, rb = o.rb, off_hz = o.off_hz;
     if (in && outp) {
@@ -422,6 +427,8 @@ int cmd_impair(int argc, char **argv)
     memset(&hint, 0, sizeof hint);
     hint.fs_hz = rate;
     hint.format = fmt == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
+    hint.format_given = fmt >= 0;
+    hint.channels = g_fmt_complex ? 2 : 1;
     hint.container = ULK_CONTAINER_RAW;
     if (ulk_reader_open(in, rate > 0 ? &hint : NULL, channel, &r, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
     const ulk_sample_info *info = ulk_reader_info(r);
