@@ -435,9 +435,10 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n)
                 double r = y >= 0 ? floor(y + 0.5) : -floor(-y + 0.5);
                 if (!(r <= 32767.0 && r >= -32767.0))
                     return wfail(w, ULK_ELIMIT,
-                                 "sample %llu%s is %g: it does not fit 16-bit output (would clip); nothing written",
+                                 "sample %llu%s is %g, %.3g over full scale 1.0 (%.1f dB): 16-bit output would clip",
                                  (unsigned long long)(w->n_frames + (done + k) / (size_t)w->channels),
-                                 w->channels == 2 ? ((done + k) % 2 ? " (Q)" : " (I)") : "", (double)s[k]);
+                                 w->channels == 2 ? ((done + k) % 2 ? " (Q)" : " (I)") : "", (double)s[k],
+                                 fabs((double)s[k]) - 1.0, 20 * log10(fabs((double)s[k])));
                 v[k] = (int16_t)r;
             }
             if (w->container == ULK_CONTAINER_WAV) rc = wav_put(w, v, m, 1);

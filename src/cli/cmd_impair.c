@@ -255,8 +255,11 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     if (rc == 0 && (rc = ulk_impair_finish(pi)) == 0 && (rc = ulk_impair_finish(pq)) == 0) rc = cx_drain(&o);
     if (rc < 0) {
         if (rc == ULK_ELIMIT) {
-            fprintf(stderr, "ulk impair: %s: 16-bit samples would clip (noise, gain or DC too large); lower "
-                            "--amplitude or write .cf32 / float WAV\n", outp);
+            ulk_writer_commit(o.w, diag); /* refuses, with the writer's figures: which sample, by how much */
+            o.w = NULL;
+            ulk_diag_print(diag, stderr);
+            fprintf(stderr, "ulk impair: %s: noise, gain or DC too large for 16-bit samples; lower --amplitude or "
+                            "write .cf32 / float WAV\n", outp);
             ret = 1;
         } else if (rc != ULK_EIO) {
             fprintf(stderr, "ulk impair: %s: write failed (%s)\n", outp, ulk_status_str(rc));
@@ -471,8 +474,11 @@ int cmd_impair(int argc, char **argv)
     if (rc == 0) rc = ulk_impair_finish(p);
     if (rc < 0) {
         if (rc == ULK_ELIMIT) {
-            fprintf(stderr, "ulk impair: %s: 16-bit samples would clip (noise, gain or DC too large); lower "
-                            "--amplitude or write .f32 / float WAV\n", outp);
+            ulk_writer_commit(w, diag); /* refuses, with the writer's figures: which sample, by how much */
+            w = NULL;
+            ulk_diag_print(diag, stderr);
+            fprintf(stderr, "ulk impair: %s: noise, gain or DC too large for 16-bit samples; lower --amplitude or "
+                            "write .f32 / float WAV\n", outp);
             ret = 1;
         } else {
             fprintf(stderr, "ulk impair: %s: write failed (%s)\n", outp, ulk_status_str(rc));
