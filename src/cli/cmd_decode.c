@@ -15,36 +15,41 @@
 #include "ulk/decode.h"
 #include "ulk/demod.h"
 #include "ulk/dict.h"
+#include "ulk/limits.h"
 #include "ulk/plot.h"
 #include "util.h"
 
 static void usage(FILE *out)
 {
     fprintf(out,
-            "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png]\n"
-            "                  [--rate HZ --format f32|s16] [--channel N]\n"
+            "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png|FILE.svg]\n"
+            "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N]\n"
             "                  [--iq] [--mode NAME] [--max-offset HZ] [--voice OUT.wav] [--ranging]\n"
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
-            "subcarrier may be off by up to +-500 ppm, its level anywhere from -40 dBFS to full\n"
+            "subcarrier may be off by up to +-" ULK_STR(ULK_DEMOD_DEFAULT_MAX_PPM) " ppm, its level anywhere from -40 dBFS to full\n"
             "scale, with a DC offset, inverted, and noisy. Each word is accepted (check passed,\n"
             "our vehicle, a known command with valid arguments) or rejected with its reason.\n"
             "\n"
             "  CAPTURE                 WAV, or raw .f32/.s16 little-endian mono with its\n"
-            "                          .sigmf-meta beside it or --rate/--format\n"
+            "                          .sigmf-meta beside it or --rate (the extension gives\n"
+            "                          the sample type)\n"
             "options:\n"
             "  --dict DICT             the dictionary the uplink was made with\n"
             "  --json                  machine-readable output (words and estimates)\n"
-            "  --plot FILE.png         picture of the soft sub-bit values and each word's margin\n"
+            "  --plot FILE             picture of the soft sub-bit values and each word's margin,\n"
+            "                          PNG or SVG by the extension (.png, .svg)\n"
             "  --rate HZ               sample rate of a raw capture\n"
-            "  --format f32|s16        sample type of a raw capture\n"
+            "  --format TYPE           sample type of a raw capture whose name does not say it:\n"
+            "                          f32, s16, cf32, ci16\n"
             "  --channel N             channel of a multi-channel WAV (0 = first)\n"
             "complex captures of the composite carrier (.cf32/.ci16 with SigMF, or a two-channel\n"
             "WAV with --iq; the dictionary's carrier section, docs/carrier.md):\n"
             "  --iq                    a two-channel WAV is I (left) and Q (right)\n"
             "  --mode NAME             the carrier mode (default: the one in the SigMF metadata)\n"
-            "  --max-offset HZ         carrier offset search range +-HZ (default 5000)\n"
+            "  --max-offset HZ         carrier offset search range +-HZ (default "
+            ULK_STR(ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ) ")\n"
             "  --voice OUT.wav         demodulate the voice FM subcarrier to OUT.wav (float)\n"
             "  --ranging               report the ranging code phase (chips, seconds from the\n"
             "                          capture start) and the correlation's peak-to-mean ratio\n"
@@ -57,7 +62,7 @@ static void usage(FILE *out)
             "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
             "measured against the capture's sample clock.\n"
-            "\nexit: 0 words found, 1 no word found, 2 usage, dictionary or I/O error\n");
+            "\nexit: 0 words found, 1 no word found or the dictionary has errors, 2 usage or I/O error\n");
 }
 
 typedef struct {
@@ -242,53 +247,100 @@ static void print_human(const char *path, const cli_capture *c)
     printf("\n");
 }
 
+enum { O_DICT = CLI_LONG, O_JSON, O_RANGING, O_PLOT, O_VOICE, O_IQ, O_RATE, O_FORMAT, O_CHANNEL, O_MODE,
+       O_MAX_OFFSET };
+static const struct option opts[] = {
+    {"dict", required_argument, 0, O_DICT},       {"json", no_argument, 0, O_JSON},
+    {"ranging", no_argument, 0, O_RANGING},       {"plot", required_argument, 0, O_PLOT},
+    {"voice", required_argument, 0, O_VOICE},     {"iq", no_argument, 0, O_IQ},
+    {"rate", required_argument, 0, O_RATE},       {"format", required_argument, 0, O_FORMAT},
+    {"channel", required_argument, 0, O_CHANNEL}, {"mode", required_argument, 0, O_MODE},
+    {"max-offset", required_argument, 0, O_MAX_OFFSET}, {"help", no_argument, 0, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"decode", opts, usage};
+
+typedef struct {
+    const char *dict_path, *plot_path;
+    int json;
+    cli_capture_opts o;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    cli_capture_opts *o = &a->o;
+    unsigned long long u;
+    int r;
+    switch (v) {
+    case O_DICT: a->dict_path = arg; break;
+    case O_JSON: a->json = 1; break;
+    case O_RANGING: o->ranging = 1; break;
+    case O_PLOT: a->plot_path = arg; break;
+    case O_VOICE: o->voice_path = arg; break;
+    case O_IQ: o->iq = 1; break;
+    case O_MODE: o->mode = arg; break;
+    case O_FORMAT: return cli_format("decode", arg, &o->format, NULL);
+    case O_CHANNEL:
+        if ((r = cli_uint("decode", "--channel", arg, 255, &u))) return r;
+        o->channel = (int)u;
+        break;
+    case O_RATE: {
+        ulk_ratio q;
+        if (ulk_ratio_parse(arg, &q) < 0 || q.num <= 0) {
+            fprintf(stderr, "ulk decode: --rate '%s': expected a positive sample rate in Hz\n", arg);
+            return CLI_EXIT_USAGE_IO;
+        }
+        o->rate_hz = ulk_ratio_to_double(q);
+        break;
+    }
+    case O_MAX_OFFSET:
+        if ((r = cli_number("decode", "--max-offset", arg, &o->max_offset_hz))) return r;
+        if (!(o->max_offset_hz > 0)) {
+            fprintf(stderr, "ulk decode: --max-offset '%s': expected a positive frequency in Hz\n", arg);
+            return CLI_EXIT_USAGE_IO;
+        }
+        break;
+    default: break;
+    }
+    return 0;
+}
+
 int cmd_decode(int argc, char **argv)
 {
-    const char *dict_path = NULL, *capture = NULL, *plot_path = NULL;
-    int json = 0;
-    cli_capture_opts o;
-    memset(&o, 0, sizeof o);
-    o.format = -1;
-    o.channel = -1;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        int r = cli_capture_opt("decode", argc, argv, &i, &o);
-        if (r < 0) return 2;
-        if (r > 0) continue;
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--json")) json = 1;
-        else if (!strcmp(a, "--ranging")) o.ranging = 1;
-        else if (!strcmp(a, "--dict") || !strcmp(a, "--plot") || !strcmp(a, "--voice")) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk decode: %s needs a value\n", a); return 2; }
-            if (!strcmp(a, "--dict")) dict_path = argv[++i];
-            else if (!strcmp(a, "--voice")) o.voice_path = argv[++i];
-            else plot_path = argv[++i];
-        } else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk decode: unknown option '%s' (ulk decode --help)\n", a);
-            return 2;
-        } else if (!capture) capture = a;
-        else { fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", a); return 2; }
+    args a;
+    memset(&a, 0, sizeof a);
+    a.o.format = -1;
+    a.o.channel = -1;
+    int first, pr = cli_parse(&command, argc, argv, on_opt, &a, &first);
+    if (pr >= 0) return pr;
+    const char *dict_path = a.dict_path, *capture = first < argc ? argv[first] : NULL, *plot_path = a.plot_path;
+    int json = a.json;
+    cli_capture_opts o = a.o;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
     }
     if (!dict_path || !capture) {
         fprintf(stderr, "ulk decode: %s\n", !dict_path ? "--dict DICT is required" : "no capture given");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
     if (o.format >= 0 && !(o.rate_hz > 0)) {
         fprintf(stderr, "ulk decode: --format goes with --rate (a raw capture needs both)\n");
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
+    const char *ins[] = {capture, dict_path}, *what[] = {"capture", "dictionary"};
+    if (plot_path && ((pr = cli_refuse_overwrite("decode", plot_path, ins, what, 2)) ||
+                      (pr = cli_check_picture("decode", plot_path))))
+        return pr;
+    if (o.voice_path && (pr = cli_refuse_overwrite("decode", o.voice_path, ins, what, 2))) return pr;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
     plot_ctx pc = {NULL};
     int ret = 2;
     if (!diag) { fprintf(stderr, "ulk decode: out of memory\n"); return 2; }
-    if (ulk_dict_load(dict_path, &dict, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk decode: cannot use dictionary %s\n", dict_path);
-        goto out;
-    }
-    ulk_diag_clear(diag);
+    if ((ret = cli_load_dict("decode", dict_path, &dict))) goto out; /* the same exit as every command */
+    ret = 2;
     if (plot_path) {
         pc.plot = ulk_plot_create();
         if (!pc.plot) { fprintf(stderr, "ulk decode: out of memory\n"); goto out; }
