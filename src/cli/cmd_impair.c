@@ -151,8 +151,8 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     if (!diag) { fprintf(stderr, "ulk impair: out of memory\n"); return 2; }
     const char *mname = mode_name ? mode_name : meta_mode[0] ? meta_mode : NULL;
     if (dict_path) {
-        if (ulk_dict_load(dict_path, &dict, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
-        ulk_diag_clear(diag);
+        if ((ret = cli_load_dict("impair", dict_path, &dict))) goto out; /* the same exit as every command */
+        ret = 2;
         const ulk_carrier *car = ulk_dict_carrier(dict);
         if (!car) {
             fprintf(stderr, "ulk impair: %s is complex (I/Q) but %s has no carrier section to take P_d from; give "
@@ -420,8 +420,8 @@ int cmd_impair(int argc, char **argv)
     float *buf = NULL;
     if (!diag) { fprintf(stderr, "ulk impair: out of memory\n"); return 2; }
     if (dict_path) {
-        if (ulk_dict_load(dict_path, &dict, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
-        ulk_diag_clear(diag);
+        if ((ret = cli_load_dict("impair", dict_path, &dict))) goto out; /* the same exit as every command */
+        ret = 2;
         double A = dict->link.amplitude;
         if (!(pd > 0)) pd = dict->link.waveform == ULK_WAVE_SQUARE ? A * A : A * A / 2;
         if (!(rb > 0)) rb = ulk_ratio_to_double(dict->link.bit_rate);
