@@ -28,7 +28,7 @@ static void usage(FILE *out)
 {
     fprintf(out,
             "usage: ulk spectrum CAPTURE [-o FILE.png|FILE.svg] [--dict DICT] [--nfft N] [--csv FILE] [--json]\n"
-            "                    [--rate HZ --format f32|s16]\n"
+            "                    [--rate HZ [--format f32|s16|cf32|ci16]]\n"
             "\n"
             "Welch-averaged power spectrum (Hann window, segments of N samples, 50 %% overlap) of a\n"
             "real capture (one channel: 0 .. f_s/2) or a complex one (.cf32/.ci16, or a two-channel\n"
@@ -44,17 +44,16 @@ static void usage(FILE *out)
             "  --dict DICT        mark the channels of this dictionary\n"
             "  --nfft N           segment length, a power of two (default 8192, smaller for short\n"
             "                     captures); the bin is f_s / N\n"
-            "  --rate HZ, --format f32|s16   for raw samples without SigMF metadata\n"
+            "  --rate HZ          sample rate of raw samples without SigMF metadata\n"
+            "  --format TYPE      their sample type when the name does not say it: f32, s16,\n"
+            "                     cf32, ci16\n"
             "  --csv FILE         write the spectrum as CSV: f_hz,power (linear, line power)\n"
             "  --json             print the summary as JSON\n"
             "  -h, --help         this text\n"
             "\nexit: 0 done, 1 refused (dictionary, capture too short), 2 usage or I/O error\n");
 }
 
-static int exit_for(int rc)
-{
-    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
-}
+static int exit_for(int rc) { return cli_exit_for(rc); }
 
 static void add_mark(ulk_spectrum_mark *m, int *n, double f, double half, const char *label)
 {
@@ -94,71 +93,82 @@ static int build_marks(const ulk_dict *d, int is_complex, ulk_spectrum_mark *m)
     return n;
 }
 
+enum { O_OUTPUT = 'o', O_DICT = CLI_LONG, O_NFFT, O_RATE, O_FORMAT, O_CSV, O_JSON };
+static const struct option opts[] = {
+    {"output", required_argument, 0, O_OUTPUT}, {"dict", required_argument, 0, O_DICT},
+    {"nfft", required_argument, 0, O_NFFT},     {"rate", required_argument, 0, O_RATE},
+    {"format", required_argument, 0, O_FORMAT}, {"csv", required_argument, 0, O_CSV},
+    {"json", no_argument, 0, O_JSON},           {"help", no_argument, 0, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"spectrum", opts, usage};
+
+typedef struct {
+    const char *out_path, *dict_path, *csv_path, *rate_text;
+    int json, nfft_given, fmt, fmt_complex;
+    size_t nfft;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    unsigned long long u;
+    switch (v) {
+    case O_OUTPUT: a->out_path = arg; break;
+    case O_DICT: a->dict_path = arg; break;
+    case O_CSV: a->csv_path = arg; break;
+    case O_RATE: a->rate_text = arg; break;
+    case O_JSON: a->json = 1; break;
+    case O_FORMAT: return cli_format("spectrum", arg, &a->fmt, &a->fmt_complex);
+    case O_NFFT:
+        if (cli_uint("spectrum", "--nfft", arg, 1ull << 22, &u) || u < 16 || (u & (u - 1))) {
+            fprintf(stderr, "ulk spectrum: --nfft '%s': expected a power of two from 16 to 4194304\n", arg);
+            return CLI_EXIT_USAGE_IO;
+        }
+        a->nfft = (size_t)u;
+        a->nfft_given = 1;
+        break;
+    default: break;
+    }
+    return 0;
+}
+
 int cmd_spectrum(int argc, char **argv)
 {
-    const char *cap = NULL, *out_path = NULL, *dict_path = NULL, *csv_path = NULL, *nfft_text = NULL, *rate_text = NULL,
-               *fmt_text = NULL;
-    int json = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--dict") && i + 1 < argc) dict_path = argv[++i];
-        else if (!strncmp(a, "--dict=", 7)) dict_path = a + 7;
-        else if (!strcmp(a, "--nfft") && i + 1 < argc) nfft_text = argv[++i];
-        else if (!strncmp(a, "--nfft=", 7)) nfft_text = a + 7;
-        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
-        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
-        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
-        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--csv") && i + 1 < argc) csv_path = argv[++i];
-        else if (!strncmp(a, "--csv=", 6)) csv_path = a + 6;
-        else if (!strcmp(a, "--json")) json = 1;
-        else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk spectrum: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!cap) cap = a;
-        else {
-            fprintf(stderr, "ulk spectrum: more than one capture ('%s' and '%s')\n", cap, a);
-            return 2;
-        }
+    args opt = {.fmt = -1, .nfft = 8192};
+    int first, pr = cli_parse(&command, argc, argv, on_opt, &opt, &first);
+    if (pr >= 0) return pr;
+    const char *cap = first < argc ? argv[first] : NULL, *out_path = opt.out_path, *dict_path = opt.dict_path,
+               *csv_path = opt.csv_path, *rate_text = opt.rate_text;
+    int json = opt.json, nfft_given = opt.nfft_given;
+    size_t nfft = opt.nfft;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk spectrum: more than one capture ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
     }
     if (!cap) {
         fprintf(stderr, "ulk spectrum: CAPTURE is required\n");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
-    size_t nfft = 8192;
-    int nfft_given = 0;
-    if (nfft_text) {
-        char *end;
-        unsigned long long v = strtoull(nfft_text, &end, 10);
-        if (*end || !*nfft_text || v < 16 || v > (1ull << 22) || (v & (v - 1))) {
-            fprintf(stderr, "ulk spectrum: --nfft '%s': expected a power of two from 16 to 4194304\n", nfft_text);
-            return 2;
-        }
-        nfft = (size_t)v;
-        nfft_given = 1;
-    }
+    const char *ins[] = {cap, dict_path}, *what[] = {"capture", "dictionary"};
+    if (out_path && ((pr = cli_refuse_overwrite("spectrum", out_path, ins, what, 2)) ||
+                     (pr = cli_check_picture("spectrum", out_path))))
+        return pr;
+    if (csv_path && (pr = cli_refuse_overwrite("spectrum", csv_path, ins, what, 2))) return pr;
     ulk_sample_info hint = {0};
     if (rate_text) {
         ulk_ratio r;
         if (ulk_ratio_parse(rate_text, &r) < 0 || r.num <= 0) {
             fprintf(stderr, "ulk spectrum: --rate '%s': expected a positive decimal number of Hz\n", rate_text);
-            return 2;
+            return CLI_EXIT_USAGE_IO;
         }
         hint.fs_hz = ulk_ratio_to_double(r);
         hint.container = ULK_CONTAINER_RAW;
     }
-    if (fmt_text) {
-        if (!strcmp(fmt_text, "f32")) hint.format = ULK_FMT_F32;
-        else if (!strcmp(fmt_text, "s16")) hint.format = ULK_FMT_S16;
-        else {
-            fprintf(stderr, "ulk spectrum: --format '%s': expected f32 or s16\n", fmt_text);
-            return 2;
-        }
+    if (opt.fmt >= 0) {
+        hint.format = (ulk_sample_format)opt.fmt;
+        hint.format_given = 1;
+        hint.channels = opt.fmt_complex ? 2 : 1;
     }
 
     ulk_diag *diag = ulk_diag_create();
