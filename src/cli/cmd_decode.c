@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "capture.h"
+#include "capture_opts.h"
 #include "cli.h"
 #include "ulk/decode.h"
 #include "ulk/demod.h"
@@ -247,16 +248,12 @@ static void print_human(const char *path, const cli_capture *c)
     printf("\n");
 }
 
-enum { O_DICT = CLI_LONG, O_JSON, O_RANGING, O_PLOT, O_VOICE, O_IQ, O_RATE, O_FORMAT, O_CHANNEL, O_MODE,
-       O_MAX_OFFSET };
+enum { O_DICT = CLI_LONG, O_JSON, O_RANGING, O_PLOT, O_VOICE };
 static const struct option opts[] = {
-    {"dict", required_argument, 0, O_DICT},       {"json", no_argument, 0, O_JSON},
-    {"ranging", no_argument, 0, O_RANGING},       {"plot", required_argument, 0, O_PLOT},
-    {"voice", required_argument, 0, O_VOICE},     {"iq", no_argument, 0, O_IQ},
-    {"rate", required_argument, 0, O_RATE},       {"format", required_argument, 0, O_FORMAT},
-    {"channel", required_argument, 0, O_CHANNEL}, {"mode", required_argument, 0, O_MODE},
-    {"max-offset", required_argument, 0, O_MAX_OFFSET}, {"help", no_argument, 0, 'h'},
-    {0, 0, 0, 0}};
+    {"dict", required_argument, 0, O_DICT}, {"json", no_argument, 0, O_JSON},
+    {"ranging", no_argument, 0, O_RANGING}, {"plot", required_argument, 0, O_PLOT},
+    {"voice", required_argument, 0, O_VOICE}, CLI_CAPTURE_OPTIONS,
+    {"help", no_argument, 0, 'h'},          {0, 0, 0, 0}};
 static const cli_command command = {"decode", opts, usage};
 
 typedef struct {
@@ -268,39 +265,13 @@ typedef struct {
 static int on_opt(int v, const char *arg, void *ctx)
 {
     args *a = ctx;
-    cli_capture_opts *o = &a->o;
-    unsigned long long u;
-    int r;
     switch (v) {
     case O_DICT: a->dict_path = arg; break;
     case O_JSON: a->json = 1; break;
-    case O_RANGING: o->ranging = 1; break;
+    case O_RANGING: a->o.ranging = 1; break;
     case O_PLOT: a->plot_path = arg; break;
-    case O_VOICE: o->voice_path = arg; break;
-    case O_IQ: o->iq = 1; break;
-    case O_MODE: o->mode = arg; break;
-    case O_FORMAT: return cli_format("decode", arg, &o->format, NULL);
-    case O_CHANNEL:
-        if ((r = cli_uint("decode", "--channel", arg, 255, &u))) return r;
-        o->channel = (int)u;
-        break;
-    case O_RATE: {
-        ulk_ratio q;
-        if (ulk_ratio_parse(arg, &q) < 0 || q.num <= 0) {
-            fprintf(stderr, "ulk decode: --rate '%s': expected a positive sample rate in Hz\n", arg);
-            return CLI_EXIT_USAGE_IO;
-        }
-        o->rate_hz = ulk_ratio_to_double(q);
-        break;
-    }
-    case O_MAX_OFFSET:
-        if ((r = cli_number("decode", "--max-offset", arg, &o->max_offset_hz))) return r;
-        if (!(o->max_offset_hz > 0)) {
-            fprintf(stderr, "ulk decode: --max-offset '%s': expected a positive frequency in Hz\n", arg);
-            return CLI_EXIT_USAGE_IO;
-        }
-        break;
-    default: break;
+    case O_VOICE: a->o.voice_path = arg; break;
+    default: return cli_capture_option("decode", v, arg, &a->o);
     }
     return 0;
 }
@@ -325,10 +296,7 @@ int cmd_decode(int argc, char **argv)
         usage(stderr);
         return CLI_EXIT_USAGE_IO;
     }
-    if (o.format >= 0 && !(o.rate_hz > 0)) {
-        fprintf(stderr, "ulk decode: --format goes with --rate (a raw capture needs both)\n");
-        return CLI_EXIT_USAGE_IO;
-    }
+    if ((pr = cli_capture_check("decode", &o))) return pr;
     const char *ins[] = {capture, dict_path}, *what[] = {"capture", "dictionary"};
     if (plot_path && ((pr = cli_refuse_overwrite("decode", plot_path, ins, what, 2)) ||
                       (pr = cli_check_picture("decode", plot_path))))
