@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "capture.h"
+#include "capture_opts.h"
 #include "cli.h"
 #include "ulk/ccsds.h"
 #include "ulk/decode.h"
@@ -20,7 +21,7 @@ static void usage(FILE *out)
 {
     fprintf(out,
             "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
-            "                  [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME]\n"
+            "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N] [--iq] [--mode NAME]\n"
             "\n"
             "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
@@ -36,11 +37,12 @@ static void usage(FILE *out)
             "  --dict DICT        the dictionary\n"
             "  --upload UPLOAD    the upload file (from ulk compile)\n"
             "  --json             machine-readable report\n"
-            "  --rate HZ, --format f32|s16, --channel N   as for ulk decode\n"
+            "  --rate HZ, --format TYPE, --channel N      as for ulk decode\n"
             "  --iq, --mode NAME, --max-offset HZ         complex captures, as for ulk decode\n"
             "  -h, --help         this text\n"
-            "\nexit: 0 the capture holds exactly the upload; 1 it does not; 2 usage or I/O error,\n"
-            "      or the upload was compiled with another dictionary (refused, nothing compared)\n");
+            "\nexit: 0 the capture holds exactly the upload; 1 it does not, or the dictionary has\n"
+            "      errors; 2 usage or I/O error, or the upload was compiled with another dictionary\n"
+            "      (refused, nothing compared)\n");
 }
 
 static int same_word(const ulk_word *a, const ulk_word *b)
@@ -194,40 +196,54 @@ static size_t align(const ulk_upload *u, const cli_word **acc, size_t na, op **o
     return n;
 }
 
+enum { O_DICT = CLI_LONG, O_UPLOAD, O_JSON };
+static const struct option opts[] = {{"dict", required_argument, 0, O_DICT},
+                                     {"upload", required_argument, 0, O_UPLOAD},
+                                     {"json", no_argument, 0, O_JSON},
+                                     CLI_CAPTURE_OPTIONS,
+                                     {"help", no_argument, 0, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"verify", opts, usage};
+
+typedef struct {
+    const char *dict_path, *upload_path;
+    int json;
+    cli_capture_opts o;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    switch (v) {
+    case O_DICT: a->dict_path = arg; break;
+    case O_UPLOAD: a->upload_path = arg; break;
+    case O_JSON: a->json = 1; break;
+    default: return cli_capture_option("verify", v, arg, &a->o);
+    }
+    return 0;
+}
+
 int cmd_verify(int argc, char **argv)
 {
-    const char *dict_path = NULL, *upload_path = NULL, *capture = NULL;
-    int json = 0;
-    cli_capture_opts o;
-    memset(&o, 0, sizeof o);
-    o.format = -1;
-    o.channel = -1;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        int r = cli_capture_opt("verify", argc, argv, &i, &o);
-        if (r < 0) return 2;
-        if (r > 0) continue;
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--json")) json = 1;
-        else if (!strcmp(a, "--dict") || !strcmp(a, "--upload")) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk verify: %s needs a value\n", a); return 2; }
-            if (!strcmp(a, "--dict")) dict_path = argv[++i];
-            else upload_path = argv[++i];
-        } else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk verify: unknown option '%s' (ulk verify --help)\n", a);
-            return 2;
-        } else if (!capture) capture = a;
-        else { fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", a); return 2; }
+    args opt;
+    memset(&opt, 0, sizeof opt);
+    opt.o.format = -1;
+    opt.o.channel = -1;
+    int first, pr = cli_parse(&command, argc, argv, on_opt, &opt, &first);
+    if (pr >= 0) return pr;
+    const char *dict_path = opt.dict_path, *upload_path = opt.upload_path, *capture = first < argc ? argv[first] : NULL;
+    int json = opt.json;
+    cli_capture_opts o = opt.o;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
     }
     if (!dict_path || !upload_path || !capture) {
         fprintf(stderr, "ulk verify: %s\n", !dict_path ? "--dict DICT is required" : !upload_path ? "--upload UPLOAD is required" : "no capture given");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
-    if (o.format >= 0 && !(o.rate_hz > 0)) {
-        fprintf(stderr, "ulk verify: --format goes with --rate (a raw capture needs both)\n");
-        return 2;
-    }
+    if ((pr = cli_capture_check("verify", &o))) return pr;
     int ret = 2;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
@@ -238,12 +254,8 @@ int cmd_verify(int argc, char **argv)
     op *ops = NULL;
     cJSON *root = NULL;
     if (!diag) { fprintf(stderr, "ulk verify: out of memory\n"); return 2; }
-    if (ulk_dict_load(dict_path, &dict, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk verify: cannot use dictionary %s\n", dict_path);
-        goto out;
-    }
-    ulk_diag_clear(diag);
+    if ((ret = cli_load_dict("verify", dict_path, &dict))) goto out; /* the same exit as every command */
+    ret = 2;
     if (ulk_upload_read(upload_path, &u, diag) < 0) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk verify: cannot use upload %s\n", upload_path);
