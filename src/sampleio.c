@@ -324,7 +324,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     w->channels = cplx ? 2 : 1;
     w->rt = raw_type_of(info->format, cont == ULK_CONTAINER_RAW && cplx);
     w->direct = direct;
-    w->path = ulk_strdup(path);
+    w->path = ulk_strdup(is_std ? "standard output" : path); /* the name messages give */
     w->conv = ulk_malloc(IO_CHUNK * 4); /* IO_CHUNK values (not frames) are converted at a time */
     if (!w->path || !w->conv) { writer_free(w); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
     if (cont == ULK_CONTAINER_RAW && !direct) {

@@ -78,6 +78,9 @@ int cli_check_picture(const char *cmd, const char *path);
  * for every command: 1 when the dictionary breaks a rule, 2 when it cannot be read. */
 int cli_load_dict(const char *cmd, const char *path, struct ulk_dict **dict);
 
+/* Puts standard output behind a stream that remembers the first write error (called once, by
+ * main, before any output). */
+void cli_stdout_init(void);
 /* Flushes and closes standard output; on failure prints "ulk CMD: standard output: write
  * failed: REASON" and returns 2, else returns code. Called once, by main, after every command
  * (help and version forms too). */

@@ -2,6 +2,7 @@
  * getopt_long table, the mapping from outcome to exit code, standard output checked at exit,
  * outputs that would overwrite an input. Why one place: every command then spells, reports and
  * exits the same way (docs/cli.md lists it for users). */
+#define _GNU_SOURCE /* fopencookie */
 #include <errno.h>
 #include <limits.h>
 #include <math.h>
@@ -178,14 +179,44 @@ int cli_load_dict(const char *cmd, const char *path, ulk_dict **dict)
     return 0;
 }
 
+/* Standard output goes through a stream of ours over file descriptor 1 that remembers the
+ * first write error: by the final flush the errno of a failure in the middle of the output
+ * is long gone, and the message must say why (No space left on device, Broken pipe). */
+static int g_stdout_errno;
+
+static ssize_t stdout_write(void *cookie, const char *buf, size_t n)
+{
+    (void)cookie;
+    size_t done = 0;
+    while (done < n) {
+        ssize_t w = write(1, buf + done, n - done);
+        if (w < 0 && errno == EINTR) continue;
+        if (w <= 0) {
+            if (!g_stdout_errno) g_stdout_errno = w < 0 ? errno : EIO;
+            return done ? (ssize_t)done : -1;
+        }
+        done += (size_t)w;
+    }
+    return (ssize_t)done;
+}
+
+void cli_stdout_init(void)
+{
+    cookie_io_functions_t io = {NULL, stdout_write, NULL, NULL};
+    FILE *f = fopencookie(NULL, "w", io);
+    if (!f) return; /* the ordinary stdout then: still checked, with a vaguer reason */
+    setvbuf(f, NULL, _IOFBF, 1 << 16);
+    stdout = f;
+}
+
 int cli_finish_stdout(const char *cmd, int code)
 {
     /* ferror first: an earlier buffered write may already have failed and been dropped */
     int bad = ferror(stdout) != 0;
-    int e = bad ? EIO : 0;
+    int e = bad ? (g_stdout_errno ? g_stdout_errno : EIO) : 0;
     errno = 0;
-    if (fflush(stdout) != 0) { bad = 1; e = errno ? errno : EIO; }
-    if (fclose(stdout) != 0 && !bad) { bad = 1; e = errno ? errno : EIO; }
+    if (fflush(stdout) != 0) { bad = 1; e = g_stdout_errno ? g_stdout_errno : errno ? errno : EIO; }
+    if (fclose(stdout) != 0 && !bad) { bad = 1; e = g_stdout_errno ? g_stdout_errno : errno ? errno : EIO; }
     if (bad) {
         fprintf(stderr, "ulk%s%s: standard output: write failed: %s; the output is incomplete\n", cmd ? " " : "",
                 cmd ? cmd : "", strerror(e));

@@ -85,6 +85,7 @@ int main(int argc, char **argv)
      * (EFBIG, reported) instead of killing the run */
     ulk_tmp_cleanup_on_signals();
     signal(SIGXFSZ, SIG_IGN);
+    cli_stdout_init();
     int code = run(argc, argv);
     const char *name = argc >= 2 && find(argv[1]) >= 0 ? argv[1]
                        : argc >= 3 && !strcmp(argv[1], "help") && find(argv[2]) >= 0 ? argv[2] : NULL;
