@@ -81,6 +81,17 @@ out=$("$ULK" modulate a.ulku -o - --timing - --rate 48000 2>&1 >/dev/null); r=$?
 [ $r -eq 2 ] && case $out in *"cannot both go to standard output"*) true ;; *) false ;; esac
 check "samples and table cannot both go to standard output" $? "$out"
 
+# ---- calibration rounding is visible
+err=$("$ULK" compile --dict "$DICT" "$LIST" -o r.ulku -q 2>&1 >/dev/null)
+case $err in *"PROP_FIRE pulse: 0.12 s is encoded as 0.120272 s (raw 0x54"*) true ;; *) false ;; esac
+check "compile warns naming the requested and the encoded value" $? "$err"
+"$ULK" inspect r.ulku | grep -q 'pulse = 0.120272 s (list text 0.12)  raw 0x54 (unsigned, 8 bits'
+check "inspect shows the encoded value, the list text beside it" $?
+"$ULK" inspect r.ulku | grep -q 'check     crc16 0x[0-9A-F]\{4\}  ok' && ! "$ULK" inspect r.ulku | grep -q 'check     crc16 0x[0-9A-F]\{1,3\} '
+check "inspect: CRC-16 in four hex digits" $?
+"$ULK" inspect r.ulku | grep -q '(boolean, 1 bit at' && ! "$ULK" inspect r.ulku | grep -q ' 1 bits'
+check "inspect: '1 bit', never '1 bits'" $?
+
 # ---- an interrupted run leaves no temporary file (SIGINT and SIGTERM)
 # A long output: 60 s of the demo at 8 MHz, 16-bit (about 190 MB if it ran to the end; it is
 # interrupted after 0.5 s, when its temporary file must exist).
