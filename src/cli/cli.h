@@ -63,6 +63,11 @@ int cli_format(const char *cmd, const char *text, int *fmt, int *complex_);
 /* ---- files ---- */
 /* 1 when path is "-" (standard input or output). */
 int cli_is_std(const char *path);
+/* An input path as the library can read it: path itself, or for "-" a temporary copy of
+ * standard input (removed at exit and on interruption), for inputs read more than once
+ * (captures, dictionaries). NULL after a message when it cannot be made or when "-" is given
+ * for a second input. */
+const char *cli_input(const char *cmd, const char *path);
 /* 1 when out names the same file as in: the same device and inode when both exist, else the
  * same absolute path after resolving the folders. "-" is never the same as a file. */
 int cli_same_file(const char *out, const char *in);

@@ -16,6 +16,7 @@
 #include "ulk/dict.h"
 #include "ulk/error.h"
 #include "ulk/sampleio.h"
+#include "util.h"
 
 int cli_exit_for(int status)
 {
@@ -107,6 +108,64 @@ int cli_format(const char *cmd, const char *text, int *fmt, int *complex_)
 }
 
 int cli_is_std(const char *path) { return path && !strcmp(path, "-"); }
+
+/* Standard input saved to a temporary file, for inputs that are read more than once (a
+ * complex capture as I and Q, a dictionary with its carrier section). Removed at exit and on
+ * SIGINT/SIGTERM (the temporary-file registry). */
+static char g_stdin_copy[64];
+static int g_stdin_slot;
+
+static void remove_stdin_copy(void)
+{
+    if (g_stdin_copy[0]) unlink(g_stdin_copy);
+    ulk_tmp_forget(g_stdin_slot);
+}
+
+const char *cli_input(const char *cmd, const char *path)
+{
+    if (!cli_is_std(path)) return path;
+    if (g_stdin_copy[0]) {
+        fprintf(stderr, "ulk %s: standard input ('-') can be only one of the inputs\n", cmd);
+        return NULL;
+    }
+    const char *dir = getenv("TMPDIR");
+    snprintf(g_stdin_copy, sizeof g_stdin_copy, "%s/ulk-stdin.XXXXXX", dir && *dir && strlen(dir) < 40 ? dir : "/tmp");
+    int fd = mkstemp(g_stdin_copy);
+    if (fd < 0) {
+        fprintf(stderr, "ulk %s: cannot keep standard input in %s: %s\n", cmd, g_stdin_copy, strerror(errno));
+        g_stdin_copy[0] = 0;
+        return NULL;
+    }
+    g_stdin_slot = ulk_tmp_register(g_stdin_copy);
+    atexit(remove_stdin_copy);
+    char buf[65536];
+    for (;;) {
+        ssize_t n = read(0, buf, sizeof buf);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            fprintf(stderr, "ulk %s: standard input: read failed: %s\n", cmd, strerror(errno));
+            close(fd);
+            return NULL;
+        }
+        if (n == 0) break;
+        for (ssize_t done = 0; done < n;) {
+            ssize_t w = write(fd, buf + done, (size_t)(n - done));
+            if (w < 0 && errno == EINTR) continue;
+            if (w <= 0) {
+                fprintf(stderr, "ulk %s: cannot keep standard input in %s: %s\n", cmd, g_stdin_copy,
+                        strerror(w < 0 ? errno : EIO));
+                close(fd);
+                return NULL;
+            }
+            done += w;
+        }
+    }
+    if (close(fd) != 0) {
+        fprintf(stderr, "ulk %s: cannot keep standard input in %s: %s\n", cmd, g_stdin_copy, strerror(errno));
+        return NULL;
+    }
+    return g_stdin_copy;
+}
 
 /* The absolute form of path with its folder resolved (the file itself need not exist).
  * Returns 0, or -1 when the folder cannot be resolved. */

@@ -383,6 +383,7 @@ int cmd_impair(int argc, char **argv)
     g_fmt_complex = o.fmt_complex;
     int have_ebn0 = o.have_ebn0, no_noise = o.no_noise, channel = o.channel, fmt = o.fmt, iq = o.iq;
     double rate = o.rate, pd = o.pd, rb = o.rb, off_hz = o.off_hz;
+    if (in && !(in = cli_input("impair", in))) return CLI_EXIT_USAGE_IO; /* "-": read twice when complex */
     if (in && outp) {
         const char *ins[] = {in, dict_path}, *what[] = {"input capture", "dictionary"};
         if ((pr = cli_refuse_overwrite("impair", outp, ins, what, 2))) return pr;

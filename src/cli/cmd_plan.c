@@ -166,6 +166,9 @@ int cmd_plan(int argc, char **argv)
         usage(stderr);
         return CLI_EXIT_USAGE_IO;
     }
+    const char *dict_path = cli_input("plan", argv[optind_]); /* "-": the carrier loader reads it twice */
+    if (!dict_path) return CLI_EXIT_USAGE_IO;
+    argv[optind_] = (char *)dict_path;
     if (plot) {
         const char *ins[] = {argv[optind_]}, *what[] = {"dictionary"};
         if ((r = cli_refuse_overwrite("plan", plot, ins, what, 1))) return r;

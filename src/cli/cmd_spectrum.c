@@ -150,6 +150,7 @@ int cmd_spectrum(int argc, char **argv)
         usage(stderr);
         return CLI_EXIT_USAGE_IO;
     }
+    if (!(cap = cli_input("spectrum", cap))) return CLI_EXIT_USAGE_IO; /* "-": read twice when complex */
     const char *ins[] = {cap, dict_path}, *what[] = {"capture", "dictionary"};
     if (out_path && ((pr = cli_refuse_overwrite("spectrum", out_path, ins, what, 2)) ||
                      (pr = cli_check_picture("spectrum", out_path))))
