@@ -297,6 +297,7 @@ int cmd_decode(int argc, char **argv)
         return CLI_EXIT_USAGE_IO;
     }
     if ((pr = cli_capture_check("decode", &o))) return pr;
+    if (!(capture = cli_input("decode", capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of standard input */
     const char *ins[] = {capture, dict_path}, *what[] = {"capture", "dictionary"};
     if (plot_path && ((pr = cli_refuse_overwrite("decode", plot_path, ins, what, 2)) ||
                       (pr = cli_check_picture("decode", plot_path))))

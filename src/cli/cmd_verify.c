@@ -244,6 +244,11 @@ int cmd_verify(int argc, char **argv)
         return CLI_EXIT_USAGE_IO;
     }
     if ((pr = cli_capture_check("verify", &o))) return pr;
+    if (cli_is_std(upload_path) && cli_is_std(capture)) {
+        fprintf(stderr, "ulk verify: standard input ('-') can be only one of the inputs\n");
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!(capture = cli_input("verify", capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of standard input */
     int ret = 2;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
