@@ -81,6 +81,17 @@ out=$("$ULK" modulate a.ulku -o - --timing - --rate 48000 2>&1 >/dev/null); r=$?
 [ $r -eq 2 ] && case $out in *"cannot both go to standard output"*) true ;; *) false ;; esac
 check "samples and table cannot both go to standard output" $? "$out"
 
+"$ULK" decode --dict "$DICT" --json - <a.wav >dj1.json 2>/dev/null && "$ULK" decode --dict "$DICT" --json a.wav >dj2.json 2>/dev/null
+r=$?
+[ $r -eq 0 ] && [ "$(grep -v '"file"' dj1.json)" = "$(grep -v '"file"' dj2.json)" ] && [ -z "$(ls "${TMPDIR:-/tmp}"/ulk-stdin.* 2>/dev/null)" ]
+check "decode - reads the capture from standard input (and leaves no copy)" $?
+"$ULK" plan - --json <"$DICT" >pj1.json && "$ULK" plan "$DICT" --json >pj2.json
+[ "$(grep -v '"file"' pj1.json)" = "$(grep -v '"file"' pj2.json)" ]
+check "plan - reads the dictionary from standard input" $?
+out=$("$ULK" verify --dict "$DICT" --upload - - <a.wav 2>&1); r=$?
+[ $r -eq 2 ] && case $out in *"only one of the inputs"*) true ;; *) false ;; esac
+check "only one input may be standard input" $? "$out"
+
 # ---- calibration rounding is visible
 err=$("$ULK" compile --dict "$DICT" "$LIST" -o r.ulku -q 2>&1 >/dev/null)
 case $err in *"PROP_FIRE pulse: 0.12 s is encoded as 0.120272 s (raw 0x54"*) true ;; *) false ;; esac
