@@ -153,6 +153,59 @@ static int on_opt(int v, const char *arg, void *ctx)
     return 0;
 }
 
+/* One mode: the plan as written and, with solve, the solved one; to jmodes (JSON) or as text
+ * when jmodes is NULL. Returns 0 or the exit status of a failed solve. */
+static int plan_one(const ulk_carrier *c, const ulk_carrier_mode *mo, double pt, int solve, cJSON *jmodes)
+{
+    ulk_carrier_plan p;
+    ulk_carrier_plan_indices(c, mo, mo->m_rad, pt, &p);
+    cJSON *jm = NULL;
+    if (jmodes) {
+        jm = json_plan(c, mo, mo->m_rad, &p);
+        cJSON_AddItemToObject(jm, "name", cJSON_CreateString(mo->name));
+        cJSON_AddItemToArray(jmodes, jm);
+    } else {
+        printf("\nmode %s (%s:%d:%d)\n", mo->name, mo->loc.file ? mo->loc.file : "", mo->loc.line, mo->loc.col);
+        print_plan(c, mo, mo->m_rad, &p, "as written");
+    }
+    if (!solve) return 0;
+    double ms[ULK_CH_N];
+    ulk_carrier_plan ps;
+    int src = ulk_carrier_solve(c, mo, pt, ms, &ps);
+    if (src == ULK_EINVAL) {
+        fprintf(stderr, "ulk plan: mode %s: no need (loop, or a required E_b/N_0 or P/N_0 of a channel "
+                        "that is on) to maximise\n", mo->name);
+        return CLI_EXIT_REFUSED;
+    }
+    if (src) {
+        fprintf(stderr, "ulk plan: mode %s: %s\n", mo->name, ulk_status_str(src));
+        return src == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
+    }
+    if (jm) cJSON_AddItemToObject(jm, "solved", json_plan(c, mo, ms, &ps));
+    else print_plan(c, mo, ms, &ps, "solved (smallest margin maximised, 0.01 rad)");
+    return 0;
+}
+
+/* The modes to plan: all, or the one named (with a did-you-mean). Returns 0 or the exit code. */
+static int pick_modes(const ulk_carrier *c, const char *mode_name, const char *path, int *first, int *last)
+{
+    *first = 0;
+    *last = c->n_modes - 1;
+    if (!mode_name) return 0;
+    int i = ulk_carrier_find_mode(c, mode_name);
+    if (i < 0) {
+        const char *names[64];
+        size_t nn = 0;
+        for (int k = 0; k < c->n_modes && nn < 64; k++) names[nn++] = c->modes[k].name;
+        const char *sug = ulk_suggest(mode_name, names, nn);
+        fprintf(stderr, "ulk plan: %s has no mode '%s'%s%s%s\n", path, mode_name, sug ? " (did you mean '" : "",
+                sug ? sug : "", sug ? "'?)" : "");
+        return CLI_EXIT_REFUSED;
+    }
+    *first = *last = i;
+    return 0;
+}
+
 int cmd_plan(int argc, char **argv)
 {
     args o = {.pt = NAN};
@@ -180,7 +233,7 @@ int cmd_plan(int argc, char **argv)
             if (!strcmp(sweep, ulk_channel_name((ulk_channel)ch))) sweep_ch = ch;
         if (sweep_ch < 0) {
             fprintf(stderr, "ulk plan: --sweep wants data, voice or ranging, not '%s'\n", sweep);
-            return 2;
+            return CLI_EXIT_USAGE_IO;
         }
     }
     ulk_diag *diag = ulk_diag_create();
@@ -194,21 +247,11 @@ int cmd_plan(int argc, char **argv)
     }
     ulk_diag_clear(diag);
     if (!has_pt && c->has_pt_n0) pt = c->pt_n0_dbhz;
-    int first = 0, last = c->n_modes - 1;
-    if (mode_name) {
-        int i = ulk_carrier_find_mode(c, mode_name);
-        if (i < 0) {
-            const char *names[64];
-            size_t nn = 0;
-            for (int k = 0; k < c->n_modes && nn < 64; k++) names[nn++] = c->modes[k].name;
-            const char *sug = ulk_suggest(mode_name, names, nn);
-            fprintf(stderr, "ulk plan: %s has no mode '%s'%s%s%s\n", argv[optind_], mode_name,
-                    sug ? " (did you mean '" : "", sug ? sug : "", sug ? "'?)" : "");
-            ulk_carrier_destroy(c);
-            ulk_diag_destroy(diag);
-            return 1;
-        }
-        first = last = i;
+    int first, last;
+    if ((r = pick_modes(c, mode_name, argv[optind_], &first, &last))) {
+        ulk_carrier_destroy(c);
+        ulk_diag_destroy(diag);
+        return r;
     }
     if (solve && isnan(pt)) {
         fprintf(stderr, "ulk plan: --solve needs a budget: carrier.budget.pt_n0_dbhz in the file or --pt-n0\n");
@@ -229,35 +272,8 @@ int cmd_plan(int argc, char **argv)
         printf("\n");
     }
     for (int i = first; i <= last; i++) {
-        const ulk_carrier_mode *mo = &c->modes[i];
-        ulk_carrier_plan p;
-        ulk_carrier_plan_indices(c, mo, mo->m_rad, pt, &p);
-        cJSON *jm = NULL;
-        if (json) {
-            jm = json_plan(c, mo, mo->m_rad, &p);
-            cJSON_AddItemToObject(jm, "name", cJSON_CreateString(mo->name));
-            cJSON_AddItemToArray(jmodes, jm);
-        } else {
-            printf("\nmode %s (%s:%d:%d)\n", mo->name, mo->loc.file ? mo->loc.file : "", mo->loc.line, mo->loc.col);
-            print_plan(c, mo, mo->m_rad, &p, "as written");
-        }
-        if (solve) {
-            double ms[ULK_CH_N];
-            ulk_carrier_plan ps;
-            int src = ulk_carrier_solve(c, mo, pt, ms, &ps);
-            if (src == ULK_EINVAL) {
-                fprintf(stderr, "ulk plan: mode %s: no need (loop, or a required E_b/N_0 or P/N_0 of a channel "
-                                "that is on) to maximise\n", mo->name);
-                status = 1;
-            } else if (src) {
-                fprintf(stderr, "ulk plan: mode %s: %s\n", mo->name, ulk_status_str(src));
-                status = src == ULK_ENOMEM ? 2 : 1;
-            } else if (json) {
-                cJSON_AddItemToObject(jm, "solved", json_plan(c, mo, ms, &ps));
-            } else {
-                print_plan(c, mo, ms, &ps, "solved (smallest margin maximised, 0.01 rad)");
-            }
-        }
+        int st = plan_one(c, &c->modes[i], pt, solve, jmodes);
+        if (st > status) status = st;
     }
     if (json) {
         char *s = cJSON_Print(root);
