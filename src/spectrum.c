@@ -233,25 +233,12 @@ static int mark_series(const ulk_spectrum_mark *mk, int i)
     return k;
 }
 
-static void draw(cairo_t *cr, const double *f, const double *p, size_t n, const ulk_spectrum_mark *mk, int nm,
-                 const char *title, double floor_db)
+/* The channel marks under the trace: a light band for the main lobe, a dashed line at the
+ * centre; drawn[k] and names[k] say which series appear (for the legend). */
+static void draw_marks(cairo_t *cr, const ulk_spectrum_mark *mk, int nm, double fmin, double fmax, double x0,
+                       double y0, double w, double h, int *drawn, const char **names)
 {
-    const double x0 = 70, y0 = 40, w = PW - 100, h = PH - 130;
-    double pmax = 0;
-    for (size_t k = 0; k < n; k++)
-        if (p[k] > pmax) pmax = p[k];
-    double top = pmax > 0 ? ceil(10 * log10(pmax) / 10) * 10 : 0;
-    double bot = isfinite(floor_db) ? floor((floor_db - 10) / 10) * 10 : top - 90;
-    if (bot > top - 30) bot = top - 30;
-    if (bot < top - 140) bot = top - 140;
-    double fmin = f[0], fmax = f[n - 1];
-    if (fmax <= fmin) fmax = fmin + 1;
-    double kscale = fmax - fmin > 20000 ? 1000 : 1;
 #define XF(v) (x0 + ((v) - fmin) / (fmax - fmin) * w)
-#define YD(v) (y0 + (top - (v)) / (top - bot) * h)
-    /* marks under the trace: a light band for the main lobe, a dashed line at the centre */
-    int drawn[ULK_PIC_N_SERIES] = {0};
-    const char *names[ULK_PIC_N_SERIES] = {0};
     for (int i = 0; i < nm; i++) {
         int k = mark_series(mk, i) % ULK_PIC_N_SERIES;
         double a = XF(fmax < mk[i].f_lo_hz ? fmax : fmin > mk[i].f_lo_hz ? fmin : mk[i].f_lo_hz);
@@ -274,6 +261,28 @@ static void draw(cairo_t *cr, const double *f, const double *p, size_t n, const 
         }
         if (in || b > a) { drawn[k] = 1; names[k] = mk[i].label; }
     }
+#undef XF
+}
+
+static void draw(cairo_t *cr, const double *f, const double *p, size_t n, const ulk_spectrum_mark *mk, int nm,
+                 const char *title, double floor_db)
+{
+    const double x0 = 70, y0 = 40, w = PW - 100, h = PH - 130;
+    double pmax = 0;
+    for (size_t k = 0; k < n; k++)
+        if (p[k] > pmax) pmax = p[k];
+    double top = pmax > 0 ? ceil(10 * log10(pmax) / 10) * 10 : 0;
+    double bot = isfinite(floor_db) ? floor((floor_db - 10) / 10) * 10 : top - 90;
+    if (bot > top - 30) bot = top - 30;
+    if (bot < top - 140) bot = top - 140;
+    double fmin = f[0], fmax = f[n - 1];
+    if (fmax <= fmin) fmax = fmin + 1;
+    double kscale = fmax - fmin > 20000 ? 1000 : 1;
+#define XF(v) (x0 + ((v) - fmin) / (fmax - fmin) * w)
+#define YD(v) (y0 + (top - (v)) / (top - bot) * h)
+    int drawn[ULK_PIC_N_SERIES] = {0};
+    const char *names[ULK_PIC_N_SERIES] = {0};
+    draw_marks(cr, mk, nm, fmin, fmax, x0, y0, w, h, drawn, names);
     /* grid and axes, 1-2-5 ticks */
     char buf[64];
     double t[64], step;
