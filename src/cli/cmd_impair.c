@@ -132,6 +132,94 @@ static int cx_drain(cx_out *o)
     return ulk_writer_write(o->w, o->out, n);
 }
 
+/* What --rate and --format say about a raw IN (used only with a rate). */
+static ulk_sample_info reader_hint(double rate, int fmt)
+{
+    ulk_sample_info hint;
+    memset(&hint, 0, sizeof hint);
+    hint.fs_hz = rate;
+    hint.format = fmt == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
+    hint.format_given = fmt >= 0;
+    hint.channels = g_fmt_complex ? 2 : 1;
+    hint.container = ULK_CONTAINER_RAW;
+    return hint;
+}
+
+/* P_d and R_b of a complex capture from the dictionary's carrier section: the data channel's
+ * useful power in the mode (named, from the metadata, or the only one) and the section's
+ * information rate, unless given. Returns 0 (the dictionary in *dict, the mode's name in
+ * *mname) or the exit status (message printed). */
+static int carrier_pd(const char *in, const char *dict_path, int add_noise, ulk_dict **dict, const char **mname,
+                      double *pd, double *rb)
+{
+    int ret;
+    if ((ret = cli_load_dict("impair", dict_path, dict))) return ret; /* the same exit as every command */
+    const ulk_carrier *car = ulk_dict_carrier(*dict);
+    if (!car) {
+        fprintf(stderr, "ulk impair: %s is complex (I/Q) but %s has no carrier section to take P_d from; give "
+                        "--pd P --bit-rate R\n", in, dict_path);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!*mname && car->n_modes == 1) *mname = car->modes[0].name;
+    int mi = *mname ? ulk_carrier_find_mode(car, *mname) : -1;
+    if (mi < 0) {
+        fprintf(stderr, "ulk impair: %s: %s%s%s; give --mode NAME of %s's carrier section\n", in,
+                *mname ? "no carrier mode '" : "which carrier mode?", *mname ? *mname : "", *mname ? "'" : "", dict_path);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const ulk_carrier_mode *mo = &car->modes[mi];
+    ulk_carrier_plan plan;
+    if (ulk_carrier_plan_indices(car, mo, mo->m_rad, NAN, &plan) == 0 && !(*pd > 0)) *pd = plan.useful[ULK_CH_DATA];
+    if (!(*rb > 0) && car->has_data) *rb = ulk_ratio_to_double(car->data_rb);
+    if (add_noise && !(*pd > 0)) {
+        fprintf(stderr, "ulk impair: mode '%s' has no data channel, so E_b/N_0 has no P_d: give --pd P (power "
+                        "relative to the full-scale envelope) and --bit-rate R\n", mo->name);
+        return CLI_EXIT_USAGE_IO;
+    }
+    *mname = mo->name;
+    return 0;
+}
+
+/* The SigMF member "ulk:carrier": {"mode": NAME} without braces (ulk_malloc'd), NULL when
+ * out of memory. */
+static char *mode_extra(const char *mname)
+{
+    char *extra = NULL;
+    cJSON *j = cJSON_CreateObject(), *cm = j ? cJSON_AddObjectToObject(j, "ulk:carrier") : NULL;
+    if (cm && cJSON_AddStringToObject(cm, "mode", mname)) {
+        char *t = cJSON_PrintUnformatted(j);
+        if (t) {
+            size_t n = strlen(t);
+            extra = ulk_strdup(t);
+            if (extra && n >= 2) { memmove(extra, extra + 1, n - 2); extra[n - 2] = 0; }
+            cJSON_free(t);
+        }
+    }
+    cJSON_Delete(j);
+    return extra;
+}
+
+/* Reads I and Q in step, impairs each and writes the rotated pairs. Returns 0 or a status
+ * (a read error is reported here; ULK_ELIMIT and write failures are the caller's to say). */
+static int cx_run(const char *in, ulk_reader *ri, ulk_reader *rq, ulk_impair *pi, ulk_impair *pq, float *bi, float *bq,
+                  cx_out *o)
+{
+    int rc = 0;
+    for (;;) {
+        long a = ulk_reader_read(ri, bi, CHUNK), b = ulk_reader_read(rq, bq, CHUNK);
+        if (a < 0 || b < 0 || a != b) {
+            fprintf(stderr, "ulk impair: %s: %s\n", in, a != b && a >= 0 && b >= 0 ? "I and Q end at different lengths" : "read error");
+            return ULK_EIO;
+        }
+        if (a == 0) break;
+        if ((rc = ulk_impair_push(pi, bi, (size_t)a)) < 0 || (rc = ulk_impair_push(pq, bq, (size_t)b)) < 0 ||
+            (rc = cx_drain(o)) < 0)
+            return rc;
+    }
+    if ((rc = ulk_impair_finish(pi)) == 0 && (rc = ulk_impair_finish(pq)) == 0) rc = cx_drain(o);
+    return rc;
+}
+
 /* IN is complex: P_d from the carrier plan of the mode, two simulators (I with the seed, Q
  * with the seed XOR 0x9E3779B97F4A7C15, so the components' noises are independent), then the
  * rotation. Returns the exit status. */
@@ -150,40 +238,9 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     memset(&o, 0, sizeof o);
     if (!diag) { fprintf(stderr, "ulk impair: out of memory\n"); return 2; }
     const char *mname = mode_name ? mode_name : meta_mode[0] ? meta_mode : NULL;
-    if (dict_path) {
-        if ((ret = cli_load_dict("impair", dict_path, &dict))) goto out; /* the same exit as every command */
-        ret = 2;
-        const ulk_carrier *car = ulk_dict_carrier(dict);
-        if (!car) {
-            fprintf(stderr, "ulk impair: %s is complex (I/Q) but %s has no carrier section to take P_d from; give "
-                            "--pd P --bit-rate R\n", in, dict_path);
-            goto out;
-        }
-        if (!mname && car->n_modes == 1) mname = car->modes[0].name;
-        int mi = mname ? ulk_carrier_find_mode(car, mname) : -1;
-        if (mi < 0) {
-            fprintf(stderr, "ulk impair: %s: %s%s%s; give --mode NAME of %s's carrier section\n", in,
-                    mname ? "no carrier mode '" : "which carrier mode?", mname ? mname : "", mname ? "'" : "", dict_path);
-            goto out;
-        }
-        const ulk_carrier_mode *mo = &car->modes[mi];
-        ulk_carrier_plan plan;
-        if (ulk_carrier_plan_indices(car, mo, mo->m_rad, NAN, &plan) == 0 && !(pd > 0)) pd = plan.useful[ULK_CH_DATA];
-        if (!(rb > 0) && car->has_data) rb = ulk_ratio_to_double(car->data_rb);
-        if (c.add_noise && !(pd > 0)) {
-            fprintf(stderr, "ulk impair: mode '%s' has no data channel, so E_b/N_0 has no P_d: give --pd P (power "
-                            "relative to the full-scale envelope) and --bit-rate R\n", mo->name);
-            goto out;
-        }
-        mname = mo->name;
-    }
-    ulk_sample_info hint;
-    memset(&hint, 0, sizeof hint);
-    hint.fs_hz = rate;
-    hint.format = fmt == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
-    hint.format_given = fmt >= 0;
-    hint.channels = g_fmt_complex ? 2 : 1;
-    hint.container = ULK_CONTAINER_RAW;
+    if (dict_path && (ret = carrier_pd(in, dict_path, c.add_noise, &dict, &mname, &pd, &rb))) goto out;
+    ret = 2;
+    ulk_sample_info hint = reader_hint(rate, fmt);
     if (ulk_reader_open(in, rate > 0 ? &hint : NULL, 0, &ri, diag) < 0 ||
         ulk_reader_open(in, rate > 0 ? &hint : NULL, 1, &rq, diag) < 0) {
         ulk_diag_print(diag, stderr);
@@ -214,18 +271,7 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
              (unsigned long long)c.seed, c.ppm, c.delay_s, off_hz);
     oi.description = desc;
     if (mname) {
-        cJSON *j = cJSON_CreateObject(), *cm = j ? cJSON_AddObjectToObject(j, "ulk:carrier") : NULL;
-        if (cm && cJSON_AddStringToObject(cm, "mode", mname)) {
-            char *t = cJSON_PrintUnformatted(j);
-            if (t) {
-                size_t n = strlen(t);
-                extra = ulk_strdup(t);
-                if (extra && n >= 2) { memmove(extra, extra + 1, n - 2); extra[n - 2] = 0; }
-                cJSON_free(t);
-            }
-        }
-        cJSON_Delete(j);
-        if (!extra) { fprintf(stderr, "ulk impair: out of memory\n"); goto out; }
+        if (!(extra = mode_extra(mname))) { fprintf(stderr, "ulk impair: out of memory\n"); goto out; }
         oi.extra_json = extra;
     }
     if (ulk_writer_open(outp, &oi, &o.w, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
@@ -239,20 +285,7 @@ static int impair_complex(const char *in, const char *outp, const char *dict_pat
     bi = ulk_malloc(CHUNK * sizeof *bi);
     bq = ulk_malloc(CHUNK * sizeof *bq);
     if (!bi || !bq) { fprintf(stderr, "ulk impair: out of memory\n"); goto out; }
-    int rc = 0;
-    for (;;) {
-        long a = ulk_reader_read(ri, bi, CHUNK), b = ulk_reader_read(rq, bq, CHUNK);
-        if (a < 0 || b < 0 || a != b) {
-            fprintf(stderr, "ulk impair: %s: %s\n", in, a != b && a >= 0 && b >= 0 ? "I and Q end at different lengths" : "read error");
-            rc = ULK_EIO;
-            break;
-        }
-        if (a == 0) break;
-        if ((rc = ulk_impair_push(pi, bi, (size_t)a)) < 0 || (rc = ulk_impair_push(pq, bq, (size_t)b)) < 0 ||
-            (rc = cx_drain(&o)) < 0)
-            break;
-    }
-    if (rc == 0 && (rc = ulk_impair_finish(pi)) == 0 && (rc = ulk_impair_finish(pq)) == 0) rc = cx_drain(&o);
+    int rc = cx_run(in, ri, rq, pi, pq, bi, bq, &o);
     if (rc < 0) {
         if (rc == ULK_ELIMIT) {
             ulk_writer_commit(o.w, diag); /* refuses, with the writer's figures: which sample, by how much */
@@ -360,58 +393,11 @@ static int on_opt(int v, const char *arg, void *ctx)
     return 0;
 }
 
-int cmd_impair(int argc, char **argv)
+/* IN is real: one simulator, P_d and R_b from the dictionary's link, --pd/--bit-rate or the
+ * SigMF metadata. Returns the exit status. */
+static int impair_real(const char *in, const char *outp, const char *dict_path, ulk_impair_config c, double pd,
+                       double rb, double rate, int fmt, int channel)
 {
-    args o;
-    memset(&o, 0, sizeof o);
-    o.c.seed = 1;
-    o.channel = -1;
-    o.fmt = -1;
-    int first, pr = cli_parse(&command, argc, argv, on_opt, &o, &first);
-    if (pr >= 0) return pr;
-    const char *in = first < argc ? argv[first] : NULL, *outp = o.outp, *dict_path = o.dict_path,
-               *mode_name = o.mode_name;
-    int nops = argc - first;
-    if (!outp && nops == 2) outp = argv[first + 1]; /* IN OUT, as before -o */
-    else if (nops > 1) {
-        fprintf(stderr, "ulk impair: too many files ('%s')\n", argv[first + (outp ? 1 : 2)]);
-        return CLI_EXIT_USAGE_IO;
-    }
-    ulk_impair_config c = o.c;
-    c.add_noise = 1;
-    g_quiet = o.quiet;
-    g_fmt_complex = o.fmt_complex;
-    int have_ebn0 = o.have_ebn0, no_noise = o.no_noise, channel = o.channel, fmt = o.fmt, iq = o.iq;
-    double rate = o.rate, pd = o.pd, rb = o.rb, off_hz = o.off_hz;
-    if (in && !(in = cli_input("impair", in))) return CLI_EXIT_USAGE_IO; /* "-": read twice when complex */
-    if (in && outp) {
-        const char *ins[] = {in, dict_path}, *what[] = {"input capture", "dictionary"};
-        if ((pr = cli_refuse_overwrite("impair", outp, ins, what, 2))) return pr;
-    }
-    if (!in || !outp) { fprintf(stderr, "ulk impair: IN and -o OUT are required\n"); usage(stderr); return 2; }
-    if (!have_ebn0 && !no_noise) { fprintf(stderr, "ulk impair: --ebn0 DB is required (or --no-noise)\n"); return 2; }
-    c.add_noise = !no_noise;
-    if (channel < 0) {
-        int meta_cplx = 0, two = 0;
-        char meta_mode[64];
-        if (cli_sniff_meta(in, &meta_cplx, meta_mode, sizeof meta_mode) < 0) {
-            fprintf(stderr, "ulk impair: out of memory\n");
-            return 2;
-        }
-        if (iq) {
-            ulk_reader *t = NULL;
-            if (ulk_reader_open(in, NULL, 0, &t, NULL) == 0) two = ulk_reader_info(t)->channels == 2;
-            ulk_reader_close(t);
-            if (!two) { fprintf(stderr, "ulk impair: --iq: %s is not a two-channel file (left I, right Q)\n", in); return 2; }
-        }
-        if (meta_cplx || iq)
-            return impair_complex(in, outp, dict_path, mode_name, meta_mode, c, pd, rb, rate, fmt, off_hz);
-    }
-    if (mode_name || off_hz != 0) {
-        fprintf(stderr, "ulk impair: --mode and --offset are for complex (I/Q) captures; %s is real\n", in);
-        return 2;
-    }
-
     int ret = 2;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
@@ -427,13 +413,7 @@ int cmd_impair(int argc, char **argv)
         if (!(pd > 0)) pd = dict->link.waveform == ULK_WAVE_SQUARE ? A * A : A * A / 2;
         if (!(rb > 0)) rb = ulk_ratio_to_double(dict->link.bit_rate);
     }
-    ulk_sample_info hint;
-    memset(&hint, 0, sizeof hint);
-    hint.fs_hz = rate;
-    hint.format = fmt == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
-    hint.format_given = fmt >= 0;
-    hint.channels = g_fmt_complex ? 2 : 1;
-    hint.container = ULK_CONTAINER_RAW;
+    ulk_sample_info hint = reader_hint(rate, fmt);
     if (ulk_reader_open(in, rate > 0 ? &hint : NULL, channel, &r, diag) < 0) { ulk_diag_print(diag, stderr); goto out; }
     const ulk_sample_info *info = ulk_reader_info(r);
     if (!(rb > 0) && info->bit_rate > 0) rb = info->bit_rate;
@@ -499,4 +479,59 @@ out:
     ulk_dict_destroy(dict);
     ulk_diag_destroy(diag);
     return ret;
+}
+
+int cmd_impair(int argc, char **argv)
+{
+    args o;
+    memset(&o, 0, sizeof o);
+    o.c.seed = 1;
+    o.channel = -1;
+    o.fmt = -1;
+    int first, pr = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (pr >= 0) return pr;
+    const char *in = first < argc ? argv[first] : NULL, *outp = o.outp, *dict_path = o.dict_path,
+               *mode_name = o.mode_name;
+    int nops = argc - first;
+    if (!outp && nops == 2) outp = argv[first + 1]; /* IN OUT, as before -o */
+    else if (nops > 1) {
+        fprintf(stderr, "ulk impair: too many files ('%s')\n", argv[first + (outp ? 1 : 2)]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    ulk_impair_config c = o.c;
+    c.add_noise = 1;
+    g_quiet = o.quiet;
+    g_fmt_complex = o.fmt_complex;
+    int have_ebn0 = o.have_ebn0, no_noise = o.no_noise, channel = o.channel, fmt = o.fmt, iq = o.iq;
+    double rate = o.rate, pd = o.pd, rb = o.rb, off_hz = o.off_hz;
+    if (in && !(in = cli_input("impair", in))) return CLI_EXIT_USAGE_IO; /* "-": read twice when complex */
+    if (in && outp) {
+        const char *ins[] = {in, dict_path}, *what[] = {"input capture", "dictionary"};
+        if ((pr = cli_refuse_overwrite("impair", outp, ins, what, 2))) return pr;
+    }
+    if (!in || !outp) { fprintf(stderr, "ulk impair: IN and -o OUT are required\n"); usage(stderr); return 2; }
+    if (!have_ebn0 && !no_noise) { fprintf(stderr, "ulk impair: --ebn0 DB is required (or --no-noise)\n"); return 2; }
+    c.add_noise = !no_noise;
+    if (channel < 0) {
+        int meta_cplx = 0, two = 0;
+        char meta_mode[64];
+        if (cli_sniff_meta(in, &meta_cplx, meta_mode, sizeof meta_mode) < 0) {
+            fprintf(stderr, "ulk impair: out of memory\n");
+            return 2;
+        }
+        if (iq) {
+            ulk_reader *t = NULL;
+            if (ulk_reader_open(in, NULL, 0, &t, NULL) == 0) two = ulk_reader_info(t)->channels == 2;
+            ulk_reader_close(t);
+            if (!two) { fprintf(stderr, "ulk impair: --iq: %s is not a two-channel file (left I, right Q)\n", in); return 2; }
+        }
+        if (meta_cplx || iq)
+            return impair_complex(in, outp, dict_path, mode_name, meta_mode, c, pd, rb, rate, fmt, off_hz);
+    }
+    if (mode_name || off_hz != 0) {
+        fprintf(stderr, "ulk impair: --mode and --offset are for complex (I/Q) captures; %s is real\n", in);
+        return 2;
+    }
+
+    return impair_real(in, outp, dict_path, c, pd, rb, rate, fmt, channel);
 }
