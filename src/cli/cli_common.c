@@ -264,7 +264,8 @@ void cli_stdout_init(void)
     cookie_io_functions_t io = {NULL, stdout_write, NULL, NULL};
     FILE *f = fopencookie(NULL, "w", io);
     if (!f) return; /* the ordinary stdout then: still checked, with a vaguer reason */
-    setvbuf(f, NULL, _IOFBF, 1 << 16);
+    /* as the C library buffers standard output: by line on a terminal, in blocks otherwise */
+    setvbuf(f, NULL, isatty(1) ? _IOLBF : _IOFBF, isatty(1) ? 0 : 1 << 16);
     stdout = f;
 }
 
