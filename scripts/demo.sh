@@ -11,39 +11,43 @@ out=out/demo
 mkdir -p "$out"
 dict=dictionaries/demo-subbit.yaml
 list=dictionaries/demo-subbit.cmd
-step() { printf '\n== %s\n$ %s\n' "$1" "${*:2}"; "${@:2}"; }
+# q WORD: WORD quoted for the shell (spaces and quotes in a checkout path stay pasteable).
+q() { printf '%q' "$1"; }
+# step TITLE COMMAND: prints COMMAND exactly as it can be pasted into a shell started in the
+# repository's folder, then runs that same text (without pipefail, as an interactive shell
+# would: `| head` must not fail the step).
+step() { printf '\n== %s\n$ %s\n' "$1" "$2"; (set +o pipefail; eval "$2"); }
+u=$(q "$ulk")
+echo "(each command below runs in $(q "$here"); paste it there to run it again)"
 
-step "validate the demo dictionary (YAML and JSON)" "$ulk" validate "$dict" dictionaries/demo-subbit.json
-step "compile the demo command list" "$ulk" compile --dict "$dict" "$list" -o "$out/demo.ulku"
-step "inspect the upload (first words)" bash -c "\"$ulk\" inspect \"$out/demo.ulku\" | head -n 40"
+step "validate the demo dictionary (YAML and JSON)" "$u validate $dict dictionaries/demo-subbit.json"
+step "compile the demo command list" "$u compile --dict $dict $list -o $out/demo.ulku"
+step "inspect the upload (first words)" "$u inspect $out/demo.ulku | head -n 40"
 step "modulate to a 48 kHz WAV and write the timing table" \
-  "$ulk" modulate "$out/demo.ulku" -o "$out/demo.wav" --rate 48000 --timing "$out/demo-timing.csv"
+  "$u modulate $out/demo.ulku -o $out/demo.wav --rate 48000 --timing $out/demo-timing.csv"
 step "impair: Eb/N0 12 dB, +150 ppm clock, 0.3 s leading noise, -20 dB level, inverted" \
-  "$ulk" impair "$out/demo.wav" "$out/demo-rx.wav" --dict "$dict" --ebn0 12 --ppm 150 --delay 0.3 \
-  --amplitude 0.1 --invert --seed 1
-step "decode the impaired capture blind" bash -c "\"$ulk\" decode --dict \"$dict\" \"$out/demo-rx.wav\" | head -n 40"
-step "verify the capture against the upload" "$ulk" verify --dict "$dict" --upload "$out/demo.ulku" "$out/demo-rx.wav"
+  "$u impair $out/demo.wav -o $out/demo-rx.wav --dict $dict --ebn0 12 --ppm 150 --delay 0.3 --amplitude 0.1 --invert --seed 1"
+step "decode the impaired capture blind" "$u decode --dict $dict $out/demo-rx.wav | head -n 40"
+step "verify the capture against the upload" "$u verify --dict $dict --upload $out/demo.ulku $out/demo-rx.wav"
 
 # The second link profile: the same commands and exit codes on CCSDS telecommand
 # (dictionaries/demo-ccsds.yaml: one Space Packet per TC frame per CLTU).
 tdict=dictionaries/demo-ccsds.yaml
 tlist=dictionaries/demo-ccsds.cmd
-step "ccsds-tc: validate the demo dictionary (YAML and JSON)" "$ulk" validate "$tdict" dictionaries/demo-ccsds.json
-step "ccsds-tc: compile the demo command list" "$ulk" compile --dict "$tdict" "$tlist" -o "$out/demo-ccsds.ulku"
-step "ccsds-tc: inspect the upload (first CLTUs)" bash -c "\"$ulk\" inspect \"$out/demo-ccsds.ulku\" | head -n 36"
+step "ccsds-tc: validate the demo dictionary (YAML and JSON)" "$u validate $tdict dictionaries/demo-ccsds.json"
+step "ccsds-tc: compile the demo command list" "$u compile --dict $tdict $tlist -o $out/demo-ccsds.ulku"
+step "ccsds-tc: inspect the upload (first CLTUs)" "$u inspect $out/demo-ccsds.ulku | head -n 36"
 step "ccsds-tc: modulate to a 48 kHz WAV and write the timing table" \
-  "$ulk" modulate "$out/demo-ccsds.ulku" -o "$out/demo-ccsds.wav" --rate 48000 --timing "$out/demo-ccsds-timing.csv"
+  "$u modulate $out/demo-ccsds.ulku -o $out/demo-ccsds.wav --rate 48000 --timing $out/demo-ccsds-timing.csv"
 step "ccsds-tc: impair: Eb/N0 12 dB, -120 ppm clock, 0.2 s leading noise, inverted" \
-  "$ulk" impair "$out/demo-ccsds.wav" "$out/demo-ccsds-rx.wav" --dict "$tdict" --ebn0 12 --ppm -120 --delay 0.2 \
-  --invert --seed 2
-step "ccsds-tc: decode the impaired capture blind" \
-  bash -c "\"$ulk\" decode --dict \"$tdict\" \"$out/demo-ccsds-rx.wav\" | head -n 40"
+  "$u impair $out/demo-ccsds.wav -o $out/demo-ccsds-rx.wav --dict $tdict --ebn0 12 --ppm -120 --delay 0.2 --invert --seed 2"
+step "ccsds-tc: decode the impaired capture blind" "$u decode --dict $tdict $out/demo-ccsds-rx.wav | head -n 40"
 step "ccsds-tc: verify the capture against the upload" \
-  "$ulk" verify --dict "$tdict" --upload "$out/demo-ccsds.ulku" "$out/demo-ccsds-rx.wav"
-step "composite carrier: power division and margins per mode" "$ulk" plan "$dict" --plot "$out/plan.png"
+  "$u verify --dict $tdict --upload $out/demo-ccsds.ulku $out/demo-ccsds-rx.wav"
+step "composite carrier: power division and margins per mode" "$u plan $dict --plot $out/plan.svg"
 step "composite carrier: complex baseband of mode 'full' (data, voice, ranging)" \
-  "$ulk" modulate "$out/demo.ulku" --carrier --mode full --dict "$dict" -o "$out/demo-full.cf32" --rate 192000
+  "$u modulate $out/demo.ulku --carrier --mode full --dict $dict -o $out/demo-full.cf32 --rate 192000"
 step "composite carrier: spectrum picture with the channels marked" \
-  "$ulk" spectrum "$out/demo-full.cf32" --dict "$dict" -o "$out/spectrum-full.png"
+  "$u spectrum $out/demo-full.cf32 --dict $dict -o $out/spectrum-full.png"
 echo
 echo "demo outputs are in $out/"

@@ -1,40 +1,23 @@
-/* src/carrier_plot.c - the planner's picture (cairo): line powers per mode, and margins as
- * one index varies. Kept out of carrier.c so the planner builds without cairo. */
+/* src/carrier_plot.c - the planner's picture: line powers per mode, and margins as one index
+ * varies, with the index as written and the solved index marked. Drawn through the one
+ * picture surface (src/picture.h: format by extension, our palette and dash patterns, 1-2-5
+ * ticks). Kept out of carrier.c so the planner builds without cairo. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
 
+#include "picture.h"
 #include "ulk/carrier.h"
 #include "util.h"
 
 #ifdef ULK_HAVE_CAIRO
-#include <cairo.h>
-#ifdef CAIRO_HAS_SVG_SURFACE
-#include <cairo-svg.h>
-#endif
 
 #define W 1000.0
-#define H 460.0
+#define H 480.0
 #define DB_MIN -40.0
+#define N_LINES 6 /* carrier, data, voice, ranging, pilot, intermodulation: series 0..5 */
 
-static cairo_status_t write_fp(void *closure, const unsigned char *data, unsigned int len)
-{
-    return fwrite(data, 1, len, (FILE *)closure) == len ? CAIRO_STATUS_SUCCESS : CAIRO_STATUS_WRITE_ERROR;
-}
-
-static const double colors[6][3] = {
-    {0.20, 0.20, 0.20}, {0.12, 0.47, 0.71}, {1.00, 0.50, 0.05},
-    {0.17, 0.63, 0.17}, {0.58, 0.40, 0.74}, {0.84, 0.15, 0.16},
-};
-static const char *const line_names[6] = {"carrier", "data", "voice", "ranging", "pilot", "intermod"};
-
-static void text(cairo_t *cr, double x, double y, const char *s, double align)
-{
-    cairo_text_extents_t e;
-    cairo_text_extents(cr, s, &e);
-    cairo_move_to(cr, x - align * e.width, y);
-    cairo_show_text(cr, s);
-}
+static const char *const line_names[N_LINES] = {"carrier", "data", "voice", "ranging", "pilot", "intermodulation"};
 
 static double clampdb(double f)
 {
@@ -42,104 +25,144 @@ static double clampdb(double f)
     return d < DB_MIN ? DB_MIN : d;
 }
 
-static void frame(cairo_t *cr, double x0, double y0, double w, double h, double vmin, double vmax,
-                  double step, const char *ylabel)
+/* A panel: light grid at 1-2-5 ticks of [vmin, vmax], labels, border and title. */
+static void frame(cairo_t *cr, double x0, double y0, double w, double h, double vmin, double vmax, const char *title)
 {
-    cairo_set_source_rgb(cr, 0.85, 0.85, 0.85);
-    cairo_set_line_width(cr, 0.5);
+    double t[32], step;
+    int n = ulk_pic_ticks(vmin, vmax, 9, t, 32, &step);
     char b[32];
-    for (double v = vmin; v <= vmax + 1e-9; v += step) {
-        double y = y0 + h - (v - vmin) / (vmax - vmin) * h;
+    cairo_set_line_width(cr, 0.5);
+    for (int i = 0; i < n; i++) {
+        double y = y0 + h - (t[i] - vmin) / (vmax - vmin) * h;
+        cairo_set_source_rgb(cr, 0.86, 0.86, 0.86);
         cairo_move_to(cr, x0, y);
         cairo_line_to(cr, x0 + w, y);
         cairo_stroke(cr);
         cairo_set_source_rgb(cr, 0, 0, 0);
-        snprintf(b, sizeof b, "%g", v);
-        text(cr, x0 - 4, y + 4, b, 1.0);
-        cairo_set_source_rgb(cr, 0.85, 0.85, 0.85);
+        ulk_pic_tick_label(t[i], step, b, sizeof b);
+        ulk_pic_text(cr, x0 - 4, y + 4, b, 1.0);
     }
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_line_width(cr, 1);
     cairo_rectangle(cr, x0, y0, w, h);
     cairo_stroke(cr);
-    text(cr, x0, y0 - 8, ylabel, 0);
+    ulk_pic_text(cr, x0, y0 - 8, title, 0);
 }
 
-static void draw(cairo_t *cr, const ulk_carrier *c, int mi, int sweep_ch, double pt)
+/* Line fraction k of a plan (the order of line_names). */
+static double line_of(const ulk_carrier_plan *p, int k)
 {
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_paint(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 11);
+    double v[N_LINES] = {p->carrier, p->useful[0], p->useful[1], p->useful[2], p->pilot, p->intermod};
+    return v[k];
+}
 
-    /* left: bars, dB relative to P_T */
-    double x0 = 60, y0 = 40, w = 400, h = 340;
-    frame(cr, x0, y0, w, h, DB_MIN, 0, 5, "line power P/P_T, dB (as written)");
-    double gw = w / (c->n_modes ? c->n_modes : 1);
+static void bars(cairo_t *cr, const ulk_carrier *c, double x0, double y0, double w, double h)
+{
+    frame(cr, x0, y0, w, h, DB_MIN, 0, "line power P/P_T, dB (indices as written)");
+    double gw = w / (c->n_modes ? c->n_modes : 1), bw = (gw - 16) / N_LINES;
+    int drawn[N_LINES] = {0};
     for (int i = 0; i < c->n_modes; i++) {
         const ulk_carrier_mode *mo = &c->modes[i];
         ulk_carrier_plan p;
         ulk_carrier_plan_indices(c, mo, mo->m_rad, NAN, &p);
-        double v[6] = {p.carrier, p.useful[0], p.useful[1], p.useful[2], p.pilot, p.intermod};
-        double bw = (gw - 16) / 6;
-        for (int k = 0; k < 6; k++) {
-            double y = y0 + h - (clampdb(v[k]) - DB_MIN) / -DB_MIN * h;
-            cairo_set_source_rgb(cr, colors[k][0], colors[k][1], colors[k][2]);
+        for (int k = 0; k < N_LINES; k++) {
+            double f = line_of(&p, k);
+            if (!(f > 0)) continue; /* a line the mode does not have: no bar, no legend */
+            drawn[k] = 1;
+            double y = y0 + h - (clampdb(f) - DB_MIN) / -DB_MIN * h;
+            ulk_pic_series(cr, k, 1);
             cairo_rectangle(cr, x0 + i * gw + 8 + k * bw, y, bw - 1, y0 + h - y);
             cairo_fill(cr);
         }
         cairo_set_source_rgb(cr, 0, 0, 0);
-        text(cr, x0 + i * gw + gw / 2, y0 + h + 16, mo->name, 0.5);
+        ulk_pic_text(cr, x0 + i * gw + gw / 2, y0 + h + 16, mo->name, 0.5);
     }
-    for (int k = 0; k < 6; k++) {
-        cairo_set_source_rgb(cr, colors[k][0], colors[k][1], colors[k][2]);
-        cairo_rectangle(cr, x0 + k * 68, y0 + h + 30, 10, 10);
-        cairo_fill(cr);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        text(cr, x0 + k * 68 + 14, y0 + h + 39, line_names[k], 0);
-    }
+    double lx = x0, ly = y0 + h + 40;
+    for (int k = 0; k < N_LINES; k++)
+        if (drawn[k]) {
+            if (lx > x0 + w - 90) { lx = x0; ly += 16; }
+            lx = ulk_pic_legend(cr, lx, ly, k, 1, line_names[k]);
+        }
+}
 
-    /* right: margins (or line powers) against the sweep channel's index */
+/* A vertical marker at index m (rad) with its name at the top. */
+static void index_mark(cairo_t *cr, double x1, double y0, double w1, double h, double lo, double hi, double m,
+                       const char *name, int k)
+{
+    if (!(hi > lo) || m < lo || m > hi) return;
+    double x = x1 + w1 * (m - lo) / (hi - lo);
+    cairo_save(cr);
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_set_line_width(cr, 1.2);
+    double dash[2] = {k ? 2.0 : 6.0, 3.0};
+    cairo_set_dash(cr, dash, 2, 0);
+    cairo_move_to(cr, x, y0);
+    cairo_line_to(cr, x, y0 + h);
+    cairo_stroke(cr);
+    cairo_restore(cr);
+    char b[64];
+    snprintf(b, sizeof b, "%s %.2f", name, m);
+    cairo_text_extents_t e;
+    cairo_text_extents(cr, b, &e);
+    int left = x + 3 + e.x_advance > x1 + w1; /* near the right edge: the label goes left of the line */
+    ulk_pic_text(cr, left ? x - 3 : x + 3, y0 + 12 + 13 * k, b, left ? 1 : 0);
+}
+
+static void sweep(cairo_t *cr, const ulk_carrier *c, int mi, int sweep_ch, double pt, double x1, double y0, double w1,
+                  double h)
+{
     const ulk_carrier_mode *mo = &c->modes[mi];
     double lo = c->bound_lo[sweep_ch], hi = c->bound_hi[sweep_ch];
     int have_budget = !isnan(pt);
-    double x1 = 560, w1 = 400;
     const int NPT = 200;
-    double vmin = DB_MIN, vmax = 0, step = 5;
-    if (have_budget) {
-        /* range from the curves themselves, rounded out to 5 dB */
-        double mn = HUGE_VAL, mx = -HUGE_VAL;
-        for (int j = 0; j <= NPT; j++) {
-            double m[ULK_CH_N];
-            memcpy(m, mo->m_rad, sizeof m);
-            m[sweep_ch] = lo + (hi - lo) * j / NPT;
-            ulk_carrier_plan p;
-            ulk_carrier_plan_indices(c, mo, m, pt, &p);
-            double vals[4] = {p.loop_margin_db, p.margin_db[0], p.margin_db[1], p.margin_db[2]};
-            int has[4] = {p.has_loop_margin, p.has_margin[0], p.has_margin[1], p.has_margin[2]};
-            for (int k = 0; k < 4; k++)
-                if (has[k] && isfinite(vals[k])) {
-                    if (vals[k] < mn) mn = vals[k];
-                    if (vals[k] > mx) mx = vals[k];
-                }
+    /* the curve values first: the axis is chosen from them */
+    static double v[N_LINES][201];
+    int has[N_LINES];
+    for (int k = 0; k < N_LINES; k++) has[k] = 1;
+    double mn = HUGE_VAL, mx = -HUGE_VAL;
+    for (int j = 0; j <= NPT; j++) {
+        double m[ULK_CH_N];
+        memcpy(m, mo->m_rad, sizeof m);
+        m[sweep_ch] = lo + (hi - lo) * j / NPT;
+        ulk_carrier_plan p;
+        ulk_carrier_plan_indices(c, mo, m, pt, &p);
+        for (int k = 0; k < N_LINES; k++) {
+            int h_ok;
+            double val;
+            if (have_budget) {
+                h_ok = k < 4 && (k == 0 ? p.has_loop_margin : p.has_margin[k - 1]);
+                val = k == 0 ? p.loop_margin_db : k < 4 ? p.margin_db[k - 1] : NAN;
+            } else {
+                h_ok = k == 0 || k == 5 || (k >= 1 && k <= 3 && mo->on[k - 1]) || (k == 4 && p.pilot > 0);
+                val = clampdb(line_of(&p, k));
+            }
+            if (!h_ok) has[k] = 0;
+            v[k][j] = val;
+            if (h_ok && isfinite(val)) {
+                if (val < mn) mn = val;
+                if (val > mx) mx = val;
+            }
         }
+    }
+    double vmin = DB_MIN, vmax = 0;
+    if (have_budget) {
         if (mn > mx) { mn = -10; mx = 10; }
         if (mn < -40) mn = -40;
-        vmin = floor(mn / 5) * 5;
-        vmax = ceil(mx / 5) * 5;
-        if (vmax <= vmin) vmax = vmin + 5;
-        if (vmin > 0) vmin = 0;
-        step = (vmax - vmin) > 60 ? 10 : 5;
+        vmin = fmin(0, floor(mn / 5) * 5);
+        vmax = fmax(vmin + 5, ceil(mx / 5) * 5);
     }
     char title[160];
-    snprintf(title, sizeof title, "mode %s: %s vs %s index, rad", mo->name,
-             have_budget ? "margin dB" : "P/P_T dB", ulk_channel_name((ulk_channel)sweep_ch));
-    frame(cr, x1, y0, w1, h, vmin, vmax, step, title);
+    snprintf(title, sizeof title, "mode %s: %s against the %s index (rad)", mo->name,
+             have_budget ? "margin, dB" : "line power P/P_T, dB", ulk_channel_name((ulk_channel)sweep_ch));
+    frame(cr, x1, y0, w1, h, vmin, vmax, title);
+    double t[32], step;
+    int nt = ulk_pic_ticks(lo, hi, 8, t, 32, &step);
     char b[32];
-    for (int t = 0; t <= 4; t++) {
-        double mv = lo + (hi - lo) * t / 4;
-        snprintf(b, sizeof b, "%.2f", mv);
-        text(cr, x1 + w1 * t / 4, y0 + h + 16, b, 0.5);
+    for (int i = 0; i < nt; i++) {
+        double x = x1 + w1 * (t[i] - lo) / (hi - lo);
+        ulk_pic_tick_label(t[i], step, b, sizeof b);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        ulk_pic_text(cr, x, y0 + h + 16, b, 0.5);
     }
     if (have_budget) { /* zero-margin line */
         double y = y0 + h - (0 - vmin) / (vmax - vmin) * h;
@@ -152,57 +175,36 @@ static void draw(cairo_t *cr, const ulk_carrier *c, int mi, int sweep_ch, double
     cairo_save(cr);
     cairo_rectangle(cr, x1, y0, w1, h);
     cairo_clip(cr);
-    for (int k = 0; k < 6; k++) {
-        int started = 0, any = 0;
-        cairo_set_source_rgb(cr, colors[k][0], colors[k][1], colors[k][2]);
-        cairo_set_line_width(cr, 2);
+    cairo_set_line_width(cr, 2);
+    for (int k = 0; k < N_LINES; k++) {
+        if (!has[k]) continue;
+        ulk_pic_series(cr, k, 1);
+        ulk_pic_dash(cr, k);
         for (int j = 0; j <= NPT; j++) {
-            double m[ULK_CH_N];
-            memcpy(m, mo->m_rad, sizeof m);
-            m[sweep_ch] = lo + (hi - lo) * j / NPT;
-            ulk_carrier_plan p;
-            ulk_carrier_plan_indices(c, mo, m, pt, &p);
-            double v;
-            int has;
-            if (have_budget) {
-                if (k >= 4) break;
-                has = k == 0 ? p.has_loop_margin : p.has_margin[k - 1];
-                v = k == 0 ? p.loop_margin_db : p.margin_db[k - 1];
-                if (v < vmin) v = vmin;
-            } else {
-                double f[6] = {p.carrier, p.useful[0], p.useful[1], p.useful[2], p.pilot, p.intermod};
-                has = k == 0 || k == 5 || (k >= 1 && k <= 3 && mo->on[k - 1]) || (k == 4 && p.pilot > 0);
-                v = clampdb(f[k]);
-            }
-            if (!has) break;
-            any = 1;
-            double x = x1 + w1 * j / NPT, y = y0 + h - (v - vmin) / (vmax - vmin) * h;
-            if (!started) { cairo_move_to(cr, x, y); started = 1; }
+            double val = v[k][j] < vmin || !isfinite(v[k][j]) ? vmin : v[k][j];
+            double x = x1 + w1 * j / NPT, y = y0 + h - (val - vmin) / (vmax - vmin) * h;
+            if (j == 0) cairo_move_to(cr, x, y);
             else cairo_line_to(cr, x, y);
         }
-        if (any) cairo_stroke(cr);
-        else cairo_new_path(cr);
+        cairo_stroke(cr);
     }
-    /* the index as written */
-    double xm = x1 + w1 * (mo->m_rad[sweep_ch] - lo) / (hi - lo);
-    cairo_set_source_rgb(cr, 0.4, 0.4, 0.4);
-    cairo_set_line_width(cr, 1);
-    double dash = 4;
-    cairo_set_dash(cr, &dash, 1, 0);
-    cairo_move_to(cr, xm, y0);
-    cairo_line_to(cr, xm, y0 + h);
-    cairo_stroke(cr);
+    cairo_set_dash(cr, NULL, 0, 0);
     cairo_restore(cr);
+    /* the index as written, and the solved one when there is a budget to solve for */
+    index_mark(cr, x1, y0, w1, h, lo, hi, mo->m_rad[sweep_ch], "as written", 0);
     if (have_budget) {
-        const char *nm[4] = {"carrier loop", "data", "voice", "ranging"};
-        for (int k = 0; k < 4; k++) {
-            cairo_set_source_rgb(cr, colors[k][0], colors[k][1], colors[k][2]);
-            cairo_rectangle(cr, x1 + k * 90, y0 + h + 30, 10, 10);
-            cairo_fill(cr);
-            cairo_set_source_rgb(cr, 0, 0, 0);
-            text(cr, x1 + k * 90 + 14, y0 + h + 39, nm[k], 0);
-        }
+        double ms[ULK_CH_N];
+        ulk_carrier_plan ps;
+        if (ulk_carrier_solve(c, mo, pt, ms, &ps) == 0) index_mark(cr, x1, y0, w1, h, lo, hi, ms[sweep_ch], "solved", 1);
     }
+    /* legend: only the curves drawn */
+    static const char *const margin_names[4] = {"carrier loop", "data", "voice", "ranging"};
+    double lx = x1, ly = y0 + h + 40;
+    for (int k = 0; k < N_LINES; k++)
+        if (has[k]) {
+            if (lx > x1 + w1 - 110) { lx = x1; ly += 16; }
+            lx = ulk_pic_legend(cr, lx, ly, k, 0, have_budget ? margin_names[k] : line_names[k]);
+        }
 }
 #endif
 
@@ -218,46 +220,16 @@ int ulk_carrier_plot(const ulk_carrier *c, int mi, int sweep_ch, double pt, cons
         return ulk_fail(diag, ULK_EINVAL, "plot: channel %s is not on in mode %s",
                         sweep_ch >= 0 && sweep_ch < ULK_CH_N ? ulk_channel_name((ulk_channel)sweep_ch) : "?",
                         mo->name);
-    size_t n = strlen(path);
-    int svg = n > 4 && !strcmp(path + n - 4, ".svg");
-    int png = n > 4 && !strcmp(path + n - 4, ".png");
-    if (!svg && !png) return ulk_fail(diag, ULK_EINVAL, "%s: the plot file must end in .svg or .png", path);
+    int rc = ulk_picture_check(path, diag);
+    if (rc) return rc;
 #ifndef ULK_HAVE_CAIRO
     (void)pt;
-    return ulk_fail(diag, ULK_EFORMAT, "%s: this build has no cairo, so it cannot plot", path);
+    return ULK_EFORMAT;
 #else
-#ifndef CAIRO_HAS_SVG_SURFACE
-    if (svg) return ulk_fail(diag, ULK_EFORMAT, "%s: this cairo has no SVG surface; use .png", path);
-#endif
-    ulk_afile af;
-    int rc = ulk_afile_open(&af, path, diag);
-    if (rc) return rc;
-    cairo_surface_t *s;
-#ifdef CAIRO_HAS_SVG_SURFACE
-    if (svg) s = cairo_svg_surface_create_for_stream(write_fp, af.fp, W, H);
-    else
-#endif
-        s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, (int)W, (int)H);
-    if (cairo_surface_status(s) != CAIRO_STATUS_SUCCESS) {
-        cairo_surface_destroy(s);
-        ulk_afile_abort(&af);
-        return ulk_fail(diag, ULK_ENOMEM, "%s: cannot create the drawing surface", path);
-    }
-    cairo_t *cr = cairo_create(s);
-    draw(cr, c, mi, sweep_ch, pt);
-    cairo_status_t st = cairo_status(cr);
-    cairo_destroy(cr);
-    if (png && st == CAIRO_STATUS_SUCCESS) st = cairo_surface_write_to_png_stream(s, write_fp, af.fp);
-    cairo_surface_finish(s);
-    if (st == CAIRO_STATUS_SUCCESS) st = cairo_surface_status(s);
-    cairo_surface_destroy(s);
-    /* cairo keeps font caches for the life of the process; dropping them here keeps leak
-     * checkers quiet (safe: no cairo object of ours is alive any more). */
-    cairo_debug_reset_static_data();
-    if (st != CAIRO_STATUS_SUCCESS) {
-        ulk_afile_abort(&af);
-        return ulk_fail(diag, ULK_EIO, "%s: drawing failed: %s; no output written", path, cairo_status_to_string(st));
-    }
-    return ulk_afile_commit(&af, diag);
+    ulk_picture pic;
+    if ((rc = ulk_picture_open(&pic, path, W, H, diag))) return rc;
+    bars(pic.cr, c, 60, 40, 400, 340);
+    sweep(pic.cr, c, mi, sweep_ch, pt, 560, 40, 400, 340);
+    return ulk_picture_finish(&pic, diag);
 #endif
 }

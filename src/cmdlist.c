@@ -219,6 +219,35 @@ static int parse_line(ulk_cmdlist *l, size_t *cap, ulk_diag *d, int line, const 
     return 0;
 }
 
+/* Offset of the first byte that makes text not UTF-8 text (a NUL, a control character other
+ * than tab, CR and LF, an invalid, overlong or surrogate sequence), or len when it is all text.
+ * *why says what was found. Why check the whole file first: a binary file given as a command
+ * list gets one line of refusal instead of a diagnostic per line of garbage. */
+static size_t first_bad_byte(const unsigned char *t, size_t len, const char **why)
+{
+    size_t i = 0;
+    while (i < len) {
+        unsigned c = t[i];
+        if (c < 0x80) {
+            if (c == 0) { *why = "NUL byte"; return i; }
+            if ((c < 0x20 && c != '\t' && c != '\r' && c != '\n') || c == 0x7F) { *why = "control character"; return i; }
+            i++;
+            continue;
+        }
+        size_t n = c >= 0xC2 && c <= 0xDF ? 2 : c >= 0xE0 && c <= 0xEF ? 3 : c >= 0xF0 && c <= 0xF4 ? 4 : 0;
+        if (!n || i + n > len) { *why = "byte that is not UTF-8"; return i; }
+        for (size_t k = 1; k < n; k++)
+            if ((t[i + k] & 0xC0) != 0x80) { *why = "byte that is not UTF-8"; return i; }
+        unsigned c1 = t[i + 1];
+        if ((c == 0xE0 && c1 < 0xA0) || (c == 0xED && c1 >= 0xA0) || (c == 0xF0 && c1 < 0x90) || (c == 0xF4 && c1 >= 0x90)) {
+            *why = "byte that is not UTF-8";
+            return i;
+        }
+        i += n;
+    }
+    return len;
+}
+
 int ulk_cmdlist_parse(const char *name, const char *text, size_t len, ulk_cmdlist **out, ulk_diag *diag)
 {
     *out = NULL;
@@ -228,6 +257,23 @@ int ulk_cmdlist_parse(const char *name, const char *text, size_t len, ulk_cmdlis
     if (!l->file) { ulk_cmdlist_destroy(l); return ulk_fail(diag, ULK_ENOMEM, "out of memory"); }
     size_t cap = 0, pos = 0;
     int line = 0;
+    /* a UTF-8 byte-order mark (editors on some systems write one) is not part of the text */
+    if (len >= 3 && (unsigned char)text[0] == 0xEF && (unsigned char)text[1] == 0xBB && (unsigned char)text[2] == 0xBF)
+        pos = 3;
+    const char *why = NULL;
+    size_t bad = first_bad_byte((const unsigned char *)text + pos, len - pos, &why) + pos;
+    if (bad < len) {
+        int bl = 1, bc = 1;
+        for (size_t k = pos; k < bad; k++) {
+            if (text[k] == '\n') { bl++; bc = 1; }
+            else if (((unsigned char)text[k] & 0xC0) != 0x80) bc++;
+        }
+        err_at(diag, l, bl, bc, "%s 0x%02X at byte offset %zu: a command list is UTF-8 text; this looks like a binary "
+                                "file or another encoding",
+               why, (unsigned char)text[bad], bad);
+        *out = l;
+        return ULK_EPARSE;
+    }
     while (pos < len) {
         line++;
         const char *nl = memchr(text + pos, '\n', len - pos);
@@ -252,9 +298,10 @@ int ulk_cmdlist_load(const char *path, ulk_cmdlist **out, ulk_diag *diag)
     *out = NULL;
     char *buf;
     size_t len;
+    /* "-" is standard input (`ulk compile --dict D - -o U`) */
     int rc = ulk_read_file(path, ULK_CMDLIST_MAX_BYTES, &buf, &len, diag);
     if (rc < 0) return rc;
-    rc = ulk_cmdlist_parse(path, buf, len, out, diag);
+    rc = ulk_cmdlist_parse(strcmp(path, "-") ? path : "<stdin>", buf, len, out, diag);
     ulk_free(buf);
     return rc;
 }

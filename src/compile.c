@@ -6,6 +6,8 @@
  * idle patterns, exactly: t and R_b are rationals, so ceil(t * R_b) has no rounding.
  */
 #include <ctype.h>
+#include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "ulk/cmdlist.h"
@@ -147,16 +149,62 @@ static int is_numeric(const ulk_arg *a)
     return a->type == ULK_ARG_UNSIGNED || a->type == ULK_ARG_SIGNED || a->type == ULK_ARG_FLOAT32;
 }
 
-/* Converts a value text (number with optional unit, label, boolean) of argument a. */
-static int value_of(const ulk_arg *a, const char *text, ulk_argval *v, int *err_off, char *err, size_t errlen)
+/* Converts a value text (number with optional unit, label, boolean) of argument a. For a
+ * decimal number *requested is the value asked for, in the argument's units (NAN otherwise). */
+static int value_of(const ulk_arg *a, const char *text, ulk_argval *v, double *requested, int *err_off, char *err,
+                    size_t errlen)
 {
     *err_off = 0;
+    *requested = NAN;
     if (!is_numeric(a)) return ulk_arg_from_text(a, text, 1.0, v, err, errlen);
     char num[1100];
     double scale;
     if (strlen(text) >= sizeof num) { snprintf(err, errlen, "value is longer than %zu characters", sizeof num - 1); return ULK_EPARSE; }
     if (split_unit(a, text, num, sizeof num, &scale, err_off, err, errlen) < 0) return ULK_EPARSE;
-    return ulk_arg_from_text(a, num, scale, v, err, errlen);
+    int rc = ulk_arg_from_text(a, num, scale, v, err, errlen);
+    const char *d = num + (num[0] == '+' || num[0] == '-');
+    if (rc == 0 && !(d[0] == '0' && (d[1] == 'x' || d[1] == 'X' || d[1] == 'b' || d[1] == 'B'))) {
+        char *end;
+        double x = strtod(num, &end);
+        if (!*end && isfinite(x)) *requested = x * scale;
+    }
+    return rc;
+}
+
+/* An engineering value for people: 12 significant digits, enough to show every calibration
+ * step of a 64-bit field apart from the next without the binary noise of a double. */
+static void eng_text(double v, const char *units, char *buf, size_t len)
+{
+    snprintf(buf, len, "%.12g%s%s", v, units ? " " : "", units ? units : "");
+}
+
+/* Warns when the encoded value differs from the requested one, and refuses it beyond the
+ * argument's tolerance. Returns 1 when refused. */
+static int check_rounding(ulk_diag *diag, const ulk_loc *loc, const char *mnemonic, const ulk_arg *a,
+                          const ulk_argval *v, double requested)
+{
+    if (isnan(requested)) return 0;
+    double diff = fabs(v->eng - requested);
+    /* differences below a part in 10^12 are the binary form of the same decimal, not rounding */
+    if (!(diff > 1e-12 * fmax(fabs(requested), fabs(v->eng)))) return 0;
+    /* float32 rounds every decimal fraction (a part in 10^7): said only against a tolerance */
+    if (a->type == ULK_ARG_FLOAT32 && !(a->has_tolerance && diff > a->tolerance)) return 0;
+    char rq[64], en[64], df[64];
+    eng_text(requested, a->units, rq, sizeof rq);
+    eng_text(v->eng, a->units, en, sizeof en);
+    eng_text(diff, a->units, df, sizeof df);
+    const char *why = a->type == ULK_ARG_FLOAT32 ? "float32 rounding" : "nearest calibration step";
+    if (a->has_tolerance && diff > a->tolerance) {
+        char tl[64];
+        eng_text(a->tolerance, a->units, tl, sizeof tl);
+        ulk_diag_add(diag, ULK_SEV_ERROR, loc,
+                     "%s %s: %s would be encoded as %s (raw 0x%llX, %s), %s away: beyond the argument's tolerance %s",
+                     mnemonic, a->name, rq, en, (unsigned long long)v->raw, why, df, tl);
+        return 1;
+    }
+    ulk_diag_add(diag, ULK_SEV_WARNING, loc, "%s %s: %s is encoded as %s (raw 0x%llX, %s), %s away", mnemonic, a->name,
+                 rq, en, (unsigned long long)v->raw, why, df);
+    return 0;
 }
 
 static char *stpcpy_(char *dst, const char *s)
@@ -329,10 +377,14 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
             }
             given[ai] = 1;
             int off;
-            if (value_of(&c->args[ai], ca->value, &vals[ai], &off, err, sizeof err) < 0) {
+            double requested;
+            if (value_of(&c->args[ai], ca->value, &vals[ai], &requested, &off, err, sizeof err) < 0) {
                 ulk_loc vloc = {l->file, it->line, ca->value_col + off, NULL};
                 ulk_diag_add(diag, ULK_SEV_ERROR, &vloc, "%s %s: %s", c->mnemonic, ca->name, err);
                 bad = 1;
+            } else {
+                ulk_loc vloc = {l->file, it->line, ca->value_col, NULL};
+                bad |= check_rounding(diag, &vloc, c->mnemonic, &c->args[ai], &vals[ai], requested);
             }
         }
         for (int j = 0; j < c->n_args; j++) {
@@ -346,7 +398,8 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
                 continue;
             }
             int off;
-            if (value_of(a, a->default_text, &vals[j], &off, err, sizeof err) < 0) {
+            double requested;
+            if (value_of(a, a->default_text, &vals[j], &requested, &off, err, sizeof err) < 0) {
                 ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: the default of argument '%s' is unusable: %s",
                              c->mnemonic, a->name, err);
                 bad = 1;

@@ -89,8 +89,9 @@ int ulk_decode_word(const ulk_dict *dict, const ulk_word *w, ulk_decoded *r)
     if (!ulk_word_check_ok(l, w)) {
         uint32_t got = (uint32_t)ulk_word_get(w, lay.check_pos, l->check_bits);
         uint32_t want = ulk_check_compute(l->check, w->bits, l->word_bits - l->check_bits);
-        return reject(r, ULK_REJ_CHECK, "check failed (%s field 0x%X, content gives 0x%X)", ulk_check_name(l->check),
-                      got, want);
+        int hw = (l->check_bits + 3) / 4; /* fixed width: 0x0A5C, not 0xA5C */
+        return reject(r, ULK_REJ_CHECK, "check failed (%s field 0x%0*X, content gives 0x%0*X)", ulk_check_name(l->check),
+                      hw, got, hw, want);
     }
     if (l->vehicle_bits > 0 && r->vehicle != l->vehicle_value)
         return reject(r, ULK_REJ_VEHICLE, "wrong vehicle address 0x%X (this dictionary's vehicle is 0x%X)", r->vehicle,

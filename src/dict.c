@@ -1184,7 +1184,7 @@ static void build_enum_values(bctx *c, ulk_node *vn, ulk_arg *a, int bits_ok)
 static int build_arg(bctx *c, ulk_node *an, ulk_arg *a, ulk_node *cmd_args, int idx)
 {
     static const char *const keys[] = {"name", "type", "bits", "range", "units", "calibration", "values",
-                                       "default", "description", NULL};
+                                       "default", "description", "tolerance", NULL};
     static const char *const req[] = {"name", "type", NULL};
     a->loc = model_loc(c, an);
     if (!want_map(c, an, "an argument")) return 0;
@@ -1274,6 +1274,17 @@ static int build_arg(bctx *c, ulk_node *an, ulk_arg *a, ulk_node *cmd_args, int 
                 a->has_range = 1;
                 if (bits_ok) check_range_representable(c, rn, a);
             }
+        }
+    }
+    /* tolerance: how far the encoded value (calibration step, float32 rounding) may lie from
+     * the one the command list asks for before compile refuses it */
+    ulk_node *tol = ulk_node_get(an, "tolerance");
+    if (tol) {
+        if (a->type == ULK_ARG_BOOLEAN || a->type == ULK_ARG_ENUM)
+            err(c, tol, "tolerance does not apply to %s arguments", tname);
+        else if (get_num(c, tol, &a->tolerance)) {
+            if (!(a->tolerance >= 0)) err(c, tol, "tolerance must be >= 0 (engineering units), not %s", tol->text);
+            else a->has_tolerance = 1;
         }
     }
     ulk_node *dn = ulk_node_get(an, "default");
@@ -1807,6 +1818,10 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
                 sb_puts(&b, ",");
                 sb_double(&b, a->range_max);
                 sb_puts(&b, "]");
+            }
+            if (a->has_tolerance) {
+                sb_puts(&b, ",\"tolerance\":");
+                sb_double(&b, a->tolerance);
             }
             sb_puts(&b, ",\"type\":");
             sb_str(&b, ulk_arg_type_name(a->type));

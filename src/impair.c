@@ -4,6 +4,7 @@
 #include <string.h>
 
 #include "ulk/impair.h"
+#include "ulk/limits.h"
 #include "util.h"
 
 #define HALF 16                /* taps each side */
@@ -68,7 +69,9 @@ int ulk_impair_create(const ulk_impair_config *cfg, ulk_impair_sink sink, void *
     *out = NULL;
     if (!cfg || !sink) return ulk_fail(diag, ULK_EINVAL, "impair: no configuration or output");
     if (!(cfg->fs_hz > 0) || !isfinite(cfg->fs_hz)) return ulk_fail(diag, ULK_EINVAL, "impair: the sample rate must be positive");
-    if (!(fabs(cfg->ppm) <= 10000)) return ulk_fail(diag, ULK_EINVAL, "impair: clock error %g ppm is outside +-10000 ppm", cfg->ppm);
+    if (!(fabs(cfg->ppm) <= ULK_IMPAIR_MAX_PPM))
+        return ulk_fail(diag, ULK_EINVAL, "impair: clock error %g ppm is outside +-%d ppm (by %g ppm)", cfg->ppm,
+                        ULK_IMPAIR_MAX_PPM, fabs(cfg->ppm) - ULK_IMPAIR_MAX_PPM);
     if (!(cfg->delay_s >= 0) || cfg->delay_s > 86400) return ulk_fail(diag, ULK_EINVAL, "impair: delay must be 0..86400 s");
     if (cfg->amplitude < 0 || !isfinite(cfg->amplitude)) return ulk_fail(diag, ULK_EINVAL, "impair: amplitude must be >= 0");
     if (!isfinite(cfg->dc)) return ulk_fail(diag, ULK_EINVAL, "impair: DC offset must be a number");

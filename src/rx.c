@@ -562,13 +562,15 @@ static int rf_open(rf_src *s, const char *path, const ulk_rx_file_options *fo, i
     memset(&hint, 0, sizeof hint);
     hint.fs_hz = fo->rate_hz;
     hint.format = fo->format == ULK_FMT_S16 ? ULK_FMT_S16 : ULK_FMT_F32;
+    /* a named format must agree with the extension; without one the extension decides */
+    hint.format_given = fo->format >= 0;
     hint.container = ULK_CONTAINER_RAW;
-    hint.channels = 1;
+    hint.channels = fo->format >= 0 && fo->format_complex ? 2 : 1;
     const ulk_sample_info *h = fo->rate_hz > 0 ? &hint : NULL;
     int rc = ulk_reader_open(path, h, fo->channel >= 0 ? fo->channel : 0, &s->ri, diag);
     if (rc < 0) return rc;
     const ulk_sample_info *info = ulk_reader_info(s->ri);
-    if (fo->channel < 0 && info->channels == 2 && (meta_cplx || fo->iq)) {
+    if (fo->channel < 0 && info->channels == 2 && (meta_cplx || fo->iq || (fo->format >= 0 && fo->format_complex))) {
         s->is_cx = 1;
         return ulk_reader_open(path, h, 1, &s->rq, diag);
     }
@@ -651,7 +653,7 @@ static int rf_loop(ulk_rx *rx, rf_src *s, const char *path, ulk_rx_event_fn fn, 
 int ulk_rx_run_file(const ulk_dict *dict, const char *path, const ulk_rx_file_options *fo, const ulk_rx_options *opt,
                     ulk_rx_event_fn on_event, void *user, ulk_diag *diag)
 {
-    ulk_rx_file_options fdef = {0, -1, -1, 0};
+    ulk_rx_file_options fdef = {0, -1, -1, 0, 0};
     ulk_rx_options odef;
     memset(&odef, 0, sizeof odef);
     if (!fo) fo = &fdef;

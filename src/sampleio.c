@@ -127,6 +127,7 @@ struct ulk_writer {
     const raw_type *rt; /* raw: the SigMF datatype */
     char *path, *tmp; /* tmp NULL when writing a device or pipe directly */
     int direct;
+    int tmp_slot;     /* temporary-file registry slot (util.h), 0: none */
     FILE *fp;         /* raw */
     SNDFILE *sf;      /* WAV */
     int err;          /* sticky status */
@@ -151,6 +152,7 @@ static int wfail(ulk_writer *w, int code, const char *fmt, ...)
 static void writer_free(ulk_writer *w)
 {
     if (!w) return;
+    ulk_tmp_forget(w->tmp_slot);
     ulk_free(w->path);
     ulk_free(w->tmp);
     ulk_free(w->conv);
@@ -281,10 +283,12 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     if (info->format != ULK_FMT_F32 && info->format != ULK_FMT_S16)
         return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", path);
 
+    /* "-" is standard output: raw samples written directly, like a pipe */
+    const int is_std = !strcmp(path, "-");
     struct stat stt;
-    int exists = stat(path, &stt) == 0;
-    int direct = exists && !S_ISREG(stt.st_mode);
-    if (exists && S_ISDIR(stt.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a file", path);
+    int exists = is_std || stat(path, &stt) == 0;
+    int direct = is_std || (exists && !S_ISREG(stt.st_mode));
+    if (!is_std && exists && S_ISDIR(stt.st_mode)) return ulk_fail(diag, ULK_EIO, "%s: is a folder, not a file", path);
 
     ulk_container cont;
     int efmt;
@@ -320,7 +324,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
     w->channels = cplx ? 2 : 1;
     w->rt = raw_type_of(info->format, cont == ULK_CONTAINER_RAW && cplx);
     w->direct = direct;
-    w->path = ulk_strdup(path);
+    w->path = ulk_strdup(is_std ? "standard output" : path); /* the name messages give */
     w->conv = ulk_malloc(IO_CHUNK * 4); /* IO_CHUNK values (not frames) are converted at a time */
     if (!w->path || !w->conv) { writer_free(w); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
     if (cont == ULK_CONTAINER_RAW && !direct) {
@@ -330,7 +334,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
 
     int fd;
     if (direct) {
-        fd = open(path, O_WRONLY | O_CLOEXEC);
+        fd = is_std ? dup(1) : open(path, O_WRONLY | O_CLOEXEC);
         if (fd < 0) {
             int e = errno;
             writer_free(w);
@@ -350,6 +354,7 @@ int ulk_writer_open(const char *path, const ulk_sample_info *info, ulk_writer **
             writer_free(w);
             return ulk_fail(diag, ULK_EIO, "%s: cannot create output file: %s", path, strerror(e));
         }
+        w->tmp_slot = ulk_tmp_register(w->tmp);
         fchmod(fd, 0644);
     }
 
@@ -430,9 +435,10 @@ int ulk_writer_write(ulk_writer *w, const float *x, size_t n)
                 double r = y >= 0 ? floor(y + 0.5) : -floor(-y + 0.5);
                 if (!(r <= 32767.0 && r >= -32767.0))
                     return wfail(w, ULK_ELIMIT,
-                                 "sample %llu%s is %g: it does not fit 16-bit output (would clip); nothing written",
+                                 "sample %llu%s is %g, %.3g over full scale 1.0 (%.1f dB): 16-bit output would clip",
                                  (unsigned long long)(w->n_frames + (done + k) / (size_t)w->channels),
-                                 w->channels == 2 ? ((done + k) % 2 ? " (Q)" : " (I)") : "", (double)s[k]);
+                                 w->channels == 2 ? ((done + k) % 2 ? " (Q)" : " (I)") : "", (double)s[k],
+                                 fabs((double)s[k]) - 1.0, 20 * log10(fabs((double)s[k])));
                 v[k] = (int16_t)r;
             }
             if (w->container == ULK_CONTAINER_WAV) rc = wav_put(w, v, m, 1);
@@ -526,6 +532,8 @@ int ulk_writer_commit(ulk_writer *w, ulk_diag *diag)
     }
     ulk_free(w->tmp);
     w->tmp = NULL;
+    ulk_tmp_forget(w->tmp_slot);
+    w->tmp_slot = 0;
     if (have_meta) {
         int rc = ulk_afile_commit(&mf, diag);
         if (rc < 0) {
@@ -726,6 +734,11 @@ done:
     return rc;
 }
 
+static const char *fmt_name(int fmt, int cplx)
+{
+    return fmt == ULK_FMT_S16 ? (cplx ? "ci16" : "s16") : (cplx ? "cf32" : "f32");
+}
+
 static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int efmt, ulk_diag *diag)
 {
     char *mp = meta_path_of(r->path);
@@ -734,24 +747,38 @@ static int open_raw(ulk_reader *r, const ulk_sample_info *hint, int channel, int
     int rc = 0;
     if (hint && hint->fs_hz > 0) {
         if (!isfinite(hint->fs_hz)) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: bad sample rate", r->path); }
-        r->info.fs_hz = hint->fs_hz;
-        r->info.format = hint->format;
-        r->rt = raw_type_of(hint->format, ext_complex(r->path));
-        if (!r->rt) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", r->path); }
-        if (efmt >= 0 && efmt != (int)hint->format) {
+        /* the extension decides the sample type unless the user named one; a named one must agree */
+        int given_cplx = hint->format_given && hint->channels == 2;
+        int cplx = ext_complex(r->path) || given_cplx;
+        int fmt = efmt >= 0 && !hint->format_given ? efmt : (int)hint->format;
+        if (hint->format_given && efmt >= 0 &&
+            (efmt != (int)hint->format || (given_cplx && !ext_complex(r->path)) ||
+             (!given_cplx && ext_complex(r->path)))) {
             ulk_free(mp);
-            return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but %s was given", r->path,
-                            efmt == ULK_FMT_F32 ? "f32" : "s16", hint->format == ULK_FMT_F32 ? "f32" : "s16");
+            return ulk_fail(diag, ULK_EINVAL, "%s: the extension says %s samples but --format %s was given; drop "
+                                              "--format (the extension decides) or rename the file",
+                            r->path, fmt_name(efmt, ext_complex(r->path)), fmt_name(hint->format, given_cplx));
         }
+        r->info.fs_hz = hint->fs_hz;
+        r->info.format = (ulk_sample_format)fmt;
+        r->rt = raw_type_of((ulk_sample_format)fmt, cplx);
+        if (!r->rt) { ulk_free(mp); return ulk_fail(diag, ULK_EINVAL, "%s: unknown sample format", r->path); }
         /* the metadata, when there, still tells channels and our annotations */
         if (have_meta) rc = read_meta(r, mp, hint, channel, diag);
         else rc = pick_channel(r, r->rt->complex_ ? 2 : 1, channel, diag);
     } else {
         if (!have_meta) {
-            rc = ulk_fail(diag, ULK_EINVAL,
-                          "%s: raw samples need a sample rate and format: no %s beside it; give the rate and "
-                          "format (--rate HZ --format f32|s16)",
-                          r->path, mp);
+            /* say what is missing and which options give it */
+            if (efmt >= 0)
+                rc = ulk_fail(diag, ULK_EINVAL,
+                              "%s: raw %s samples without metadata (no %s beside it): the sample rate is missing; "
+                              "give it with --rate HZ (the extension gives the sample type)",
+                              r->path, fmt_name(efmt, ext_complex(r->path)), mp);
+            else
+                rc = ulk_fail(diag, ULK_EINVAL,
+                              "%s: raw samples without metadata (no %s beside it): the sample rate and the sample "
+                              "type are missing; give them with --rate HZ --format f32|s16|cf32|ci16",
+                              r->path, mp);
         } else {
             rc = read_meta(r, mp, NULL, channel, diag);
             if (rc == 0 && efmt >= 0 && (efmt != (int)r->info.format ||

@@ -6,9 +6,11 @@
  */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "ulk/spectrum.h"
+#include "picture.h"
 #include "util.h"
 
 #ifdef ULK_HAVE_FFTW
@@ -181,100 +183,140 @@ int ulk_welch_result(ulk_welch *w, const double **f_hz, const double **power, si
 
 /* ---------------------------------------------------------------- plot */
 
+/* The spectrum picture, through the one picture surface (src/picture.h). The axes come from
+ * the data: the top is the strongest bin rounded up to 10 dB, the floor 10 dB under the 2nd
+ * percentile of the bins (the noise floor, not an empty bin), rounded down to 10 dB, kept 30
+ * to 140 dB under the top; ticks at 1-2-5 steps on both axes. */
+
+#ifdef ULK_HAVE_CAIRO
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return x < y ? -1 : x > y;
+}
+
+/* The value at fraction q of the sorted finite dB values of p (NAN when none or out of
+ * memory: the caller then falls back to a fixed 90 dB span). */
+static double db_quantile(const double *p, size_t n, double q)
+{
+    double *v = ulk_malloc(n * sizeof *v);
+    if (!v) return NAN;
+    size_t m = 0;
+    for (size_t k = 0; k < n; k++)
+        if (p[k] > 0 && isfinite(p[k])) v[m++] = 10 * log10(p[k]);
+    double r = NAN;
+    if (m) {
+        qsort(v, m, sizeof *v, cmp_double);
+        r = v[(size_t)(q * (double)(m - 1))];
+    }
+    ulk_free(v);
+    return r;
+}
+#endif
+
 #ifdef ULK_HAVE_CAIRO
 #define PW 1100.0
-#define PH 520.0
+#define PH 540.0
 
-static cairo_status_t write_fp(void *closure, const unsigned char *data, unsigned int len)
+/* Series index of a mark: one per label (both sides of a channel match), in order of first
+ * appearance. */
+static int mark_series(const ulk_spectrum_mark *mk, int i)
 {
-    return fwrite(data, 1, len, (FILE *)closure) == len ? CAIRO_STATUS_SUCCESS : CAIRO_STATUS_WRITE_ERROR;
+    int k = 0;
+    for (int j = 0; j < i; j++) {
+        int first = 1;
+        for (int q = 0; q < j; q++)
+            if (mk[q].label && mk[j].label && !strcmp(mk[q].label, mk[j].label)) { first = 0; break; }
+        if (mk[j].label && mk[i].label && !strcmp(mk[j].label, mk[i].label)) return k;
+        k += first;
+    }
+    return k;
 }
 
-static void text(cairo_t *cr, double x, double y, const char *s, double align)
+/* The channel marks under the trace: a light band for the main lobe, a dashed line at the
+ * centre; drawn[k] and names[k] say which series appear (for the legend). */
+static void draw_marks(cairo_t *cr, const ulk_spectrum_mark *mk, int nm, double fmin, double fmax, double x0,
+                       double y0, double w, double h, int *drawn, const char **names)
 {
-    cairo_text_extents_t e;
-    cairo_text_extents(cr, s, &e);
-    cairo_move_to(cr, x - align * e.width, y);
-    cairo_show_text(cr, s);
+#define XF(v) (x0 + ((v) - fmin) / (fmax - fmin) * w)
+    for (int i = 0; i < nm; i++) {
+        int k = mark_series(mk, i) % ULK_PIC_N_SERIES;
+        double a = XF(fmax < mk[i].f_lo_hz ? fmax : fmin > mk[i].f_lo_hz ? fmin : mk[i].f_lo_hz);
+        double b = XF(fmax < mk[i].f_hi_hz ? fmax : fmin > mk[i].f_hi_hz ? fmin : mk[i].f_hi_hz);
+        int in = mk[i].f_hz >= fmin && mk[i].f_hz <= fmax;
+        if (b > a) {
+            ulk_pic_series(cr, k, 0.14);
+            cairo_rectangle(cr, a, y0, b - a, h);
+            cairo_fill(cr);
+        }
+        if (in) {
+            ulk_pic_series(cr, k, 1);
+            cairo_set_line_width(cr, 1.5);
+            ulk_pic_dash(cr, k);
+            double x = XF(mk[i].f_hz);
+            cairo_move_to(cr, x, y0);
+            cairo_line_to(cr, x, y0 + h);
+            cairo_stroke(cr);
+            cairo_set_dash(cr, NULL, 0, 0);
+        }
+        if (in || b > a) { drawn[k] = 1; names[k] = mk[i].label; }
+    }
+#undef XF
 }
-
-static const double mark_rgb[6][3] = {{0.85, 0.33, 0.10}, {0.00, 0.45, 0.74}, {0.47, 0.67, 0.19},
-                                      {0.49, 0.18, 0.56}, {0.93, 0.69, 0.13}, {0.30, 0.75, 0.93}};
 
 static void draw(cairo_t *cr, const double *f, const double *p, size_t n, const ulk_spectrum_mark *mk, int nm,
-                 const char *title)
+                 const char *title, double floor_db)
 {
-    const double x0 = 70, y0 = 40, w = PW - 100, h = PH - 110;
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_paint(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 11);
+    const double x0 = 70, y0 = 40, w = PW - 100, h = PH - 130;
     double pmax = 0;
     for (size_t k = 0; k < n; k++)
         if (p[k] > pmax) pmax = p[k];
-    double top = pmax > 0 ? ceil(10 * log10(pmax) / 10) * 10 : 0, bot = top - 90;
+    double top = pmax > 0 ? ceil(10 * log10(pmax) / 10) * 10 : 0;
+    double bot = isfinite(floor_db) ? floor((floor_db - 10) / 10) * 10 : top - 90;
+    if (bot > top - 30) bot = top - 30;
+    if (bot < top - 140) bot = top - 140;
     double fmin = f[0], fmax = f[n - 1];
     if (fmax <= fmin) fmax = fmin + 1;
     double kscale = fmax - fmin > 20000 ? 1000 : 1;
 #define XF(v) (x0 + ((v) - fmin) / (fmax - fmin) * w)
 #define YD(v) (y0 + (top - (v)) / (top - bot) * h)
-    /* marks under the trace */
-    for (int i = 0; i < nm; i++) {
-        /* one colour per label, so both sides of a channel match */
-        int ci = i % 6;
-        for (int j = 0; j < i; j++)
-            if (mk[j].label && mk[i].label && !strcmp(mk[j].label, mk[i].label)) { ci = j % 6; break; }
-        const double *c = mark_rgb[ci];
-        double a = XF(fmax < mk[i].f_lo_hz ? fmax : fmin > mk[i].f_lo_hz ? fmin : mk[i].f_lo_hz);
-        double b = XF(fmax < mk[i].f_hi_hz ? fmax : fmin > mk[i].f_hi_hz ? fmin : mk[i].f_hi_hz);
-        if (b > a) {
-            cairo_set_source_rgba(cr, c[0], c[1], c[2], 0.12);
-            cairo_rectangle(cr, a, y0, b - a, h);
-            cairo_fill(cr);
-        }
-        if (mk[i].f_hz >= fmin && mk[i].f_hz <= fmax) {
-            cairo_set_source_rgb(cr, c[0], c[1], c[2]);
-            cairo_set_line_width(cr, 1);
-            double x = XF(mk[i].f_hz);
-            cairo_move_to(cr, x, y0);
-            cairo_line_to(cr, x, y0 + h);
-            cairo_stroke(cr);
-            if (mk[i].label) text(cr, x + 3, y0 + 12 + 13 * (i % 4), mk[i].label, 0);
-        }
-    }
-    /* grid and axes */
+    int drawn[ULK_PIC_N_SERIES] = {0};
+    const char *names[ULK_PIC_N_SERIES] = {0};
+    draw_marks(cr, mk, nm, fmin, fmax, x0, y0, w, h, drawn, names);
+    /* grid and axes, 1-2-5 ticks */
     char buf[64];
+    double t[64], step;
+    int nt = ulk_pic_ticks(bot, top, 10, t, 64, &step);
     cairo_set_line_width(cr, 0.5);
-    for (double v = bot; v <= top + 1e-9; v += 10) {
-        cairo_set_source_rgb(cr, 0.85, 0.85, 0.85);
-        cairo_move_to(cr, x0, YD(v));
-        cairo_line_to(cr, x0 + w, YD(v));
+    for (int i = 0; i < nt; i++) {
+        cairo_set_source_rgb(cr, 0.86, 0.86, 0.86);
+        cairo_move_to(cr, x0, YD(t[i]));
+        cairo_line_to(cr, x0 + w, YD(t[i]));
         cairo_stroke(cr);
         cairo_set_source_rgb(cr, 0, 0, 0);
-        snprintf(buf, sizeof buf, "%.0f", v);
-        text(cr, x0 - 6, YD(v) + 4, buf, 1);
+        ulk_pic_tick_label(t[i], step, buf, sizeof buf);
+        ulk_pic_text(cr, x0 - 6, YD(t[i]) + 4, buf, 1);
     }
-    double span = (fmax - fmin) / kscale, step = pow(10, floor(log10(span / 2)));
-    if (span / step > 10) step *= 2;
-    if (span / step > 10) step *= 2.5;
-    for (double v = ceil(fmin / kscale / step) * step; v <= fmax / kscale + 1e-9; v += step) {
-        double x = XF(v * kscale);
-        cairo_set_source_rgb(cr, 0.85, 0.85, 0.85);
+    nt = ulk_pic_ticks(fmin / kscale, fmax / kscale, 12, t, 64, &step);
+    for (int i = 0; i < nt; i++) {
+        double x = XF(t[i] * kscale);
+        cairo_set_source_rgb(cr, 0.86, 0.86, 0.86);
         cairo_move_to(cr, x, y0);
         cairo_line_to(cr, x, y0 + h);
         cairo_stroke(cr);
         cairo_set_source_rgb(cr, 0, 0, 0);
-        snprintf(buf, sizeof buf, "%g", fabs(v) < 1e-9 * step ? 0.0 : v);
-        text(cr, x, y0 + h + 15, buf, 0.5);
+        ulk_pic_tick_label(t[i], step, buf, sizeof buf);
+        ulk_pic_text(cr, x, y0 + h + 15, buf, 0.5);
     }
-    text(cr, x0 + w / 2, y0 + h + 32, kscale > 1 ? "frequency (kHz)" : "frequency (Hz)", 0.5);
+    ulk_pic_text(cr, x0 + w / 2, y0 + h + 32, kscale > 1 ? "frequency (kHz)" : "frequency (Hz)", 0.5);
     cairo_save(cr);
     cairo_translate(cr, 22, y0 + h / 2);
     cairo_rotate(cr, -M_PI / 2);
-    text(cr, 0, 0, "power per bin (dB, line power)", 0.5);
+    ulk_pic_text(cr, 0, 0, "power per bin (dB, line power)", 0.5);
     cairo_restore(cr);
     cairo_set_font_size(cr, 13);
-    if (title) text(cr, x0, 24, title, 0);
+    if (title) ulk_pic_text(cr, x0, 24, title, 0);
+    cairo_set_font_size(cr, 11);
     /* the trace: per pixel column its largest value, so no line disappears between pixels */
     cairo_save(cr);
     cairo_rectangle(cr, x0, y0, w, h);
@@ -301,6 +343,10 @@ static void draw(cairo_t *cr, const double *f, const double *p, size_t n, const 
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_rectangle(cr, x0, y0, w, h);
     cairo_stroke(cr);
+    /* legend: only the channels drawn */
+    double lx = x0, ly = y0 + h + 56;
+    for (int k = 0; k < ULK_PIC_N_SERIES; k++)
+        if (drawn[k] && names[k]) lx = ulk_pic_legend(cr, lx, ly, k, 0, names[k]);
 #undef XF
 #undef YD
 }
@@ -311,44 +357,16 @@ int ulk_spectrum_plot(const double *f_hz, const double *power, size_t n, const u
 {
     if (!f_hz || !power || !path || n < 2 || (n_marks > 0 && !marks))
         return ulk_fail(diag, ULK_EINVAL, "spectrum plot: nothing to draw");
-    size_t len = strlen(path);
-    int svg = len > 4 && !strcmp(path + len - 4, ".svg");
-    int png = len > 4 && !strcmp(path + len - 4, ".png");
-    if (!svg && !png) return ulk_fail(diag, ULK_EINVAL, "%s: the plot file must end in .png or .svg", path);
+    int rc = ulk_picture_check(path, diag);
+    if (rc) return rc;
 #ifndef ULK_HAVE_CAIRO
     (void)title;
-    return ulk_fail(diag, ULK_EFORMAT, "%s: this build has no cairo, so it cannot plot", path);
+    return ULK_EFORMAT;
 #else
-#ifndef CAIRO_HAS_SVG_SURFACE
-    if (svg) return ulk_fail(diag, ULK_EFORMAT, "%s: this cairo has no SVG surface; use .png", path);
-#endif
-    ulk_afile af;
-    int rc = ulk_afile_open(&af, path, diag);
-    if (rc) return rc;
-    cairo_surface_t *s;
-#ifdef CAIRO_HAS_SVG_SURFACE
-    if (svg) s = cairo_svg_surface_create_for_stream(write_fp, af.fp, PW, PH);
-    else
-#endif
-        s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, (int)PW, (int)PH);
-    if (cairo_surface_status(s) != CAIRO_STATUS_SUCCESS) {
-        cairo_surface_destroy(s);
-        ulk_afile_abort(&af);
-        return ulk_fail(diag, ULK_ENOMEM, "%s: cannot create the drawing surface", path);
-    }
-    cairo_t *cr = cairo_create(s);
-    draw(cr, f_hz, power, n, marks, n_marks > 0 ? n_marks : 0, title);
-    cairo_status_t st = cairo_status(cr);
-    cairo_destroy(cr);
-    if (png && st == CAIRO_STATUS_SUCCESS) st = cairo_surface_write_to_png_stream(s, write_fp, af.fp);
-    cairo_surface_finish(s);
-    if (st == CAIRO_STATUS_SUCCESS) st = cairo_surface_status(s);
-    cairo_surface_destroy(s);
-    cairo_debug_reset_static_data(); /* font caches: keeps leak checkers quiet */
-    if (st != CAIRO_STATUS_SUCCESS) {
-        ulk_afile_abort(&af);
-        return ulk_fail(diag, ULK_EIO, "%s: drawing failed: %s; no output written", path, cairo_status_to_string(st));
-    }
-    return ulk_afile_commit(&af, diag);
+    double floor_db = db_quantile(power, n, 0.02);
+    ulk_picture pic;
+    if ((rc = ulk_picture_open(&pic, path, PW, PH, diag))) return rc;
+    draw(pic.cr, f_hz, power, n, marks, n_marks > 0 ? n_marks : 0, title, floor_db);
+    return ulk_picture_finish(&pic, diag);
 #endif
 }

@@ -1377,12 +1377,14 @@ int ulk_upload_read_opts(const char *path, unsigned flags, size_t n_full, ulk_up
     *out = NULL;
     src_t s;
     memset(&s, 0, sizeof s);
-    s.fp = fopen(path, "rb");
+    const int is_std = !strcmp(path, "-"); /* standard input: read, never closed */
+    if (is_std) path = "<stdin>";
+    s.fp = is_std ? stdin : fopen(path, "rb");
     if (!s.fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
     struct stat st;
     if (fstat(fileno(s.fp), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0) s.size_hint = (uint64_t)st.st_size;
     int rc = read_src(path, &s, flags, n_full, out, diag);
-    fclose(s.fp);
+    if (!is_std) fclose(s.fp);
     return rc;
 }
 

@@ -3,6 +3,7 @@
 
 #include <errno.h>
 #include <math.h>
+#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -103,10 +104,64 @@ const char *ulk_suggest(const char *word, const char *const *cands, size_t n)
     return best;
 }
 
+/* ---- temporary-file registry: fixed slots, read by the signal handler ---- */
+
+#define TMP_SLOTS 16
+#define TMP_PATH_MAX 4096
+static char g_tmp_path[TMP_SLOTS][TMP_PATH_MAX];
+static volatile sig_atomic_t g_tmp_used[TMP_SLOTS];
+
+int ulk_tmp_register(const char *path)
+{
+    if (!path) return 0;
+    size_t n = strlen(path);
+    if (n >= TMP_PATH_MAX) return 0;
+    for (int k = 0; k < TMP_SLOTS; k++)
+        if (!g_tmp_used[k]) {
+            memcpy(g_tmp_path[k], path, n + 1);
+            g_tmp_used[k] = 1; /* set after the copy: the handler never sees half a path */
+            return k + 1;
+        }
+    return 0;
+}
+
+void ulk_tmp_forget(int slot)
+{
+    if (slot >= 1 && slot <= TMP_SLOTS) g_tmp_used[slot - 1] = 0;
+}
+
+static void tmp_on_signal(int sig)
+{
+    for (int k = 0; k < TMP_SLOTS; k++)
+        if (g_tmp_used[k]) unlink(g_tmp_path[k]);
+    signal(sig, SIG_DFL);
+    raise(sig);
+}
+
+void ulk_tmp_cleanup_on_signals(void)
+{
+    static const int sigs[] = {SIGINT, SIGTERM, SIGHUP};
+    for (size_t i = 0; i < sizeof sigs / sizeof sigs[0]; i++) {
+        struct sigaction sa;
+        memset(&sa, 0, sizeof sa);
+        sa.sa_handler = tmp_on_signal;
+        sigemptyset(&sa.sa_mask);
+        for (size_t j = 0; j < sizeof sigs / sizeof sigs[0]; j++) sigaddset(&sa.sa_mask, sigs[j]);
+        sigaction(sigs[i], &sa, NULL);
+    }
+}
+
 int ulk_afile_open(ulk_afile *f, const char *path, struct ulk_diag *diag)
 {
     memset(f, 0, sizeof *f);
     size_t n = strlen(path);
+    if (!strcmp(path, "-")) { /* standard output: written directly, checked at commit */
+        f->path = ulk_strdup("standard output");
+        if (!f->path) return ulk_fail(diag, ULK_ENOMEM, "standard output: out of memory");
+        f->fp = stdout;
+        f->is_std = 1;
+        return 0;
+    }
     /* A device, pipe or other special file is written directly: renaming a temporary file
      * over it would replace the node (and /dev/full would never report it is full). */
     struct stat stt;
@@ -140,11 +195,13 @@ int ulk_afile_open(ulk_afile *f, const char *path, struct ulk_diag *diag)
         memset(f, 0, sizeof *f);
         return ulk_fail(diag, ULK_EIO, "%s: cannot create output file: %s", path, strerror(e));
     }
+    f->slot = ulk_tmp_register(f->tmp);
     fchmod(fd, 0644);
     f->fp = fdopen(fd, "wb");
     if (!f->fp) {
         close(fd);
         unlink(f->tmp);
+        ulk_tmp_forget(f->slot);
         ulk_free(f->path); ulk_free(f->tmp);
         memset(f, 0, sizeof *f);
         return ulk_fail(diag, ULK_EIO, "%s: cannot open output file", path);
@@ -155,9 +212,9 @@ int ulk_afile_open(ulk_afile *f, const char *path, struct ulk_diag *diag)
 int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
 {
     int bad = ferror(f->fp) != 0;
-    int e = errno;
+    int e = bad ? EIO : 0;
     if (fflush(f->fp) != 0) { bad = 1; e = errno; }
-    if (fclose(f->fp) != 0) { bad = 1; e = errno; }
+    if (!f->is_std && fclose(f->fp) != 0) { bad = 1; e = errno; }
     f->fp = NULL;
     int rc = 0;
     if (!f->tmp) { /* special file written directly */
@@ -171,6 +228,7 @@ int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
                       strerror(e));
         unlink(f->tmp);
     }
+    ulk_tmp_forget(f->slot);
     ulk_free(f->path); ulk_free(f->tmp);
     memset(f, 0, sizeof *f);
     return rc;
@@ -179,31 +237,40 @@ int ulk_afile_commit(ulk_afile *f, struct ulk_diag *diag)
 void ulk_afile_abort(ulk_afile *f)
 {
     if (!f || !f->path) return;
-    if (f->fp) fclose(f->fp);
+    if (f->fp && !f->is_std) fclose(f->fp);
     if (f->tmp) unlink(f->tmp);
+    ulk_tmp_forget(f->slot);
     ulk_free(f->path); ulk_free(f->tmp);
     memset(f, 0, sizeof *f);
+}
+
+static void close_in(FILE *fp, int is_std)
+{
+    if (!is_std) fclose(fp);
 }
 
 int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, struct ulk_diag *diag)
 {
     *out = NULL;
     *len = 0;
-    FILE *fp = fopen(path, "rb");
+    /* "-" is standard input; it is read, never closed */
+    const int is_std = !strcmp(path, "-");
+    if (is_std) path = "<stdin>";
+    FILE *fp = is_std ? stdin : fopen(path, "rb");
     if (!fp) return ulk_fail(diag, ULK_EIO, "%s: cannot open: %s", path, strerror(errno));
     size_t cap = 65536, n = 0;
     char *buf = ulk_malloc(cap + 1);
-    if (!buf) { fclose(fp); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+    if (!buf) { close_in(fp, is_std); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
     for (;;) {
         if (n == cap) {
             if (cap >= max_bytes) {
-                ulk_free(buf); fclose(fp);
+                ulk_free(buf); close_in(fp, is_std);
                 return ulk_fail(diag, ULK_ELIMIT, "%s: file is larger than the limit of %zu bytes", path,
                                 max_bytes);
             }
             size_t ncap = cap * 2 > max_bytes ? max_bytes : cap * 2;
             char *nb = ulk_realloc(buf, ncap + 1);
-            if (!nb) { ulk_free(buf); fclose(fp); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
+            if (!nb) { ulk_free(buf); close_in(fp, is_std); return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path); }
             buf = nb;
             cap = ncap;
         }
@@ -213,14 +280,14 @@ int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, s
     }
     if (ferror(fp)) {
         int e = errno;
-        ulk_free(buf); fclose(fp);
+        ulk_free(buf); close_in(fp, is_std);
         return ulk_fail(diag, ULK_EIO, "%s: read error: %s", path, strerror(e));
     }
     if (n == cap && fgetc(fp) != EOF) {
-        ulk_free(buf); fclose(fp);
+        ulk_free(buf); close_in(fp, is_std);
         return ulk_fail(diag, ULK_ELIMIT, "%s: file is larger than the limit of %zu bytes", path, max_bytes);
     }
-    fclose(fp);
+    close_in(fp, is_std);
     buf[n] = 0;
     *out = buf;
     *len = n;

@@ -264,8 +264,71 @@ static void test_overlong_and_nul(void **st)
     ulk_cmdlist *l = NULL;
     assert_int_equal(ulk_cmdlist_parse("t.cmd", nul, sizeof nul - 1, &l, d), ULK_EPARSE);
     assert_true(has_finding(d, 2, 9, "NUL byte"));
-    assert_int_equal(l->n_commands, 1);
+    /* a NUL means binary: the whole list is refused in one finding, nothing parsed */
+    assert_int_equal(ulk_diag_errors(d), 1);
+    assert_int_equal(l->n_commands, 0);
     ulk_cmdlist_destroy(l);
+    ulk_diag_destroy(d);
+}
+
+/* Rows: bytes, expected line and column of the one finding, fragment (offset of the first
+ * bad byte). UTF-8 validity per RFC 3629 section 4 (overlong forms, surrogates, > U+10FFFF). */
+static const struct {
+    const char *name;
+    const char *text;
+    size_t len;
+    int line, col;
+    const char *frag;
+} bad_bytes[] = {
+    {"latin-1 e-acute", "TRIM offset=1\nTRIM offset=\xe9\n", 28, 2, 13, "0xE9 at byte offset 26"},
+    {"overlong slash", "TRIM offset=\xc0\xaf\n", 16, 1, 13, "0xC0 at byte offset 12"},
+    {"surrogate", "TRIM \xed\xa0\x80\n", 9, 1, 6, "0xED at byte offset 5"},
+    {"above U+10FFFF", "\xf4\x90\x80\x80\n", 5, 1, 1, "0xF4 at byte offset 0"},
+    {"cut sequence at the end", "TRIM \xe2\x82", 7, 1, 6, "0xE2 at byte offset 5"},
+    {"escape", "TRIM\x1b[0m\n", 9, 1, 5, "control character 0x1B at byte offset 4"},
+    {"after multi-byte letters (a column counts characters)", "# \xc3\xa9t\xc3\xa9 \x01\n", 10, 1, 7, "0x01 at byte offset 8"},
+};
+
+static void test_binary_refused(void **st)
+{
+    (void)st;
+    for (size_t i = 0; i < sizeof bad_bytes / sizeof bad_bytes[0]; i++) {
+        ulk_diag *d = ulk_diag_create();
+        ulk_cmdlist *l = NULL;
+        int rc = ulk_cmdlist_parse("t.cmd", bad_bytes[i].text, bad_bytes[i].len, &l, d);
+        if (rc != ULK_EPARSE || ulk_diag_errors(d) != 1 || !has_finding(d, bad_bytes[i].line, bad_bytes[i].col, bad_bytes[i].frag)) {
+            ulk_diag_print(d, stderr);
+            fail_msg("row '%s': expected one finding at %d:%d with '%s'", bad_bytes[i].name, bad_bytes[i].line,
+                     bad_bytes[i].col, bad_bytes[i].frag);
+        }
+        ulk_cmdlist_destroy(l);
+        ulk_diag_destroy(d);
+    }
+}
+
+/* A byte-order mark and CRLF line ends: the same list as without them; UTF-8 letters in a
+ * comment are text. */
+static void test_bom_crlf(void **st)
+{
+    (void)st;
+    const char plain[] = "TRIM offset=1\nwait 2s\nTRIM offset=2 # \xc3\xa9\n";
+    const char bom[] = "\xef\xbb\xbfTRIM offset=1\r\nwait 2s\r\nTRIM offset=2 # \xc3\xa9\r\n";
+    ulk_cmdlist *a = NULL, *b = NULL;
+    ulk_diag *d = ulk_diag_create();
+    assert_int_equal(ulk_cmdlist_parse("a.cmd", plain, sizeof plain - 1, &a, d), 0);
+    assert_int_equal(ulk_cmdlist_parse("b.cmd", bom, sizeof bom - 1, &b, d), 0);
+    assert_int_equal(ulk_diag_count(d), 0);
+    assert_int_equal(a->n_items, b->n_items);
+    for (size_t i = 0; i < a->n_items; i++) {
+        assert_int_equal(a->items[i].kind, b->items[i].kind);
+        assert_int_equal(a->items[i].line, b->items[i].line);
+        if (a->items[i].kind == ULK_CL_COMMAND) {
+            assert_string_equal(a->items[i].mnemonic, b->items[i].mnemonic); /* no BOM in the first mnemonic */
+            assert_string_equal(a->items[i].args[0].value, b->items[i].args[0].value);
+        }
+    }
+    ulk_cmdlist_destroy(a);
+    ulk_cmdlist_destroy(b);
     ulk_diag_destroy(d);
 }
 
@@ -316,6 +379,8 @@ int main(void)
         cmocka_unit_test(test_broken_lists),
         cmocka_unit_test(test_all_errors_reported),
         cmocka_unit_test(test_overlong_and_nul),
+        cmocka_unit_test(test_binary_refused),
+        cmocka_unit_test(test_bom_crlf),
         cmocka_unit_test(test_tolerated),
         cmocka_unit_test(test_alloc_failures),
     };

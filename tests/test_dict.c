@@ -192,6 +192,11 @@ static const row rows[] = {
     {"calibration_on_enum", 0, "type: enum, bits: 2,", "type: enum, bits: 2, calibration: {scale: 2},", 0, 0, E,
      "calibration does not apply to enum arguments", 26, 56, 0},
     {"range_min_above_max", 0, "range: [-10, 100]", "range: [100, -10]", 0, 0, E, "has MIN above MAX", 25, 95, 0},
+    {"tolerance_negative", 0, "range: [-10, 100]", "range: [-10, 100], tolerance: -0.5", 0, 0, E,
+     "tolerance must be >= 0", 25, 118, 0},
+    {"tolerance_on_enum", 0, "type: enum, bits: 2,", "type: enum, bits: 2, tolerance: 1,", 0, 0, E,
+     "tolerance does not apply to enum arguments", 26, 54, 0},
+    {"tolerance_accepted", 0, "range: [-10, 100]", "range: [-10, 100], tolerance: 0.25", 0, 0, W, "(none)", 0, 0, 2},
     /* ---- JSON */
     {"json_syntax_error_position", 1, "\"bit_rate\": 62.5,", "\"bit_rate\": 62.5", 0, 0, E, "JSON syntax error", 6, 5, 0},
     {"json_unknown_key_did_you_mean", 1, "\"postamble\"", "\"postamle\"", 0, 0, E,

@@ -302,11 +302,104 @@ row decode-raw-rate-0 2 "rate" --needs decode -- "$ULK" decode --dict "$DICT" c8
 # was bugs-decode.md X1: buffers sized from the rate without a limit (43 GB at 1e12 Hz)
 row decode-raw-rate-1e12 2 "beyond the decoder's limit" --needs decode -- "$ULK" decode --dict "$DICT" c8.f32 --rate 1e12 --format f32
 { repeat '\x00\x00\xc0\x7f' 10000; } >c9.f32
-row decode-raw-all-nan 1 "" --needs decode -- "$ULK" decode --dict "$DICT" c9.f32 --rate 48000 --format f32
+row decode-raw-all-nan 1 "no signal found" --needs decode -- "$ULK" decode --dict "$DICT" c9.f32 --rate 48000 --format f32
 
 # ---------------------------------------------------------------- verify
 row verify-upload-truncated 2 "cut short" --needs verify -- "$ULK" verify --dict "$DICT" --upload t.ulku c3.wav
 row verify-capture-truncated 2 "truncated" --needs verify -- "$ULK" verify --dict "$DICT" --upload one.ulku c2.wav
+
+# ---------------------------------------------------------------- command lists as people make them
+printf '\xef\xbb\xbfOBC_NOOP\r\nwait 1s\r\nOBC_NOOP\r\n' >bom.cmd
+row list-bom-and-crlf 0 "compiled" --  "$ULK" compile --dict "$DICT" bom.cmd -o out.ulku
+rm -f out.ulku
+head -c 4096 "$ULK" >bin.cmd
+row list-binary-file 1 "at byte offset 0" --absent out.ulku -- "$ULK" compile --dict "$DICT" bin.cmd -o out.ulku
+printf 'OBC_NOOP\nOBC_SET_MODE mode=\xe9t\xe9\n' >latin1.cmd
+row list-latin1-byte 1 "0xE9 at byte offset 27" --absent out.ulku -- "$ULK" compile --dict "$DICT" latin1.cmd -o out.ulku
+printf 'OBC_NOOP\n\x1b[31mOBC_NOOP\n' >esc.cmd
+row list-escape-sequence 1 "control character 0x1B at byte offset 9" --absent out.ulku -- "$ULK" compile --dict "$DICT" esc.cmd -o out.ulku
+printf 'THERM_SETPOINT zone=BATTERY setpoint=21.7degC\n' >round.cmd
+row list-calibration-rounding 0 "21.7 degC is encoded as 21.5 degC" -- "$ULK" compile --dict "$DICT" round.cmd -o out.ulku
+rm -f out.ulku
+demo_with 's/        calibration: {scale: 0.5, offset: -40}/        calibration: {scale: 0.5, offset: -40}\n        tolerance: 0.1/' >tol.yaml
+row list-beyond-tolerance 1 "beyond the argument's tolerance 0.1 degC" --absent out.ulku -- "$ULK" compile --dict tol.yaml round.cmd -o out.ulku
+demo_with 's/        calibration: {scale: 0.5, offset: -40}/        calibration: {scale: 0.5, offset: -40}\n        tolerance: -1/' >tol2.yaml
+row dict-negative-tolerance 1 "tolerance must be >= 0" -- "$ULK" validate tol2.yaml
+
+# ---------------------------------------------------------------- one command line
+row compile-output-is-the-dictionary 2 "is the same file as the dictionary" -- "$ULK" compile --dict "$work/d.yaml" one.cmd -o "$work/./d.yaml"
+cp "$DICT" d.yaml
+row compile-output-is-the-list 2 "is the same file as the command list" -- "$ULK" compile --dict d.yaml one.cmd -o ./one.cmd
+row modulate-output-is-the-upload 2 "is the same file as the upload" -- "$ULK" modulate one.ulku -o one.ulku --rate 48000
+row modulate-two-outputs-one-name 2 "is the same file as the timing table" --absent same.wav -- "$ULK" modulate one.ulku -o same.wav --timing ./same.wav --rate 48000
+"$ULK" modulate one.ulku -o one.wav --rate 48000 -q >/dev/null 2>&1
+row impair-output-is-the-input 2 "is the same file as the input capture" -- "$ULK" impair one.wav -o one.wav --ebn0 10 --dict "$DICT"
+row spectrum-output-is-the-capture 2 "is the same file as the capture" -- "$ULK" spectrum one.wav --csv one.wav
+row decode-plot-not-a-picture 2 "ends in .png or .svg" --absent x.txt --needs decode -- "$ULK" decode --dict "$DICT" one.wav --plot x.txt
+row plan-plot-not-a-picture 2 "ends in .png or .svg" --absent x.gif -- "$ULK" plan "$DICT" --plot x.gif
+row spectrum-plot-not-a-picture 2 "ends in .png or .svg" --absent x.jpg -- "$ULK" spectrum one.wav -o x.jpg
+row option-needs-a-value 2 "option '--rate' needs a value" -- "$ULK" modulate one.ulku -o x.wav --rate
+row unknown-option 2 "unknown option '--bogus'" -- "$ULK" inspect --bogus one.ulku
+row unknown-help-topic 2 "no such command" -- "$ULK" help frobnicate
+printf 'x: [\n' >broken.yaml
+# a broken dictionary: exit 1 from every command that reads one
+row broken-dict-validate 1 "YAML syntax error" -- "$ULK" validate broken.yaml
+row broken-dict-compile 1 "dictionary broken.yaml has errors" -- "$ULK" compile --dict broken.yaml one.cmd -o out.ulku
+row broken-dict-modulate-carrier 1 "dictionary broken.yaml has errors" --absent x.cf32 -- "$ULK" modulate one.ulku --carrier --mode full --dict broken.yaml -o x.cf32 --rate 192000
+row broken-dict-impair 1 "dictionary broken.yaml has errors" --absent x.wav -- "$ULK" impair one.wav -o x.wav --ebn0 10 --dict broken.yaml
+row broken-dict-plan 1 "YAML syntax error" -- "$ULK" plan broken.yaml
+row broken-dict-spectrum 1 "YAML syntax error" -- "$ULK" spectrum one.wav --dict broken.yaml
+row broken-dict-decode 1 "dictionary broken.yaml has errors" --needs decode -- "$ULK" decode --dict broken.yaml one.wav
+row broken-dict-verify 1 "dictionary broken.yaml has errors" --needs verify -- "$ULK" verify --dict broken.yaml --upload one.ulku one.wav
+
+# ---------------------------------------------------------------- raw captures without metadata
+"$ULK" modulate one.ulku -o bare.s16 --rate 48000 -q >/dev/null 2>&1; rm -f bare.sigmf-meta
+row raw-without-metadata 2 "the sample rate is missing; give it with --rate HZ" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16
+row raw-format-from-extension 0 "accepted" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16 --rate 48000
+# the receiver tells the reader that --format was given (src/rx.c: hint.format_given)
+row raw-format-contradicts-extension 2 "the extension says s16 samples but --format f32 was given" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16 --rate 48000 --format f32
+cp bare.s16 bare.sigmf-data
+row raw-nothing-known 2 "--rate HZ --format f32|s16|cf32|ci16" --needs decode -- "$ULK" decode --dict "$DICT" bare.sigmf-data
+"$ULK" impair one.wav -o loud.wav --no-noise --amplitude 1.5 >/dev/null 2>&1
+row impair-clip-by-how-much "1" "over full scale 1.0" --absent clip.s16 -- "$ULK" impair loud.wav -o clip.s16 --no-noise
+row impair-ppm-by-how-much 2 "outside +-10000 ppm (by 10000 ppm)" --absent x.wav -- "$ULK" impair one.wav -o x.wav --ebn0 10 --dict "$DICT" --ppm 20000
+
+# ---------------------------------------------------------------- standard output on a full device
+# Every printing command and every help form: a failed write of standard output (here the
+# final flush) is an error naming the output, exit 2 (was: silence and exit 0).
+full() { local name=$1; shift; row "stdout-full-$name" 2 "standard output: write failed: No space left" -- sh -c '"$@" >/dev/full' sh "$@"; }
+full help "$ULK" --help
+full help-word "$ULK" help
+full version "$ULK" --version
+for c in validate compile inspect modulate impair decode verify plan spectrum; do
+  full "help-$c" "$ULK" help "$c"
+  full "$c---help" "$ULK" "$c" --help
+done
+full modulate-carrier---help "$ULK" modulate --carrier --help
+full validate "$ULK" validate "$DICT"
+full validate-json "$ULK" validate --json "$DICT"
+full validate-canonical "$ULK" validate --canonical "$DICT"
+full compile "$ULK" compile --dict "$DICT" one.cmd -o full.ulku
+full compile-to-stdout "$ULK" compile --dict "$DICT" one.cmd -o -
+full inspect "$ULK" inspect demo.ulku
+full inspect-json "$ULK" inspect --json demo.ulku
+full inspect-list "$ULK" inspect --list demo.ulku
+full modulate "$ULK" modulate one.ulku -o full.wav --rate 48000
+full modulate-to-stdout "$ULK" modulate one.ulku -o - --rate 48000
+full modulate-timing-to-stdout "$ULK" modulate one.ulku --timing - --rate 48000
+full plan "$ULK" plan "$DICT"
+full plan-json "$ULK" plan --json "$DICT"
+full spectrum "$ULK" spectrum one.wav
+full spectrum-json "$ULK" spectrum --json one.wav
+if have decode; then
+  full decode "$ULK" decode --dict "$DICT" one.wav
+  full decode-json "$ULK" decode --json --dict "$DICT" one.wav
+fi
+if have verify; then
+  full verify "$ULK" verify --dict "$DICT" --upload one.ulku one.wav
+  full verify-json "$ULK" verify --json --dict "$DICT" --upload one.ulku one.wav
+fi
+rm -f full.ulku full.wav full.sigmf-meta
 
 echo "($xfailed known bugs marked xfail, $skipped rows skipped)"
 echo "$passed passed, $failed failed"

@@ -504,8 +504,16 @@ static void test_reader_hint(void **st)
     assert_true(y[2] == 0.75f);
     free(y);
     assert_int_equal(ulk_reader_open(path_of("lonely.sigmf-meta"), NULL, -1, &r, d), ULK_EIO);
-    hint.format = ULK_FMT_F32; /* disagrees with .s16 */
+    /* a format given by the user that disagrees with the extension .s16 is refused ... */
+    hint.format = ULK_FMT_F32;
+    hint.format_given = 1;
     assert_int_equal(ulk_reader_open(path_of("h.s16"), &hint, -1, &r, d), ULK_EINVAL);
+    /* ... but a default the user did not give yields to the extension (decode x.s16 --rate R) */
+    hint.format_given = 0;
+    assert_int_equal(ulk_reader_open(path_of("h.s16"), &hint, -1, &r, d), 0);
+    assert_int_equal(ulk_reader_info(r)->format, ULK_FMT_S16);
+    ulk_reader_close(r);
+    r = NULL;
     ulk_diag_destroy(d);
     clean();
 }

@@ -41,6 +41,8 @@ typedef struct {
     int bits;                  /* raw width */
     int has_range;
     double range_min, range_max; /* engineering range */
+    int has_tolerance;         /* dictionary key 'tolerance' given (numeric types only) */
+    double tolerance;          /* largest |encoded - requested| compile accepts, engineering units */
     char *units;               /* NULL when none */
     ulk_cal_kind cal;
     double cal_scale, cal_offset; /* eng = offset + scale * raw */

@@ -1,4 +1,4 @@
-/* ulk/plot.h - a PNG picture of a decode: soft sub-bit values over time and each word's
+/* ulk/plot.h - a picture (PNG or SVG) of a decode: soft sub-bit values over time and each word's
  * margin, so an operator can see at a glance how clean a capture was.
  *
  * Memory stays bounded: at most ULK_PLOT_MAX_POINTS soft values are kept (every k-th once
@@ -23,8 +23,11 @@ ulk_plot *ulk_plot_create(void);
 void ulk_plot_soft(ulk_plot *p, double t_s, float soft);
 /* Adds a word: start time, soft margin, accepted (1) or rejected (0). */
 void ulk_plot_word(ulk_plot *p, double t_s, double margin, int accepted);
-/* Draws the plot into a PNG at path (atomically). Returns 0, ULK_EIO with the reason in diag,
- * ULK_EINVAL when the library was built without cairo. */
+/* Draws the plot to path (atomically), as PNG or SVG by its extension (.png, .svg; any other
+ * name is refused with ULK_EINVAL before anything is written). Returns 0, ULK_EINVAL,
+ * ULK_EFORMAT (built without cairo), ULK_EIO / ULK_ENOMEM with the reason in diag. */
+int ulk_plot_write(const ulk_plot *p, const char *path, const char *title, ulk_diag *diag);
+/* The same as ulk_plot_write (the name is older than the SVG output). */
 int ulk_plot_write_png(const ulk_plot *p, const char *path, const char *title, ulk_diag *diag);
 /* Frees p; NULL does nothing. */
 void ulk_plot_destroy(ulk_plot *p);

@@ -157,9 +157,11 @@ void ulk_rx_destroy(ulk_rx *rx);
 /* How to read a capture file (ulk/sampleio.h readers). */
 typedef struct {
     double rate_hz;   /* raw files without metadata: sample rate; 0 = from the file or its .sigmf-meta */
-    int format;       /* raw files: ULK_FMT_F32 / ULK_FMT_S16; -1 = not given */
+    int format;       /* raw files: ULK_FMT_F32 / ULK_FMT_S16 as the user named it (the file's
+                         extension must then agree); -1 = not given (the extension decides) */
     int channel;      /* channel of a multi-channel WAV; -1 = refuse multi-channel unless I/Q */
     int iq;           /* a two-channel WAV is I (left) and Q (right) */
+    int format_complex; /* with format: the raw samples are interleaved I/Q (cf32, ci16) */
 } ulk_rx_file_options;
 
 /* Called for every event as it is pulled; returns 0 to go on, or a negative status to stop

@@ -36,6 +36,10 @@ typedef struct {
                                 * "ulk:sample_rate_exact" when not NULL; reader sets it from the
                                 * metadata when present (owned by the reader), else NULL */
     int64_t n_frames;          /* reader: frames in the file; writer: ignored */
+    /* Reader hint only: 1 when format (and, with channels 2, complex I/Q) was given by the
+     * user. 0: the file name's extension (.f32, .s16, .cf32, .ci16) decides and format is
+     * used only for a name that says nothing; 1: a contradicting extension is refused. */
+    int format_given;
 } ulk_sample_info;
 
 typedef struct ulk_writer ulk_writer;

@@ -1,4 +1,5 @@
-/* src/cli/cmd_compile.c - `ulk compile --dict DICT LIST -o UPLOAD`.
+/* src/cli/cmd_compile.c - `ulk compile --dict DICT LIST -o UPLOAD` (LIST "-": standard input;
+ * UPLOAD "-": standard output).
  * Exit 0 written; 1 the dictionary or the list has errors (nothing written); 2 usage or I/O. */
 #include <stdio.h>
 #include <string.h>
@@ -18,40 +19,57 @@ static void usage(FILE *out)
             "any error nothing is written. Critical commands need 'confirm' on their line.\n"
             "\n"
             "options:\n"
+            "  LIST            the command list; - reads it from standard input\n"
             "  --dict DICT     command dictionary (YAML or JSON)\n"
-            "  -o, --output F  upload file to write (atomically)\n"
+            "  -o, --output F  upload file to write (atomically; - for standard output); it may\n"
+            "                  not be the dictionary or the list\n"
             "  -q, --quiet     no summary\n"
             "  -h, --help      this text\n"
             "\nexit: 0 written, 1 errors in the dictionary or the list, 2 usage or I/O error\n");
 }
 
+enum { O_DICT = CLI_LONG, O_OUTPUT = 'o', O_QUIET = 'q' };
+static const struct option opts[] = {{"dict", required_argument, NULL, O_DICT},
+                                     {"output", required_argument, NULL, O_OUTPUT},
+                                     {"quiet", no_argument, NULL, O_QUIET},
+                                     {"help", no_argument, NULL, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"compile", opts, usage};
+
+typedef struct {
+    const char *dict_path, *out_path;
+    int quiet;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    if (v == O_DICT) a->dict_path = arg;
+    else if (v == O_OUTPUT) a->out_path = arg;
+    else if (v == O_QUIET) a->quiet = 1;
+    return 0;
+}
+
 int cmd_compile(int argc, char **argv)
 {
-    const char *dict_path = NULL, *list_path = NULL, *out_path = NULL;
-    int quiet = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--dict") && i + 1 < argc) dict_path = argv[++i];
-        else if (!strncmp(a, "--dict=", 7)) dict_path = a + 7;
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
-        else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk compile: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!list_path) list_path = a;
-        else {
-            fprintf(stderr, "ulk compile: more than one command list ('%s' and '%s')\n", list_path, a);
-            return 2;
-        }
+    args a = {0};
+    int first, r = cli_parse(&command, argc, argv, on_opt, &a, &first);
+    if (r >= 0) return r;
+    const char *dict_path = a.dict_path, *out_path = a.out_path, *list_path = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk compile: more than one command list ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
     }
     if (!dict_path || !list_path || !out_path) {
         fprintf(stderr, "ulk compile: %s is required\n", !dict_path ? "--dict DICT" : !list_path ? "LIST" : "-o UPLOAD");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
+    const char *ins[] = {dict_path, list_path}, *what[] = {"dictionary", "command list"};
+    if ((r = cli_refuse_overwrite("compile", out_path, ins, what, 2))) return r;
+    /* the upload on standard output: the summary goes to standard error */
+    FILE *say = cli_is_std(out_path) ? stderr : stdout;
+    int quiet = a.quiet;
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk compile: out of memory\n"); return 2; }
     ulk_dict *dict = NULL;
@@ -59,19 +77,21 @@ int cmd_compile(int argc, char **argv)
     ulk_upload *up = NULL;
     int exit_code = 0;
 
-    int rc = ulk_dict_load(dict_path, &dict, diag);
-    if (rc < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk compile: dictionary %s %s; no upload written\n", dict_path,
-                rc == ULK_EPARSE ? "has errors" : "cannot be loaded");
-        exit_code = rc == ULK_EPARSE ? 1 : 2;
+    if ((exit_code = cli_load_dict("compile", dict_path, &dict))) {
+        fprintf(stderr, "ulk compile: no upload written\n");
         goto done;
     }
-    rc = ulk_cmdlist_load(list_path, &list, diag);
+    int rc = ulk_cmdlist_load(list_path, &list, diag);
     if (!list) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk compile: no upload written\n");
-        exit_code = (rc == ULK_EIO || rc == ULK_ENOMEM) ? 2 : 1;
+        exit_code = cli_exit_for(rc);
+        goto done;
+    }
+    if (rc < 0 && list->n_items == 0) { /* nothing readable: the list's own refusal is the message */
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk compile: no upload written\n");
+        exit_code = cli_exit_for(rc);
         goto done;
     }
     rc = ulk_compile(dict, list, &up, diag);
@@ -80,37 +100,37 @@ int cmd_compile(int argc, char **argv)
     if (rc < 0 || !up) {
         fprintf(stderr, "ulk compile: %zu error%s in %s; no upload written\n", ulk_diag_errors(diag),
                 ulk_diag_errors(diag) == 1 ? "" : "s", list_path);
-        exit_code = rc == ULK_ENOMEM ? 2 : 1;
+        exit_code = rc == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
         goto done;
     }
     ulk_diag_clear(diag);
-    if (ulk_upload_write(up, out_path, diag) < 0) {
+    if ((rc = ulk_upload_write(up, out_path, diag)) < 0) {
         ulk_diag_print(diag, stderr);
-        exit_code = 2;
+        exit_code = cli_exit_for(rc);
         goto done;
     }
     if (!quiet) {
         uint64_t n_sub = ulk_upload_n_subbits(up);
         char rb[64];
         ulk_ratio_format(up->link.bit_rate, rb, sizeof rb);
-        printf("compiled %s with %s %s -> %s\n", list_path, dict->name, dict->version, out_path);
-        printf("  commands  %zu\n", up->n_cmds);
+        fprintf(say, "compiled %s with %s %s -> %s\n", list_path, dict->name, dict->version, out_path);
+        fprintf(say, "  commands  %zu\n", up->n_cmds);
         if (up->link.profile == ULK_PROFILE_CCSDS_TC) {
             size_t oct = 0;
             for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
-            printf("  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
-            printf("  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
+            fprintf(say, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
+            fprintf(say, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
         } else {
-            printf("  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
-            printf("  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
+            fprintf(say, "  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
+            fprintf(say, "  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
         }
-        printf("  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
+        fprintf(say, "  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
         size_t n_crit = 0;
         for (size_t i = 0; i < up->n_cmds; i++) n_crit += up->cmds[i].critical != 0;
-        printf("  critical  %zu\n", n_crit);
+        fprintf(say, "  critical  %zu\n", n_crit);
         for (size_t i = 0; i < up->n_cmds; i++)
             if (up->cmds[i].critical)
-                printf("    line %d: %s (word %zu)\n", up->cmds[i].line, up->cmds[i].mnemonic, i + 1);
+                fprintf(say, "    line %d: %s (word %zu)\n", up->cmds[i].line, up->cmds[i].mnemonic, i + 1);
     }
 done:
     ulk_upload_destroy(up);

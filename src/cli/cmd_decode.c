@@ -1,20 +1,22 @@
-/* src/cli/cmd_decode.c - `ulk decode --dict DICT CAPTURE [--json] [--plot FILE]
- * [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME] [--max-offset HZ]
+/* src/cli/cmd_decode.c - `ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png|FILE.svg]
+ * [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N] [--iq] [--mode NAME] [--max-offset HZ]
  * [--voice OUT.wav] [--ranging]`: recover words and commands from a capture, blind (unknown
  * start, clock error, level, DC, polarity, noise); a complex capture of the composite carrier
- * through carrier recovery first, with its voice and ranging channels on request.
- * Exit 0 a command accepted; 1 no command found (reason on stderr); 2 usage, dictionary or I/O
- * error. */
+ * through carrier recovery first, with its voice and ranging channels on request. The receiver
+ * (include/ulk/rx.h) does the work; this file parses the options and prints its events.
+ * Exit (docs/cli.md) 0 a command accepted; 1 no command found (reason on stderr) or a broken
+ * dictionary; 2 usage or I/O error. */
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "capture.h"
+#include "capture_opts.h"
 #include "cli.h"
 #include "ulk/decode.h"
 #include "ulk/dict.h"
+#include "ulk/limits.h"
 #include "ulk/plot.h"
 #include "ulk/rx.h"
 #include "util.h"
@@ -22,30 +24,34 @@
 static void usage(FILE *out)
 {
     fprintf(out,
-            "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png]\n"
-            "                  [--rate HZ --format f32|s16] [--channel N]\n"
+            "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png|FILE.svg]\n"
+            "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N]\n"
             "                  [--iq] [--mode NAME] [--max-offset HZ] [--voice OUT.wav] [--ranging]\n"
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
-            "subcarrier may be off by up to +-500 ppm, its level anywhere from -40 dBFS to full\n"
+            "subcarrier may be off by up to +-" ULK_STR(ULK_DEMOD_DEFAULT_MAX_PPM) " ppm, its level anywhere from -40 dBFS to full\n"
             "scale, with a DC offset, inverted, and noisy. Each word is accepted (check passed,\n"
             "our vehicle, a known command with valid arguments) or rejected with its reason.\n"
             "\n"
             "  CAPTURE                 WAV, or raw .f32/.s16 little-endian mono with its\n"
-            "                          .sigmf-meta beside it or --rate/--format\n"
+            "                          .sigmf-meta beside it or --rate (the extension gives\n"
+            "                          the sample type)\n"
             "options:\n"
             "  --dict DICT             the dictionary the uplink was made with\n"
             "  --json                  machine-readable output (words and estimates)\n"
-            "  --plot FILE.png         picture of the soft sub-bit values and each word's margin\n"
+            "  --plot FILE             picture of the soft sub-bit values and each word's margin,\n"
+            "                          PNG or SVG by the extension (.png, .svg)\n"
             "  --rate HZ               sample rate of a raw capture\n"
-            "  --format f32|s16        sample type of a raw capture\n"
+            "  --format TYPE           sample type of a raw capture whose name does not say it:\n"
+            "                          f32, s16, cf32, ci16\n"
             "  --channel N             channel of a multi-channel WAV (0 = first)\n"
             "complex captures of the composite carrier (.cf32/.ci16 with SigMF, or a two-channel\n"
             "WAV with --iq; the dictionary's carrier section, docs/carrier.md):\n"
             "  --iq                    a two-channel WAV is I (left) and Q (right)\n"
             "  --mode NAME             the carrier mode (default: the one in the SigMF metadata)\n"
-            "  --max-offset HZ         carrier offset search range +-HZ (default 5000)\n"
+            "  --max-offset HZ         carrier offset search range +-HZ (default "
+            ULK_STR(ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ) ")\n"
             "  --voice OUT.wav         demodulate the voice FM subcarrier to OUT.wav (float)\n"
             "  --ranging               report the ranging code phase (chips, seconds from the\n"
             "                          capture start) and the correlation's peak-to-mean ratio\n"
@@ -60,7 +66,7 @@ static void usage(FILE *out)
             "measured against the capture's sample clock.\n"
             "\nexit: 0 at least one command accepted; 1 no command found (the reason in one line on\n"
             "      stderr: no signal, or words found but none for this dictionary's addresses, or all\n"
-            "      rejected); 2 usage, dictionary or I/O error\n");
+            "      rejected), or the dictionary breaks a rule; 2 usage or I/O error\n");
 }
 
 /* One decode's output state: JSON is written as the units arrive (the array incrementally,
@@ -332,42 +338,64 @@ static int on_event(const ulk_rx_event *ev, void *user)
     return x->failed ? ULK_ENOMEM : 0;
 }
 
+enum { O_DICT = CLI_LONG, O_JSON, O_RANGING, O_PLOT, O_VOICE };
+static const struct option opts[] = {
+    {"dict", required_argument, 0, O_DICT}, {"json", no_argument, 0, O_JSON},
+    {"ranging", no_argument, 0, O_RANGING}, {"plot", required_argument, 0, O_PLOT},
+    {"voice", required_argument, 0, O_VOICE}, CLI_CAPTURE_OPTIONS,
+    {"help", no_argument, 0, 'h'},          {0, 0, 0, 0}};
+static const cli_command command = {"decode", opts, usage};
+
 typedef struct {
     const char *dict_path, *capture, *plot_path;
     int json;
     cli_capture_opts o;
 } dec_args;
 
-/* Returns 0 to go on, 1 after --help (exit 0), or 2 (usage error, message printed). */
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    dec_args *a = ctx;
+    switch (v) {
+    case O_DICT: a->dict_path = arg; break;
+    case O_JSON: a->json = 1; break;
+    case O_RANGING: a->o.r.ranging = 1; break;
+    case O_PLOT: a->plot_path = arg; break;
+    case O_VOICE: a->o.r.voice_path = arg; break;
+    default: return cli_capture_option("decode", v, arg, &a->o);
+    }
+    return 0;
+}
+
+/* Parses the options and checks the files before any work: returns -1 to go on, else the exit
+ * code (0 after --help). A capture '-' becomes a temporary copy of standard input. */
 static int parse_args(int argc, char **argv, dec_args *a)
 {
     memset(a, 0, sizeof *a);
     cli_capture_init(&a->o);
-    for (int i = 1; i < argc; i++) {
-        const char *s = argv[i];
-        int r = cli_capture_opt("decode", argc, argv, &i, &a->o);
-        if (r < 0) return 2;
-        if (r > 0) continue;
-        if (!strcmp(s, "-h") || !strcmp(s, "--help")) { usage(stdout); return 1; }
-        else if (!strcmp(s, "--json")) a->json = 1;
-        else if (!strcmp(s, "--ranging")) a->o.r.ranging = 1;
-        else if (!strcmp(s, "--dict") || !strcmp(s, "--plot") || !strcmp(s, "--voice")) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk decode: %s needs a value\n", s); return 2; }
-            if (!strcmp(s, "--dict")) a->dict_path = argv[++i];
-            else if (!strcmp(s, "--voice")) a->o.r.voice_path = argv[++i];
-            else a->plot_path = argv[++i];
-        } else if (s[0] == '-' && s[1]) {
-            fprintf(stderr, "ulk decode: unknown option '%s' (ulk decode --help)\n", s);
-            return 2;
-        } else if (!a->capture) a->capture = s;
-        else { fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", s); return 2; }
+    int first, pr = cli_parse(&command, argc, argv, on_opt, a, &first);
+    if (pr >= 0) return pr;
+    a->capture = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
     }
     if (!a->dict_path || !a->capture) {
         fprintf(stderr, "ulk decode: %s\n", !a->dict_path ? "--dict DICT is required" : "no capture given");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
-    return cli_capture_check("decode", &a->o) < 0 ? 2 : 0;
+    if ((pr = cli_capture_check("decode", &a->o))) return pr;
+    if (!(a->capture = cli_input("decode", a->capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of stdin */
+    const char *ins[] = {a->capture, a->dict_path}, *what[] = {"capture", "dictionary"};
+    if (a->plot_path && ((pr = cli_refuse_overwrite("decode", a->plot_path, ins, what, 2)) ||
+                         (pr = cli_check_picture("decode", a->plot_path))))
+        return pr;
+    if (a->o.r.voice_path && (pr = cli_refuse_overwrite("decode", a->o.r.voice_path, ins, what, 2))) return pr;
+    if (a->plot_path && a->o.r.voice_path && cli_same_file(a->plot_path, a->o.r.voice_path)) {
+        fprintf(stderr, "ulk decode: --plot and --voice name the same file '%s'\n", a->plot_path);
+        return CLI_EXIT_USAGE_IO;
+    }
+    return -1;
 }
 
 /* Exit 0 when a command was accepted; else 1 with the reason in one line on stderr. */
@@ -405,19 +433,15 @@ static int run(const dec_args *a, const ulk_dict *dict, dec_ctx *x, ulk_diag *di
     if (rc < 0) {
         if (x->failed) fprintf(stderr, "ulk decode: out of memory\n");
         else ulk_diag_print(diag, stderr);
-        return 2;
-    }
-    if (fflush(stdout) != 0 || ferror(stdout)) {
-        fprintf(stderr, "ulk decode: writing the output failed\n");
-        return 2;
+        return CLI_EXIT_USAGE_IO; /* a capture that cannot be read, or out of memory */
     }
     int ret = no_command(x);
     if (a->plot_path) {
         char title[512];
         snprintf(title, sizeof title, "%s (%s)", a->capture, dict->name ? dict->name : a->dict_path);
-        if (ulk_plot_write_png(x->plot, a->plot_path, title, diag) < 0) {
+        if (ulk_plot_write(x->plot, a->plot_path, title, diag) < 0) {
             ulk_diag_print(diag, stderr);
-            ret = 2;
+            ret = CLI_EXIT_USAGE_IO;
         }
     }
     return ret;
@@ -426,22 +450,18 @@ static int run(const dec_args *a, const ulk_dict *dict, dec_ctx *x, ulk_diag *di
 int cmd_decode(int argc, char **argv)
 {
     dec_args a;
-    int r = parse_args(argc, argv, &a);
-    if (r) return r == 1 ? 0 : 2;
+    int ret = parse_args(argc, argv, &a);
+    if (ret >= 0) return ret;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
     dec_ctx x;
     memset(&x, 0, sizeof x);
     x.capture = a.capture;
     x.json = a.json;
-    int ret = 2;
-    if (!diag) { fprintf(stderr, "ulk decode: out of memory\n"); return 2; }
-    if (ulk_dict_load(a.dict_path, &dict, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk decode: cannot use dictionary %s\n", a.dict_path);
-        goto out;
-    }
-    ulk_diag_clear(diag);
+    ret = CLI_EXIT_USAGE_IO;
+    if (!diag) { fprintf(stderr, "ulk decode: out of memory\n"); return ret; }
+    if ((ret = cli_load_dict("decode", a.dict_path, &dict))) goto out; /* the same exit as every command */
+    ret = CLI_EXIT_USAGE_IO;
     if (a.plot_path && !(x.plot = ulk_plot_create())) {
         fprintf(stderr, "ulk decode: out of memory\n");
         goto out;

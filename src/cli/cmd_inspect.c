@@ -49,11 +49,27 @@ static void pattern_of(const ulk_link *l, const ulk_word *w, char *buf, int spac
 static void ratio_str(ulk_ratio r, char *buf, int len) { ulk_ratio_format(r, buf, len); }
 static int print_text_tc(const char *path, const ulk_upload *u);
 
+/* The value the raw field encodes (calibration applied), with the shortest command-list text
+ * that compiles to the same raw beside it when that reads differently ("1.11 deg (list
+ * text 1)"): what goes up is the encoded value, not the text. */
 static const char *argval_show(const ulk_upload_arg *a, char *buf, size_t len)
 {
-    if (a->units) snprintf(buf, len, "%s %s", a->text, a->units);
-    else snprintf(buf, len, "%s", a->text);
+    const char *u = a->units ? a->units : "", *sp = a->units ? " " : "";
+    if (a->type == ULK_ARG_ENUM || a->type == ULK_ARG_BOOLEAN) {
+        snprintf(buf, len, "%s%s%s", a->text, sp, u);
+        return buf;
+    }
+    char eng[64];
+    snprintf(eng, sizeof eng, "%.12g", a->eng);
+    if (strtod(eng, NULL) == strtod(a->text, NULL)) snprintf(buf, len, "%s%s%s", a->text, sp, u);
+    else snprintf(buf, len, "%s%s%s (list text %s)", eng, sp, u, a->text);
     return buf;
+}
+
+/* A field in hex at its full width: ceil(bits / 4) digits ("0x0A5C" for 16 bits). */
+static void hex_field(uint64_t v, int bits, char *buf, size_t len)
+{
+    snprintf(buf, len, "0x%0*llX", bits > 0 ? (bits + 3) / 4 : 1, (unsigned long long)v);
 }
 
 static int print_text(const char *path, const ulk_upload *u)
@@ -107,15 +123,18 @@ static int print_text(const char *path, const ulk_upload *u)
         int pos = y.args_pos;
         for (int k = 0; k < c->n_args; k++) {
             const ulk_upload_arg *a = &c->args[k];
-            printf("  arg       %s = %s  raw 0x%llX (%s, %d bits at %d)\n", a->name, argval_show(a, v, sizeof v),
-                   (unsigned long long)a->raw, ulk_arg_type_name(a->type), a->bits, pos);
+            char rh[24];
+            hex_field(a->raw, a->bits, rh, sizeof rh);
+            printf("  arg       %s = %s  raw %s (%s, %d bit%s at %d)\n", a->name, argval_show(a, v, sizeof v), rh,
+                   ulk_arg_type_name(a->type), a->bits, a->bits == 1 ? "" : "s", pos);
             pos += a->bits;
         }
-        if (pos < y.check_pos) printf("  padding   %d zero bits at %d\n", y.check_pos - pos, pos);
+        if (pos < y.check_pos)
+            printf("  padding   %d zero bit%s at %d\n", y.check_pos - pos, y.check_pos - pos == 1 ? "" : "s", pos);
+        char ck[24];
+        hex_field(ulk_word_get(&c->word, y.check_pos, l->check_bits), l->check_bits, ck, sizeof ck);
         if (l->check_bits)
-            printf("  check     %s 0x%llX  %s\n", ulk_check_name(l->check),
-                   (unsigned long long)ulk_word_get(&c->word, y.check_pos, l->check_bits),
-                   ulk_word_check_ok(l, &c->word) ? "ok" : "WRONG");
+            printf("  check     %s %s  %s\n", ulk_check_name(l->check), ck, ulk_word_check_ok(l, &c->word) ? "ok" : "WRONG");
         else
             printf("  check     none\n");
         printf("  hex       %s\n  binary    %s\n", hex, bin);
@@ -198,11 +217,13 @@ static int print_text_tc(const char *path, const ulk_upload *u)
         int pos = 8;
         for (int k = 0; k < c->n_args; k++) {
             const ulk_upload_arg *a = &c->args[k];
-            printf("  arg       %s = %s  raw 0x%llX (%s, %d bits at data bit %d)\n", a->name, argval_show(a, v, sizeof v),
-                   (unsigned long long)a->raw, ulk_arg_type_name(a->type), a->bits, pos);
+            char rh[24];
+            hex_field(a->raw, a->bits, rh, sizeof rh);
+            printf("  arg       %s = %s  raw %s (%s, %d bit%s at data bit %d)\n", a->name, argval_show(a, v, sizeof v), rh,
+                   ulk_arg_type_name(a->type), a->bits, a->bits == 1 ? "" : "s", pos);
             pos += a->bits;
         }
-        if (pos % 8) printf("  padding   %d zero bits at data bit %d\n", 8 - pos % 8, pos);
+        if (pos % 8) printf("  padding   %d zero bit%s at data bit %d\n", 8 - pos % 8, 8 - pos % 8 == 1 ? "" : "s", pos);
         if (t->frame.fecf) printf("  FECF      0x%04X  %s\n", fr.fecf_received, fr.fecf_received == fr.fecf_computed ? "ok" : "WRONG");
         hex_of(c->frame, c->n_frame, hx);
         printf("  frame hex %s\n", hx);
@@ -390,7 +411,7 @@ static int print_json(const ulk_upload *u)
         }
         cJSON *ck = cJSON_AddObjectToObject(w, "check");
         cJSON_AddStringToObject(ck, "kind", ulk_check_name(l->check));
-        snprintf(b, sizeof b, "0x%llX", (unsigned long long)ulk_word_get(&c->word, y.check_pos, l->check_bits));
+        hex_field(ulk_word_get(&c->word, y.check_pos, l->check_bits), l->check_bits, b, sizeof b);
         cJSON_AddStringToObject(ck, "value", b);
         cJSON_AddBoolToObject(ck, "ok", ulk_word_check_ok(l, &c->word));
     }
@@ -409,26 +430,31 @@ static int print_json(const ulk_upload *u)
     return bad ? 2 : 0;
 }
 
+static const struct option opts[] = {{"json", no_argument, NULL, 'j'},
+                                     {"list", no_argument, NULL, 'l'},
+                                     {"help", no_argument, NULL, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"inspect", opts, usage};
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    int *mode = ctx; /* bit 0 --json, bit 1 --list */
+    *mode |= v == 'j' ? 1 : 2;
+    return 0;
+}
+
 int cmd_inspect(int argc, char **argv)
 {
-    const char *path = NULL;
-    int json = 0, list = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--json")) json = 1;
-        else if (!strcmp(a, "--list")) list = 1;
-        else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk inspect: unknown option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!path) path = a;
-        else { fprintf(stderr, "ulk inspect: one upload file at a time\n"); return 2; }
-    }
+    int mode = 0, first;
+    int r = cli_parse(&command, argc, argv, on_opt, &mode, &first);
+    if (r >= 0) return r;
+    int json = mode & 1, list = (mode & 2) != 0;
+    const char *path = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) { fprintf(stderr, "ulk inspect: one upload file at a time\n"); return CLI_EXIT_USAGE_IO; }
     if (!path || (json && list)) {
         fprintf(stderr, "ulk inspect: %s\n", !path ? "UPLOAD is required" : "--json and --list exclude each other");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk inspect: out of memory\n"); return 2; }
@@ -437,13 +463,12 @@ int cmd_inspect(int argc, char **argv)
     if (rc < 0) {
         ulk_diag_print(diag, stderr);
         ulk_diag_destroy(diag);
-        return (rc == ULK_EIO || rc == ULK_ENOMEM) ? 2 : 1;
+        return cli_exit_for(rc);
     }
     int code;
     if (list) code = ulk_upload_print_list(u, stdout) < 0 ? 2 : 0;
     else if (json) code = print_json(u);
-    else code = print_text(path, u);
-    if (fflush(stdout) != 0) code = 2;
+    else code = print_text(cli_is_std(path) ? "<stdin>" : path, u);
     ulk_upload_destroy(u);
     ulk_diag_destroy(diag);
     return code;

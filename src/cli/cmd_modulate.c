@@ -4,7 +4,6 @@
  * refused); 2 usage or I/O error. Nothing is left behind on failure. */
 #include <cjson/cJSON.h>
 #include <limits.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -56,35 +55,13 @@ static void usage(FILE *out)
             ULK_CAUTION);
 }
 
-static int exit_for(int rc)
-{
-    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
-}
+static int exit_for(int rc) { return cli_exit_for(rc); }
 
 static double now_s(void)
 {
     struct timespec ts;
     clock_gettime(CLOCK_MONOTONIC, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-/* Temporary files of this run, for the signal handler: an interrupted run (Ctrl-C, kill,
- * hang-up) removes them before it dies, so nothing is left behind. Plain arrays: the handler
- * may only call async-signal-safe functions (unlink, signal, raise). */
-static char g_tmp[2][4096];
-
-static void on_fatal_signal(int sig)
-{
-    for (int k = 0; k < 2; k++)
-        if (g_tmp[k][0]) unlink(g_tmp[k]);
-    signal(sig, SIG_DFL);
-    raise(sig);
-}
-
-static void track_tmp(int k, const char *path)
-{
-    if (path && strlen(path) < sizeof g_tmp[k]) strcpy(g_tmp[k], path);
-    else g_tmp[k][0] = 0;
 }
 
 /* Free bytes in the folder that will hold path, or -1 when it cannot be told. */
@@ -180,103 +157,239 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
     return 0;
 }
 
+enum { O_OUTPUT = 'o', O_QUIET = 'q', O_RATE = CLI_LONG, O_FORMAT, O_TIMING };
+static const struct option opts[] = {{"output", required_argument, NULL, O_OUTPUT},
+                                     {"rate", required_argument, NULL, O_RATE},
+                                     {"format", required_argument, NULL, O_FORMAT},
+                                     {"timing", required_argument, NULL, O_TIMING},
+                                     {"quiet", no_argument, NULL, O_QUIET},
+                                     {"help", no_argument, NULL, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"modulate", opts, usage};
+
+typedef struct {
+    const char *out_path, *rate_text, *fmt_text, *timing_path;
+    int quiet;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    if (v == O_OUTPUT) a->out_path = arg;
+    else if (v == O_RATE) a->rate_text = arg;
+    else if (v == O_FORMAT) a->fmt_text = arg;
+    else if (v == O_TIMING) a->timing_path = arg;
+    else if (v == O_QUIET) a->quiet = 1;
+    return 0;
+}
+
+/* The sample type and container of OUT from --format and the extension, and the rate checks a
+ * WAV needs. Returns 0 or the exit code (message printed). */
+static int output_kind(const char *out_path, const char *fmt_text, ulk_ratio fs, ulk_sample_format *fmt,
+                       ulk_container *cont)
+{
+    *fmt = ULK_FMT_F32;
+    *cont = ULK_CONTAINER_RAW; /* devices and pipes get raw samples */
+    int fmt_given = 0;
+    if (fmt_text) {
+        if (!strcmp(fmt_text, "f32")) *fmt = ULK_FMT_F32;
+        else if (!strcmp(fmt_text, "s16")) *fmt = ULK_FMT_S16;
+        else {
+            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
+            return CLI_EXIT_USAGE_IO;
+        }
+        fmt_given = 1;
+    }
+    if (!out_path) return 0;
+    size_t n = strlen(out_path);
+    const char *ext = n >= 4 ? out_path + n - 4 : "";
+    int ext_fmt = -1;
+    if (!strcasecmp(ext, ".wav")) *cont = ULK_CONTAINER_WAV;
+    else if (!strcasecmp(ext, ".f32")) ext_fmt = ULK_FMT_F32;
+    else if (!strcasecmp(ext, ".s16")) ext_fmt = ULK_FMT_S16;
+    if (ext_fmt >= 0) {
+        if (fmt_given && (int)*fmt != ext_fmt) {
+            fprintf(stderr, "ulk modulate: %s: the extension says %s but --format %s was given\n", out_path,
+                    ext_fmt == ULK_FMT_F32 ? "f32" : "s16", fmt_text);
+            return CLI_EXIT_USAGE_IO;
+        }
+        *fmt = (ulk_sample_format)ext_fmt;
+    }
+    if (*cont == ULK_CONTAINER_WAV && (fs.den != 1 || fs.num > INT_MAX)) {
+        char rt[64];
+        ulk_ratio_format(fs, rt, sizeof rt);
+        fprintf(stderr,
+                "ulk modulate: %s: WAV %s, not %s Hz; write raw .f32 or .s16 samples with SigMF metadata "
+                "instead\n",
+                out_path, fs.den != 1 ? "holds whole-number sample rates only" : "(as libsndfile writes it) holds sample rates up to 2147483647 Hz",
+                rt);
+        return CLI_EXIT_USAGE_IO;
+    }
+    return 0;
+}
+
+/* What the samples go with: rate, format, where. */
+typedef struct {
+    const char *up_path, *out_path;
+    ulk_ratio fs;
+    ulk_sample_format fmt;
+    ulk_container cont;
+    const char *rate_norm;
+    int quiet;
+} sample_job;
+
+/* Modulates up into j->out_path (refusing a size the folder cannot hold before anything is
+ * created). Returns 0 with *n_samples, or the exit code with the reason in diag; nothing of
+ * the samples is left on failure. */
+static int write_samples(const ulk_upload *up, const sample_job *j, uint64_t *n_samples, ulk_diag *diag)
+{
+    ulk_mod *mod = NULL;
+    ulk_writer *w = NULL;
+    float *buf = NULL;
+    char *extra = NULL;
+    int code = 0, rc;
+    ulk_mod_config cfg = {.upload = up, .fs = j->fs, .format = j->fmt};
+    rc = ulk_mod_create(&cfg, &mod, diag);
+    if (rc < 0) { code = exit_for(rc); goto out; }
+    *n_samples = ulk_mod_n_samples(mod);
+    struct stat ost;
+    int regular = !cli_is_std(j->out_path) && (stat(j->out_path, &ost) != 0 || S_ISREG(ost.st_mode));
+    double need = (double)*n_samples * (j->fmt == ULK_FMT_S16 ? 2.0 : 4.0) + 65536.0;
+    double avail = regular ? free_bytes_for(j->out_path) : -1;
+    if (avail >= 0 && need > avail) {
+        char hn[32], ha[32];
+        human_bytes(need, hn, sizeof hn);
+        human_bytes(avail, ha, sizeof ha);
+        ulk_fail(diag, ULK_ELIMIT, "%s: %llu samples at %s Hz need %s but the folder has %s free", j->out_path,
+                 (unsigned long long)*n_samples, j->rate_norm, hn, ha);
+        code = CLI_EXIT_REFUSED;
+        goto out;
+    }
+    ulk_ratio rs = ulk_link_subbit_rate(&up->link);
+    char desc[512];
+    snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu %s", j->up_path,
+             up->source ? up->source : "?", up->dict_name ? up->dict_name : "?",
+             up->dict_version ? up->dict_version : "?", up->n_cmds,
+             up->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words");
+    extra = identity_json(up, j->up_path, ulk_upload_n_subbits(up));
+    buf = ulk_malloc(CHUNK * sizeof(float));
+    if (!extra || !buf) { ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", j->out_path); code = 2; goto out; }
+    ulk_sample_info info = {0};
+    info.fs_hz = ulk_ratio_to_double(j->fs);
+    info.format = j->fmt;
+    info.container = j->cont;
+    info.channels = 1;
+    info.fsc_hz = ulk_ratio_to_double(up->link.fsc);
+    info.bit_rate = ulk_ratio_to_double(up->link.bit_rate);
+    info.subbit_rate = ulk_ratio_to_double(rs);
+    info.description = desc;
+    info.extra_json = extra;
+    info.fs_exact = j->rate_norm;
+    rc = ulk_writer_open(j->out_path, &info, &w, diag);
+    if (rc < 0) { code = exit_for(rc); goto out; }
+    rc = annotate_words(w, up, j->fs);
+    if (rc < 0) { ulk_fail(diag, rc, "%s: out of memory", j->out_path); code = 2; goto out; }
+    int show = !j->quiet && isatty(2) && *n_samples >= PROGRESS_MIN_SAMPLES;
+    double t_last = now_s();
+    long got;
+    while ((got = ulk_mod_run(mod, buf, CHUNK)) > 0) {
+        if (ulk_writer_write(w, buf, (size_t)got) < 0) break; /* sticky: the commit says why */
+        if (show) {
+            double t = now_s();
+            if (t - t_last >= 0.25) {
+                t_last = t;
+                uint64_t pos = ulk_mod_position(mod);
+                fprintf(stderr, "\rulk modulate: %3d%%  %.1f of %.1f s of signal",
+                        (int)(100.0 * (double)pos / (double)*n_samples), (double)pos / info.fs_hz,
+                        (double)*n_samples / info.fs_hz);
+            }
+        }
+    }
+    if (show) fprintf(stderr, "\r%60s\r", "");
+    rc = ulk_writer_commit(w, diag);
+    w = NULL;
+    if (rc < 0) code = exit_for(rc);
+out:
+    ulk_writer_abort(w);
+    cJSON_free(extra);
+    ulk_free(buf);
+    ulk_mod_destroy(mod);
+    return code;
+}
+
+/* The samples landed but their timing table did not: take the samples (and metadata) back. */
+static void take_back(const char *out_path, ulk_container cont)
+{
+    if (!out_path || cli_is_std(out_path)) return;
+    remove(out_path);
+    size_t n = strlen(out_path);
+    if (cont == ULK_CONTAINER_RAW && n > 4) {
+        char *mp = ulk_malloc(n + 12);
+        if (mp) {
+            memcpy(mp, out_path, n - 4);
+            memcpy(mp + n - 4, ".sigmf-meta", 12);
+            remove(mp);
+            ulk_free(mp);
+        }
+    }
+}
+
+static void summary(const ulk_upload *up, const sample_job *j, const char *timing_path, uint64_t n_samples)
+{
+    /* samples or table on standard output: the summary goes to standard error */
+    FILE *say = cli_is_std(j->out_path) || cli_is_std(timing_path) ? stderr : stdout;
+    if (j->out_path)
+        fprintf(say, "modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", j->up_path, j->out_path,
+                (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(j->fs), j->rate_norm,
+                j->fmt == ULK_FMT_S16 ? "s16" : "f32",
+                j->cont == ULK_CONTAINER_WAV ? "WAV" : cli_is_std(j->out_path) ? "raw" : "raw + SigMF");
+    if (timing_path && !cli_is_std(timing_path))
+        fprintf(say, "timing table %s: %llu %s at %s Hz\n", timing_path, (unsigned long long)ulk_upload_n_subbits(up),
+                up->link.profile == ULK_PROFILE_CCSDS_TC ? "channel bits" : "sub-bits", j->rate_norm);
+}
+
 int cmd_modulate(int argc, char **argv)
 {
     for (int i = 1; i < argc; i++) /* complex composite-carrier output: cmd_modulate_carrier.c */
         if (!strcmp(argv[i], "--carrier")) return cmd_modulate_carrier(argc, argv);
-    const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *fmt_text = NULL, *timing_path = NULL;
-    int quiet = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
-        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
-        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
-        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--timing") && i + 1 < argc) timing_path = argv[++i];
-        else if (!strncmp(a, "--timing=", 9)) timing_path = a + 9;
-        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
-        else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk modulate: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!up_path) up_path = a;
-        else {
-            fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", up_path, a);
-            return 2;
-        }
+    args o = {0};
+    int first, r = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (r >= 0) return r;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *up_path = first < argc ? argv[first] : NULL, *out_path = o.out_path, *rate_text = o.rate_text,
+               *timing_path = o.timing_path;
+    const char *ins[] = {up_path, timing_path}, *what[] = {"upload", "timing table"};
+    if (out_path && (r = cli_refuse_overwrite("modulate", out_path, ins, what, 2))) return r;
+    if (timing_path && (r = cli_refuse_overwrite("modulate", timing_path, ins, what, 1))) return r;
+    if (cli_is_std(out_path) && cli_is_std(timing_path)) {
+        fprintf(stderr, "ulk modulate: the samples and the timing table cannot both go to standard output\n");
+        return CLI_EXIT_USAGE_IO;
     }
     if (!up_path || !rate_text || (!out_path && !timing_path)) {
         fprintf(stderr, "ulk modulate: %s is required\n",
                 !up_path ? "UPLOAD" : !rate_text ? "--rate HZ" : "-o OUT or --timing TABLE");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
-    ulk_ratio fs;
-    int prc = ulk_ratio_parse(rate_text, &fs);
-    if (prc < 0 || fs.num <= 0) {
+    char rate_norm[64];
+    sample_job j = {.up_path = up_path, .out_path = out_path, .rate_norm = rate_norm, .quiet = o.quiet};
+    int prc = ulk_ratio_parse(rate_text, &j.fs);
+    if (prc < 0 || j.fs.num <= 0) {
         fprintf(stderr, "ulk modulate: --rate '%s': expected a positive decimal number of Hz%s\n", rate_text,
                 prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
-    ulk_sample_format fmt = ULK_FMT_F32;
-    int fmt_given = 0;
-    if (fmt_text) {
-        if (!strcmp(fmt_text, "f32")) fmt = ULK_FMT_F32;
-        else if (!strcmp(fmt_text, "s16")) fmt = ULK_FMT_S16;
-        else {
-            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
-            return 2;
-        }
-        fmt_given = 1;
-    }
-    ulk_container cont = ULK_CONTAINER_RAW; /* devices and pipes get raw samples */
-    if (out_path) {
-        size_t n = strlen(out_path);
-        const char *ext = n >= 4 ? out_path + n - 4 : "";
-        int ext_fmt = -1;
-        if (!strcasecmp(ext, ".wav")) cont = ULK_CONTAINER_WAV;
-        else if (!strcasecmp(ext, ".f32")) ext_fmt = ULK_FMT_F32;
-        else if (!strcasecmp(ext, ".s16")) ext_fmt = ULK_FMT_S16;
-        if (ext_fmt >= 0) {
-            if (fmt_given && (int)fmt != ext_fmt) {
-                fprintf(stderr, "ulk modulate: %s: the extension says %s but --format %s was given\n", out_path,
-                        ext_fmt == ULK_FMT_F32 ? "f32" : "s16", fmt_text);
-                return 2;
-            }
-            fmt = (ulk_sample_format)ext_fmt;
-        }
-    }
-
-    if (out_path && cont == ULK_CONTAINER_WAV && (fs.den != 1 || fs.num > INT_MAX)) {
-        char r[64];
-        ulk_ratio_format(fs, r, sizeof r);
-        fprintf(stderr,
-                "ulk modulate: %s: WAV %s, not %s Hz; write raw .f32 or .s16 samples with SigMF metadata "
-                "instead\n",
-                out_path, fs.den != 1 ? "holds whole-number sample rates only" : "(as libsndfile writes it) holds sample rates up to 2147483647 Hz",
-                r);
-        return 2;
-    }
+    ulk_ratio_format(j.fs, rate_norm, sizeof rate_norm);
+    if ((r = output_kind(out_path, o.fmt_text, j.fs, &j.fmt, &j.cont))) return r;
 
     ulk_diag *diag = ulk_diag_create();
-    if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
-    /* a file-size limit makes writes fail (EFBIG, reported) instead of killing the run;
-     * interruptions remove this run's temporary files */
-    signal(SIGXFSZ, SIG_IGN);
-    signal(SIGINT, on_fatal_signal);
-    signal(SIGTERM, on_fatal_signal);
-    signal(SIGHUP, on_fatal_signal);
+    if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return CLI_EXIT_USAGE_IO; }
     ulk_upload *up = NULL;
-    ulk_mod *mod = NULL;
-    ulk_writer *w = NULL;
-    float *buf = NULL;
-    char *extra = NULL;
     ulk_afile tf;
     int have_tf = 0, code = 0, rc;
-
     /* lean: idles and words/CLTUs only, the first MAX_ANNOTATIONS commands in full for the
      * annotations; what keeps any accepted upload under 64 MB (docs/upload-format.md) */
     rc = ulk_upload_read_opts(up_path, ULK_UPLOAD_LEAN, MAX_ANNOTATIONS, &up, diag);
@@ -287,143 +400,42 @@ int cmd_modulate(int argc, char **argv)
         goto done;
     }
     fputs(ULK_CAUTION, stderr);
-
     /* timing table first into its temporary, so both outputs land together or not at all;
      * "-", devices and pipes are written directly at the end */
     struct stat tst;
-    int timing_direct = timing_path && (!strcmp(timing_path, "-") ||
+    int timing_direct = timing_path && (cli_is_std(timing_path) ||
                                         (stat(timing_path, &tst) == 0 && !S_ISREG(tst.st_mode)));
     if (timing_path && !timing_direct) {
         rc = ulk_afile_open(&tf, timing_path, diag);
         if (rc == 0) {
             have_tf = 1;
-            track_tmp(1, tf.tmp);
-            rc = ulk_timing_write_fp(up, fs, tf.fp, timing_path, diag);
+            rc = ulk_timing_write_fp(up, j.fs, tf.fp, timing_path, diag);
         }
         if (rc < 0) { code = exit_for(rc); goto fail; }
     }
-
     uint64_t n_samples = 0;
-    char rate_norm[64];
-    ulk_ratio_format(fs, rate_norm, sizeof rate_norm);
-    if (out_path) {
-        ulk_mod_config cfg = {.upload = up, .fs = fs, .format = fmt};
-        rc = ulk_mod_create(&cfg, &mod, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-        n_samples = ulk_mod_n_samples(mod);
-        /* a size the folder cannot hold is refused before anything is created */
-        struct stat ost;
-        int regular = stat(out_path, &ost) != 0 || S_ISREG(ost.st_mode);
-        double need = (double)n_samples * (fmt == ULK_FMT_S16 ? 2.0 : 4.0) + 65536.0;
-        double avail = regular ? free_bytes_for(out_path) : -1;
-        if (avail >= 0 && need > avail) {
-            char hn[32], ha[32];
-            human_bytes(need, hn, sizeof hn);
-            human_bytes(avail, ha, sizeof ha);
-            rc = ulk_fail(diag, ULK_ELIMIT, "%s: %llu samples at %s Hz need %s but the folder has %s free",
-                          out_path, (unsigned long long)n_samples, rate_norm, hn, ha);
-            code = 1;
-            goto fail;
-        }
-        ulk_ratio rs = ulk_link_subbit_rate(&up->link);
-        char desc[512];
-        snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu %s", up_path,
-                 up->source ? up->source : "?", up->dict_name ? up->dict_name : "?",
-                 up->dict_version ? up->dict_version : "?", up->n_cmds,
-                 up->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words");
-        extra = identity_json(up, up_path, ulk_upload_n_subbits(up));
-        buf = ulk_malloc(CHUNK * sizeof(float));
-        if (!extra || !buf) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", out_path); code = 2; goto fail; }
-        ulk_sample_info info = {0};
-        info.fs_hz = ulk_ratio_to_double(fs);
-        info.format = fmt;
-        info.container = cont;
-        info.channels = 1;
-        info.fsc_hz = ulk_ratio_to_double(up->link.fsc);
-        info.bit_rate = ulk_ratio_to_double(up->link.bit_rate);
-        info.subbit_rate = ulk_ratio_to_double(rs);
-        info.description = desc;
-        info.extra_json = extra;
-        info.fs_exact = rate_norm;
-        rc = ulk_writer_open(out_path, &info, &w, diag);
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-        track_tmp(0, ulk_writer_temp_path(w));
-        rc = annotate_words(w, up, fs);
-        if (rc < 0) { ulk_fail(diag, rc, "%s: out of memory", out_path); code = 2; goto fail; }
-
-        int show = !quiet && isatty(2) && n_samples >= PROGRESS_MIN_SAMPLES;
-        double t_last = now_s();
-        long got;
-        while ((got = ulk_mod_run(mod, buf, CHUNK)) > 0) {
-            if (ulk_writer_write(w, buf, (size_t)got) < 0) break; /* sticky: the commit says why */
-            if (show) {
-                double t = now_s();
-                if (t - t_last >= 0.25) {
-                    t_last = t;
-                    uint64_t pos = ulk_mod_position(mod);
-                    fprintf(stderr, "\rulk modulate: %3d%%  %.1f of %.1f s of signal", (int)(100.0 * (double)pos / (double)n_samples),
-                            (double)pos / info.fs_hz, (double)n_samples / info.fs_hz);
-                }
-            }
-        }
-        if (show) fprintf(stderr, "\r%60s\r", "");
-        rc = ulk_writer_commit(w, diag);
-        w = NULL;
-        g_tmp[0][0] = 0;
-        if (rc < 0) { code = exit_for(rc); goto fail; }
-    }
+    if (out_path && (code = write_samples(up, &j, &n_samples, diag))) goto fail;
     if (have_tf) {
         have_tf = 0;
-        rc = ulk_afile_commit(&tf, diag);
-        g_tmp[1][0] = 0;
-        if (rc < 0) {
-            /* the samples landed but their table did not: take the samples back too */
-            if (out_path) {
-                remove(out_path);
-                size_t n = strlen(out_path);
-                if (cont == ULK_CONTAINER_RAW && n > 4) {
-                    char *mp = ulk_malloc(n + 12);
-                    if (mp) {
-                        memcpy(mp, out_path, n - 4);
-                        memcpy(mp + n - 4, ".sigmf-meta", 12);
-                        remove(mp);
-                        ulk_free(mp);
-                    }
-                }
-            }
-            code = 2;
+        if (ulk_afile_commit(&tf, diag) < 0) {
+            take_back(out_path, j.cont);
+            code = CLI_EXIT_USAGE_IO;
             goto fail;
         }
     }
-    if (timing_direct) {
-        rc = ulk_timing_write(up, fs, timing_path, diag);
-        if (rc < 0) {
-            ulk_diag_print(diag, stderr);
-            code = exit_for(rc);
-            goto done;
-        }
+    if (timing_direct && (rc = ulk_timing_write(up, j.fs, timing_path, diag)) < 0) {
+        ulk_diag_print(diag, stderr);
+        code = exit_for(rc);
+        goto done;
     }
-    if (!quiet) {
-        if (out_path)
-            printf("modulated %s -> %s: %llu samples (%.6f s) at %s Hz, %s %s\n", up_path, out_path,
-                   (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(fs), rate_norm,
-                   fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV" : "raw + SigMF");
-        if (timing_path && strcmp(timing_path, "-"))
-            printf("timing table %s: %llu %s at %s Hz\n", timing_path,
-                   (unsigned long long)ulk_upload_n_subbits(up),
-                   up->link.profile == ULK_PROFILE_CCSDS_TC ? "channel bits" : "sub-bits", rate_norm);
-    }
+    if (!o.quiet) summary(up, &j, timing_path, n_samples);
     goto done;
 
 fail:
     ulk_diag_print(diag, stderr);
     fprintf(stderr, "ulk modulate: nothing written\n");
-    ulk_writer_abort(w);
     if (have_tf) ulk_afile_abort(&tf);
 done:
-    cJSON_free(extra);
-    ulk_free(buf);
-    ulk_mod_destroy(mod);
     ulk_upload_destroy(up);
     ulk_diag_destroy(diag);
     return code;

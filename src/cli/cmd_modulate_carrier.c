@@ -12,7 +12,6 @@
 #include <cjson/cJSON.h>
 #include <limits.h>
 #include <math.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -70,20 +69,7 @@ static void usage(FILE *out)
             ULK_CAUTION);
 }
 
-static int exit_for(int rc)
-{
-    return (rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_EINVAL) ? 2 : 1;
-}
-
-/* The temporary file of this run, for the signal handler (async-signal-safe: unlink). */
-static char g_tmp[4096];
-
-static void on_fatal_signal(int sig)
-{
-    if (g_tmp[0]) unlink(g_tmp);
-    signal(sig, SIG_DFL);
-    raise(sig);
-}
+static int exit_for(int rc) { return cli_exit_for(rc); }
 
 /* Data channel source: the modulator's samples divided by the link's peak A + A_p. */
 typedef struct {
@@ -159,150 +145,91 @@ static char *identity_json(const ulk_upload *u, const char *up_path, const ulk_d
     return s;
 }
 
-int cmd_modulate_carrier(int argc, char **argv)
+enum { O_OUTPUT = 'o', O_QUIET = 'q', O_CARRIER = CLI_LONG, O_RATE, O_MODE, O_DICT, O_OFFSET, O_FORMAT, O_VAUDIO,
+       O_VCHAN, O_TIMING };
+static const struct option opts[] = {
+    {"carrier", no_argument, NULL, O_CARRIER},           {"output", required_argument, NULL, O_OUTPUT},
+    {"rate", required_argument, NULL, O_RATE},           {"mode", required_argument, NULL, O_MODE},
+    {"dict", required_argument, NULL, O_DICT},           {"offset", required_argument, NULL, O_OFFSET},
+    {"format", required_argument, NULL, O_FORMAT},       {"voice-audio", required_argument, NULL, O_VAUDIO},
+    {"voice-channel", required_argument, NULL, O_VCHAN}, {"timing", required_argument, NULL, O_TIMING},
+    {"quiet", no_argument, NULL, O_QUIET},               {"help", no_argument, NULL, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"modulate", opts, usage};
+
+typedef struct {
+    const char *out_path, *rate_text, *mode_name, *dict_path, *offset_text, *fmt_text, *vaudio, *vchan_text;
+    int quiet;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
 {
-    const char *up_path = NULL, *out_path = NULL, *rate_text = NULL, *mode_name = NULL, *dict_path = NULL,
-               *offset_text = NULL, *fmt_text = NULL, *vaudio = NULL, *vchan_text = NULL;
-    int quiet = 0;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!strcmp(a, "-h") || !strcmp(a, "--help")) { usage(stdout); return 0; }
-        else if (!strcmp(a, "--carrier")) continue;
-        else if ((!strcmp(a, "-o") || !strcmp(a, "--output")) && i + 1 < argc) out_path = argv[++i];
-        else if (!strncmp(a, "--output=", 9)) out_path = a + 9;
-        else if (!strcmp(a, "--rate") && i + 1 < argc) rate_text = argv[++i];
-        else if (!strncmp(a, "--rate=", 7)) rate_text = a + 7;
-        else if (!strcmp(a, "--mode") && i + 1 < argc) mode_name = argv[++i];
-        else if (!strncmp(a, "--mode=", 7)) mode_name = a + 7;
-        else if (!strcmp(a, "--dict") && i + 1 < argc) dict_path = argv[++i];
-        else if (!strncmp(a, "--dict=", 7)) dict_path = a + 7;
-        else if (!strcmp(a, "--offset") && i + 1 < argc) offset_text = argv[++i];
-        else if (!strncmp(a, "--offset=", 9)) offset_text = a + 9;
-        else if (!strcmp(a, "--format") && i + 1 < argc) fmt_text = argv[++i];
-        else if (!strncmp(a, "--format=", 9)) fmt_text = a + 9;
-        else if (!strcmp(a, "--voice-audio") && i + 1 < argc) vaudio = argv[++i];
-        else if (!strncmp(a, "--voice-audio=", 14)) vaudio = a + 14;
-        else if (!strcmp(a, "--voice-channel") && i + 1 < argc) vchan_text = argv[++i];
-        else if (!strncmp(a, "--voice-channel=", 16)) vchan_text = a + 16;
-        else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) quiet = 1;
-        else if (!strcmp(a, "--timing") || !strncmp(a, "--timing=", 9)) {
-            fprintf(stderr, "ulk modulate: --timing goes with real output only (run it without --carrier)\n");
-            return 2;
-        } else if (a[0] == '-' && a[1]) {
-            fprintf(stderr, "ulk modulate --carrier: unknown or incomplete option '%s'\n", a);
-            usage(stderr);
-            return 2;
-        } else if (!up_path) up_path = a;
-        else {
-            fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", up_path, a);
-            return 2;
-        }
+    args *a = ctx;
+    switch (v) {
+    case O_OUTPUT: a->out_path = arg; break;
+    case O_RATE: a->rate_text = arg; break;
+    case O_MODE: a->mode_name = arg; break;
+    case O_DICT: a->dict_path = arg; break;
+    case O_OFFSET: a->offset_text = arg; break;
+    case O_FORMAT: a->fmt_text = arg; break;
+    case O_VAUDIO: a->vaudio = arg; break;
+    case O_VCHAN: a->vchan_text = arg; break;
+    case O_QUIET: a->quiet = 1; break;
+    case O_TIMING:
+        fprintf(stderr, "ulk modulate: --timing goes with real output only (run it without --carrier)\n");
+        return CLI_EXIT_USAGE_IO;
+    default: break;
     }
-    if (!up_path || !out_path || !rate_text || !mode_name || !dict_path) {
-        fprintf(stderr, "ulk modulate --carrier: %s is required%s\n",
-                !up_path ? "UPLOAD" : !out_path ? "-o OUT" : !rate_text ? "--rate HZ" : !mode_name ? "--mode NAME" : "--dict DICT",
-                !dict_path && up_path && out_path && rate_text && mode_name
-                    ? " (the carrier section comes from the dictionary the upload was compiled with)" : "");
-        usage(stderr);
-        return 2;
-    }
-    int vchan = -1;
-    if (vchan_text) {
-        char *end;
-        long v = strtol(vchan_text, &end, 10);
-        if (!vaudio || end == vchan_text || *end || v < 0 || v > 255) {
-            fprintf(stderr, "ulk modulate: --voice-channel '%s': %s\n", vchan_text,
-                    vaudio ? "expected a channel number 0..255" : "goes with --voice-audio FILE");
-            return 2;
-        }
-        vchan = (int)v;
-    }
-    ulk_ratio fs;
-    int prc = ulk_ratio_parse(rate_text, &fs);
-    if (prc < 0 || fs.num <= 0) {
-        fprintf(stderr, "ulk modulate: --rate '%s': expected a positive decimal number of Hz%s\n", rate_text,
-                prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
-        return 2;
-    }
-    ulk_ratio offset = {0, 1};
-    int offset_given = 0;
-    if (offset_text) {
-        prc = ulk_ratio_parse(offset_text, &offset);
-        if (prc < 0) {
-            fprintf(stderr, "ulk modulate: --offset '%s': expected a decimal number of Hz (may be negative)%s\n",
-                    offset_text, prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
-            return 2;
-        }
-        offset_given = 1;
-    }
-    /* the sample type: the raw extensions say it, a WAV takes --format (f32 by default) */
-    ulk_sample_format fmt = ULK_FMT_F32;
-    ulk_container cont;
+    return 0;
+}
+
+/* The sample type and container of OUT: the raw extensions say it, a WAV takes --format (f32
+ * by default), a device, pipe or "-" gets raw interleaved I/Q directly. Returns 0 or the exit
+ * code (message printed). */
+static int output_kind(const char *out_path, const char *fmt_text, ulk_ratio fs, ulk_sample_format *fmt,
+                       ulk_container *cont, int *direct)
+{
+    *fmt = ULK_FMT_F32;
+    *direct = 0;
     struct stat dst;
-    int direct = 0;
     if (has_suffix(out_path, ".cf32") || has_suffix(out_path, ".ci16")) {
-        cont = ULK_CONTAINER_RAW;
-        fmt = has_suffix(out_path, ".ci16") ? ULK_FMT_S16 : ULK_FMT_F32;
-        if (fmt_text && strcmp(fmt_text, fmt == ULK_FMT_S16 ? "s16" : "f32")) {
+        *cont = ULK_CONTAINER_RAW;
+        *fmt = has_suffix(out_path, ".ci16") ? ULK_FMT_S16 : ULK_FMT_F32;
+        if (fmt_text && strcmp(fmt_text, *fmt == ULK_FMT_S16 ? "s16" : "f32")) {
             fprintf(stderr, "ulk modulate: %s: the extension says %s but --format %s was given\n", out_path,
-                    fmt == ULK_FMT_S16 ? "s16" : "f32", fmt_text);
-            return 2;
+                    *fmt == ULK_FMT_S16 ? "s16" : "f32", fmt_text);
+            return CLI_EXIT_USAGE_IO;
         }
-    } else if (has_suffix(out_path, ".wav")) {
-        cont = ULK_CONTAINER_WAV;
-        if (fmt_text && !strcmp(fmt_text, "s16")) fmt = ULK_FMT_S16;
-        else if (fmt_text && strcmp(fmt_text, "f32")) {
-            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
-            return 2;
-        }
+        return 0;
+    }
+    if (has_suffix(out_path, ".wav")) {
+        *cont = ULK_CONTAINER_WAV;
         if (fs.den != 1 || fs.num > INT_MAX) {
             fprintf(stderr, "ulk modulate: %s: WAV holds whole-number sample rates up to 2147483647 Hz; write raw "
                             ".cf32 or .ci16 with SigMF metadata instead\n", out_path);
-            return 2;
+            return CLI_EXIT_USAGE_IO;
         }
-    } else if (stat(out_path, &dst) == 0 && !S_ISREG(dst.st_mode) && !S_ISDIR(dst.st_mode)) {
-        /* a device or pipe gets raw interleaved I/Q directly (no metadata), as real output */
-        cont = ULK_CONTAINER_RAW;
-        direct = 1;
-        if (fmt_text && !strcmp(fmt_text, "s16")) fmt = ULK_FMT_S16;
-        else if (fmt_text && strcmp(fmt_text, "f32")) {
-            fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
-            return 2;
-        }
+    } else if (cli_is_std(out_path) ||
+               (stat(out_path, &dst) == 0 && !S_ISREG(dst.st_mode) && !S_ISDIR(dst.st_mode))) {
+        *cont = ULK_CONTAINER_RAW; /* no metadata, as real output */
+        *direct = 1;
     } else {
         fprintf(stderr, "ulk modulate: %s: complex output goes to a file ending .cf32, .ci16 or .wav\n", out_path);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
+    if (fmt_text && !strcmp(fmt_text, "s16")) *fmt = ULK_FMT_S16;
+    else if (fmt_text && strcmp(fmt_text, "f32")) {
+        fprintf(stderr, "ulk modulate: --format '%s': expected f32 or s16\n", fmt_text);
+        return CLI_EXIT_USAGE_IO;
+    }
+    return 0;
+}
 
-    ulk_diag *diag = ulk_diag_create();
-    if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return 2; }
-    signal(SIGXFSZ, SIG_IGN);
-    signal(SIGINT, on_fatal_signal);
-    signal(SIGTERM, on_fatal_signal);
-    signal(SIGHUP, on_fatal_signal);
-    ulk_upload *up = NULL;
-    ulk_dict *dict = NULL;
-    ulk_mod *mod = NULL;
-    ulk_cgen *gen = NULL;
-    ulk_writer *w = NULL;
-    float *buf = NULL;
-    char *extra = NULL;
-    int code = 0, rc;
-
-    rc = ulk_upload_read_opts(up_path, ULK_UPLOAD_LEAN, 0, &up, diag);
-    if (rc < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk modulate: upload %s refused; nothing written\n", up_path);
-        code = exit_for(rc);
-        goto done;
-    }
-    rc = ulk_dict_load(dict_path, &dict, diag);
-    if (rc < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk modulate: dictionary %s refused; nothing written\n", dict_path);
-        code = rc == ULK_EIO || rc == ULK_ENOMEM ? 2 : 1;
-        goto done;
-    }
+/* The mode of the dictionary's carrier section, after checking the upload was compiled with
+ * that dictionary. Returns 0 with *mi, or the exit code (message printed). */
+static int pick_mode(const ulk_dict *dict, const char *dict_path, const ulk_upload *up, const char *up_path,
+                     const char *mode_name, int *mi)
+{
     if (strcmp(dict->sha256, up->dict_sha256)) {
         fprintf(stderr,
                 "ulk modulate: %s was compiled with dictionary %s %s (sha256 %.16s...), but %s is %s %s (sha256 "
@@ -310,142 +237,243 @@ int cmd_modulate_carrier(int argc, char **argv)
                 up_path, up->dict_name ? up->dict_name : "?", up->dict_version ? up->dict_version : "?",
                 up->dict_sha256, dict_path, dict->name ? dict->name : "?", dict->version ? dict->version : "?",
                 dict->sha256);
-        code = 1;
-        goto done;
+        return CLI_EXIT_REFUSED;
     }
     const ulk_carrier *c0 = ulk_dict_carrier(dict);
     if (!c0) {
         fprintf(stderr, "ulk modulate: %s has no carrier section (docs/carrier.md); nothing written\n", dict_path);
-        code = 1;
-        goto done;
+        return CLI_EXIT_REFUSED;
     }
-    int mi = ulk_carrier_find_mode(c0, mode_name);
-    if (mi < 0) {
-        const char *names[64];
-        size_t nn = 0;
-        char list[512] = "";
-        size_t used = 0;
-        for (int k = 0; k < c0->n_modes; k++) {
-            if (nn < 64) names[nn++] = c0->modes[k].name;
-            if (used + strlen(c0->modes[k].name) + 3 < sizeof list)
-                used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", k ? ", " : "", c0->modes[k].name);
+    *mi = ulk_carrier_find_mode(c0, mode_name);
+    if (*mi >= 0) return 0;
+    const char *names[64];
+    size_t nn = 0;
+    char list[512] = "";
+    size_t used = 0;
+    for (int k = 0; k < c0->n_modes; k++) {
+        if (nn < 64) names[nn++] = c0->modes[k].name;
+        if (used + strlen(c0->modes[k].name) + 3 < sizeof list)
+            used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", k ? ", " : "", c0->modes[k].name);
+    }
+    const char *s = ulk_suggest(mode_name, names, nn);
+    fprintf(stderr, "ulk modulate: %s: no mode '%s'%s%s%s (modes: %s); nothing written\n", dict_path, mode_name,
+            s ? " (did you mean '" : "", s ? s : "", s ? "'?)" : "", list);
+    return CLI_EXIT_REFUSED;
+}
+
+/* What the complex samples go with. */
+typedef struct {
+    const char *up_path, *out_path, *rate_norm;
+    const ulk_dict *dict;
+    const ulk_carrier *cc;
+    const ulk_carrier_mode *mo;
+    ulk_ratio fs;
+    ulk_sample_format fmt;
+    ulk_container cont;
+} cx_job;
+
+/* Generates the mode's complex baseband into j->out_path (the rate and the folder's free space
+ * checked first). Returns 0 with *n_samples, or the exit code with the reason in diag; nothing
+ * is left on failure. */
+static int generate(const ulk_upload *up, const cx_job *j, uint64_t *n_samples, ulk_diag *diag)
+{
+    ulk_mod *mod = NULL;
+    ulk_cgen *gen = NULL;
+    ulk_writer *w = NULL;
+    float *buf = NULL;
+    char *extra = NULL;
+    int code = 0, rc;
+    double fs_hz = ulk_ratio_to_double(j->fs);
+    double need_hz = 2.5 * (highest_line_hz(j->cc, j->mo) + fabs(ulk_ratio_to_double(j->cc->offset_hz)));
+    if (fs_hz < need_hz) {
+        ulk_fail(diag, ULK_ELIMIT,
+                 "--rate %s Hz is too low for mode '%s': its highest line plus |offset| needs at least %.6g Hz "
+                 "(2.5 x, as for real output)", j->rate_norm, j->mo->name, need_hz);
+        return CLI_EXIT_REFUSED;
+    }
+    /* The modulator sets the length in every mode (the upload's duration) and, with data on,
+     * feeds the data channel. Its own rate rule (2.5 x (f_sc + R_s)) applies too. */
+    ulk_mod_config mcfg = {.upload = up, .fs = j->fs, .format = ULK_FMT_F32};
+    rc = ulk_mod_create(&mcfg, &mod, diag);
+    if (rc < 0) { code = exit_for(rc); goto out; }
+    *n_samples = ulk_mod_n_samples(mod);
+    data_src src = {mod, (float)(1.0 / ulk_mod_peak(&up->link))};
+    ulk_cgen_config gcfg = {.carrier = j->cc, .mode = j->mo, .fs = j->fs, .data_fn = data_from_mod,
+                            .data_user = &src, .n_samples = *n_samples};
+    rc = ulk_cgen_create(&gcfg, &gen, diag);
+    if (rc < 0) { code = exit_for(rc); goto out; }
+    struct stat ost;
+    if (!cli_is_std(j->out_path) && (stat(j->out_path, &ost) != 0 || S_ISREG(ost.st_mode))) {
+        char dir[4096];
+        const char *slash = strrchr(j->out_path, '/');
+        if (!slash) snprintf(dir, sizeof dir, ".");
+        else if (slash == j->out_path) snprintf(dir, sizeof dir, "/");
+        else snprintf(dir, sizeof dir, "%.*s", (int)(slash - j->out_path), j->out_path);
+        struct statvfs vs;
+        double need = (double)*n_samples * (j->fmt == ULK_FMT_S16 ? 4.0 : 8.0) + 65536.0;
+        if (statvfs(dir, &vs) == 0 && vs.f_blocks && need > (double)vs.f_bavail * (double)vs.f_frsize) {
+            ulk_fail(diag, ULK_ELIMIT, "%s: %llu complex samples need %.0f bytes but the folder has %.0f free",
+                     j->out_path, (unsigned long long)*n_samples, need, (double)vs.f_bavail * (double)vs.f_frsize);
+            code = CLI_EXIT_REFUSED;
+            goto out;
         }
-        const char *s = ulk_suggest(mode_name, names, nn);
-        fprintf(stderr, "ulk modulate: %s: no mode '%s'%s%s%s (modes: %s); nothing written\n", dict_path, mode_name,
-                s ? " (did you mean '" : "", s ? s : "", s ? "'?)" : "", list);
-        code = 1;
+    }
+    char desc[512];
+    snprintf(desc, sizeof desc, "ulk modulate --carrier: upload %s (dictionary %s %s), mode %s", j->up_path,
+             up->dict_name ? up->dict_name : "?", up->dict_version ? up->dict_version : "?", j->mo->name);
+    extra = identity_json(up, j->up_path, j->dict, j->mo, j->cc->offset_hz, j->cc->voice_audio);
+    buf = ulk_malloc(2 * CHUNK * sizeof(float));
+    if (!extra || !buf) { ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", j->out_path); code = 2; goto out; }
+    ulk_sample_info info = {0};
+    info.fs_hz = fs_hz;
+    info.format = j->fmt;
+    info.container = j->cont;
+    info.channels = 2;
+    info.description = desc;
+    info.extra_json = extra;
+    info.fs_exact = j->rate_norm;
+    rc = ulk_writer_open(j->out_path, &info, &w, diag);
+    if (rc < 0) { code = exit_for(rc); goto out; }
+    long got;
+    while ((got = ulk_cgen_run(gen, buf, CHUNK)) > 0)
+        if (ulk_writer_write(w, buf, (size_t)got) < 0) break; /* sticky: the commit says why */
+    if (got < 0) {
+        ulk_fail(diag, (int)got, "%s: generator failed: %s", j->out_path, ulk_status_str((int)got));
+        code = exit_for((int)got);
+        goto out;
+    }
+    rc = ulk_writer_commit(w, diag);
+    w = NULL;
+    if (rc < 0) code = exit_for(rc);
+out:
+    ulk_writer_abort(w);
+    cJSON_free(extra);
+    ulk_free(buf);
+    ulk_cgen_destroy(gen);
+    ulk_mod_destroy(mod);
+    return code;
+}
+
+/* Exact rate and offset, and the voice channel number. Returns 0 or the exit code. */
+static int parse_values(const args *o, ulk_ratio *fs, ulk_ratio *offset, int *offset_given, int *vchan)
+{
+    *vchan = -1;
+    if (o->vchan_text) {
+        char *end;
+        long v = strtol(o->vchan_text, &end, 10);
+        if (!o->vaudio || end == o->vchan_text || *end || v < 0 || v > 255) {
+            fprintf(stderr, "ulk modulate: --voice-channel '%s': %s\n", o->vchan_text,
+                    o->vaudio ? "expected a channel number 0..255" : "goes with --voice-audio FILE");
+            return CLI_EXIT_USAGE_IO;
+        }
+        *vchan = (int)v;
+    }
+    int prc = ulk_ratio_parse(o->rate_text, fs);
+    if (prc < 0 || fs->num <= 0) {
+        fprintf(stderr, "ulk modulate: --rate '%s': expected a positive decimal number of Hz%s\n", o->rate_text,
+                prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
+        return CLI_EXIT_USAGE_IO;
+    }
+    *offset = ulk_ratio_make(0, 1);
+    *offset_given = 0;
+    if (o->offset_text) {
+        prc = ulk_ratio_parse(o->offset_text, offset);
+        if (prc < 0) {
+            fprintf(stderr, "ulk modulate: --offset '%s': expected a decimal number of Hz (may be negative)%s\n",
+                    o->offset_text, prc == ULK_ELIMIT ? " (too many digits for exact arithmetic)" : "");
+            return CLI_EXIT_USAGE_IO;
+        }
+        *offset_given = 1;
+    }
+    return 0;
+}
+
+int cmd_modulate_carrier(int argc, char **argv)
+{
+    args o = {0};
+    int first, r = cli_parse(&command, argc, argv, on_opt, &o, &first);
+    if (r >= 0) return r;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk modulate: more than one upload ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *up_path = first < argc ? argv[first] : NULL, *out_path = o.out_path, *dict_path = o.dict_path;
+    if (out_path) {
+        const char *ins[] = {up_path, dict_path, o.vaudio}, *what[] = {"upload", "dictionary", "voice audio"};
+        if ((r = cli_refuse_overwrite("modulate", out_path, ins, what, 3))) return r;
+    }
+    if (!up_path || !out_path || !o.rate_text || !o.mode_name || !dict_path) {
+        fprintf(stderr, "ulk modulate --carrier: %s is required%s\n",
+                !up_path ? "UPLOAD" : !out_path ? "-o OUT" : !o.rate_text ? "--rate HZ" : !o.mode_name ? "--mode NAME" : "--dict DICT",
+                !dict_path && up_path && out_path && o.rate_text && o.mode_name
+                    ? " (the carrier section comes from the dictionary the upload was compiled with)" : "");
+        usage(stderr);
+        return CLI_EXIT_USAGE_IO;
+    }
+    cx_job j = {.up_path = up_path, .out_path = out_path};
+    ulk_ratio offset;
+    int offset_given, vchan, direct;
+    if ((r = parse_values(&o, &j.fs, &offset, &offset_given, &vchan))) return r;
+    if ((r = output_kind(out_path, o.fmt_text, j.fs, &j.fmt, &j.cont, &direct))) return r;
+
+    ulk_diag *diag = ulk_diag_create();
+    if (!diag) { fprintf(stderr, "ulk modulate: out of memory\n"); return CLI_EXIT_USAGE_IO; }
+    ulk_upload *up = NULL;
+    ulk_dict *dict = NULL;
+    int code = 0, mi;
+    int rc = ulk_upload_read_opts(up_path, ULK_UPLOAD_LEAN, 0, &up, diag);
+    if (rc < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk modulate: upload %s refused; nothing written\n", up_path);
+        code = exit_for(rc);
         goto done;
     }
+    if ((code = cli_load_dict("modulate", dict_path, &dict))) {
+        fprintf(stderr, "ulk modulate: nothing written\n");
+        goto done;
+    }
+    if ((code = pick_mode(dict, dict_path, up, up_path, o.mode_name, &mi))) goto done;
     /* a copy that only changes the offset: the generator reads the rest as written */
-    ulk_carrier cc = *c0;
+    ulk_carrier cc = *ulk_dict_carrier(dict);
     if (offset_given) cc.offset_hz = offset;
     const ulk_carrier_mode *mo = &cc.modes[mi];
-    if (vaudio) {
+    if (o.vaudio) {
         if (!mo->on[ULK_CH_VOICE]) {
             fprintf(stderr, "ulk modulate: --voice-audio %s: mode '%s' has no voice channel on; nothing written\n",
-                    vaudio, mo->name);
-            code = 1;
+                    o.vaudio, mo->name);
+            code = CLI_EXIT_REFUSED;
             goto done;
         }
         /* the copy points at the caller's file (relative to the working folder); Carson's
          * bandwidth stays the section's audio_bandwidth_hz, or 3400 Hz in place of a tone */
         if (!cc.voice_audio) cc.voice_tone_hz = ulk_ratio_make(3400, 1);
-        cc.voice_audio = (char *)vaudio;
+        cc.voice_audio = (char *)o.vaudio;
         cc.voice_audio_channel = vchan;
     }
     fputs(ULK_CAUTION, stderr);
-
     char rate_norm[64];
-    ulk_ratio_format(fs, rate_norm, sizeof rate_norm);
-    double fs_hz = ulk_ratio_to_double(fs);
-    double need_hz = 2.5 * (highest_line_hz(&cc, mo) + fabs(ulk_ratio_to_double(cc.offset_hz)));
-    if (fs_hz < need_hz) {
-        rc = ulk_fail(diag, ULK_ELIMIT,
-                      "--rate %s Hz is too low for mode '%s': its highest line plus |offset| needs at least %.6g Hz "
-                      "(2.5 x, as for real output)", rate_norm, mo->name, need_hz);
-        code = 1;
-        goto fail;
+    ulk_ratio_format(j.fs, rate_norm, sizeof rate_norm);
+    j.rate_norm = rate_norm;
+    j.dict = dict;
+    j.cc = &cc;
+    j.mo = mo;
+    uint64_t n_samples = 0;
+    if ((code = generate(up, &j, &n_samples, diag))) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk modulate: nothing written\n");
+        goto done;
     }
-    /* The modulator sets the length in every mode (the upload's duration) and, with data on,
-     * feeds the data channel. Its own rate rule (2.5 x (f_sc + R_s)) applies too. */
-    ulk_mod_config mcfg = {.upload = up, .fs = fs, .format = ULK_FMT_F32};
-    rc = ulk_mod_create(&mcfg, &mod, diag);
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-    uint64_t n_samples = ulk_mod_n_samples(mod);
-    data_src src = {mod, (float)(1.0 / ulk_mod_peak(&up->link))};
-    ulk_cgen_config gcfg = {.carrier = &cc, .mode = mo, .fs = fs, .data_fn = data_from_mod, .data_user = &src,
-                            .n_samples = n_samples};
-    rc = ulk_cgen_create(&gcfg, &gen, diag);
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-
-    struct stat ost;
-    int regular = stat(out_path, &ost) != 0 || S_ISREG(ost.st_mode);
-    if (regular) {
-        char dir[4096];
-        const char *slash = strrchr(out_path, '/');
-        if (!slash) snprintf(dir, sizeof dir, ".");
-        else if (slash == out_path) snprintf(dir, sizeof dir, "/");
-        else snprintf(dir, sizeof dir, "%.*s", (int)(slash - out_path), out_path);
-        struct statvfs vs;
-        double need = (double)n_samples * (fmt == ULK_FMT_S16 ? 4.0 : 8.0) + 65536.0;
-        if (statvfs(dir, &vs) == 0 && vs.f_blocks && need > (double)vs.f_bavail * (double)vs.f_frsize) {
-            rc = ulk_fail(diag, ULK_ELIMIT, "%s: %llu complex samples need %.0f bytes but the folder has %.0f free",
-                          out_path, (unsigned long long)n_samples, need, (double)vs.f_bavail * (double)vs.f_frsize);
-            code = 1;
-            goto fail;
-        }
-    }
-
-    char desc[512];
-    snprintf(desc, sizeof desc, "ulk modulate --carrier: upload %s (dictionary %s %s), mode %s", up_path,
-             up->dict_name ? up->dict_name : "?", up->dict_version ? up->dict_version : "?", mo->name);
-    extra = identity_json(up, up_path, dict, mo, cc.offset_hz, cc.voice_audio);
-    buf = ulk_malloc(2 * CHUNK * sizeof(float));
-    if (!extra || !buf) { rc = ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", out_path); code = 2; goto fail; }
-    ulk_sample_info info = {0};
-    info.fs_hz = fs_hz;
-    info.format = fmt;
-    info.container = cont;
-    info.channels = 2;
-    info.description = desc;
-    info.extra_json = extra;
-    info.fs_exact = rate_norm;
-    rc = ulk_writer_open(out_path, &info, &w, diag);
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-    const char *tp = ulk_writer_temp_path(w);
-    if (tp && strlen(tp) < sizeof g_tmp) strcpy(g_tmp, tp);
-
-    long got;
-    while ((got = ulk_cgen_run(gen, buf, CHUNK)) > 0)
-        if (ulk_writer_write(w, buf, (size_t)got) < 0) break; /* sticky: the commit says why */
-    if (got < 0) {
-        rc = ulk_fail(diag, (int)got, "%s: generator failed: %s", out_path, ulk_status_str((int)got));
-        code = exit_for((int)got);
-        goto fail;
-    }
-    rc = ulk_writer_commit(w, diag);
-    w = NULL;
-    g_tmp[0] = 0;
-    if (rc < 0) { code = exit_for(rc); goto fail; }
-    if (!quiet) {
+    if (!o.quiet) {
         char off[64];
         ulk_ratio_format(cc.offset_hz, off, sizeof off);
-        printf("modulated %s -> %s: mode %s, %llu complex samples (%.6f s) at %s Hz, offset %s Hz, %s %s\n", up_path,
-               out_path, mo->name, (unsigned long long)n_samples, (double)n_samples / fs_hz, rate_norm, off,
-               fmt == ULK_FMT_S16 ? "s16" : "f32", cont == ULK_CONTAINER_WAV ? "WAV (left I, right Q)" : direct ? "raw I/Q" : "raw I/Q + SigMF");
+        /* samples on standard output: the summary goes to standard error */
+        fprintf(cli_is_std(out_path) ? stderr : stdout,
+                "modulated %s -> %s: mode %s, %llu complex samples (%.6f s) at %s Hz, offset %s Hz, %s %s\n", up_path,
+                out_path, mo->name, (unsigned long long)n_samples, (double)n_samples / ulk_ratio_to_double(j.fs),
+                rate_norm, off, j.fmt == ULK_FMT_S16 ? "s16" : "f32",
+                j.cont == ULK_CONTAINER_WAV ? "WAV (left I, right Q)" : direct ? "raw I/Q" : "raw I/Q + SigMF");
     }
-    goto done;
-
-fail:
-    ulk_diag_print(diag, stderr);
-    fprintf(stderr, "ulk modulate: nothing written\n");
-    ulk_writer_abort(w);
-    g_tmp[0] = 0;
 done:
-    cJSON_free(extra);
-    ulk_free(buf);
-    ulk_cgen_destroy(gen);
-    ulk_mod_destroy(mod);
     ulk_dict_destroy(dict);
     ulk_upload_destroy(up);
     ulk_diag_destroy(diag);

@@ -40,6 +40,7 @@ static void usage(FILE *out)
             "                 first (or --mode) mode, as SVG or PNG by the file's extension\n"
             "  --sweep CH     the channel whose index the margin plot varies (default: the\n"
             "                 mode's first channel)\n"
+            "  -q, --quiet    no line saying where the plot went\n"
             "  -h, --help     this text\n"
             "\n"
             "exit status: 0 success, 1 errors in the carrier section or nothing to solve,\n"
@@ -119,43 +120,112 @@ static cJSON *json_plan(const ulk_carrier *c, const ulk_carrier_mode *mo, const 
     return o;
 }
 
+enum { O_QUIET = 'q', O_MODE = CLI_LONG, O_SOLVE, O_PTN0, O_JSON, O_PLOT, O_SWEEP };
+static const struct option opts[] = {
+    {"mode", required_argument, 0, O_MODE}, {"solve", no_argument, 0, O_SOLVE},
+    {"pt-n0", required_argument, 0, O_PTN0}, {"json", no_argument, 0, O_JSON},
+    {"plot", required_argument, 0, O_PLOT},  {"sweep", required_argument, 0, O_SWEEP},
+    {"quiet", no_argument, 0, O_QUIET},      {"help", no_argument, 0, 'h'},
+    {0, 0, 0, 0}};
+static const cli_command command = {"plan", opts, usage};
+
+typedef struct {
+    const char *mode_name, *plot, *sweep;
+    int solve, json, has_pt, quiet;
+    double pt;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    switch (v) {
+    case O_MODE: a->mode_name = arg; break;
+    case O_SOLVE: a->solve = 1; break;
+    case O_JSON: a->json = 1; break;
+    case O_PLOT: a->plot = arg; break;
+    case O_SWEEP: a->sweep = arg; break;
+    case O_QUIET: a->quiet = 1; break;
+    case O_PTN0:
+        a->has_pt = 1;
+        return cli_number("plan", "--pt-n0", arg, &a->pt);
+    default: break;
+    }
+    return 0;
+}
+
+/* One mode: the plan as written and, with solve, the solved one; to jmodes (JSON) or as text
+ * when jmodes is NULL. Returns 0 or the exit status of a failed solve. */
+static int plan_one(const ulk_carrier *c, const ulk_carrier_mode *mo, double pt, int solve, cJSON *jmodes)
+{
+    ulk_carrier_plan p;
+    ulk_carrier_plan_indices(c, mo, mo->m_rad, pt, &p);
+    cJSON *jm = NULL;
+    if (jmodes) {
+        jm = json_plan(c, mo, mo->m_rad, &p);
+        cJSON_AddItemToObject(jm, "name", cJSON_CreateString(mo->name));
+        cJSON_AddItemToArray(jmodes, jm);
+    } else {
+        printf("\nmode %s (%s:%d:%d)\n", mo->name, mo->loc.file ? mo->loc.file : "", mo->loc.line, mo->loc.col);
+        print_plan(c, mo, mo->m_rad, &p, "as written");
+    }
+    if (!solve) return 0;
+    double ms[ULK_CH_N];
+    ulk_carrier_plan ps;
+    int src = ulk_carrier_solve(c, mo, pt, ms, &ps);
+    if (src == ULK_EINVAL) {
+        fprintf(stderr, "ulk plan: mode %s: no need (loop, or a required E_b/N_0 or P/N_0 of a channel "
+                        "that is on) to maximise\n", mo->name);
+        return CLI_EXIT_REFUSED;
+    }
+    if (src) {
+        fprintf(stderr, "ulk plan: mode %s: %s\n", mo->name, ulk_status_str(src));
+        return src == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
+    }
+    if (jm) cJSON_AddItemToObject(jm, "solved", json_plan(c, mo, ms, &ps));
+    else print_plan(c, mo, ms, &ps, "solved (smallest margin maximised, 0.01 rad)");
+    return 0;
+}
+
+/* The modes to plan: all, or the one named (with a did-you-mean). Returns 0 or the exit code. */
+static int pick_modes(const ulk_carrier *c, const char *mode_name, const char *path, int *first, int *last)
+{
+    *first = 0;
+    *last = c->n_modes - 1;
+    if (!mode_name) return 0;
+    int i = ulk_carrier_find_mode(c, mode_name);
+    if (i < 0) {
+        const char *names[64];
+        size_t nn = 0;
+        for (int k = 0; k < c->n_modes && nn < 64; k++) names[nn++] = c->modes[k].name;
+        const char *sug = ulk_suggest(mode_name, names, nn);
+        fprintf(stderr, "ulk plan: %s has no mode '%s'%s%s%s\n", path, mode_name, sug ? " (did you mean '" : "",
+                sug ? sug : "", sug ? "'?)" : "");
+        return CLI_EXIT_REFUSED;
+    }
+    *first = *last = i;
+    return 0;
+}
+
 int cmd_plan(int argc, char **argv)
 {
-    static const struct option opts[] = {
-        {"mode", required_argument, 0, 'm'}, {"solve", no_argument, 0, 's'},
-        {"pt-n0", required_argument, 0, 'p'}, {"json", no_argument, 0, 'j'},
-        {"plot", required_argument, 0, 'o'},  {"sweep", required_argument, 0, 'w'},
-        {"help", no_argument, 0, 'h'},        {0, 0, 0, 0}};
-    const char *mode_name = NULL, *plot = NULL, *sweep = NULL;
-    int solve = 0, json = 0, has_pt = 0;
-    double pt = NAN;
-    int o;
-    optind = 1;
-    while ((o = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-        switch (o) {
-        case 'm': mode_name = optarg; break;
-        case 's': solve = 1; break;
-        case 'j': json = 1; break;
-        case 'o': plot = optarg; break;
-        case 'w': sweep = optarg; break;
-        case 'p': {
-            char *end;
-            pt = strtod(optarg, &end);
-            if (*end || !isfinite(pt)) {
-                fprintf(stderr, "ulk plan: --pt-n0 wants a number of dB-Hz, not '%s'\n", optarg);
-                return 2;
-            }
-            has_pt = 1;
-            break;
-        }
-        case 'h': usage(stdout); return 0;
-        default: usage(stderr); return 2;
-        }
-    }
-    if (optind != argc - 1) {
+    args o = {.pt = NAN};
+    int optind_, r = cli_parse(&command, argc, argv, on_opt, &o, &optind_);
+    if (r >= 0) return r;
+    const char *mode_name = o.mode_name, *plot = o.plot, *sweep = o.sweep;
+    int solve = o.solve, json = o.json, has_pt = o.has_pt;
+    double pt = o.pt;
+    if (optind_ != argc - 1) {
         fprintf(stderr, "ulk plan: give exactly one dictionary or carrier file\n");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *dict_path = cli_input("plan", argv[optind_]); /* "-": the carrier loader reads it twice */
+    if (!dict_path) return CLI_EXIT_USAGE_IO;
+    argv[optind_] = (char *)dict_path;
+    if (plot) {
+        const char *ins[] = {argv[optind_]}, *what[] = {"dictionary"};
+        if ((r = cli_refuse_overwrite("plan", plot, ins, what, 1))) return r;
+        if ((r = cli_check_picture("plan", plot))) return r;
     }
     int sweep_ch = -1;
     if (sweep) {
@@ -163,35 +233,25 @@ int cmd_plan(int argc, char **argv)
             if (!strcmp(sweep, ulk_channel_name((ulk_channel)ch))) sweep_ch = ch;
         if (sweep_ch < 0) {
             fprintf(stderr, "ulk plan: --sweep wants data, voice or ranging, not '%s'\n", sweep);
-            return 2;
+            return CLI_EXIT_USAGE_IO;
         }
     }
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk plan: out of memory\n"); return 2; }
     ulk_carrier *c = NULL;
-    int rc = ulk_carrier_load(argv[optind], &c, diag);
+    int rc = ulk_carrier_load(argv[optind_], &c, diag);
     ulk_diag_print(diag, stderr);
     if (rc) {
         ulk_diag_destroy(diag);
-        return rc == ULK_EIO || rc == ULK_ENOMEM || rc == ULK_ELIMIT ? 2 : 1;
+        return cli_exit_for(rc);
     }
     ulk_diag_clear(diag);
     if (!has_pt && c->has_pt_n0) pt = c->pt_n0_dbhz;
-    int first = 0, last = c->n_modes - 1;
-    if (mode_name) {
-        int i = ulk_carrier_find_mode(c, mode_name);
-        if (i < 0) {
-            const char *names[64];
-            size_t nn = 0;
-            for (int k = 0; k < c->n_modes && nn < 64; k++) names[nn++] = c->modes[k].name;
-            const char *sug = ulk_suggest(mode_name, names, nn);
-            fprintf(stderr, "ulk plan: %s has no mode '%s'%s%s%s\n", argv[optind], mode_name,
-                    sug ? " (did you mean '" : "", sug ? sug : "", sug ? "'?)" : "");
-            ulk_carrier_destroy(c);
-            ulk_diag_destroy(diag);
-            return 1;
-        }
-        first = last = i;
+    int first, last;
+    if ((r = pick_modes(c, mode_name, argv[optind_], &first, &last))) {
+        ulk_carrier_destroy(c);
+        ulk_diag_destroy(diag);
+        return r;
     }
     if (solve && isnan(pt)) {
         fprintf(stderr, "ulk plan: --solve needs a budget: carrier.budget.pt_n0_dbhz in the file or --pt-n0\n");
@@ -203,44 +263,17 @@ int cmd_plan(int argc, char **argv)
     cJSON *root = NULL, *jmodes = NULL;
     if (json) {
         root = cJSON_CreateObject();
-        cJSON_AddStringToObject(root, "file", argv[optind]);
+        cJSON_AddStringToObject(root, "file", argv[optind_]);
         jnum(root, "pt_n0_dbhz", pt);
         jmodes = cJSON_AddArrayToObject(root, "modes");
     } else {
-        printf("%s: %d mode%s", argv[optind], c->n_modes, c->n_modes == 1 ? "" : "s");
+        printf("%s: %d mode%s", argv[optind_], c->n_modes, c->n_modes == 1 ? "" : "s");
         if (!isnan(pt)) printf(", P_T/N_0 %.2f dB-Hz", pt);
         printf("\n");
     }
     for (int i = first; i <= last; i++) {
-        const ulk_carrier_mode *mo = &c->modes[i];
-        ulk_carrier_plan p;
-        ulk_carrier_plan_indices(c, mo, mo->m_rad, pt, &p);
-        cJSON *jm = NULL;
-        if (json) {
-            jm = json_plan(c, mo, mo->m_rad, &p);
-            cJSON_AddItemToObject(jm, "name", cJSON_CreateString(mo->name));
-            cJSON_AddItemToArray(jmodes, jm);
-        } else {
-            printf("\nmode %s (%s:%d:%d)\n", mo->name, mo->loc.file ? mo->loc.file : "", mo->loc.line, mo->loc.col);
-            print_plan(c, mo, mo->m_rad, &p, "as written");
-        }
-        if (solve) {
-            double ms[ULK_CH_N];
-            ulk_carrier_plan ps;
-            int src = ulk_carrier_solve(c, mo, pt, ms, &ps);
-            if (src == ULK_EINVAL) {
-                fprintf(stderr, "ulk plan: mode %s: no need (loop, or a required E_b/N_0 or P/N_0 of a channel "
-                                "that is on) to maximise\n", mo->name);
-                status = 1;
-            } else if (src) {
-                fprintf(stderr, "ulk plan: mode %s: %s\n", mo->name, ulk_status_str(src));
-                status = src == ULK_ENOMEM ? 2 : 1;
-            } else if (json) {
-                cJSON_AddItemToObject(jm, "solved", json_plan(c, mo, ms, &ps));
-            } else {
-                print_plan(c, mo, ms, &ps, "solved (smallest margin maximised, 0.01 rad)");
-            }
-        }
+        int st = plan_one(c, &c->modes[i], pt, solve, jmodes);
+        if (st > status) status = st;
     }
     if (json) {
         char *s = cJSON_Print(root);
@@ -253,7 +286,7 @@ int cmd_plan(int argc, char **argv)
         if (pr) {
             ulk_diag_print(diag, stderr);
             status = 2;
-        } else if (!json) {
+        } else if (!json && !o.quiet) {
             printf("\nplot written to %s\n", plot);
         }
     }

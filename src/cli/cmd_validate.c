@@ -236,40 +236,45 @@ static cJSON *findings_json(const ulk_diag *dg)
     return a;
 }
 
+static const struct option opts[] = {{"json", no_argument, NULL, 'j'},
+                                     {"canonical", no_argument, NULL, 'c'},
+                                     {"help", no_argument, NULL, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"validate", opts, usage};
+
+typedef struct {
+    int json, canonical;
+} args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    args *a = ctx;
+    if (v == 'j') a->json = 1;
+    else if (v == 'c') a->canonical = 1;
+    return 0;
+}
+
 int cmd_validate(int argc, char **argv)
 {
-    static const struct option opts[] = {{"json", no_argument, NULL, 'j'},
-                                         {"canonical", no_argument, NULL, 'c'},
-                                         {"help", no_argument, NULL, 'h'},
-                                         {0, 0, 0, 0}};
-    int json = 0, canonical = 0, c;
-    optind = 1;
-    opterr = 0;
-    while ((c = getopt_long(argc, argv, "+hj", opts, NULL)) != -1) {
-        if (c == 'j') json = 1;
-        else if (c == 'c') canonical = 1;
-        else if (c == 'h') { usage(stdout); return 0; }
-        else {
-            fprintf(stderr, "ulk validate: unknown option '%s'\n", argv[optind - 1]);
-            usage(stderr);
-            return 2;
-        }
-    }
-    if (optind >= argc) {
+    args a = {0};
+    int optind_ = 0, r = cli_parse(&command, argc, argv, on_opt, &a, &optind_);
+    if (r >= 0) return r;
+    int json = a.json, canonical = a.canonical;
+    if (optind_ >= argc) {
         fprintf(stderr, "ulk validate: no dictionary given\n");
         usage(stderr);
-        return 2;
+        return CLI_EXIT_USAGE_IO;
     }
     int worst = 0;
     cJSON *root = json ? cJSON_CreateObject() : NULL;
     cJSON *arr = json ? cJSON_AddArrayToObject(root, "dictionaries") : NULL;
     size_t tot_err = 0, tot_warn = 0;
-    for (int i = optind; i < argc; i++) {
+    for (int i = optind_; i < argc; i++) {
         ulk_diag *dg = ulk_diag_create();
         if (!dg) { fprintf(stderr, "ulk validate: out of memory\n"); cJSON_Delete(root); return 2; }
         ulk_dict *d = NULL;
         int rc = ulk_dict_load(argv[i], &d, dg);
-        int code = rc == 0 ? 0 : (rc == ULK_EPARSE || rc == ULK_ELIMIT) ? 1 : 2;
+        int code = cli_exit_for(rc);
         if (code > worst) worst = code;
         tot_err += ulk_diag_errors(dg);
         tot_warn += ulk_diag_warnings(dg);

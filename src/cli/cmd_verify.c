@@ -1,14 +1,16 @@
 /* src/cli/cmd_verify.c - `ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]`: does the
  * capture hold exactly the upload's commands, in order, bit for bit?
- * Exit 0 it does; 1 it does not (report of missing, extra, changed and rejected words);
- * 2 usage or I/O error, or an upload compiled with another dictionary than DICT. */
+ * The receiver (include/ulk/rx.h) decodes, include/ulk/verify.h aligns; this file parses the
+ * options and prints the report. Exit (docs/cli.md) 0 it does; 1 it does not (report of
+ * missing, extra, changed and rejected words) or a broken dictionary; 2 usage or I/O error,
+ * or an upload compiled with another dictionary than DICT. */
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "capture.h"
+#include "capture_opts.h"
 #include "cli.h"
 #include "ulk/decode.h"
 #include "ulk/dict.h"
@@ -20,7 +22,7 @@ static void usage(FILE *out)
 {
     fprintf(out,
             "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
-            "                  [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME]\n"
+            "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N] [--iq] [--mode NAME]\n"
             "\n"
             "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
@@ -36,11 +38,12 @@ static void usage(FILE *out)
             "  --dict DICT        the dictionary\n"
             "  --upload UPLOAD    the upload file (from ulk compile)\n"
             "  --json             machine-readable report\n"
-            "  --rate HZ, --format f32|s16, --channel N   as for ulk decode\n"
+            "  --rate HZ, --format TYPE, --channel N      as for ulk decode\n"
             "  --iq, --mode NAME, --max-offset HZ         complex captures, as for ulk decode\n"
             "  -h, --help         this text\n"
-            "\nexit: 0 the capture holds exactly the upload; 1 it does not; 2 usage or I/O error,\n"
-            "      or the upload was compiled with another dictionary (refused, nothing compared)\n");
+            "\nexit: 0 the capture holds exactly the upload; 1 it does not, or the dictionary has\n"
+            "      errors; 2 usage or I/O error, or the upload was compiled with another dictionary\n"
+            "      (refused, nothing compared)\n");
 }
 
 /* The changed fields of one command: argument name, value sent, value received. */
@@ -176,61 +179,79 @@ static void print_human(const char *capture, const char *upload_path, const ulk_
                t.extra, t.chg, nrej);
 }
 
-typedef struct {
-    const char *dict_path, *upload_path, *capture;
-    int json;
-    cli_capture_opts o;
-} ver_args;
-
-/* Returns 0 to go on, 1 after --help (exit 0), or 2 (usage error, message printed). */
-static int parse_args(int argc, char **argv, ver_args *a)
-{
-    memset(a, 0, sizeof *a);
-    cli_capture_init(&a->o);
-    for (int i = 1; i < argc; i++) {
-        const char *s = argv[i];
-        int r = cli_capture_opt("verify", argc, argv, &i, &a->o);
-        if (r < 0) return 2;
-        if (r > 0) continue;
-        if (!strcmp(s, "-h") || !strcmp(s, "--help")) { usage(stdout); return 1; }
-        else if (!strcmp(s, "--json")) a->json = 1;
-        else if (!strcmp(s, "--dict") || !strcmp(s, "--upload")) {
-            if (i + 1 >= argc) { fprintf(stderr, "ulk verify: %s needs a value\n", s); return 2; }
-            if (!strcmp(s, "--dict")) a->dict_path = argv[++i];
-            else a->upload_path = argv[++i];
-        } else if (s[0] == '-' && s[1]) {
-            fprintf(stderr, "ulk verify: unknown option '%s' (ulk verify --help)\n", s);
-            return 2;
-        } else if (!a->capture) a->capture = s;
-        else { fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", s); return 2; }
-    }
-    if (!a->dict_path || !a->upload_path || !a->capture) {
-        fprintf(stderr, "ulk verify: %s\n", !a->dict_path ? "--dict DICT is required" : !a->upload_path ? "--upload UPLOAD is required" : "no capture given");
-        usage(stderr);
-        return 2;
-    }
-    return cli_capture_check("verify", &a->o) < 0 ? 2 : 0;
-}
-
 static int on_event(const ulk_rx_event *ev, void *user)
 {
     if (ev->kind == ULK_RX_WARNING) fprintf(stderr, "warning: %s\n", ev->text);
     return ulk_verify_add(user, ev);
 }
 
-/* Loads the dictionary and the upload and refuses an upload made with another dictionary. */
+enum { O_DICT = CLI_LONG, O_UPLOAD, O_JSON };
+static const struct option opts[] = {{"dict", required_argument, 0, O_DICT},
+                                     {"upload", required_argument, 0, O_UPLOAD},
+                                     {"json", no_argument, 0, O_JSON},
+                                     CLI_CAPTURE_OPTIONS,
+                                     {"help", no_argument, 0, 'h'},
+                                     {0, 0, 0, 0}};
+static const cli_command command = {"verify", opts, usage};
+
+typedef struct {
+    const char *dict_path, *upload_path, *capture;
+    int json;
+    cli_capture_opts o;
+} ver_args;
+
+static int on_opt(int v, const char *arg, void *ctx)
+{
+    ver_args *a = ctx;
+    switch (v) {
+    case O_DICT: a->dict_path = arg; break;
+    case O_UPLOAD: a->upload_path = arg; break;
+    case O_JSON: a->json = 1; break;
+    default: return cli_capture_option("verify", v, arg, &a->o);
+    }
+    return 0;
+}
+
+/* Parses the options: returns -1 to go on, else the exit code (0 after --help). A capture '-'
+ * becomes a temporary copy of standard input. */
+static int parse_args(int argc, char **argv, ver_args *a)
+{
+    memset(a, 0, sizeof *a);
+    cli_capture_init(&a->o);
+    int first, pr = cli_parse(&command, argc, argv, on_opt, a, &first);
+    if (pr >= 0) return pr;
+    a->capture = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!a->dict_path || !a->upload_path || !a->capture) {
+        fprintf(stderr, "ulk verify: %s\n", !a->dict_path     ? "--dict DICT is required"
+                                            : !a->upload_path ? "--upload UPLOAD is required"
+                                                              : "no capture given");
+        usage(stderr);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if ((pr = cli_capture_check("verify", &a->o))) return pr;
+    if (cli_is_std(a->upload_path) && cli_is_std(a->capture)) {
+        fprintf(stderr, "ulk verify: standard input ('-') can be only one of the inputs\n");
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!(a->capture = cli_input("verify", a->capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of stdin */
+    return -1;
+}
+
+/* Loads the dictionary and the upload and refuses an upload made with another dictionary.
+ * Returns 0, or the exit code: a broken dictionary 1 (as from every command), an upload that
+ * cannot be used or was made with another dictionary 2 (nothing compared). */
 static int load(const ver_args *a, ulk_dict **dict, ulk_upload **u, ulk_diag *diag)
 {
-    if (ulk_dict_load(a->dict_path, dict, diag) < 0) {
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk verify: cannot use dictionary %s\n", a->dict_path);
-        return -1;
-    }
-    ulk_diag_clear(diag);
+    int ret = cli_load_dict("verify", a->dict_path, dict);
+    if (ret) return ret;
     if (ulk_upload_read(a->upload_path, u, diag) < 0) {
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk verify: cannot use upload %s\n", a->upload_path);
-        return -1;
+        return CLI_EXIT_USAGE_IO;
     }
     const ulk_dict *d = *dict;
     const ulk_upload *up = *u;
@@ -240,7 +261,7 @@ static int load(const ver_args *a, ulk_dict **dict, ulk_upload **u, ulk_diag *di
                 "%.16s...); verify against the dictionary it was made with\n",
                 a->upload_path, up->dict_name ? up->dict_name : "?", up->dict_version ? up->dict_version : "",
                 up->dict_sha256, a->dict_path, d->name ? d->name : "?", d->version ? d->version : "", d->sha256);
-        return -1;
+        return CLI_EXIT_USAGE_IO;
     }
     return 0;
 }
@@ -249,14 +270,15 @@ int cmd_verify(int argc, char **argv)
 {
     ver_args a;
     int r = parse_args(argc, argv, &a);
-    if (r) return r == 1 ? 0 : 2;
+    if (r >= 0) return r;
     int ret = 2;
     ulk_diag *diag = ulk_diag_create();
     ulk_dict *dict = NULL;
     ulk_upload *u = NULL;
     ulk_verify *v = NULL;
     if (!diag) { fprintf(stderr, "ulk verify: out of memory\n"); return 2; }
-    if (load(&a, &dict, &u, diag) < 0) goto out;
+    if ((ret = load(&a, &dict, &u, diag))) goto out;
+    ret = CLI_EXIT_USAGE_IO;
     if (ulk_verify_create(dict, u, &v, diag) < 0 || (r = ulk_rx_run_file(dict, a.capture, &a.o.f, &a.o.r, on_event, v, diag)) < 0) {
         if (r == ULK_ENOMEM && !ulk_diag_count(diag)) fprintf(stderr, "ulk verify: out of memory\n");
         else ulk_diag_print(diag, stderr);
@@ -267,10 +289,6 @@ int cmd_verify(int argc, char **argv)
         if (print_json(u, v) < 0) goto out;
     } else {
         print_human(a.capture, a.upload_path, u, v);
-    }
-    if (fflush(stdout) != 0 || ferror(stdout)) {
-        fprintf(stderr, "ulk verify: writing the output failed\n");
-        goto out;
     }
     ret = ulk_verify_good(v) ? 0 : 1;
 out:

@@ -65,14 +65,14 @@ for dict in demo-subbit.yaml demo-ccsds.yaml g??.yaml; do
     # impaired: noise, clock error, lead-in, gain, DC; every other one inverted
     inv=()
     [ $((seed % 2)) -eq 0 ] && inv=(--invert)
-    run "$b.impair.txt" "$ULK" impair "$b.wav" "$b.imp.wav" --ebn0 "$ebn0" --seed "$seed" --ppm "$ppm" \
+    run "$b.impair.txt" "$ULK" impair "$b.wav" -o "$b.imp.wav" --ebn0 "$ebn0" --seed "$seed" --ppm "$ppm" \
         --delay "$delay" --amplitude 0.5 --dc 0.01 "${inv[@]}" --dict "$dict"
     run "$b.imp.decode.txt" "$ULK" decode --dict "$dict" "$b.imp.wav"
     run "$b.imp.decode.json" "$ULK" decode --dict "$dict" "$b.imp.wav" --json
     run "$b.imp.verify.txt" "$ULK" verify --dict "$dict" --upload "$b.upl" "$b.imp.wav"
     run "$b.imp.verify.json" "$ULK" verify --dict "$dict" --upload "$b.upl" "$b.imp.wav" --json
     # a noisier copy, where words are lost or rejected, as raw f32 with SigMF metadata
-    run "$b.impair2.txt" "$ULK" impair "$b.f32" "$b.noisy.f32" --ebn0 $((ebn0 - 5)) --seed $((seed + 100)) \
+    run "$b.impair2.txt" "$ULK" impair "$b.f32" -o "$b.noisy.f32" --ebn0 $((ebn0 - 5)) --seed $((seed + 100)) \
         --ppm $((-ppm)) --dict "$dict"
     run "$b.noisy.decode.json" "$ULK" decode --dict "$dict" "$b.noisy.f32" --json
     run "$b.noisy.verify.txt" "$ULK" verify --dict "$dict" --upload "$b.upl" "$b.noisy.f32"
@@ -102,7 +102,7 @@ run plan-solve.txt "$ULK" plan demo-subbit.yaml --mode full --solve
 run plan-carrier.json "$ULK" plan carrier/demo-carrier.yaml --json --solve
 run carrier.modulate.txt "$ULK" modulate demo-subbit.upl --carrier --mode full --dict demo-subbit.yaml \
     -o carrier.cf32 --rate 96000 -q
-run carrier.impair.txt "$ULK" impair carrier.cf32 carrier.imp.cf32 --ebn0 12 --seed 9 --offset-hz 350 \
+run carrier.impair.txt "$ULK" impair carrier.cf32 -o carrier.imp.cf32 --ebn0 12 --seed 9 --offset 350 \
     --delay 0.02 --dict demo-subbit.yaml
 run carrier.decode.json "$ULK" decode --dict demo-subbit.yaml carrier.imp.cf32 --json --ranging
 run carrier.decode.txt "$ULK" decode --dict demo-subbit.yaml carrier.imp.cf32

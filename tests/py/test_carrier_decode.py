@@ -135,7 +135,7 @@ def main():
         rc, out, err = run("modulate", up, "--carrier", "--mode", "full", "--dict", DICT, "-o", clean, "--rate", FS)
         check(rc == 0, "modulate --carrier full", err)
         noisy = os.path.join(tmp, "noisy.cf32")
-        rc, out, err = run("impair", clean, noisy, "--dict", DICT, "--ebn0", 12, "--offset-hz", 3200,
+        rc, out, err = run("impair", clean, noisy, "--dict", DICT, "--ebn0", 12, "--offset", 3200,
                            "--delay", 0.05, "--seed", 11)
         check(rc == 0, "impair complex", err)
         # the noise the impairment claims: total variance sigma^2 = P_d f_s / (R_b E_b/N_0),
@@ -163,7 +163,7 @@ def main():
         i = np.arange(n, dtype=np.int64)
         dat = np.zeros(n)
         dat[lead_n:] = data
-        fv, dev, fa = 30000, 4000, Fraction(24690, 20)  # f_a = 1234.5 Hz
+        fv, dev, fa = 28500, 4000, Fraction(24690, 20)  # f_a = 1234.5 Hz
         ph_v = 2 * np.pi * ((i * fv) % FS) / FS
         fa_num, fa_den = fa.numerator, fa.denominator
         ph_a = 2 * np.pi * ((i * fa_num) % (FS * fa_den)) / (FS * fa_den)
@@ -194,7 +194,7 @@ def main():
         with open(os.path.join(SRC, "dictionaries", "demo-ccsds.yaml"), encoding="utf-8") as f:
             t = f.read()
         car = ("\ncarrier:\n  loop: {bandwidth_hz: 20, required_snr_db: 12}\n"
-               "  voice: {subcarrier_hz: 30000, deviation_hz: 4000, tone_hz: 1000}\n"
+               "  voice: {subcarrier_hz: 28500, deviation_hz: 4000, tone_hz: 1000}\n"
                "  ranging: {chip_rate: 2000, polynomial: [10, 3, 0]}\n  data: {}\n"
                "  modes:\n    full: {data: 0.9, voice: 0.9, ranging: 0.4}\n")
         k = t.index("\nsystems:")
@@ -206,7 +206,7 @@ def main():
         check(rc == 0, "ccsds-tc: compile", err)
         rc, out, err = run("modulate", tcu, "--carrier", "--mode", "full", "--dict", tcd, "-o", tcc, "--rate", FS)
         check(rc == 0, "ccsds-tc: modulate --carrier", err)
-        rc, out, err = run("impair", tcc, tcn, "--dict", tcd, "--ebn0", 10, "--offset-hz", -4100, "--seed", 5)
+        rc, out, err = run("impair", tcc, tcn, "--dict", tcd, "--ebn0", 10, "--offset", -4100, "--seed", 5)
         check(rc == 0, "ccsds-tc: impair", err)
         rc, out, err = run("decode", "--dict", tcd, tcn, "--json")
         j = json.loads(out) if rc == 0 else {"words": [None]}

@@ -101,7 +101,7 @@ def main():
         # --- 2. three channels with incommensurate lines (composite-carrier.md s.2) ---
         with open(DICT, encoding="utf-8") as f:
             text = f.read()
-        inc = text.replace("subcarrier_hz: 30000", "subcarrier_hz: 31234.5").replace(
+        inc = text.replace("subcarrier_hz: 28500", "subcarrier_hz: 31234.5").replace(
             "chip_rate: 2000", "chip_rate: 1789.3").replace("tone_hz: 1000", "tone_hz: 987.7")
         check(inc.count("31234.5") == 1 and inc.count("1789.3") == 1, "incommensurate edit applies")
         d2 = os.path.join(tmp, "inc.yaml")

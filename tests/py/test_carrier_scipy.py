@@ -240,7 +240,7 @@ def check_plots(ulk, demo, bindir):
         if data[:8] != b"\x89PNG\r\n\x1a\n" or data[12:16] != b"IHDR":
             fail("plot: not a PNG")
         w, h = struct.unpack(">II", data[16:24])
-        if (w, h) != (1000, 460):
+        if (w, h) != (1000, 480):  # the picture size of src/carrier_plot.c (room for two legend rows)
             fail("plot: PNG is %dx%d" % (w, h))
         root = ET.parse(svg).getroot()
         if not root.tag.endswith("svg"):
@@ -251,7 +251,7 @@ def check_plots(ulk, demo, bindir):
         left = sorted(n for n in os.listdir(tmp) if n.startswith("p.gif"))
         if left:
             fail("plot with a .gif name left %r behind" % left)
-    print("plots: PNG 1000x460 and SVG written; a bad name writes nothing")
+    print("plots: PNG 1000x480 and SVG written; a bad name writes nothing")
 
 
 if __name__ == "__main__":

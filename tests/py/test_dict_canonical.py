@@ -130,6 +130,8 @@ def rebuild(src):
                 o["calibration"] = {"offset": cal.get("offset", 0), "scale": cal["scale"]}
             if "range" in a:
                 o["range"] = a["range"]
+            if "tolerance" in a:
+                o["tolerance"] = a["tolerance"]
             if "units" in a:
                 o["units"] = a["units"]
             if a["type"] == "enum":
@@ -251,6 +253,18 @@ def main():
         shuffled["carrier"]["modes"] = dict(reversed(list(shuffled["carrier"]["modes"].items())))
         shuffled["carrier"]["ranging"]["polynomial"] = [0, 10, 3]
         check(sha_of(shuffled, "shuffled.json") == base, "mode order and exponent order do not change the hash")
+        # A tolerance is content (it changes what compiles): in the canonical form as written.
+        tol = json.loads(json.dumps(src))
+        hit = [a for c in tol["commands"] for a in c.get("arguments") or [] if "calibration" in a]
+        hit[0]["tolerance"] = 0.25
+        check(sha_of(tol, "tol.json") not in (None, base), "a tolerance changes the hash")
+        r, o, e = run("--canonical", os.path.join(tmp, "tol.json"))
+        tobj = json.loads(o.split("\n")[0]) if r == 0 else {}
+        for c in tobj.get("commands", []):
+            for a in c["arguments"]:
+                a.pop("default", None)
+        check(r == 0 and numeq(tobj.get("commands"), rebuild(tol)["commands"]),
+              "canonical commands with a tolerance agree with the independent rebuild (%s)" % e)
     # Summary figures against the link section: W, W / R_b, R_s = n R_b, k = f_sc / R_s.
     s = doc["dictionaries"][0]["summary"]
     L = src["link"]

@@ -29,10 +29,10 @@ ULK = os.environ.get("ULK", "ulk")
 SRC = os.environ.get("ULK_SOURCE_DIR") or os.path.normpath(
     os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", ".."))
 TMPROOT = os.environ.get("ULK_BINARY_DIR")
-FS = 96000            # 2.5 x (f_v + Delta + 3400 Hz audio bandwidth) = 93.5 kHz
+FS = 96000            # 2.5 x (f_v + Delta + 3400 Hz audio bandwidth) = 89.75 kHz
 FIN = 11025
 FA = 1234.5
-FV, DEV, M_V = 30000, 4000, 0.9
+FV, DEV, M_V = 28500, 4000, 0.9
 failed = 0
 
 

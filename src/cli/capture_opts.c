@@ -1,0 +1,55 @@
+/* src/cli/capture_opts.c - parsing of the capture options (src/cli/capture_opts.h). */
+#include "capture_opts.h"
+
+#include <stdio.h>
+#include <string.h>
+
+#include "ulk/link.h"
+
+void cli_capture_init(cli_capture_opts *o)
+{
+    memset(o, 0, sizeof *o);
+    o->f.format = -1;
+    o->f.channel = -1;
+}
+
+int cli_capture_option(const char *cmd, int val, const char *arg, cli_capture_opts *o)
+{
+    unsigned long long u;
+    int r;
+    switch (val) {
+    case CLI_CAP_IQ: o->f.iq = 1; return 0;
+    case CLI_CAP_MODE: o->r.mode = arg; return 0;
+    case CLI_CAP_FORMAT: return cli_format(cmd, arg, &o->f.format, &o->f.format_complex);
+    case CLI_CAP_CHANNEL:
+        if ((r = cli_uint(cmd, "--channel", arg, 255, &u))) return r;
+        o->f.channel = (int)u;
+        return 0;
+    case CLI_CAP_RATE: {
+        ulk_ratio q;
+        if (ulk_ratio_parse(arg, &q) < 0 || q.num <= 0) {
+            fprintf(stderr, "ulk %s: --rate '%s': expected a positive sample rate in Hz\n", cmd, arg);
+            return CLI_EXIT_USAGE_IO;
+        }
+        o->f.rate_hz = ulk_ratio_to_double(q);
+        return 0;
+    }
+    case CLI_CAP_MAX_OFFSET:
+        if ((r = cli_number(cmd, "--max-offset", arg, &o->r.max_offset_hz))) return r;
+        if (!(o->r.max_offset_hz > 0)) {
+            fprintf(stderr, "ulk %s: --max-offset '%s': expected a positive frequency in Hz\n", cmd, arg);
+            return CLI_EXIT_USAGE_IO;
+        }
+        return 0;
+    default: return 0;
+    }
+}
+
+int cli_capture_check(const char *cmd, const cli_capture_opts *o)
+{
+    if (o->f.format >= 0 && !(o->f.rate_hz > 0)) {
+        fprintf(stderr, "ulk %s: --format goes with --rate (a raw capture needs both)\n", cmd);
+        return CLI_EXIT_USAGE_IO;
+    }
+    return 0;
+}

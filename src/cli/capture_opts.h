@@ -1,0 +1,38 @@
+/* src/cli/capture_opts.h - the options that describe a capture, shared by decode and verify
+ * (and any command that reads one through the receiver, include/ulk/rx.h): one spelling, one
+ * parser, one struct. The receiver does all the work; these only fill its options. */
+#ifndef ULK_CLI_CAPTURE_OPTS_H
+#define ULK_CLI_CAPTURE_OPTS_H
+
+#include "cli.h"
+#include "ulk/rx.h"
+
+typedef struct {
+    ulk_rx_file_options f;   /* --rate, --format, --channel, --iq: how to read the file */
+    ulk_rx_options r;        /* --mode, --max-offset (and decode's --voice, --ranging) */
+} cli_capture_opts;
+
+enum {
+    CLI_CAP_IQ = CLI_LONG + 200,
+    CLI_CAP_RATE,
+    CLI_CAP_FORMAT,
+    CLI_CAP_CHANNEL,
+    CLI_CAP_MODE,
+    CLI_CAP_MAX_OFFSET,
+};
+
+/* The entries to put in a command's option table (before its terminating {0}). */
+#define CLI_CAPTURE_OPTIONS                                                                                    \
+    {"iq", no_argument, 0, CLI_CAP_IQ}, {"rate", required_argument, 0, CLI_CAP_RATE},                         \
+        {"format", required_argument, 0, CLI_CAP_FORMAT}, {"channel", required_argument, 0, CLI_CAP_CHANNEL}, \
+        {"mode", required_argument, 0, CLI_CAP_MODE}, {"max-offset", required_argument, 0, CLI_CAP_MAX_OFFSET}
+
+/* Defaults: nothing given (format and channel -1, every receiver option 0). */
+void cli_capture_init(cli_capture_opts *o);
+/* Sets o from one capture option (val from the table above); returns 0, or the exit code
+ * after a message naming cmd. Options of other values are left alone (returns 0). */
+int cli_capture_option(const char *cmd, int val, const char *arg, cli_capture_opts *o);
+/* The checks after parsing: --format goes with --rate. Returns 0 or the exit code. */
+int cli_capture_check(const char *cmd, const cli_capture_opts *o);
+
+#endif
