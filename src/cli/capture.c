@@ -7,6 +7,7 @@
 
 #include "capture.h"
 #include "ulk/sampleio.h"
+#include "ulk/sdls.h"
 #include "ulk/tc_decode.h"
 #include "util.h"
 
@@ -20,6 +21,12 @@ int cli_capture_opt(const char *cmd, int argc, char **argv, int *i, cli_capture_
 {
     const char *a = argv[*i];
     if (!strcmp(a, "--iq")) { o->iq = 1; return 1; }
+    if (!strcmp(a, "--keys") || !strcmp(a, "--state")) {
+        if (*i + 1 >= argc) { fprintf(stderr, "ulk %s: %s needs a value\n", cmd, a); return -1; }
+        if (a[2] == 'k') o->keys_path = argv[++*i];
+        else o->state_path = argv[++*i];
+        return 1;
+    }
     int is_rate = !strcmp(a, "--rate"), is_fmt = !strcmp(a, "--format"), is_ch = !strcmp(a, "--channel");
     int is_mode = !strcmp(a, "--mode"), is_off = !strcmp(a, "--max-offset");
     if (!is_rate && !is_fmt && !is_ch && !is_mode && !is_off) return 0;
@@ -89,6 +96,10 @@ static void on_tc_unit(const ulk_tc_unit *t, void *user)
     cw->seq_count = t->seq_count;
     cw->frame_seq = t->frame_seq;
     cw->n_corrected = t->n_corrected;
+    cw->secured = t->secured;
+    cw->sec_verdict = (int)t->sec_verdict;
+    cw->spi = t->spi;
+    cw->iv_counter = (unsigned long long)t->iv_counter;
     ulk_decoded *d = &cw->dec;
     d->status = t->status == ULK_TC_ACCEPTED ? ULK_WORD_ACCEPTED : ULK_WORD_REJECTED;
     d->reject = t->reject;
@@ -379,10 +390,56 @@ static int cx_setup(cx_src *x, const ulk_dict *dict, const char *path, const cha
     return 0;
 }
 
+/* Keys, receive state and verifier of a secured link (docs/sdls.md). */
+typedef struct {
+    ulk_sdls_keys *keys;
+    ulk_sdls_state *state;
+    ulk_sdls_rx *rx;
+} sec_ctx;
+
+static void sec_free(sec_ctx *s)
+{
+    ulk_sdls_rx_destroy(s->rx);
+    ulk_sdls_state_destroy(s->state);
+    ulk_sdls_keys_destroy(s->keys);
+    memset(s, 0, sizeof *s);
+}
+
+static int sec_setup(const ulk_dict *dict, const cli_capture_opts *o, sec_ctx *s, cli_capture *out, ulk_diag *diag)
+{
+    const ulk_sdls_sa *sa = &dict->link.tc.security;
+    out->secured = sa->enabled;
+    if (!sa->enabled) {
+        if (o->keys_path || o->state_path)
+            return ulk_fail(diag, ULK_EINVAL, "the dictionary has no link.tc.security: --keys and --state have nothing to do");
+        return 0;
+    }
+    if (!o->keys_path) {
+        if (o->state_path) return ulk_fail(diag, ULK_EINVAL, "--state needs --keys (only authenticated frames move the window)");
+        return 0;
+    }
+    int rc = ulk_sdls_keys_load(o->keys_path, &s->keys, diag);
+    int created = 0;
+    if (rc >= 0 && o->state_path) rc = ulk_sdls_state_load(o->state_path, ULK_SDLS_RECEIVE, &s->state, &created, diag);
+    if (rc >= 0) rc = ulk_sdls_rx_create(sa, s->keys, s->state, &s->rx, diag);
+    if (rc < 0) {
+        sec_free(s);
+        return rc;
+    }
+    if (created)
+        fprintf(stderr, "notice: %s does not exist: a new receive-side state starts with no counter accepted for SPI %u\n",
+                o->state_path, (unsigned)sa->spi);
+    out->authenticated = 1;
+    return 0;
+}
+
 int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture_opts *o, cli_capture *out,
                        ulk_diag *diag)
 {
+    sec_ctx sec = {NULL, NULL, NULL};
     memset(out, 0, sizeof *out);
+    if (dict->link.profile != ULK_PROFILE_CCSDS_TC && (o->keys_path || o->state_path))
+        return ulk_fail(diag, ULK_EINVAL, "--keys and --state are for ccsds-tc links with link.tc.security");
     ulk_sample_info hint;
     memset(&hint, 0, sizeof hint);
     hint.fs_hz = o->rate_hz;
@@ -447,7 +504,11 @@ int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture
         dopt.on_word = NULL;
         dopt.on_soft = on_tc_soft;
         rc = ulk_tc_decoder_create(dict, on_tc_unit, x, &x->tc, diag);
+        if (rc >= 0) rc = sec_setup(dict, o, &sec, out, diag);
+        if (rc >= 0 && sec.rx) ulk_tc_decoder_set_security(x->tc, sec.rx);
         if (rc < 0) {
+            ulk_tc_decoder_destroy(x->tc);
+            sec_free(&sec);
             ulk_free(x);
             cx_free(&cx);
             ulk_reader_close(r);
@@ -457,6 +518,7 @@ int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture
     rc = ulk_demod_create(&front, info->fs_hz, &dopt, &d, diag);
     if (rc < 0) {
         ulk_tc_decoder_destroy(x->tc);
+        sec_free(&sec);
         ulk_free(x);
         cx_free(&cx);
         ulk_reader_close(r);
@@ -507,8 +569,11 @@ int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture
             if (rc < 0) goto done;
         }
     }
+    /* the receive window moves only when the whole capture was decoded */
+    if (sec.state && (rc = ulk_sdls_state_save(sec.state, o->state_path, diag)) < 0) goto done;
     rc = 0;
 done:
+    sec_free(&sec);
     cx_free(&cx);
     ulk_free(buf);
     ulk_demod_destroy(d);

@@ -23,6 +23,9 @@ typedef struct {
     double max_offset_hz;  /* --max-offset HZ: coarse carrier search +-; 0 = 5000 */
     const char *voice_path;/* decode --voice OUT.wav: FM voice demodulated to a WAV file */
     int ranging;           /* decode --ranging: code phase of the ranging channel */
+    /* ccsds-tc with link.tc.security (ulk/sdls.h, docs/sdls.md): */
+    const char *keys_path; /* --keys FILE: authenticate every frame; NULL = secured, not authenticated */
+    const char *state_path;/* --state STATE: receive-side anti-replay window, read and saved back */
     ulk_demod_soft_fn on_soft; /* optional, for plots */
     void (*on_word)(double t_s, double margin, int accepted, void *user);
     void *user;
@@ -37,6 +40,10 @@ typedef struct {
     uint8_t frame_seq;       /* N(S) */
     int n_corrected;         /* codeblocks with one bit corrected */
     char *data_hex;          /* packet data field (opcode, arguments) in hex, "" when not read; owned */
+    int secured;             /* the frame carried SDLS fields: */
+    int sec_verdict;         /* ulk_sdls_verdict: 0 authenticated, 1 not checked (no keys), else rejected */
+    unsigned spi;
+    unsigned long long iv_counter;
 } cli_word;
 
 typedef struct {
@@ -55,15 +62,19 @@ typedef struct {
     ulk_ranging_result ranging;
     int voice_rate_hz;       /* voice WAV written (0: not asked) */
     uint64_t voice_samples;
+    int secured;             /* the link has security: */
+    int authenticated;       /* 1 when --keys was given (frames verified) */
 } cli_capture;
 
 /* Parses one capture option at argv[*i] ("--rate", "--format", "--channel", "--iq", "--mode",
- * "--max-offset"); returns 1 when it
+ * "--max-offset", "--keys", "--state"); returns 1 when it
  * was one (and advances *i past its value), 0 when not, -1 on a bad value (message printed,
  * prefixed with cmd). */
 int cli_capture_opt(const char *cmd, int argc, char **argv, int *i, cli_capture_opts *o);
 
-/* Reads path, demodulates with dict's link and interprets every word. A complex capture (a
+/* Reads path, demodulates with dict's link and interprets every word. With o->keys_path the
+ * frames of a secured link are authenticated (and o->state_path's receive window used and
+ * saved back atomically after a successful decode; created with a notice when absent). A complex capture (a
  * .cf32/.ci16 or complex .sigmf-data, or a two-channel WAV with o->iq) goes through carrier
  * recovery first: the data channel is the quadrature of the de-rotated signal (sin of the
  * composite phase) divided by the mode's data index;

@@ -16,6 +16,7 @@
 #include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/plot.h"
+#include "ulk/sdls.h"
 #include "util.h"
 
 static void usage(FILE *out)
@@ -24,6 +25,7 @@ static void usage(FILE *out)
             "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png]\n"
             "                  [--rate HZ --format f32|s16] [--channel N]\n"
             "                  [--iq] [--mode NAME] [--max-offset HZ] [--voice OUT.wav] [--ranging]\n"
+            "                  [--keys FILE [--state STATE]]\n"
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
@@ -40,6 +42,12 @@ static void usage(FILE *out)
             "  --rate HZ               sample rate of a raw capture\n"
             "  --format f32|s16        sample type of a raw capture\n"
             "  --channel N             channel of a multi-channel WAV (0 = first)\n"
+            "  --keys FILE             key file (NAME HEX, mode 0600): authenticate every frame of a\n"
+            "                          dictionary with link.tc.security (without it: secured, not\n"
+            "                          authenticated)\n"
+            "  --state STATE           receive-side anti-replay window, saved back after the decode\n"
+            "                          (created when absent); a frame not above the last accepted\n"
+            "                          counter is 'replayed'\n"
             "complex captures of the composite carrier (.cf32/.ci16 with SigMF, or a two-channel\n"
             "WAV with --iq; the dictionary's carrier section, docs/carrier.md):\n"
             "  --iq                    a two-channel WAV is I (left) and Q (right)\n"
@@ -57,7 +65,8 @@ static void usage(FILE *out)
             "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
             "measured against the capture's sample clock.\n"
-            "\nexit: 0 words found, 1 no word found, 2 usage, dictionary or I/O error\n");
+            "\nexit: 0 words found, 1 no word found (secured link: no command accepted), 2 usage,\n"
+            "dictionary, key file or I/O error\n");
 }
 
 typedef struct {
@@ -144,6 +153,19 @@ static int print_json(const cli_capture *c)
             ok &= cJSON_AddNumberToObject(o, "sequence_count", w->seq_count) != NULL;
             ok &= cJSON_AddNumberToObject(o, "frame_sequence", w->frame_seq) != NULL;
             ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", w->n_corrected) != NULL;
+            if (w->secured) {
+                /* "authenticated", "not authenticated" (no --keys) or the rejection */
+                cJSON *sj = cJSON_AddObjectToObject(o, "security");
+                ok &= sj != NULL;
+                if (sj) {
+                    ok &= cJSON_AddNumberToObject(sj, "spi", w->spi) != NULL;
+                    ok &= cJSON_AddNumberToObject(sj, "iv_counter", (double)w->iv_counter) != NULL;
+                    ok &= cJSON_AddStringToObject(sj, "verdict",
+                                                  w->sec_verdict == ULK_SDLS_ACCEPTED    ? "authenticated"
+                                                  : w->sec_verdict == ULK_SDLS_UNCHECKED ? "not authenticated"
+                                                                                         : ulk_sdls_verdict_str((ulk_sdls_verdict)w->sec_verdict)) != NULL;
+                }
+            }
         }
         snprintf(buf, sizeof buf, "%.3f", w->dw.margin);
         ok &= add_item(o, "margin", cJSON_CreateRaw(buf));
@@ -223,7 +245,11 @@ static void print_human(const char *path, const cli_capture *c)
         if (w->dec.status == ULK_WORD_ACCEPTED) {
             acc++;
             ulk_decoded_format(&w->dec, line, sizeof line);
-            if (w->tc)
+            if (w->tc && w->secured)
+                printf("%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected, SPI %u IV %llu %s\n", w->dw.start_s,
+                       line, w->dec.system, w->seq_count, w->frame_seq, w->n_corrected, w->spi, w->iv_counter,
+                       w->sec_verdict == ULK_SDLS_ACCEPTED ? "authenticated" : "secured, NOT authenticated");
+            else if (w->tc)
                 printf("%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", w->dw.start_s, line,
                        w->dec.system, w->seq_count, w->frame_seq, w->n_corrected);
             else
@@ -240,6 +266,10 @@ static void print_human(const char *path, const cli_capture *c)
     printf("%zu %s%s: %zu accepted, %zu rejected", c->n, tc ? "CLTU" : "word", c->n == 1 ? "" : "s", acc, c->n - acc);
     if (c->est.n_truncated) printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->est.n_truncated);
     printf("\n");
+    if (c->secured && !c->authenticated)
+        printf("security: frames are secured but NOT authenticated (no --keys given)\n");
+    else if (c->secured)
+        printf("security: every frame verified with the key (MAC) and the anti-replay window\n");
 }
 
 int cmd_decode(int argc, char **argv)
@@ -307,6 +337,12 @@ int cmd_decode(int argc, char **argv)
         print_human(capture, &c);
     }
     ret = c.n > 0 ? 0 : 1;
+    if (c.secured) {
+        /* a secured link: success is an accepted command, not just a CLTU found */
+        size_t acc = 0;
+        for (size_t i = 0; i < c.n; i++) acc += c.w[i].dec.status == ULK_WORD_ACCEPTED;
+        if (!acc) ret = 1;
+    }
     if (plot_path) {
         char title[512];
         snprintf(title, sizeof title, "%s (%s)", capture, dict->name ? dict->name : dict_path);

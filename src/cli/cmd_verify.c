@@ -21,6 +21,7 @@ static void usage(FILE *out)
     fprintf(out,
             "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
             "                  [--rate HZ --format f32|s16] [--channel N] [--iq] [--mode NAME]\n"
+            "                  [--keys FILE [--state STATE]]\n"
             "\n"
             "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
@@ -38,6 +39,8 @@ static void usage(FILE *out)
             "  --json             machine-readable report\n"
             "  --rate HZ, --format f32|s16, --channel N   as for ulk decode\n"
             "  --iq, --mode NAME, --max-offset HZ         complex captures, as for ulk decode\n"
+            "  --keys FILE, --state STATE                 authenticate the frames of a secured\n"
+            "                     link, as for ulk decode (a frame that fails is 'rejected')\n"
             "  -h, --help         this text\n"
             "\nexit: 0 the capture holds exactly the upload; 1 it does not; 2 usage or I/O error,\n"
             "      or the upload was compiled with another dictionary (refused, nothing compared)\n");
