@@ -885,7 +885,7 @@ int ulk_sdls_secure_upload(struct ulk_upload *u, const ulk_sdls_keys *keys, uint
                         (unsigned)sa->spi, first, u->n_cmds);
     for (size_t i = 0; i < u->n_cmds; i++) {
         ulk_upload_cmd *c = &u->cmds[i];
-        char why[160];
+        char why[160] = "CLTU build failed";
         int rc = ulk_sdls_protect(&T->frame, sa, keys, first + i, c->frame, c->n_frame, why, sizeof why);
         size_t nc = 0;
         if (!rc) rc = ulk_cltu_build(&T->frame, c->frame, c->n_frame, c->cltu, c->n_cltu, &nc);

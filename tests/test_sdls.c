@@ -23,8 +23,12 @@
 #include <cmocka.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/cmdlist.h"
+#include "ulk/dict.h"
 #include "ulk/error.h"
 #include "ulk/sdls.h"
+#include "ulk/tc_decode.h"
+#include "ulk/upload.h"
 
 static size_t unhex(const char *s, uint8_t *out)
 {
@@ -398,6 +402,111 @@ static void test_state_file(void **state)
     rmdir(dir);
 }
 
+/* ---- the decoder hook: the secured demo compiled, secured, its CLTUs fed as channel symbols ---- */
+
+typedef struct {
+    int n, accepted;
+    int verdicts[8]; /* per ulk_sdls_verdict */
+    uint64_t counters[32];
+} unit_log;
+
+static void on_unit(const ulk_tc_unit *u, void *user)
+{
+    unit_log *g = user;
+    if (!u->secured) fail_msg("a unit of a secured link is not marked secured (%s)", u->reason);
+    if (g->n < 32) g->counters[g->n] = u->iv_counter;
+    g->n++;
+    g->accepted += u->status == ULK_TC_ACCEPTED;
+    g->verdicts[u->sec_verdict]++;
+}
+
+/* Feeds the upload's CLTUs with 64 idle bits around each as +-1 symbols. */
+static void feed(const ulk_dict *d, const ulk_upload *u, ulk_sdls_rx *rx, unit_log *g)
+{
+    ulk_tc_decoder *t = NULL;
+    assert_int_equal(ulk_tc_decoder_create(d, on_unit, g, &t, NULL), 0);
+    if (rx) assert_int_equal(ulk_tc_decoder_set_security(t, rx), 0);
+    static double ts[1 << 16];
+    static float sv[1 << 16];
+    size_t n = 0;
+    for (size_t i = 0; i < u->n_cmds; i++) {
+        for (int k = 0; k < 64; k++, n++) sv[n] = (k & 1) ? 1.0f : -1.0f;
+        const ulk_upload_cmd *c = &u->cmds[i];
+        for (size_t b = 0; b < 8 * c->n_cltu; b++, n++) sv[n] = (c->cltu[b / 8] >> (7 - b % 8) & 1) ? 1.0f : -1.0f;
+    }
+    for (int k = 0; k < 64; k++, n++) sv[n] = (k & 1) ? 1.0f : -1.0f;
+    for (size_t i = 0; i < n; i++) ts[i] = (double)i / 2000.0;
+    assert_int_equal(ulk_tc_decoder_push(t, ts, sv, n), 0);
+    assert_int_equal(ulk_tc_decoder_finish(t), 0);
+    ulk_tc_decoder_destroy(t);
+}
+
+static void test_decoder_hook(void **state)
+{
+    (void)state;
+    ulk_diag *dg = ulk_diag_create();
+    ulk_dict *d = NULL;
+    if (ulk_dict_load(ULK_SOURCE_DIR "/dictionaries/demo-ccsds-sec.yaml", &d, dg)) {
+        ulk_diag_print(dg, stderr);
+        fail_msg("the secured demo does not load");
+    }
+    static const char list[] = "OBC_PING\nOBC_PING\nOBC_SET_MODE mode=RELAY\nRELAY_STOP\n";
+    ulk_cmdlist *l = NULL;
+    ulk_upload *u = NULL;
+    assert_int_equal(ulk_cmdlist_parse("t.cmd", list, sizeof list - 1, &l, dg), 0);
+    assert_int_equal(ulk_compile(d, l, &u, dg), 0);
+    ulk_sdls_keys *k = keys_of("harrowick3-uplink " KEY_A "\n"), *other = keys_of("harrowick3-uplink " KEY_B "\n");
+    assert_int_equal(ulk_sdls_secure_upload(u, k, 40, dg), 0);
+    const ulk_sdls_sa *sa = &d->link.tc.security;
+
+    /* the right key, a receive state: 4 accepted, counters 40..43, the state records 43 */
+    ulk_sdls_state *st = NULL;
+    assert_int_equal(ulk_sdls_state_create(ULK_SDLS_RECEIVE, &st), 0);
+    assert_int_equal(ulk_sdls_state_set(st, sa->spi, 39), 0);
+    ulk_sdls_rx *rx = NULL;
+    assert_int_equal(ulk_sdls_rx_create(sa, k, st, &rx, NULL), 0);
+    unit_log g;
+    memset(&g, 0, sizeof g);
+    feed(d, u, rx, &g);
+    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SDLS_ACCEPTED] != 4 || g.counters[0] != 40 || g.counters[3] != 43)
+        fail_msg("right key: %d units, %d accepted, first counter %llu", g.n, g.accepted, (unsigned long long)g.counters[0]);
+    assert_int_equal(ulk_sdls_state_value(st, sa->spi), 43);
+    /* the same frames again with that state: all replayed */
+    memset(&g, 0, sizeof g);
+    feed(d, u, rx, &g);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_REPLAYED] != 4) fail_msg("again: %d of 4 replayed", g.verdicts[ULK_SDLS_REPLAYED]);
+    ulk_sdls_rx_destroy(rx);
+    /* another key: all fail authentication */
+    rx = NULL;
+    assert_int_equal(ulk_sdls_rx_create(sa, other, NULL, &rx, NULL), 0);
+    memset(&g, 0, sizeof g);
+    feed(d, u, rx, &g);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_AUTH_FAILED] != 4) fail_msg("another key: %d of 4 failed", g.verdicts[ULK_SDLS_AUTH_FAILED]);
+    ulk_sdls_rx_destroy(rx);
+    /* a receiver whose window (4 here) above its last accepted counter 0 ends below 40 */
+    ulk_sdls_sa narrow = *sa;
+    narrow.window = 4;
+    assert_int_equal(ulk_sdls_state_set(st, sa->spi, 0), 0);
+    rx = NULL;
+    assert_int_equal(ulk_sdls_rx_create(&narrow, k, st, &rx, NULL), 0);
+    memset(&g, 0, sizeof g);
+    feed(d, u, rx, &g);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_OUTSIDE_WINDOW] != 4)
+        fail_msg("window 4 above 0: %d of 4 outside the window", g.verdicts[ULK_SDLS_OUTSIDE_WINDOW]);
+    ulk_sdls_rx_destroy(rx);
+    ulk_sdls_state_destroy(st);
+    /* no verifier: secured, not authenticated, the commands shown (service authentication) */
+    memset(&g, 0, sizeof g);
+    feed(d, u, NULL, &g);
+    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SDLS_UNCHECKED] != 4) fail_msg("no keys: %d of 4 unchecked", g.verdicts[ULK_SDLS_UNCHECKED]);
+    ulk_sdls_keys_destroy(k);
+    ulk_sdls_keys_destroy(other);
+    ulk_upload_destroy(u);
+    ulk_cmdlist_destroy(l);
+    ulk_dict_destroy(d);
+    ulk_diag_destroy(dg);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -407,6 +516,7 @@ int main(void)
         cmocka_unit_test(test_sa_check_rows),
         cmocka_unit_test(test_frame_layout_and_verdicts),
         cmocka_unit_test(test_state_file),
+        cmocka_unit_test(test_decoder_hook),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
