@@ -470,23 +470,38 @@ static void test_allocation_failures(void **st)
 static void test_demo_yaml_json_same_model(void **st)
 {
     (void)st;
-    const char *y = ULK_SOURCE_DIR "/dictionaries/demo-ccsds.yaml";
-    const char *j = ULK_SOURCE_DIR "/dictionaries/demo-ccsds.json";
-    ulk_diag *dg = ulk_diag_create();
-    ulk_dict *dy = NULL, *dj = NULL;
-    assert_int_equal(ulk_dict_load(y, &dy, dg), 0);
-    assert_int_equal(ulk_dict_load(j, &dj, dg), 0);
-    if (ulk_diag_count(dg)) {
-        ulk_diag_print(dg, stderr);
-        fail_msg("the demo pair has findings");
+    /* the demo pair and its secured variant's pair (docs/sdls.md) */
+    static const char *const pairs[][2] = {
+        {ULK_SOURCE_DIR "/dictionaries/demo-ccsds.yaml", ULK_SOURCE_DIR "/dictionaries/demo-ccsds.json"},
+        {ULK_SOURCE_DIR "/dictionaries/demo-ccsds-sec.yaml", ULK_SOURCE_DIR "/dictionaries/demo-ccsds-sec.json"},
+    };
+    char first_sha[65] = "";
+    for (int p = 0; p < 2; p++) {
+        ulk_diag *dg = ulk_diag_create();
+        ulk_dict *dy = NULL, *dj = NULL;
+        assert_int_equal(ulk_dict_load(pairs[p][0], &dy, dg), 0);
+        assert_int_equal(ulk_dict_load(pairs[p][1], &dj, dg), 0);
+        if (ulk_diag_count(dg)) {
+            ulk_diag_print(dg, stderr);
+            fail_msg("the demo pair %s has findings", pairs[p][0]);
+        }
+        assert_int_equal(dy->link.profile, ULK_PROFILE_CCSDS_TC);
+        assert_string_equal(dy->sha256, dj->sha256);
+        assert_memory_equal(&dy->link, &dj->link, sizeof dy->link);
+        assert_true(dy->n_commands >= 12);
+        assert_int_equal(dy->link.tc.security.enabled, p);
+        if (p == 0) snprintf(first_sha, sizeof first_sha, "%s", dy->sha256);
+        else if (!strcmp(first_sha, dy->sha256)) fail_msg("the secured demo has the plain demo's hash");
+        if (p == 1) {
+            assert_int_equal(dy->link.tc.security.spi, 0x0101);
+            assert_string_equal(dy->link.tc.security.key, "harrowick3-uplink");
+            assert_int_equal(dy->link.tc.frame.sec_header_octets, 14);
+            assert_int_equal(dy->link.tc.frame.sec_trailer_octets, 16);
+        }
+        ulk_dict_destroy(dy);
+        ulk_dict_destroy(dj);
+        ulk_diag_destroy(dg);
     }
-    assert_int_equal(dy->link.profile, ULK_PROFILE_CCSDS_TC);
-    assert_string_equal(dy->sha256, dj->sha256);
-    assert_memory_equal(&dy->link, &dj->link, sizeof dy->link);
-    assert_true(dy->n_commands >= 12);
-    ulk_dict_destroy(dy);
-    ulk_dict_destroy(dj);
-    ulk_diag_destroy(dg);
 }
 
 int main(void)
