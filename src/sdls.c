@@ -14,6 +14,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/file.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -771,6 +772,40 @@ int ulk_sdls_state_save(const ulk_sdls_state *s, const char *path, ulk_diag *dia
         ulk_free(dir);
     }
     return 0;
+}
+
+int ulk_sdls_state_lock(const char *path, ulk_diag *diag)
+{
+    if (!path) return ULK_EINVAL;
+    size_t n = strlen(path);
+    char *lp = ulk_malloc(n + 6);
+    if (!lp) return ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
+    memcpy(lp, path, n);
+    memcpy(lp + n, ".lock", 6);
+    int fd = open(lp, O_RDWR | O_CREAT | O_CLOEXEC, 0600);
+    if (fd < 0) {
+        int e = errno;
+        int rc = ulk_fail(diag, ULK_EIO, "%s: cannot create the state's lock file: %s", lp, strerror(e));
+        ulk_free(lp);
+        return rc;
+    }
+    if (flock(fd, LOCK_EX | LOCK_NB) != 0) {
+        int e = errno;
+        close(fd);
+        int rc = e == EWOULDBLOCK
+                     ? ulk_fail(diag, ULK_EIO, "%s: in use by another ulk run (%s is locked); try again when it has finished",
+                                path, lp)
+                     : ulk_fail(diag, ULK_EIO, "%s: cannot lock %s: %s", path, lp, strerror(e));
+        ulk_free(lp);
+        return rc;
+    }
+    ulk_free(lp);
+    return fd;
+}
+
+void ulk_sdls_state_unlock(int fd)
+{
+    if (fd >= 0) close(fd); /* closing releases the flock */
 }
 
 /* ---------------------------------------------------------------- receiving side */

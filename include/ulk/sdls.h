@@ -192,6 +192,12 @@ int ulk_sdls_state_reservation(const ulk_sdls_state *s, uint16_t spi, uint64_t *
  * Returns 0 or ULK_EIO / ULK_ENOMEM (message in diag); on failure path is unchanged. */
 int ulk_sdls_state_save(const ulk_sdls_state *s, const char *path, ulk_diag *diag);
 void ulk_sdls_state_destroy(ulk_sdls_state *s); /* NULL does nothing */
+/* Two runs on one state file would read the same counters: a run takes an exclusive lock on
+ * "<path>.lock" (created beside the state, mode 0600, left in place) before loading the state
+ * and keeps it until after saving. Returns the lock's descriptor (>= 0), or ULK_EIO when
+ * another process holds it ("in use") or it cannot be created (message in diag). */
+int ulk_sdls_state_lock(const char *path, ulk_diag *diag);
+void ulk_sdls_state_unlock(int fd); /* fd < 0 does nothing */
 
 /* ---- receiving side ---- */
 typedef struct ulk_sdls_rx ulk_sdls_rx;

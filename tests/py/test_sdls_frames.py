@@ -19,6 +19,7 @@ distinct and contiguous; a failed compile leaves the state unchanged; a group-re
 file and a secured dictionary without --keys are refused; no key material appears in the
 upload, the state or any message.
 """
+import fcntl
 import json
 import os
 import re
@@ -237,6 +238,21 @@ def main():
             check(cs and cs[0] == 73, "after an unfinished reservation the counters go on at 73")
         # the state file is private
         check(stat.S_IMODE(os.stat(state).st_mode) == 0o600, "the state file is mode 0600")
+        # two runs on one state would read the same counters: a second one is refused while
+        # the first holds the state's lock (held here with flock, as ulk takes it)
+        with open(state, encoding="utf-8") as f:
+            before = f.read()
+        lockf = open(state + ".lock", "a")
+        fcntl.flock(lockf, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        busy = os.path.join(tmp, "busy.ulku")
+        rc, out, err = run("compile", "--dict", dict_path, cmd_path, "-o", busy, "--keys", keys, "--state", state)
+        fcntl.flock(lockf, fcntl.LOCK_UN)
+        lockf.close()
+        with open(state, encoding="utf-8") as f:
+            check(rc == 2 and "in use by another ulk run" in err and f.read() == before and not os.path.exists(busy),
+                  "a locked state is refused, nothing written (exit %d) %s" % (rc, err))
+        rc, out, err = run("compile", "-q", "--dict", dict_path, cmd_path, "-o", busy, "--keys", keys, "--state", state)
+        check(rc == 0, "after the lock is released compile runs: %s" % err)
 
         # refusals
         rc, out, err = run("compile", "--dict", dict_path, cmd_path, "-o", os.path.join(tmp, "x.ulku"))
