@@ -395,6 +395,7 @@ typedef struct {
     ulk_sdls_keys *keys;
     ulk_sdls_state *state;
     ulk_sdls_rx *rx;
+    int lock_fd;
 } sec_ctx;
 
 static void sec_free(sec_ctx *s)
@@ -402,7 +403,9 @@ static void sec_free(sec_ctx *s)
     ulk_sdls_rx_destroy(s->rx);
     ulk_sdls_state_destroy(s->state);
     ulk_sdls_keys_destroy(s->keys);
+    ulk_sdls_state_unlock(s->lock_fd);
     memset(s, 0, sizeof *s);
+    s->lock_fd = -1;
 }
 
 static int sec_setup(const ulk_dict *dict, const cli_capture_opts *o, sec_ctx *s, cli_capture *out, ulk_diag *diag)
@@ -420,6 +423,7 @@ static int sec_setup(const ulk_dict *dict, const cli_capture_opts *o, sec_ctx *s
     }
     int rc = ulk_sdls_keys_load(o->keys_path, &s->keys, diag);
     int created = 0;
+    if (rc >= 0 && o->state_path && (s->lock_fd = ulk_sdls_state_lock(o->state_path, diag)) < 0) rc = s->lock_fd;
     if (rc >= 0 && o->state_path) rc = ulk_sdls_state_load(o->state_path, ULK_SDLS_RECEIVE, &s->state, &created, diag);
     if (rc >= 0) rc = ulk_sdls_rx_create(sa, s->keys, s->state, &s->rx, diag);
     if (rc < 0) {
@@ -436,7 +440,7 @@ static int sec_setup(const ulk_dict *dict, const cli_capture_opts *o, sec_ctx *s
 int cli_capture_decode(const ulk_dict *dict, const char *path, const cli_capture_opts *o, cli_capture *out,
                        ulk_diag *diag)
 {
-    sec_ctx sec = {NULL, NULL, NULL};
+    sec_ctx sec = {NULL, NULL, NULL, -1};
     memset(out, 0, sizeof *out);
     if (dict->link.profile != ULK_PROFILE_CCSDS_TC && (o->keys_path || o->state_path))
         return ulk_fail(diag, ULK_EINVAL, "--keys and --state are for ccsds-tc links with link.tc.security");

@@ -85,6 +85,7 @@ int cmd_compile(int argc, char **argv)
     ulk_sdls_keys *keys = NULL;
     ulk_sdls_state *state = NULL;
     uint64_t first = 0;
+    int lock_fd = -1;
     int exit_code = 0;
 
     int rc = ulk_dict_load(dict_path, &dict, diag);
@@ -112,7 +113,7 @@ int cmd_compile(int argc, char **argv)
     }
     if (keys_path) {
         int created = 0;
-        if (ulk_sdls_keys_load(keys_path, &keys, diag) < 0 ||
+        if (ulk_sdls_keys_load(keys_path, &keys, diag) < 0 || (lock_fd = ulk_sdls_state_lock(state_path, diag)) < 0 ||
             ulk_sdls_state_load(state_path, ULK_SDLS_SEND, &state, &created, diag) < 0) {
             ulk_diag_print(diag, stderr);
             fprintf(stderr, "ulk compile: no upload written\n");
@@ -216,6 +217,7 @@ int cmd_compile(int argc, char **argv)
                 printf("    line %d: %s (word %zu)\n", up->cmds[i].line, up->cmds[i].mnemonic, i + 1);
     }
 done:
+    ulk_sdls_state_unlock(lock_fd);
     ulk_sdls_keys_destroy(keys);
     ulk_sdls_state_destroy(state);
     ulk_upload_destroy(up);
