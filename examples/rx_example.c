@@ -36,6 +36,9 @@ static int print_event(const ulk_rx_event *ev, void *user)
     case ULK_RX_WARNING:
         fprintf(stderr, "warning: %s\n", ev->text);
         break;
+    case ULK_RX_NOTICE:
+        fprintf(stderr, "notice: %s\n", ev->text);
+        break;
     case ULK_RX_ESTIMATES:
         if (ev->est->demod.signal_found)
             printf("estimates: E_b/N_0 %.1f dB, subcarrier %.3f Hz, clock error %+.1f ppm, %.3f s\n",

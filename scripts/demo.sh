@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # scripts/demo.sh ULK - the whole job on the bundled demo: validate, compile, inspect,
 # modulate (samples and timing table), impair (noise, clock error, delay, inversion),
-# decode and verify; then the same on the ccsds-tc demo (dictionaries/demo-ccsds.*).
+# decode and verify; then the same on the ccsds-tc demo (dictionaries/demo-ccsds.*) and on its
+# authenticated variant (dictionaries/demo-ccsds-sec.*, with a demo key file made here).
 # Outputs go to out/demo/. Exits non-zero when any step fails.
 set -euo pipefail
 ulk=${1:-build/ulk}
@@ -44,6 +45,27 @@ step "ccsds-tc: impair: Eb/N0 12 dB, -120 ppm clock, 0.2 s leading noise, invert
 step "ccsds-tc: decode the impaired capture blind" "$u decode --dict $tdict $out/demo-ccsds-rx.wav | head -n 40"
 step "ccsds-tc: verify the capture against the upload" \
   "$u verify --dict $tdict --upload $out/demo-ccsds.ulku $out/demo-ccsds-rx.wav"
+# Authenticated commanding on the CCSDS profile (dictionaries/demo-ccsds-sec.yaml,
+# docs/sdls.md): every frame carries SPI, IV and an AES-256-GCM MAC. The key file is a DEMO
+# key made here from /dev/urandom, mode 0600, kept beside its counters in out/demo/.
+sdict=dictionaries/demo-ccsds-sec.yaml
+skeys=$out/demo-sec.keys
+step "secured ccsds-tc: create a DEMO key file, mode 0600 (a demo key: never use it for a real vehicle)" \
+  "test -f $skeys || (umask 077 && { echo '# DEMO KEY made by scripts/demo.sh for the fictional Harrowick-3 demo only.'; echo '# It protects nothing real: never use it for a real vehicle. NAME HEX (AES-256).'; printf 'harrowick3-uplink %s\\n' \"\$(od -An -tx1 -N32 /dev/urandom | tr -d ' \\n')\"; } >$skeys); chmod 600 $skeys; ls -l $skeys"
+step "secured ccsds-tc: validate the dictionary (YAML and JSON)" "$u validate $sdict dictionaries/demo-ccsds-sec.json"
+step "secured ccsds-tc: compile with the key; IV counters from the send-side state" \
+  "$u compile --dict $sdict $tlist -o $out/demo-sec.ulku --keys $skeys --state $out/demo-sec-tx.state"
+step "secured ccsds-tc: inspect (SPI, IV counter and MAC per frame)" "$u inspect $out/demo-sec.ulku | head -n 16"
+step "secured ccsds-tc: modulate to a 48 kHz WAV" "$u modulate $out/demo-sec.ulku -o $out/demo-sec.wav --rate 48000"
+step "secured ccsds-tc: impair: Eb/N0 12 dB, +60 ppm clock, 0.1 s leading noise, inverted" \
+  "$u impair $out/demo-sec.wav -o $out/demo-sec-rx.wav --dict $sdict --ebn0 12 --ppm 60 --delay 0.1 --invert --seed 3"
+rm -f "$out/demo-sec-rx.state"
+step "secured ccsds-tc: decode with the key: every frame authenticated (receive state kept)" \
+  "$u decode --dict $sdict $out/demo-sec-rx.wav --keys $skeys --state $out/demo-sec-rx.state | tail -n 6"
+step "secured ccsds-tc: the same capture again with that state: every frame replayed (decode exits 1)" \
+  "$u decode --dict $sdict $out/demo-sec-rx.wav --keys $skeys --state $out/demo-sec-rx.state | tail -n 4; test \${PIPESTATUS[0]} -eq 1"
+step "secured ccsds-tc: verify the capture against the upload with the key" \
+  "$u verify --dict $sdict --upload $out/demo-sec.ulku $out/demo-sec-rx.wav --keys $skeys"
 step "composite carrier: power division and margins per mode" "$u plan $dict --plot $out/plan.svg"
 step "composite carrier: complex baseband of mode 'full' (data, voice, ranging)" \
   "$u modulate $out/demo.ulku --carrier --mode full --dict $dict -o $out/demo-full.cf32 --rate 192000"

@@ -23,7 +23,7 @@ case "$mode" in
 esac
 case "$secs" in ''|*[!0-9]*) echo "fuzz.sh: seconds must be a whole number" >&2; exit 2 ;; esac
 
-targets="fuzz_dict_yaml fuzz_dict_json fuzz_cmdlist fuzz_upload fuzz_capture"
+targets="fuzz_dict_yaml fuzz_dict_json fuzz_cmdlist fuzz_upload fuzz_capture fuzz_sdls"
 [ -n "$only" ] && targets=$only
 bdir=${FUZZ_BUILD:-build-fuzz}
 ncpu=$(nproc 2>/dev/null || echo 1)

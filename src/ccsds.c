@@ -57,13 +57,17 @@ int ulk_ccsds_tc_check(const ulk_ccsds_tc *tc, char *err, size_t errlen)
         return tc_fail(err, errlen, "start_errors must be 0 or 1");
     if (tc->correction != ULK_BCH_SEC && tc->correction != ULK_BCH_TED)
         return tc_fail(err, errlen, "correction must be sec or ted");
+    if (tc->sec_header_octets > 64 || tc->sec_trailer_octets > 64 ||
+        (tc->sec_header_octets > 0 && tc->sec_header_octets < 3) ||
+        (tc->sec_header_octets == 0 && tc->sec_trailer_octets > 0))
+        return tc_fail(err, errlen, "security header must be 0 or 3..64 octets, trailer 0..64 (0 without header)");
     return ULK_OK;
 }
 
 static size_t frame_overhead(const ulk_ccsds_tc *tc)
 {
-    return ULK_TCF_HDR_OCTETS + (tc->segment_header ? ULK_TCF_SEG_OCTETS : 0) +
-           (tc->fecf ? ULK_TCF_FECF_OCTETS : 0);
+    return ULK_TCF_HDR_OCTETS + (tc->segment_header ? ULK_TCF_SEG_OCTETS : 0) + tc->sec_header_octets +
+           tc->sec_trailer_octets + (tc->fecf ? ULK_TCF_FECF_OCTETS : 0);
 }
 
 size_t ulk_ccsds_max_data_octets(const ulk_ccsds_tc *tc)
@@ -228,8 +232,13 @@ int ulk_tcf_build(const ulk_ccsds_tc *tc, uint8_t seq_num, const uint8_t *data, 
     ulk_tcf_hdr_pack(&h, out);
     size_t pos = ULK_TCF_HDR_OCTETS;
     if (tc->segment_header) out[pos++] = (uint8_t)(3u << 6 | tc->map_id);
+    /* security header and trailer: zero here, filled by ulk_sdls_protect (which redoes the FECF) */
+    memset(out + pos, 0, tc->sec_header_octets);
+    pos += tc->sec_header_octets;
     memcpy(out + pos, data, n_data);
     pos += n_data;
+    memset(out + pos, 0, tc->sec_trailer_octets);
+    pos += tc->sec_trailer_octets;
     if (tc->fecf) {
         uint16_t c = ulk_tcf_crc16(out, pos);
         out[pos++] = (uint8_t)(c >> 8);
@@ -251,7 +260,8 @@ int ulk_tcf_parse(const ulk_ccsds_tc *tc, const uint8_t *f, size_t n, ulk_tcf_fr
     size_t fecf = tc->fecf ? ULK_TCF_FECF_OCTETS : 0;
     if (h->version != 0) { out->verdict = ULK_TCF_VERSION; return ULK_OK; }
     if ((size_t)h->frame_length + 1 != n) { out->verdict = ULK_TCF_LENGTH; return ULK_OK; }
-    if (n < ULK_TCF_HDR_OCTETS + seg + fecf + 1) { out->verdict = ULK_TCF_TOO_SHORT; return ULK_OK; }
+    size_t sech = tc->sec_header_octets, sect = tc->sec_trailer_octets;
+    if (n < ULK_TCF_HDR_OCTETS + seg + sech + sect + fecf + 1) { out->verdict = ULK_TCF_TOO_SHORT; return ULK_OK; }
     if (fecf) {
         out->fecf_received = (uint16_t)(f[n - 2] << 8 | f[n - 1]);
         out->fecf_computed = ulk_tcf_crc16(f, n - 2);
@@ -267,8 +277,8 @@ int ulk_tcf_parse(const ulk_ccsds_tc *tc, const uint8_t *f, size_t n, ulk_tcf_fr
     else if (seg && (out->seg_flags != 3 || out->map_id != tc->map_id)) out->verdict = ULK_TCF_SEGMENT;
     else {
         out->verdict = ULK_TCF_OK;
-        out->data = f + ULK_TCF_HDR_OCTETS + seg;
-        out->n_data = n - ULK_TCF_HDR_OCTETS - seg - fecf;
+        out->data = f + ULK_TCF_HDR_OCTETS + seg + sech;
+        out->n_data = n - ULK_TCF_HDR_OCTETS - seg - sech - sect - fecf;
     }
     return ULK_OK;
 }
@@ -448,6 +458,7 @@ const char *ulk_cltu_verdict_str(ulk_cltu_verdict v)
     case ULK_CLTU_FRAME_HEADER: return "frame header";
     case ULK_CLTU_FECF: return "FECF";
     case ULK_CLTU_PACKET: return "packet";
+    case ULK_CLTU_SECURED: return "secured";
     }
     return "unknown CLTU verdict";
 }
@@ -570,6 +581,18 @@ int ulk_cltu_decode(const ulk_ccsds_tc *tc, const uint8_t *bits, size_t n_bits, 
         return ULK_OK;
     }
 
+    memcpy(res->frame, data, n_frame);
+    res->n_frame = n_frame;
+    /* Resume where the tail belongs, even when a damaged tail made the decoder run on. */
+    size_t n_cb_frame = (L + ULK_CB_INFO_OCTETS - 1) / ULK_CB_INFO_OCTETS;
+    size_t tail_end = cb0 + (n_cb_frame + 1) * ULK_CB_BITS;
+    /* A secured frame's data field is read only after its MAC is verified (ulk/sdls.h). */
+    if (tc->sec_header_octets) {
+        if (tail_end < res->end_bit) res->end_bit = tail_end;
+        set_reason(res, ULK_CLTU_SECURED, "secured frame");
+        return ULK_OK;
+    }
+
     /* 4. The packet fills the frame data field exactly (one packet per frame). */
     ulk_spp_packet pk;
     ulk_spp_parse(fr.data, fr.n_data, &pk);
@@ -581,9 +604,6 @@ int ulk_cltu_decode(const ulk_ccsds_tc *tc, const uint8_t *bits, size_t n_bits, 
     }
     memcpy(res->data, pk.data, pk.n_data);
     res->n_data = pk.n_data;
-    /* Resume where the tail belongs, even when a damaged tail made the decoder run on. */
-    size_t n_cb_frame = (L + ULK_CB_INFO_OCTETS - 1) / ULK_CB_INFO_OCTETS;
-    size_t tail_end = cb0 + (n_cb_frame + 1) * ULK_CB_BITS;
     if (tail_end < res->end_bit) res->end_bit = tail_end;
     res->verdict = ULK_CLTU_ACCEPTED;
     res->reason[0] = 0;

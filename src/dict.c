@@ -573,6 +573,61 @@ static int is_usual_tc_rate(ulk_ratio r)
     return 0;
 }
 
+/* link.tc.security: the Space Data Link Security association (ulk/sdls.h). Key names only:
+ * key material lives in the key file given to compile and decode, never in a dictionary.
+ * When the map is valid the frame layout gets room for the security header and trailer, so
+ * the frame-size rules below count them. */
+static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
+{
+    if (!want_map(c, sn, "link.tc.security")) return;
+    static const char *const sk[] = {"spi", "key", "service", "algorithm", "iv_octets", "mac_octets", "window", NULL};
+    static const char *const sr[] = {"spi", "key", "service", NULL};
+    size_t errs = ulk_diag_errors(c->diag);
+    check_keys(c, sn, "link.tc.security", sk, sr);
+    ulk_sdls_sa sa;
+    ulk_sdls_sa_default(&sa);
+    sa.enabled = 1;
+    int64_t v;
+    ulk_node *n;
+    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1, from memory). */
+    if ((n = ulk_node_get(sn, "spi")) && get_int(c, n, 1, 65534, &v, "spi (Security Parameter Index, 1..65534)"))
+        sa.spi = (uint16_t)v;
+    const char *kn = NULL;
+    if ((n = ulk_node_get(sn, "key")) && get_str(c, n, &kn)) {
+        if (!ulk_sdls_key_name_ok(kn))
+            err(c, n, "key must be the name of a key in the key file (1..47 letters, digits, '_', '.' or '-'), never key material");
+        else snprintf(sa.key, sizeof sa.key, "%s", kn);
+    }
+    if ((n = ulk_node_get(sn, "service"))) {
+        static const char *const sv[] = {"authentication", "authenticated-encryption"};
+        int k = get_choice(c, n, sv, 2, "security service");
+        if (k >= 0) sa.service = (ulk_sdls_service)k;
+    }
+    if ((n = ulk_node_get(sn, "algorithm"))) {
+        static const char *const al[] = {"aes-256-gcm"};
+        int k = get_choice(c, n, al, 1, "security algorithm");
+        if (k >= 0) sa.algorithm = (ulk_sdls_algorithm)k;
+    }
+    if ((n = ulk_node_get(sn, "iv_octets")) &&
+        get_int(c, n, ULK_SDLS_MIN_IV_OCTETS, ULK_SDLS_MAX_IV_OCTETS, &v, "iv_octets (the IV holds the 8-octet counter; 12..16)"))
+        sa.iv_octets = (int)v;
+    if ((n = ulk_node_get(sn, "mac_octets")) &&
+        get_int(c, n, ULK_SDLS_MIN_MAC_OCTETS, ULK_SDLS_MAX_MAC_OCTETS, &v, "mac_octets (GCM tag of 96..128 bits; 12..16)"))
+        sa.mac_octets = (int)v;
+    if ((n = ulk_node_get(sn, "window")) && get_int(c, n, 1, ULK_SDLS_MAX_WINDOW, &v, "window (anti-replay window, 1..1048576)"))
+        sa.window = (uint32_t)v;
+    if (ulk_diag_errors(c->diag) != errs || !ulk_node_get(sn, "spi") || !ulk_node_get(sn, "key") ||
+        !ulk_node_get(sn, "service"))
+        return;
+    char why[160];
+    if (ulk_sdls_sa_check(&sa, why, sizeof why)) {
+        err(c, sn, "security: %s", why);
+        return;
+    }
+    T->security = sa;
+    ulk_sdls_layout(&sa, &T->frame);
+}
+
 /* The link section of `profile: ccsds-tc` (ccsds-tc-profile.md section 1): channel bit rate
  * R, line code, subcarrier (f_sc / R whole >= 1) and the tc section. Values outside the
  * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B,
@@ -637,7 +692,7 @@ static void build_link_tc(bctx *c, ulk_node *ln)
     if (!tn || !want_map(c, tn, "link.tc")) return;
     static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence",
                                      "segment_header", "fecf", "randomize", "acquisition_octets",
-                                     "idle_octets", "start_errors", "correction", NULL};
+                                     "idle_octets", "start_errors", "correction", "security", NULL};
     static const char *const tr[] = {"spacecraft_id", "virtual_channel", "service", NULL};
     check_keys(c, tn, "link.tc", tk, tr);
     ulk_ccsds_tc_default(&T->frame);
@@ -689,6 +744,7 @@ static void build_link_tc(bctx *c, ulk_node *ln)
         int k = get_choice(c, n, cm, 2, "correction mode");
         if (k >= 0) T->frame.correction = (ulk_bch_mode)k;
     }
+    if ((n = ulk_node_get(tn, "security"))) build_security(c, n, T);
     char why[160];
     if (complete && ulk_diag_errors(c->diag) == errs) {
         if (ulk_ccsds_tc_check(&T->frame, why, sizeof why) == 0) c->tc_ok = 1;
@@ -1409,8 +1465,9 @@ static void build_commands(bctx *c, ulk_node *cn)
                 size_t data = 1 + ((size_t)k->packed_bits + 7) / 8;
                 if (data > ulk_ccsds_max_data_octets(tc))
                     err(c, args,
-                        "arguments take %d bits: the packet data field would be %zu octets and the TC frame %zu octets, over the %d-octet limit of a frame (at most %zu data octets here)",
-                        k->packed_bits, data, ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + data), ULK_TCF_MAX_OCTETS,
+                        "arguments take %d bits: the packet data field would be %zu octets and the TC frame %zu octets%s, over the %d-octet limit of a frame (at most %zu data octets here)",
+                        k->packed_bits, data, ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + data),
+                        tc->sec_header_octets ? " with its security header and trailer" : "", ULK_TCF_MAX_OCTETS,
                         ulk_ccsds_max_data_octets(tc));
             }
         }
@@ -1659,6 +1716,13 @@ static void canonical_link_tc(sbuf *b, const ulk_link *L)
               T->frame.fecf ? "true" : "false", T->first_sequence);
     sb_printf(b, ",\"idle_octets\":%u,\"randomize\":%s", T->idle_octets, T->frame.randomize ? "true" : "false");
     if (T->frame.segment_header) sb_printf(b, ",\"segment_header\":{\"map_id\":%u}", T->frame.map_id);
+    if (T->security.enabled) {
+        const ulk_sdls_sa *sa = &T->security;
+        sb_printf(b, ",\"security\":{\"algorithm\":\"aes-256-gcm\",\"iv_octets\":%d,\"key\":", sa->iv_octets);
+        sb_str(b, sa->key);
+        sb_printf(b, ",\"mac_octets\":%d,\"service\":\"%s\",\"spi\":%u,\"window\":%u}", sa->mac_octets,
+                  ulk_sdls_service_name(sa->service), (unsigned)sa->spi, (unsigned)sa->window);
+    }
     sb_printf(b, ",\"service\":\"%s\",\"spacecraft_id\":%u,\"start_errors\":%d,\"virtual_channel\":%u}}",
               T->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited",
               T->frame.spacecraft_id, T->frame.start_errors, T->frame.virtual_channel);

@@ -7,6 +7,7 @@
 
 #include "ulk/ccsds.h"
 #include "ulk/profile.h"
+#include "ulk/sdls.h"
 #include "ulk/word.h"
 #include "util.h"
 
@@ -223,7 +224,22 @@ int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err
     if (rc == ULK_ENOMEM) return rc;
     if (rc) return ULK_EPARSE;
     rc = 0;
-    if (want.n_frame != c->n_frame || memcmp(want.frame, c->frame, c->n_frame)) {
+    if (l->tc.security.enabled) {
+        /* A secured frame: what its fields make, except the IV, the MAC (and an encrypted data
+         * field), which only the key can check; the CLTU must be the coding of the frame. */
+        uint8_t cl[ULK_CLTU_MAX_OCTETS];
+        size_t ncl = 0;
+        if (want.n_frame != c->n_frame) {
+            snprintf(err, errlen, "the frame is not the one its fields (APID, opcode, arguments, counts) make");
+            rc = ULK_EPARSE;
+        } else if (ulk_sdls_check_frame(&l->tc.frame, &l->tc.security, want.frame, c->frame, c->n_frame, err, errlen)) {
+            rc = ULK_EPARSE;
+        } else if (ulk_cltu_build(&l->tc.frame, c->frame, c->n_frame, cl, sizeof cl, &ncl) || ncl != c->n_cltu ||
+                   memcmp(cl, c->cltu, ncl)) {
+            snprintf(err, errlen, "the CLTU is not the coding of its frame");
+            rc = ULK_EPARSE;
+        }
+    } else if (want.n_frame != c->n_frame || memcmp(want.frame, c->frame, c->n_frame)) {
         snprintf(err, errlen, "the frame is not the one its fields (APID, opcode, arguments, counts) make");
         rc = ULK_EPARSE;
     } else if (want.n_cltu != c->n_cltu || memcmp(want.cltu, c->cltu, c->n_cltu)) {

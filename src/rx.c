@@ -55,6 +55,12 @@ struct ulk_rx {
     size_t n_acq, want, cap;  /* acquisition block collected / wanted; buffer capacity */
     int acquired;
     double inv_m;             /* 1 / m_data, 0 when data is off */
+    /* ccsds-tc with link.tc.security: */
+    ulk_sdls_keys *keys;
+    ulk_sdls_state *state;    /* receive-side window, saved back at finish */
+    ulk_sdls_rx *srx;         /* the verifier the CLTU decoder calls */
+    int lock_fd;              /* the state's lock, held from create to destroy (-1: none) */
+    char *state_path;
 };
 
 /* ---- the event queue ---- */
@@ -96,7 +102,8 @@ static void rx_warn(ulk_rx *rx, const char *fmt, ...)
     n->ev.text = n->owned ? n->owned : "";
 }
 
-static void rx_count(ulk_rx *rx, const ulk_decoded *d)
+/* sec_refused: a secured frame the security check refused (counted apart from damage). */
+static void rx_count(ulk_rx *rx, const ulk_decoded *d, int sec_refused)
 {
     rx->counts.n_units++;
     if (d->status == ULK_WORD_ACCEPTED) {
@@ -104,7 +111,8 @@ static void rx_count(ulk_rx *rx, const ulk_decoded *d)
     } else {
         rx->counts.n_rejected++;
         if (d->reject == ULK_REJ_VEHICLE || d->reject == ULK_REJ_SYSTEM) rx->counts.n_rejected_address++;
-        if (d->reject == ULK_REJ_LENGTH || d->reject == ULK_REJ_ALIGNMENT || d->reject == ULK_REJ_CHECK)
+        else if (sec_refused) rx->counts.n_rejected_security++;
+        else if (d->reject == ULK_REJ_LENGTH || d->reject == ULK_REJ_ALIGNMENT || d->reject == ULK_REJ_CHECK)
             rx->counts.n_rejected_damaged++;
     }
 }
@@ -120,7 +128,7 @@ static void on_word(const ulk_demod_word *w, void *user)
     n->ev.dw = *w;
     ulk_decode_demod_word(rx->dict, w, &n->dec); /* ambiguous alignment: rejected */
     n->ev.hex = n->dec.hex;
-    rx_count(rx, &n->dec);
+    rx_count(rx, &n->dec, 0);
 }
 
 static void on_tc_unit(const ulk_tc_unit *t, void *user)
@@ -142,6 +150,10 @@ static void on_tc_unit(const ulk_tc_unit *t, void *user)
     e->seq_count = t->seq_count;
     e->frame_seq = t->frame_seq;
     e->n_corrected = t->n_corrected;
+    e->secured = t->secured;
+    e->sec_verdict = t->sec_verdict;
+    e->spi = t->spi;
+    e->iv_counter = t->iv_counter;
     ulk_decoded *d = &n->dec;
     d->status = t->status == ULK_TC_ACCEPTED ? ULK_WORD_ACCEPTED : ULK_WORD_REJECTED;
     d->reject = t->reject;
@@ -163,7 +175,8 @@ static void on_tc_unit(const ulk_tc_unit *t, void *user)
         memcpy(d->args[k].text, t->args[k].text, sizeof d->args[k].text);
     }
     snprintf(d->hex, sizeof d->hex, "%.32s", t->data_hex);
-    rx_count(rx, d);
+    rx_count(rx, d, t->secured && t->sec_verdict != ULK_SDLS_ACCEPTED && t->sec_verdict != ULK_SDLS_UNCHECKED &&
+                        d->status != ULK_WORD_ACCEPTED);
 }
 
 static void tc_flush(ulk_rx *rx)
@@ -307,6 +320,50 @@ static int rx_setup_demod(ulk_rx *rx)
     return ulk_demod_create(&front, rx->o.fs_hz, &dopt, &rx->demod, rx->diag);
 }
 
+/* Keys, receive state and verifier of a secured ccsds-tc link (docs/sdls.md); the CLTU decoder
+ * verifies every frame through ulk_tc_decoder_set_security. Without keys a secured frame is
+ * reported secured, not authenticated. */
+static int rx_setup_security(ulk_rx *rx)
+{
+    const ulk_rx_options *o = &rx->o;
+    const ulk_link *l = &rx->dict->link;
+    int asked = o->keys_path || o->state_path;
+    if (l->profile != ULK_PROFILE_CCSDS_TC || !l->tc.security.enabled) {
+        if (!asked) return 0;
+        return ulk_fail(rx->diag, ULK_EINVAL, "%s: the dictionary has no link.tc.security: --keys and --state have "
+                                              "nothing to do", rx->name);
+    }
+    const ulk_sdls_sa *sa = &l->tc.security;
+    rx->est.secured = 1;
+    if (!o->keys_path) {
+        if (o->state_path)
+            return ulk_fail(rx->diag, ULK_EINVAL, "--state needs --keys (only authenticated frames move the window)");
+        return 0;
+    }
+    int created = 0, rc = ulk_sdls_keys_load(o->keys_path, &rx->keys, rx->diag);
+    if (rc >= 0 && o->state_path) {
+        rx->state_path = ulk_strdup(o->state_path);
+        if (!rx->state_path) return ulk_fail(rx->diag, ULK_ENOMEM, "out of memory");
+        /* held until destroy: two runs never read the same window */
+        if ((rx->lock_fd = ulk_sdls_state_lock(o->state_path, rx->diag)) < 0) return rx->lock_fd;
+        rc = ulk_sdls_state_load(o->state_path, ULK_SDLS_RECEIVE, &rx->state, &created, rx->diag);
+    }
+    if (rc >= 0) rc = ulk_sdls_rx_create(sa, rx->keys, rx->state, &rx->srx, rx->diag);
+    if (rc >= 0) rc = ulk_tc_decoder_set_security(rx->tc, rx->srx);
+    if (rc < 0) return rc;
+    rx->est.authenticated = 1;
+    if (created) {
+        rx_node *n = rx_node_new(rx, ULK_RX_NOTICE);
+        char line[600];
+        snprintf(line, sizeof line, "%s does not exist: a new receive-side state starts with no counter accepted for SPI %u",
+                 o->state_path, (unsigned)sa->spi);
+        if (n && !(n->owned = ulk_strdup(line))) rx->err = ULK_ENOMEM;
+        if (n && n->owned) n->ev.text = n->owned;
+        if (rx->err) return ulk_fail(rx->diag, rx->err, "out of memory");
+    }
+    return 0;
+}
+
 int ulk_rx_create(const ulk_dict *dict, const ulk_rx_options *opt, ulk_rx **out, ulk_diag *diag)
 {
     *out = NULL;
@@ -317,11 +374,13 @@ int ulk_rx_create(const ulk_dict *dict, const ulk_rx_options *opt, ulk_rx **out,
     rx->dict = dict;
     rx->o = *opt;
     rx->diag = diag;
+    rx->lock_fd = -1;
     snprintf(rx->name, sizeof rx->name, "%s", opt->name ? opt->name : "capture");
     rx->o.name = rx->name;
     rx->est.fs_hz = opt->fs_hz;
     int rc = opt->complex_ ? cx_setup(rx) : 0;
     if (rc >= 0) rc = rx_setup_demod(rx);
+    if (rc >= 0) rc = rx_setup_security(rx);
     if (rc < 0) {
         ulk_rx_destroy(rx);
         return rc;
@@ -461,6 +520,9 @@ int ulk_rx_finish(ulk_rx *rx)
     ulk_demod_get_estimates(rx->demod, &rx->est.demod);
     rx->est.duration_s = (double)rx->est.n_samples / rx->o.fs_hz;
     if (rx->o.complex_ && (rc = cx_finish(rx)) < 0) return rx->err = rc;
+    /* the receive window moves only when the whole capture was decoded */
+    if (rx->state && (rc = ulk_sdls_state_save(rx->state, rx->state_path, rx->diag)) < 0) return rx->err = rc;
+    rx->est.state_saved = rx->state != NULL;
     rx_node *n = rx_node_new(rx, ULK_RX_ESTIMATES);
     if (n) {
         n->est = rx->est;
@@ -502,6 +564,11 @@ void ulk_rx_destroy(ulk_rx *rx)
     }
     ulk_demod_destroy(rx->demod);
     ulk_tc_decoder_destroy(rx->tc);
+    ulk_sdls_rx_destroy(rx->srx);
+    ulk_sdls_state_destroy(rx->state);
+    ulk_sdls_keys_destroy(rx->keys);
+    ulk_sdls_state_unlock(rx->lock_fd);
+    ulk_free(rx->state_path);
     ulk_crec_destroy(rx->crec);
     ulk_rcorr_destroy(rx->rc);
     ulk_vdemod_destroy(rx->vd);

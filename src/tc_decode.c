@@ -29,6 +29,9 @@ struct ulk_tc_decoder {
     size_t n_units, n_accepted;
     ulk_cltu_result res[2];
     ulk_tc_unit unit;
+    ulk_sdls_rx *sec;        /* secured links: the verifier (not owned), NULL = no keys */
+    ulk_sdls_rx_result sec_res;
+    ulk_cltu_result plain;   /* a secured CLTU with its verified packet, for interpret() */
 };
 
 void ulk_tc_front_end_link(const ulk_link *tc_link, ulk_link *out)
@@ -75,6 +78,13 @@ void ulk_tc_decoder_destroy(ulk_tc_decoder *t)
     ulk_free(t->inv);
     ulk_free(t->t);
     ulk_free(t);
+}
+
+int ulk_tc_decoder_set_security(ulk_tc_decoder *t, ulk_sdls_rx *rx)
+{
+    if (!t) return ULK_EINVAL;
+    t->sec = rx;
+    return 0;
 }
 
 size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t) { return t ? t->n_units : 0; }
@@ -161,6 +171,46 @@ static void interpret(const ulk_dict *d, const ulk_cltu_result *r, ulk_tc_unit *
     u->reject = ULK_REJ_NONE;
 }
 
+/* A secured frame (verdict SECURED: FECF and headers sound): verify it, then read its packet
+ * from the verified (decrypted) data field. Fills the unit's security fields; returns the
+ * CLTU result to interpret, or NULL when the unit is rejected here. */
+static const ulk_cltu_result *open_secured(ulk_tc_decoder *t, const ulk_cltu_result *r, ulk_tc_unit *u)
+{
+    const ulk_sdls_sa *sa = &t->d->link.tc.security;
+    ulk_sdls_rx_result *sr = &t->sec_res;
+    int rc = t->sec ? ulk_sdls_rx_frame(t->sec, t->tc, r->frame, r->n_frame, sr)
+                    : ulk_sdls_frame_read(t->tc, sa, r->frame, r->n_frame, sr);
+    u->secured = 1;
+    u->frame_seq = r->frame_hdr.seq_num;
+    if (rc < 0) {
+        if (rc == ULK_ENOMEM) t->status = rc;
+        reject(u, ULK_REJ_CHECK, "security processing failed (%s)", ulk_status_str(rc));
+        return NULL;
+    }
+    u->sec_verdict = sr->verdict;
+    u->spi = sr->spi;
+    u->iv_counter = sr->counter;
+    if (sr->verdict != ULK_SDLS_ACCEPTED && !(sr->verdict == ULK_SDLS_UNCHECKED && sr->n_data)) {
+        reject(u, ULK_REJ_CHECK, "%s", sr->reason);
+        return NULL;
+    }
+    ulk_spp_packet pk;
+    ulk_spp_parse(sr->data, sr->n_data, &pk);
+    ulk_cltu_result *p = &t->plain;
+    p->frame_hdr = r->frame_hdr;
+    p->packet_verdict = pk.verdict;
+    p->packet_hdr = pk.hdr;
+    if (pk.verdict != ULK_SPP_OK) {
+        reject(u, ULK_REJ_CHECK, "%s", ulk_spp_verdict_str(pk.verdict));
+        u->apid = pk.hdr.apid;
+        return NULL;
+    }
+    memcpy(p->data, pk.data, pk.n_data);
+    p->n_data = pk.n_data;
+    for (size_t i = 0; i < p->n_data; i++) snprintf(u->data_hex + 2 * i, 3, "%02X", p->data[i]);
+    return p;
+}
+
 static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
 {
     ulk_tc_unit *u = &t->unit;
@@ -175,6 +225,9 @@ static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
     if (r->verdict == ULK_CLTU_ACCEPTED) {
         for (size_t i = 0; i < r->n_data; i++) snprintf(u->data_hex + 2 * i, 3, "%02X", r->data[i]);
         interpret(t->d, r, u);
+    } else if (r->verdict == ULK_CLTU_SECURED) {
+        const ulk_cltu_result *p = open_secured(t, r, u);
+        if (p) interpret(t->d, p, u);
     } else {
         reject(u, ULK_REJ_CHECK, "%s", r->reason[0] ? r->reason : ulk_cltu_verdict_str(r->verdict));
         if (r->verdict >= ULK_CLTU_FRAME_HEADER) {

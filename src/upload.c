@@ -19,6 +19,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 #include <sys/stat.h>
 
 #include <cjson/cJSON.h>
@@ -212,6 +213,16 @@ static void build_link_tc(const ulk_link *l, sbuf *b)
               "\"start_errors\": %d, \"correction\": \"%s\"}\n  },\n",
               t->frame.fecf ? "true" : "false", t->frame.randomize ? "true" : "false", t->acquisition_octets,
               t->idle_octets, t->frame.start_errors, t->frame.correction == ULK_BCH_TED ? "ted" : "sec");
+    if (t->security.enabled && !b->oom) {
+        /* the security association by key name: key material never enters an upload */
+        const ulk_sdls_sa *sa = &t->security;
+        b->n -= strlen("}\n  },\n"); /* reopen the tc object written just above */
+        sb_printf(b, ",\n           \"security\": {\"spi\": %u, \"key\": ", (unsigned)sa->spi);
+        sb_str(b, sa->key);
+        sb_printf(b, ", \"service\": \"%s\", \"algorithm\": \"aes-256-gcm\", \"iv_octets\": %d, \"mac_octets\": %d, "
+                     "\"window\": %u}}\n  },\n",
+                  ulk_sdls_service_name(sa->service), sa->iv_octets, sa->mac_octets, (unsigned)sa->window);
+    }
 }
 
 #define DIGEST_HEAD "  \"digest\": \"sha256:"
@@ -323,6 +334,12 @@ static void build_doc(const ulk_upload *u, sbuf *b)
 
 int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag)
 {
+    return ulk_upload_write_hook(u, path, NULL, NULL, diag);
+}
+
+int ulk_upload_write_hook(const ulk_upload *u, const char *path, ulk_upload_commit_fn before_rename, void *user,
+                          ulk_diag *diag)
+{
     if (!u || !path) return ulk_fail(diag, ULK_EINVAL, "upload write: nothing to write");
     if (u->lean) return ulk_fail(diag, ULK_EINVAL, "%s: a lean upload cannot be written", path);
     /* never write what the reader refuses: the limits keep ulk modulate under 64 MB */
@@ -357,6 +374,19 @@ int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag)
         return ulk_fail(diag, ULK_EIO, "%s: write failed; no output written", path);
     }
     ulk_free(b.p);
+    if (before_rename) {
+        /* the upload is on the disk under its temporary name before the hook runs */
+        if (fflush(f.fp) != 0 || fsync(fileno(f.fp)) != 0) {
+            int e = errno;
+            ulk_afile_abort(&f);
+            return ulk_fail(diag, ULK_EIO, "%s: write failed: %s; no output written", path, strerror(e));
+        }
+        int hrc = before_rename(user, diag);
+        if (hrc) {
+            ulk_afile_abort(&f);
+            return hrc;
+        }
+    }
     return ulk_afile_commit(&f, diag);
 }
 
@@ -531,8 +561,11 @@ static int read_link_tc(rd_t *r, const cJSON *lj, ulk_link *l)
     const cJSON *tj = member(lj, "tc");
     static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence", "segment_header",
                                      "fecf", "randomize", "acquisition_octets", "idle_octets", "start_errors",
-                                     "correction"};
-    if (want_keys(r, tj, "link.tc", tk, 11)) return r->status;
+                                     "correction", "security"};
+    /* every member but "security", which only a secured link has */
+    if (want_keys_p(r, tj, "link.tc", tk, 12, 1)) return r->status;
+    for (int i = 0; i < 11; i++)
+        if (!member(tj, tk[i])) return rfail(r, ULK_EPARSE, "link.tc", "missing member '%s'", tk[i]);
     ulk_tc_params *t = &l->tc;
     int64_t v;
     if (get_int(r, tj, "spacecraft_id", "link.tc", 0, ULK_TCF_MAX_SCID, NULL, &v)) return r->status;
@@ -567,6 +600,37 @@ static int read_link_tc(rd_t *r, const cJSON *lj, ulk_link *l)
     if (!strcmp(cm, "sec")) t->frame.correction = ULK_BCH_SEC;
     else if (!strcmp(cm, "ted")) t->frame.correction = ULK_BCH_TED;
     else return rfail(r, ULK_EPARSE, "link.tc.correction", "expected sec or ted");
+    const cJSON *sj = member(tj, "security");
+    if (sj) {
+        static const char *const sk[] = {"spi", "key", "service", "algorithm", "iv_octets", "mac_octets", "window"};
+        if (want_keys(r, sj, "link.tc.security", sk, 7)) return r->status;
+        ulk_sdls_sa *sa = &t->security;
+        ulk_sdls_sa_default(sa);
+        sa->enabled = 1;
+        if (get_int(r, sj, "spi", "link.tc.security", 1, 65534, NULL, &v)) return r->status;
+        sa->spi = (uint16_t)v;
+        const char *kn = get_str(r, sj, "key", "link.tc.security", ULK_SDLS_KEY_NAME_MAX - 1);
+        if (!kn) return r->status;
+        if (!ulk_sdls_key_name_ok(kn)) return rfail(r, ULK_EPARSE, "link.tc.security.key", "expected a key name");
+        snprintf(sa->key, sizeof sa->key, "%s", kn);
+        const char *se = get_str(r, sj, "service", "link.tc.security", 32);
+        if (!se) return r->status;
+        if (!strcmp(se, "authentication")) sa->service = ULK_SDLS_AUTHENTICATION;
+        else if (!strcmp(se, "authenticated-encryption")) sa->service = ULK_SDLS_AUTHENTICATED_ENCRYPTION;
+        else return rfail(r, ULK_EPARSE, "link.tc.security.service", "expected authentication or authenticated-encryption");
+        const char *al = get_str(r, sj, "algorithm", "link.tc.security", 16);
+        if (!al) return r->status;
+        if (strcmp(al, "aes-256-gcm")) return rfail(r, ULK_EPARSE, "link.tc.security.algorithm", "expected aes-256-gcm");
+        if (get_int(r, sj, "iv_octets", "link.tc.security", ULK_SDLS_MIN_IV_OCTETS, ULK_SDLS_MAX_IV_OCTETS, NULL, &v))
+            return r->status;
+        sa->iv_octets = (int)v;
+        if (get_int(r, sj, "mac_octets", "link.tc.security", ULK_SDLS_MIN_MAC_OCTETS, ULK_SDLS_MAX_MAC_OCTETS, NULL, &v))
+            return r->status;
+        sa->mac_octets = (int)v;
+        if (get_int(r, sj, "window", "link.tc.security", 1, ULK_SDLS_MAX_WINDOW, NULL, &v)) return r->status;
+        sa->window = (uint32_t)v;
+        ulk_sdls_layout(sa, &t->frame);
+    }
     return 0;
 }
 

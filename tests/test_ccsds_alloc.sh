@@ -48,4 +48,23 @@ sweep inspect "" "$ULK" inspect "$work/ok.ulku"
 sweep inspect-json "" "$ULK" inspect --json "$work/ok.ulku"
 sweep decode "" "$ULK" decode --dict "$dict" "$work/three.wav"
 sweep verify "" "$ULK" verify --dict "$dict" --upload "$work/three.ulku" "$work/three.wav"
+
+# Authenticated commanding (docs/sdls.md): a failed compile hands out no counter (the first
+# success starts at 1 and leaves next 19), a failed decode writes no receive state.
+sdict=$SRC/dictionaries/demo-ccsds-sec.yaml
+printf '# test key\nharrowick3-uplink %s\n' "$(printf '3c%.0s' $(seq 32))" >"$work/k.keys"
+chmod 600 "$work/k.keys"
+rm -f "$work/tx.state"
+sweep compile-secured "$work/sec.ulku" "$ULK" compile -q --dict "$sdict" "$list" -o "$work/sec.ulku" \
+  --keys "$work/k.keys" --state "$work/tx.state"
+grep -q "^spi 257 next 19$" "$work/tx.state" ||
+  { echo "FAIL compile-secured: the state is not 'next 19' after one success"; cat "$work/tx.state"; failed=1; }
+"$ULK" compile -q --dict "$sdict" "$work/three.cmd" -o "$work/sthree.ulku" --keys "$work/k.keys" \
+  --state "$work/tx.state" >/dev/null 2>&1 &&
+  "$ULK" modulate "$work/sthree.ulku" -o "$work/sthree.wav" --rate 48000 >/dev/null 2>&1 ||
+  { echo "setup: secured three-command capture failed"; exit 1; }
+sweep decode-secured "$work/rx.state" "$ULK" decode --dict "$sdict" "$work/sthree.wav" --keys "$work/k.keys" \
+  --state "$work/rx.state"
+grep -q "^spi 257 last 21$" "$work/rx.state" ||
+  { echo "FAIL decode-secured: the receive state is not 'last 21'"; failed=1; }
 exit $failed

@@ -155,6 +155,33 @@ static const row rows[] = {
     {"first_sequence_with_expedited_warns", 0, "service: sequence-controlled", "service: expedited", 0, 0, W,
      "first_sequence 255 has no effect with service expedited", 11, 21, 1},
 
+    /* ---- link.tc.security (CCSDS 355.0-B-1 SPI 16 bits, 0 and 65535 reserved from memory;
+     * AES-256-GCM tags of 96..128 bits, NIST SP 800-38D from memory) */
+    {"security_ok", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", 0, 0, W, "", 0, 0, 2},
+    {"security_spi_zero", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "spi: 7", "spi: 0", E,
+     "spi (Security Parameter Index, 1..65534) must be 1..65534, not 0", 19, 21, 0},
+    {"security_spi_reserved", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "spi: 7", "spi: 65535", E, "must be 1..65534, not 65535", 19, 21, 0},
+    {"security_service_did_you_mean", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "service: authentication}", "service: authentification}", E,
+     "unknown security service 'authentification' (did you mean 'authentication'?", 19, 43, 0},
+    {"security_algorithm_unknown", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "authentication}", "authentication, algorithm: aes-128-gcm}", E,
+     "unknown security algorithm 'aes-128-gcm'", 19, 70, 0},
+    {"security_key_material_refused", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "key: ops",
+     "key: 00112233445566778899aabbccddeeff00112233445566778899aabbccddeeff", E,
+     "never key material", 19, 29, 0},
+    {"security_key_missing", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "key: ops, ", "", E, "link.tc.security has no 'key' (required)", 19, 15, 0},
+    {"security_iv_too_short", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "authentication}", "authentication, iv_octets: 8}", E,
+     "iv_octets (the IV holds the 8-octet counter; 12..16) must be 12..16, not 8", 19, 70, 0},
+    {"security_mac_too_long", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "authentication}", "authentication, mac_octets: 20}", E,
+     "mac_octets (GCM tag of 96..128 bits; 12..16) must be 12..16, not 20", 19, 71, 0},
+    {"security_window_zero", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "authentication}", "authentication, window: 0}", E,
+     "window (anti-replay window, 1..1048576) must be 1..1048576, not 0", 19, 67, 0},
+    {"security_unknown_key", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "authentication}", "authentication, windw: 3}", E,
+     "unknown key 'windw' in link.tc.security (did you mean 'window'?)", 19, 59, 0},
+    {"security_not_a_map", 0, "    correction: ted\n", "    correction: ted\n    security: on\n", 0, 0, E,
+     "link.tc.security must be a mapping", 19, 15, 0},
+    {"json_security_spi_string", 1, "\"correction\": \"ted\"}",
+     "\"correction\": \"ted\", \"security\": {\"spi\": \"7\", \"key\": \"ops\", \"service\": \"authentication\"}}", 0, 0, E,
+     "'spi' must be an integer, not a string", 11, 72, 0},
     /* ---- JSON */
     {"json_scid_over_10_bits", 1, "\"spacecraft_id\": \"0x3FF\"", "\"spacecraft_id\": 1024", 0, 0, E,
      "spacecraft_id (SCID, 10 bits) must be 0..1023, not 1024", 8, 29, 0},
@@ -345,6 +372,72 @@ static void test_frame_limit_boundary(void **st)
         }
 }
 
+/* The same boundary with a security header (SPI 2 + IV) and trailer (MAC) inside the frame:
+ * max data = 1024 - 5 - 1 - (2 + iv) - 6 - mac - 2 (segment header and FECF on). */
+static void test_frame_limit_security(void **st)
+{
+    (void)st;
+    static const int cases[][2] = {{12, 16}, {16, 12}, {12, 12}, {16, 16}};
+    for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+        int iv = cases[c][0], mac = cases[c][1];
+        int max_data = 1024 - 5 - 1 - (2 + iv) - 6 - mac - 2;
+        for (int over = 0; over <= 1; over++) {
+            char *t = big_dict(1, 1, (max_data - 1) * 8 + over);
+            char sec[160];
+            snprintf(sec, sizeof sec, "fecf: true, segment_header: {map_id: 1}, security: {spi: 9, key: k1, service: authentication, iv_octets: %d, mac_octets: %d}}", iv, mac);
+            t = replace(t, "fecf: true, segment_header: {map_id: 1}}", sec);
+            ulk_diag *dg = ulk_diag_create();
+            ulk_dict *d = NULL;
+            int rc = ulk_dict_load_mem("bigsec.yaml", t, strlen(t), 0, &d, dg);
+            if (!over) {
+                if (rc || !d) {
+                    ulk_diag_print(dg, stderr);
+                    fail_msg("iv %d mac %d: a frame of exactly 1024 octets with security is refused", iv, mac);
+                }
+                assert_int_equal(d->link.tc.frame.sec_header_octets, 2 + iv);
+                assert_int_equal(d->link.tc.frame.sec_trailer_octets, mac);
+            } else {
+                const ulk_finding *f = ulk_diag_first_error(dg);
+                char want[200];
+                snprintf(want, sizeof want, "data field would be %d octets and the TC frame 1025 octets with its security header and trailer",
+                         max_data + 1);
+                if (rc != ULK_EPARSE || d || !f || !strstr(f->msg, want))
+                    fail_msg("iv %d mac %d: one octet over is not refused with '%s' (%s)", iv, mac, want, f ? f->msg : "");
+            }
+            ulk_dict_destroy(d);
+            ulk_diag_destroy(dg);
+            free(t);
+        }
+    }
+}
+
+/* The security map is in the canonical form (so in the dictionary hash), keys in byte order
+ * inside tc: ... segment_header, security, service ... */
+static void test_canonical_security(void **st)
+{
+    (void)st;
+    char *t = strdup(BASE_YAML);
+    t = replace(t, "    correction: ted\n",
+                "    correction: ted\n    security: {spi: 300, key: ops.b, service: authenticated-encryption, window: 9}\n");
+    ulk_dict *d = load_ok("sec.yaml", t, 0), *plain = load_ok("min.yaml", BASE_YAML, 0);
+    char *canon = NULL, *c2 = NULL;
+    assert_int_equal(ulk_dict_canonical(d, &canon, NULL), 0);
+    assert_int_equal(ulk_dict_canonical(plain, &c2, NULL), 0);
+    const char *want = "\"segment_header\":{\"map_id\":63},\"security\":{\"algorithm\":\"aes-256-gcm\",\"iv_octets\":12,"
+                       "\"key\":\"ops.b\",\"mac_octets\":16,\"service\":\"authenticated-encryption\",\"spi\":300,\"window\":9},"
+                       "\"service\":";
+    if (!strstr(canon, want)) fail_msg("canonical form %s lacks %s", canon, want);
+    if (strstr(c2, "security")) fail_msg("an unsecured dictionary's canonical form names security");
+    if (!strcmp(d->sha256, plain->sha256)) fail_msg("security does not change the dictionary hash");
+    assert_int_equal(d->link.tc.security.spi, 300);
+    assert_int_equal(d->link.tc.security.service, ULK_SDLS_AUTHENTICATED_ENCRYPTION);
+    free(canon);
+    free(c2);
+    ulk_dict_destroy(d);
+    ulk_dict_destroy(plain);
+    free(t);
+}
+
 /* Every allocation failure ends in a clean ULK_ENOMEM (and no leak under ASan). */
 static void test_allocation_failures(void **st)
 {
@@ -377,23 +470,38 @@ static void test_allocation_failures(void **st)
 static void test_demo_yaml_json_same_model(void **st)
 {
     (void)st;
-    const char *y = ULK_SOURCE_DIR "/dictionaries/demo-ccsds.yaml";
-    const char *j = ULK_SOURCE_DIR "/dictionaries/demo-ccsds.json";
-    ulk_diag *dg = ulk_diag_create();
-    ulk_dict *dy = NULL, *dj = NULL;
-    assert_int_equal(ulk_dict_load(y, &dy, dg), 0);
-    assert_int_equal(ulk_dict_load(j, &dj, dg), 0);
-    if (ulk_diag_count(dg)) {
-        ulk_diag_print(dg, stderr);
-        fail_msg("the demo pair has findings");
+    /* the demo pair and its secured variant's pair (docs/sdls.md) */
+    static const char *const pairs[][2] = {
+        {ULK_SOURCE_DIR "/dictionaries/demo-ccsds.yaml", ULK_SOURCE_DIR "/dictionaries/demo-ccsds.json"},
+        {ULK_SOURCE_DIR "/dictionaries/demo-ccsds-sec.yaml", ULK_SOURCE_DIR "/dictionaries/demo-ccsds-sec.json"},
+    };
+    char first_sha[65] = "";
+    for (int p = 0; p < 2; p++) {
+        ulk_diag *dg = ulk_diag_create();
+        ulk_dict *dy = NULL, *dj = NULL;
+        assert_int_equal(ulk_dict_load(pairs[p][0], &dy, dg), 0);
+        assert_int_equal(ulk_dict_load(pairs[p][1], &dj, dg), 0);
+        if (ulk_diag_count(dg)) {
+            ulk_diag_print(dg, stderr);
+            fail_msg("the demo pair %s has findings", pairs[p][0]);
+        }
+        assert_int_equal(dy->link.profile, ULK_PROFILE_CCSDS_TC);
+        assert_string_equal(dy->sha256, dj->sha256);
+        assert_memory_equal(&dy->link, &dj->link, sizeof dy->link);
+        assert_true(dy->n_commands >= 12);
+        assert_int_equal(dy->link.tc.security.enabled, p);
+        if (p == 0) snprintf(first_sha, sizeof first_sha, "%s", dy->sha256);
+        else if (!strcmp(first_sha, dy->sha256)) fail_msg("the secured demo has the plain demo's hash");
+        if (p == 1) {
+            assert_int_equal(dy->link.tc.security.spi, 0x0101);
+            assert_string_equal(dy->link.tc.security.key, "harrowick3-uplink");
+            assert_int_equal(dy->link.tc.frame.sec_header_octets, 14);
+            assert_int_equal(dy->link.tc.frame.sec_trailer_octets, 16);
+        }
+        ulk_dict_destroy(dy);
+        ulk_dict_destroy(dj);
+        ulk_diag_destroy(dg);
     }
-    assert_int_equal(dy->link.profile, ULK_PROFILE_CCSDS_TC);
-    assert_string_equal(dy->sha256, dj->sha256);
-    assert_memory_equal(&dy->link, &dj->link, sizeof dy->link);
-    assert_true(dy->n_commands >= 12);
-    ulk_dict_destroy(dy);
-    ulk_dict_destroy(dj);
-    ulk_diag_destroy(dg);
 }
 
 int main(void)
@@ -412,6 +520,8 @@ int main(void)
         cmocka_unit_test(test_defaults),
         cmocka_unit_test(test_canonical_segment_header),
         cmocka_unit_test(test_frame_limit_boundary),
+        cmocka_unit_test(test_frame_limit_security),
+        cmocka_unit_test(test_canonical_security),
         cmocka_unit_test(test_allocation_failures),
         cmocka_unit_test(test_demo_yaml_json_same_model),
     };

@@ -401,6 +401,27 @@ if have verify; then
 fi
 rm -f full.ulku full.wav full.sigmf-meta
 
+# ---------------------------------------------------------------- keys and counters (docs/sdls.md)
+SDICT="$SRC/dictionaries/demo-ccsds-sec.yaml"
+SCMD="$SRC/dictionaries/demo-ccsds.cmd"
+printf 'harrowick3-uplink %s\n' "$(printf '5a%.0s' $(seq 32))" >k644.keys; chmod 644 k644.keys
+row keys-group-readable 2 "mode 0644" --absent s1.ulku --absent s1.state -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys k644.keys --state s1.state
+cp k644.keys k600.keys; chmod 600 k600.keys
+row keys-secured-dict-without-keys 2 "give the key file with --keys" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku
+printf 'harrowick3-uplink 5a5a\n' >kshort.keys; chmod 600 kshort.keys
+row keys-short-key 2 "kshort.keys:1:19: error: key 'harrowick3-uplink': expected 64 hex digits" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys kshort.keys --state s1.state
+head -c 3000 /dev/urandom >kbin.keys; chmod 600 kbin.keys
+row keys-binary-file 2 "kbin.keys:" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys kbin.keys --state s1.state
+row keys-folder 2 "regular file" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys ro --state s1.state
+printf 'ulk-sdls-state 1 send\nspi 257 next 99999999999999999999999\n' >sbig.state
+row state-counter-overflow 2 "sbig.state:2:1: error: expected 'spi N next C'" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys k600.keys --state sbig.state
+printf 'ulk-sdls-state 1 send\nspi 257 next 18446744073709551614\n' >send.state
+row state-counters-run-out 1 "would run out" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys k600.keys --state send.state
+printf 'ulk-sdls-state 1 receive\nspi 257 last 4\n' >recv.state
+row state-receive-side-for-compile 2 "receive-side state file" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys k600.keys --state recv.state
+# no folder for the state (nor its lock): nothing written
+row state-folder-missing 2 "cannot create the state" --absent s2.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s2.ulku --keys k600.keys --state nodir/s.state
+
 echo "($xfailed known bugs marked xfail, $skipped rows skipped)"
 echo "$passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -86,6 +86,11 @@ typedef struct {
     int randomize;             /* 1: frames are pseudo-randomized before coding */
     int start_errors;          /* start-sequence bit errors the decoder tolerates, 0 or 1 */
     ulk_bch_mode correction;   /* codeblock decoding mode */
+    /* Space Data Link Security (ulk/sdls.h): octets of the security header (SPI + IV) after
+     * the segment header and of the security trailer (MAC) before the FECF; 0 and 0 for an
+     * unsecured link. ulk_tcf_build leaves them zero for ulk_sdls_protect to fill. */
+    uint8_t sec_header_octets;  /* 0, or 3..64 */
+    uint8_t sec_trailer_octets; /* 0..64 (0 unless sec_header_octets) */
 } ulk_ccsds_tc;
 
 /* Fills tc with the profile's defaults: SCID 0, VCID 0, expedited, no segment header, FECF
@@ -95,7 +100,8 @@ void ulk_ccsds_tc_default(ulk_ccsds_tc *tc);
  * err is not NULL; errlen its size) naming the field. tc NULL is ULK_EINVAL. */
 int ulk_ccsds_tc_check(const ulk_ccsds_tc *tc, char *err, size_t errlen);
 /* The largest packet data field (octets) that fits a 1024-octet frame under tc:
- * 1024 - 5 - segment header - 6 - FECF. tc must be valid. */
+ * 1024 - 5 - segment header - security header - 6 - security trailer - FECF. tc must be
+ * valid. */
 size_t ulk_ccsds_max_data_octets(const ulk_ccsds_tc *tc);
 
 /* ---- Space Packet (CCSDS 133.0-B) ---- */
@@ -180,7 +186,8 @@ void ulk_tcf_hdr_unpack(const uint8_t in[ULK_TCF_HDR_OCTETS], ulk_tcf_hdr *h);
  * catalogue of parametrised CRC algorithms. p may be NULL when n is 0. */
 uint16_t ulk_tcf_crc16(const uint8_t *p, size_t n);
 
-/* Octets of a frame carrying n_data octets under tc: 5 + segment header + n_data + FECF. */
+/* Octets of a frame carrying n_data octets under tc: 5 + segment header + security header +
+ * n_data + security trailer + FECF. */
 size_t ulk_tcf_octets(const ulk_ccsds_tc *tc, size_t n_data);
 
 /* Builds one frame: header (version 0, bypass = expedited, control command flag 0, spare 0,
@@ -210,7 +217,8 @@ typedef struct {
     uint8_t map_id;
     uint16_t fecf_received;  /* when configured and present */
     uint16_t fecf_computed;
-    const uint8_t *data;     /* frame data field (after the segment header); NULL unless OK */
+    const uint8_t *data;     /* frame data field (after the segment header and the security
+                                header, before the security trailer); NULL unless OK */
     size_t n_data;
 } ulk_tcf_frame;
 
@@ -291,7 +299,9 @@ typedef enum {
     ULK_CLTU_CODEBLOCK,     /* codeblock k rejected before the frame was complete */
     ULK_CLTU_FRAME_HEADER,  /* frame too short, version, length, control flag, SCID, VCID, segment */
     ULK_CLTU_FECF,          /* FECF mismatch */
-    ULK_CLTU_PACKET         /* packet header, or packet length not filling the frame */
+    ULK_CLTU_PACKET,        /* packet header, or packet length not filling the frame */
+    ULK_CLTU_SECURED        /* a sound frame of a secured link (tc->sec_header_octets > 0): the
+                               packet is read after ulk/sdls.h has verified it; frame[] holds it */
 } ulk_cltu_verdict;
 
 typedef struct {
@@ -312,6 +322,8 @@ typedef struct {
     ulk_spp_hdr packet_hdr;    /* valid for ACCEPTED and PACKET (when 6 octets were present) */
     uint8_t data[ULK_TCF_MAX_OCTETS]; /* packet data field when ACCEPTED */
     size_t n_data;
+    uint8_t frame[ULK_TCF_MAX_OCTETS]; /* the frame, when ACCEPTED, PACKET or SECURED */
+    size_t n_frame;
 } ulk_cltu_result;
 
 /* Searches bits[from_bit ..] (one channel bit per octet, 0/1) for the first start sequence

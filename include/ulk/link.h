@@ -10,6 +10,7 @@
 #include <stdint.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/sdls.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -57,6 +58,8 @@ typedef struct {
     uint8_t first_sequence;      /* N(S) of the first Type-AD frame of an upload, 0..255 */
     uint32_t acquisition_octets; /* acquisition sequence before the first CLTU, octets */
     uint32_t idle_octets;        /* idle sequence between CLTUs and after the last, octets */
+    ulk_sdls_sa security;        /* Space Data Link Security (ulk/sdls.h); .enabled 0 when off.
+                                    When on, frame.sec_*_octets hold its layout. */
 } ulk_tc_params;
 
 /* The parameters of a link: the sub-bit profile of shared/design/subbit-profile.md section 1,

@@ -5,7 +5,9 @@
  * search, tracking loop, the data channel as the quadrature of the de-rotated signal divided
  * by the mode's data index, ranging correlation, voice demodulation), then the blind
  * demodulator (ulk/demod.h), then for the sub-bit profile the dictionary interpretation of
- * every word (ulk/decode.h), for the ccsds-tc profile the CLTU decoder (ulk/tc_decode.h).
+ * every word (ulk/decode.h), for the ccsds-tc profile the CLTU decoder (ulk/tc_decode.h),
+ * which on a link with security (link.tc.security, ulk/sdls.h) verifies every frame with the
+ * keys and the receive-side anti-replay state given in the options.
  *
  *     ulk_rx *rx;
  *     ulk_rx_create(dict, &opt, &rx, diag);
@@ -37,6 +39,7 @@
 #include "ulk/dict.h"
 #include "ulk/error.h"
 #include "ulk/sampleio.h"
+#include "ulk/sdls.h"
 #include "ulk/spectrum.h"
 
 #ifdef __cplusplus
@@ -60,6 +63,13 @@ typedef struct {
     ulk_demod_soft_fn on_soft;/* optional: every soft symbol (sub-bit, or channel bit for
                                  ccsds-tc) as it is produced, for plots; called during push */
     void *user;               /* passed to on_soft */
+    /* ccsds-tc links with link.tc.security (docs/sdls.md); refused on any other link: */
+    const char *keys_path;    /* key file: every frame authenticated (MAC and anti-replay
+                                 window); NULL = frames reported secured, not authenticated */
+    const char *state_path;   /* receive-side anti-replay state (needs keys_path): locked from
+                                 create to destroy, read at create (created when absent, with a
+                                 ULK_RX_NOTICE), saved back by ulk_rx_finish once every sample
+                                 was decoded; NULL = the window opens at this run's first frame */
 } ulk_rx_options;
 
 typedef enum {
@@ -67,7 +77,9 @@ typedef enum {
     ULK_RX_CLTU = 2,      /* a ccsds-tc CLTU: accepted (its command), or rejected */
     ULK_RX_WARNING = 3,   /* a condition the operator should know of (one line, in text) */
     ULK_RX_ESTIMATES = 4, /* once, at finish: what was measured (est) */
-    ULK_RX_END = 5        /* once, last: the totals (counts); no event follows */
+    ULK_RX_END = 5,       /* once, last: the totals (counts); no event follows */
+    ULK_RX_NOTICE = 6     /* information, not a problem (one line, in text): e.g. a receive
+                             state created */
 } ulk_rx_event_kind;
 
 /* What was measured over the capture (ULK_RX_ESTIMATES). */
@@ -86,6 +98,10 @@ typedef struct {
     ulk_ranging_result ranging;
     int voice_rate_hz;         /* voice WAV written (0: not asked) */
     uint64_t voice_samples;
+    /* ccsds-tc: */
+    int secured;               /* the link has security (link.tc.security) */
+    int authenticated;         /* frames were verified (keys given) */
+    int state_saved;           /* the receive state was saved back */
 } ulk_rx_estimates;
 
 /* Totals (ULK_RX_END, and ulk_rx_get_counts at any time). */
@@ -98,6 +114,9 @@ typedef struct {
     uint64_t n_rejected_damaged; /* rejected before the address could be trusted: length,
                                     alignment, check (for a CLTU: start sequence, codeblocks,
                                     frame, FECF, packet) */
+    uint64_t n_rejected_security; /* secured frames refused by the security check
+                                    (authentication failed, unknown SPI, replayed, outside
+                                    the window, malformed): not counted as damaged */
 } ulk_rx_counts;
 
 typedef struct {
@@ -110,9 +129,14 @@ typedef struct {
     uint16_t seq_count;        /* CLTU: packet sequence count */
     uint8_t frame_seq;         /* CLTU: N(S) */
     int n_corrected;           /* CLTU: codeblocks with one bit corrected */
+    int secured;               /* CLTU: the frame carried a security header and trailer: */
+    ulk_sdls_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured,
+                                  not authenticated), or why the security check refused it */
+    uint16_t spi;              /* CLTU, secured: the security parameter index */
+    uint64_t iv_counter;       /* CLTU, secured: the IV's counter */
     const char *hex;           /* the unit's identity in hex: the word (dec->hex), or the
                                   CLTU's packet data field ("" when not read) */
-    /* ULK_RX_WARNING: */
+    /* ULK_RX_WARNING, ULK_RX_NOTICE: */
     const char *text;
     /* ULK_RX_ESTIMATES: */
     const ulk_rx_estimates *est;
@@ -122,9 +146,13 @@ typedef struct {
 
 /* Creates a receiver for dict's link (dict must outlive it). For opt->complex_ the mode is
  * checked (it exists, leaves a residual carrier, has the ranging / voice channel asked for)
- * and the voice WAV opened. Returns 0 and *out, or ULK_EINVAL (options, mode), ULK_ELIMIT
- * (a sample rate the demodulator cannot use), ULK_EIO (voice file), ULK_ENOMEM; reason in
- * diag, which must outlive the receiver (later errors are reported there too). */
+ * and the voice WAV opened. With opt->keys_path the key file is read, and with
+ * opt->state_path the state locked and read (ulk_sdls_state_lock, ulk_sdls_state_load).
+ * Returns 0 and *out, or ULK_EINVAL (options, mode, keys or state on a link without
+ * security, the link's key missing from the key file), ULK_ELIMIT (a sample rate the
+ * demodulator cannot use), ULK_EIO (voice file; key or state file unreadable, in use, or
+ * open to others), ULK_EPARSE (key or state file broken), ULK_ENOMEM; reason in diag, which
+ * must outlive the receiver (later errors are reported there too). */
 int ulk_rx_create(const ulk_dict *dict, const ulk_rx_options *opt, ulk_rx **out, ulk_diag *diag);
 
 /* Pushes n real samples (full scale 1.0; non-finite values count as 0). Events found are
@@ -136,9 +164,10 @@ int ulk_rx_push(ulk_rx *rx, const float *x, size_t n);
 int ulk_rx_push_complex(ulk_rx *rx, const float *iq, size_t n);
 
 /* End of the samples: flushes the demodulator and decoder, commits the voice WAV, measures
- * ranging, and queues the last units, then ULK_RX_ESTIMATES and ULK_RX_END. Returns 0 or a
- * negative status (ULK_EFORMAT: too few complex samples to find the carrier; ULK_ELIMIT:
- * ranging over less than a code period; ULK_EIO, ULK_ENOMEM). Once only. */
+ * ranging, saves the receive state (opt->state_path), and queues the last units, then
+ * ULK_RX_ESTIMATES and ULK_RX_END. Returns 0 or a negative status (ULK_EFORMAT: too few
+ * complex samples to find the carrier; ULK_ELIMIT: ranging over less than a code period;
+ * ULK_EIO: the state could not be saved; ULK_ENOMEM). Once only. */
 int ulk_rx_finish(ulk_rx *rx);
 
 /* Pulls the next queued event into *ev: returns 1 (an event), 0 (none queued now), or a
@@ -149,7 +178,8 @@ int ulk_rx_next_event(ulk_rx *rx, ulk_rx_event *ev);
 /* Totals so far. */
 void ulk_rx_get_counts(const ulk_rx *rx, ulk_rx_counts *c);
 
-/* Frees everything (an uncommitted voice WAV is removed). NULL does nothing. */
+/* Frees everything (an uncommitted voice WAV is removed; the state's lock released). NULL
+ * does nothing. */
 void ulk_rx_destroy(ulk_rx *rx);
 
 /* ---- capture files ---- */

@@ -32,6 +32,7 @@
 #include "ulk/demod.h"
 #include "ulk/dict.h"
 #include "ulk/error.h"
+#include "ulk/sdls.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -64,6 +65,12 @@ typedef struct {
     uint32_t apid, opcode;    /* when the packet was read */
     uint16_t seq_count;       /* packet sequence count */
     uint8_t frame_seq;        /* N(S) */
+    /* Space Data Link Security (ulk/sdls.h), when the link has it: */
+    int secured;              /* 1: the frame carries a security header and trailer */
+    ulk_sdls_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured, not
+                                 authenticated), or why it was rejected */
+    uint16_t spi;             /* from the security header */
+    uint64_t iv_counter;      /* the IV's counter */
     int n_args;
     ulk_tc_arg args[ULK_TC_MAX_ARGS];
     char data_hex[2 * ULK_TCF_MAX_OCTETS + 1]; /* the packet data field (opcode, arguments) when
@@ -79,6 +86,12 @@ typedef struct ulk_tc_decoder ulk_tc_decoder;
  * ULK_EINVAL (message in diag) when d is not a ccsds-tc dictionary; ULK_ENOMEM. */
 int ulk_tc_decoder_create(const ulk_dict *d, ulk_tc_unit_fn on_unit, void *user, ulk_tc_decoder **out,
                           ulk_diag *diag);
+/* Frames of a secured link (ulk/sdls.h) are verified by rx (not owned; it must outlive t):
+ * accepted only when authentic and new, else rejected with the reason (authentication failed,
+ * unknown SPI, replayed, outside the window). Without it (rx NULL, the default) a secured frame
+ * is reported secured but not authenticated: its command when the data field travels in clear
+ * (service authentication), rejected when it is encrypted. Returns 0, or ULK_EINVAL for NULL t. */
+int ulk_tc_decoder_set_security(ulk_tc_decoder *t, ulk_sdls_rx *rx);
 /* Feeds n soft symbols (value about +-1 as received, polarity unresolved, before nrz-m
  * decoding) and their start times. Returns 0 or a sticky ULK_ENOMEM. */
 int ulk_tc_decoder_push(ulk_tc_decoder *t, const double *t_s, const float *soft, size_t n);

@@ -104,6 +104,14 @@ uint64_t ulk_upload_n_subbits(const ulk_upload *u);
  * commands or ULK_UPLOAD_MAX_UNIT_OCTETS of words/CLTUs: the modulator could not take it);
  * ULK_EIO with the reason in diag; nothing is left behind on failure. u must be full. */
 int ulk_upload_write(const ulk_upload *u, const char *path, ulk_diag *diag);
+/* Called by ulk_upload_write_hook once the upload is written and fsynced under its temporary
+ * name, before it is renamed into place; a non-zero return aborts the write (the temporary
+ * file is removed, nothing is written) and is returned. */
+typedef int (*ulk_upload_commit_fn)(void *user, ulk_diag *diag);
+/* ulk_upload_write with a hook between "safely written" and "in place": `ulk compile --state`
+ * saves the anti-replay state there, so that no counter is handed out twice (docs/sdls.md). */
+int ulk_upload_write_hook(const ulk_upload *u, const char *path, ulk_upload_commit_fn before_rename, void *user,
+                          ulk_diag *diag);
 /* Reads and checks an upload file: format name and version (ULK_EFORMAT), the integrity
  * digest (ULK_EINTEGRITY: "the file was changed after it was written"), then every field
  * (ULK_EPARSE naming the field, e.g. "commands[3].word"), limits (ULK_ELIMIT). Each word

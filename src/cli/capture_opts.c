@@ -20,6 +20,8 @@ int cli_capture_option(const char *cmd, int val, const char *arg, cli_capture_op
     switch (val) {
     case CLI_CAP_IQ: o->f.iq = 1; return 0;
     case CLI_CAP_MODE: o->r.mode = arg; return 0;
+    case CLI_CAP_KEYS: o->r.keys_path = arg; return 0;
+    case CLI_CAP_STATE: o->r.state_path = arg; return 0;
     case CLI_CAP_FORMAT: return cli_format(cmd, arg, &o->f.format, &o->f.format_complex);
     case CLI_CAP_CHANNEL:
         if ((r = cli_uint(cmd, "--channel", arg, 255, &u))) return r;
@@ -45,11 +47,20 @@ int cli_capture_option(const char *cmd, int val, const char *arg, cli_capture_op
     }
 }
 
-int cli_capture_check(const char *cmd, const cli_capture_opts *o)
+int cli_capture_check(const char *cmd, const cli_capture_opts *o, const char *capture, const char *dict,
+                      const char *upload)
 {
     if (o->f.format >= 0 && !(o->f.rate_hz > 0)) {
         fprintf(stderr, "ulk %s: --format goes with --rate (a raw capture needs both)\n", cmd);
         return CLI_EXIT_USAGE_IO;
     }
-    return 0;
+    if (o->r.state_path && !o->r.keys_path) {
+        fprintf(stderr, "ulk %s: --state needs --keys (only authenticated frames move the window)\n", cmd);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!o->r.state_path) return 0;
+    /* the state is written back: it must not be one of the inputs */
+    const char *ins[] = {capture, dict, o->r.keys_path, upload};
+    const char *what[] = {"capture", "dictionary", "key file", "upload"};
+    return cli_refuse_overwrite(cmd, o->r.state_path, ins, what, 4);
 }

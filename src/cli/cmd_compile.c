@@ -1,18 +1,22 @@
-/* src/cli/cmd_compile.c - `ulk compile --dict DICT LIST -o UPLOAD` (LIST "-": standard input;
- * UPLOAD "-": standard output).
- * Exit 0 written; 1 the dictionary or the list has errors (nothing written); 2 usage or I/O. */
+/* src/cli/cmd_compile.c - `ulk compile --dict DICT LIST -o UPLOAD [--keys FILE --state STATE]`
+ * (LIST "-": standard input; UPLOAD "-": standard output, not for a secured link).
+ * Exit (docs/cli.md) 0 written; 1 the dictionary or the list has errors, or the IV counters
+ * would run out (nothing written); 2 usage or I/O, a key or state file that cannot be used. */
+#include <inttypes.h>
 #include <stdio.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "cli.h"
 #include "ulk/cmdlist.h"
 #include "ulk/dict.h"
+#include "ulk/sdls.h"
 #include "ulk/upload.h"
 
 static void usage(FILE *out)
 {
     fprintf(out,
-            "usage: ulk compile --dict DICT LIST -o UPLOAD\n"
+            "usage: ulk compile --dict DICT LIST -o UPLOAD [--keys FILE --state STATE] [-q]\n"
             "\n"
             "Compiles the command list LIST with dictionary DICT into the upload file UPLOAD\n"
             "(docs/upload-format.md). Every error of the list is reported as file:line:col; on\n"
@@ -23,21 +27,29 @@ static void usage(FILE *out)
             "  --dict DICT     command dictionary (YAML or JSON)\n"
             "  -o, --output F  upload file to write (atomically; - for standard output); it may\n"
             "                  not be the dictionary or the list\n"
+            "  --keys FILE     key file (NAME HEX lines, mode 0600) for a dictionary with\n"
+            "                  link.tc.security: every frame gets SPI, IV and MAC\n"
+            "  --state STATE   anti-replay state: the next IV counter per SPI (created at 1\n"
+            "                  when absent); saved before the upload is put in place, so a\n"
+            "                  counter is never handed out twice (docs/sdls.md)\n"
             "  -q, --quiet     no summary\n"
             "  -h, --help      this text\n"
-            "\nexit: 0 written, 1 errors in the dictionary or the list, 2 usage or I/O error\n");
+            "\nexit: 0 written; 1 errors in the dictionary or the list, or the IV counters would run\n"
+            "      out; 2 usage or I/O error (a key or state file that cannot be used included)\n");
 }
 
-enum { O_DICT = CLI_LONG, O_OUTPUT = 'o', O_QUIET = 'q' };
+enum { O_DICT = CLI_LONG, O_KEYS, O_STATE, O_OUTPUT = 'o', O_QUIET = 'q' };
 static const struct option opts[] = {{"dict", required_argument, NULL, O_DICT},
                                      {"output", required_argument, NULL, O_OUTPUT},
+                                     {"keys", required_argument, NULL, O_KEYS},
+                                     {"state", required_argument, NULL, O_STATE},
                                      {"quiet", no_argument, NULL, O_QUIET},
                                      {"help", no_argument, NULL, 'h'},
                                      {0, 0, 0, 0}};
 static const cli_command command = {"compile", opts, usage};
 
 typedef struct {
-    const char *dict_path, *out_path;
+    const char *dict_path, *out_path, *list_path, *keys_path, *state_path;
     int quiet;
 } args;
 
@@ -46,93 +58,232 @@ static int on_opt(int v, const char *arg, void *ctx)
     args *a = ctx;
     if (v == O_DICT) a->dict_path = arg;
     else if (v == O_OUTPUT) a->out_path = arg;
+    else if (v == O_KEYS) a->keys_path = arg;
+    else if (v == O_STATE) a->state_path = arg;
     else if (v == O_QUIET) a->quiet = 1;
+    return 0;
+}
+
+/* Parses and checks the options before any work: -1 to go on, else the exit code. */
+static int parse_args(int argc, char **argv, args *a)
+{
+    memset(a, 0, sizeof *a);
+    int first, r = cli_parse(&command, argc, argv, on_opt, a, &first);
+    if (r >= 0) return r;
+    a->list_path = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk compile: more than one command list ('%s' and '%s')\n", argv[first], argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!a->dict_path || !a->list_path || !a->out_path) {
+        fprintf(stderr, "ulk compile: %s is required\n", !a->dict_path ? "--dict DICT" : !a->list_path ? "LIST" : "-o UPLOAD");
+        usage(stderr);
+        return CLI_EXIT_USAGE_IO;
+    }
+    const char *ins[] = {a->dict_path, a->list_path, a->keys_path, a->state_path};
+    const char *what[] = {"dictionary", "command list", "key file", "state"};
+    if ((r = cli_refuse_overwrite("compile", a->out_path, ins, what, 4))) return r;
+    /* the state is written back: it must not be one of the inputs */
+    if (a->state_path && (r = cli_refuse_overwrite("compile", a->state_path, ins, what, 3))) return r;
+    if (a->keys_path && cli_is_std(a->out_path)) {
+        fprintf(stderr, "ulk compile: a secured upload goes to a file (its IV counters are reserved for that file "
+                        "in the state before it is put in place), not to standard output\n");
+        return CLI_EXIT_USAGE_IO;
+    }
+    return -1;
+}
+
+/* Keys and the send-side state of a secured link (docs/sdls.md, "counters"). */
+typedef struct {
+    const ulk_sdls_sa *sa;     /* NULL: the link has no security */
+    const char *keys_path, *state_path;
+    ulk_sdls_keys *keys;
+    ulk_sdls_state *state;
+    uint64_t first;            /* the first IV counter of this upload */
+    int lock_fd;               /* the state's lock, held for the whole run */
+} sec_ctx;
+
+static void sec_close(sec_ctx *s)
+{
+    ulk_sdls_state_unlock(s->lock_fd);
+    ulk_sdls_keys_destroy(s->keys);
+    ulk_sdls_state_destroy(s->state);
+}
+
+/* Notices about the state: created, or counters reserved for an upload that never appeared. */
+static void sec_notices(const sec_ctx *s, int created)
+{
+    if (created)
+        fprintf(stderr, "ulk compile: notice: %s does not exist: a new send-side state starts at IV counter 1 for SPI %u\n",
+                s->state_path, (unsigned)s->sa->spi);
+    uint64_t ra, rb;
+    const char *rp;
+    struct stat st;
+    if (ulk_sdls_state_reservation(s->state, s->sa->spi, &ra, &rb, &rp) && stat(rp, &st) != 0)
+        fprintf(stderr,
+                "ulk compile: notice: IV counters %" PRIu64 "..%" PRIu64 " of SPI %u were reserved for %s, which does not "
+                "exist (that compile did not finish, or the file was moved): they are skipped, never used again\n",
+                ra, rb, (unsigned)s->sa->spi, rp);
+}
+
+/* A secured link needs both --keys and --state, any other link neither; the state is locked
+ * before it is read. Returns 0 or the exit code (message printed, nothing written). */
+static int sec_open(sec_ctx *s, const ulk_dict *dict, const char *dict_path, ulk_diag *diag)
+{
+    const ulk_sdls_sa *sa = dict->link.profile == ULK_PROFILE_CCSDS_TC ? &dict->link.tc.security : NULL;
+    s->sa = sa && sa->enabled ? sa : NULL;
+    if (s->sa && (!s->keys_path || !s->state_path)) {
+        fprintf(stderr,
+                "ulk compile: dictionary %s secures every frame (link.tc.security: SPI %u, key '%s'): give the key file with "
+                "--keys FILE and the anti-replay state with --state STATE; no upload written\n",
+                dict_path, (unsigned)sa->spi, sa->key);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!s->sa && (s->keys_path || s->state_path)) {
+        fprintf(stderr, "ulk compile: dictionary %s has no link.tc.security: --keys and --state have nothing to do; no upload written\n",
+                dict_path);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!s->sa) return 0;
+    int created = 0;
+    if (ulk_sdls_keys_load(s->keys_path, &s->keys, diag) < 0 || (s->lock_fd = ulk_sdls_state_lock(s->state_path, diag)) < 0 ||
+        ulk_sdls_state_load(s->state_path, ULK_SDLS_SEND, &s->state, &created, diag) < 0) {
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk compile: no upload written\n");
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!ulk_sdls_keys_has(s->keys, sa->key)) {
+        fprintf(stderr, "ulk compile: key '%s' (SPI %u) is not in %s; no upload written\n", sa->key, (unsigned)sa->spi,
+                s->keys_path);
+        return CLI_EXIT_USAGE_IO;
+    }
+    sec_notices(s, created);
+    s->first = ulk_sdls_state_value(s->state, sa->spi);
+    return 0;
+}
+
+/* Secures every frame with counters first .. first + n - 1, reserved in the state (saved by
+ * save_state before the rename). Returns 0 or the exit code. */
+static int sec_apply(sec_ctx *s, ulk_upload *up, const char *out_path, ulk_diag *diag)
+{
+    if (!s->sa || !up->n_cmds) return 0;
+    int rc = ulk_sdls_secure_upload(up, s->keys, s->first, diag);
+    if (!rc) rc = ulk_sdls_state_reserve(s->state, s->sa->spi, s->first, s->first + up->n_cmds - 1, out_path);
+    if (!rc) return 0;
+    ulk_diag_print(diag, stderr);
+    fprintf(stderr, "ulk compile: cannot secure the frames (%s); no upload written, the state is unchanged\n",
+            ulk_status_str(rc));
+    return rc == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
+}
+
+/* Saves the send-side state (counters reserved) between "upload written" and "upload in
+ * place" (docs/sdls.md, "counters"). */
+static int save_state(void *user, ulk_diag *diag)
+{
+    const sec_ctx *s = user;
+    return ulk_sdls_state_save(s->state, s->state_path, diag);
+}
+
+/* After a failed write of a secured upload: whether its counters were reserved (and so stay
+ * unused) or the state is as it was. */
+static void sec_write_failed(const sec_ctx *s, const ulk_upload *up)
+{
+    if (!s->sa || !up->n_cmds) return;
+    struct stat st;
+    int saved = 0;
+    ulk_sdls_state *now = NULL;
+    ulk_diag *d2 = ulk_diag_create();
+    if (ulk_sdls_state_load(s->state_path, ULK_SDLS_SEND, &now, NULL, d2) == 0 && stat(s->state_path, &st) == 0)
+        saved = ulk_sdls_state_value(now, s->sa->spi) == s->first + up->n_cmds;
+    ulk_sdls_state_destroy(now);
+    ulk_diag_destroy(d2);
+    if (saved)
+        fprintf(stderr, "ulk compile: IV counters %" PRIu64 "..%" PRIu64 " of SPI %u were reserved in %s and stay unused\n",
+                s->first, s->first + up->n_cmds - 1, (unsigned)s->sa->spi, s->state_path);
+    else
+        fprintf(stderr, "ulk compile: %s is unchanged\n", s->state_path);
+}
+
+static void print_summary(FILE *say, const args *a, const ulk_dict *dict, const ulk_upload *up, const sec_ctx *s)
+{
+    uint64_t n_sub = ulk_upload_n_subbits(up);
+    char rb[64];
+    ulk_ratio_format(up->link.bit_rate, rb, sizeof rb);
+    fprintf(say, "compiled %s with %s %s -> %s\n", a->list_path, dict->name, dict->version, a->out_path);
+    fprintf(say, "  commands  %zu\n", up->n_cmds);
+    if (up->link.profile == ULK_PROFILE_CCSDS_TC) {
+        size_t oct = 0;
+        for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
+        fprintf(say, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
+        fprintf(say, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
+    } else {
+        fprintf(say, "  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
+        fprintf(say, "  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
+    }
+    if (s->sa && up->n_cmds)
+        fprintf(say, "  security  SPI %u, %s, IV counters %" PRIu64 "..%" PRIu64 " (next %" PRIu64 " in %s)\n",
+                (unsigned)s->sa->spi, ulk_sdls_service_name(s->sa->service), s->first, s->first + up->n_cmds - 1,
+                s->first + up->n_cmds, s->state_path);
+    fprintf(say, "  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
+    size_t n_crit = 0;
+    for (size_t i = 0; i < up->n_cmds; i++) n_crit += up->cmds[i].critical != 0;
+    fprintf(say, "  critical  %zu\n", n_crit);
+    for (size_t i = 0; i < up->n_cmds; i++)
+        if (up->cmds[i].critical) fprintf(say, "    line %d: %s (word %zu)\n", up->cmds[i].line, up->cmds[i].mnemonic, i + 1);
+}
+
+/* The list, compiled: the upload in *up, or the exit code (messages printed). */
+static int compile_list(const args *a, const ulk_dict *dict, ulk_cmdlist **list, ulk_upload **up, ulk_diag *diag)
+{
+    int rc = ulk_cmdlist_load(a->list_path, list, diag);
+    if (!*list || (rc < 0 && (*list)->n_items == 0)) { /* nothing readable: the list's own refusal is the message */
+        ulk_diag_print(diag, stderr);
+        fprintf(stderr, "ulk compile: no upload written\n");
+        return cli_exit_for(rc);
+    }
+    rc = ulk_compile(dict, *list, up, diag);
+    ulk_diag_sort(diag);
+    ulk_diag_print(diag, stderr);
+    if (rc < 0 || !*up) {
+        fprintf(stderr, "ulk compile: %zu error%s in %s; no upload written\n", ulk_diag_errors(diag),
+                ulk_diag_errors(diag) == 1 ? "" : "s", a->list_path);
+        return rc == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
+    }
+    ulk_diag_clear(diag);
     return 0;
 }
 
 int cmd_compile(int argc, char **argv)
 {
-    args a = {0};
-    int first, r = cli_parse(&command, argc, argv, on_opt, &a, &first);
-    if (r >= 0) return r;
-    const char *dict_path = a.dict_path, *out_path = a.out_path, *list_path = first < argc ? argv[first] : NULL;
-    if (argc - first > 1) {
-        fprintf(stderr, "ulk compile: more than one command list ('%s' and '%s')\n", argv[first], argv[first + 1]);
-        return CLI_EXIT_USAGE_IO;
-    }
-    if (!dict_path || !list_path || !out_path) {
-        fprintf(stderr, "ulk compile: %s is required\n", !dict_path ? "--dict DICT" : !list_path ? "LIST" : "-o UPLOAD");
-        usage(stderr);
-        return CLI_EXIT_USAGE_IO;
-    }
-    const char *ins[] = {dict_path, list_path}, *what[] = {"dictionary", "command list"};
-    if ((r = cli_refuse_overwrite("compile", out_path, ins, what, 2))) return r;
+    args a;
+    int exit_code = parse_args(argc, argv, &a);
+    if (exit_code >= 0) return exit_code;
     /* the upload on standard output: the summary goes to standard error */
-    FILE *say = cli_is_std(out_path) ? stderr : stdout;
-    int quiet = a.quiet;
+    FILE *say = cli_is_std(a.out_path) ? stderr : stdout;
     ulk_diag *diag = ulk_diag_create();
     if (!diag) { fprintf(stderr, "ulk compile: out of memory\n"); return 2; }
     ulk_dict *dict = NULL;
     ulk_cmdlist *list = NULL;
     ulk_upload *up = NULL;
-    int exit_code = 0;
+    sec_ctx sec = {NULL, a.keys_path, a.state_path, NULL, NULL, 0, -1};
 
-    if ((exit_code = cli_load_dict("compile", dict_path, &dict))) {
+    if ((exit_code = cli_load_dict("compile", a.dict_path, &dict))) {
         fprintf(stderr, "ulk compile: no upload written\n");
         goto done;
     }
-    int rc = ulk_cmdlist_load(list_path, &list, diag);
-    if (!list) {
+    if ((exit_code = sec_open(&sec, dict, a.dict_path, diag))) goto done;
+    if ((exit_code = compile_list(&a, dict, &list, &up, diag))) goto done;
+    if ((exit_code = sec_apply(&sec, up, a.out_path, diag))) goto done;
+    int rc = ulk_upload_write_hook(up, a.out_path, sec.sa && up->n_cmds ? save_state : NULL, &sec, diag);
+    if (rc < 0) {
         ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk compile: no upload written\n");
+        sec_write_failed(&sec, up);
         exit_code = cli_exit_for(rc);
         goto done;
     }
-    if (rc < 0 && list->n_items == 0) { /* nothing readable: the list's own refusal is the message */
-        ulk_diag_print(diag, stderr);
-        fprintf(stderr, "ulk compile: no upload written\n");
-        exit_code = cli_exit_for(rc);
-        goto done;
-    }
-    rc = ulk_compile(dict, list, &up, diag);
-    ulk_diag_sort(diag);
-    ulk_diag_print(diag, stderr);
-    if (rc < 0 || !up) {
-        fprintf(stderr, "ulk compile: %zu error%s in %s; no upload written\n", ulk_diag_errors(diag),
-                ulk_diag_errors(diag) == 1 ? "" : "s", list_path);
-        exit_code = rc == ULK_ENOMEM ? CLI_EXIT_USAGE_IO : CLI_EXIT_REFUSED;
-        goto done;
-    }
-    ulk_diag_clear(diag);
-    if ((rc = ulk_upload_write(up, out_path, diag)) < 0) {
-        ulk_diag_print(diag, stderr);
-        exit_code = cli_exit_for(rc);
-        goto done;
-    }
-    if (!quiet) {
-        uint64_t n_sub = ulk_upload_n_subbits(up);
-        char rb[64];
-        ulk_ratio_format(up->link.bit_rate, rb, sizeof rb);
-        fprintf(say, "compiled %s with %s %s -> %s\n", list_path, dict->name, dict->version, out_path);
-        fprintf(say, "  commands  %zu\n", up->n_cmds);
-        if (up->link.profile == ULK_PROFILE_CCSDS_TC) {
-            size_t oct = 0;
-            for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
-            fprintf(say, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
-            fprintf(say, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
-        } else {
-            fprintf(say, "  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
-            fprintf(say, "  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
-        }
-        fprintf(say, "  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
-        size_t n_crit = 0;
-        for (size_t i = 0; i < up->n_cmds; i++) n_crit += up->cmds[i].critical != 0;
-        fprintf(say, "  critical  %zu\n", n_crit);
-        for (size_t i = 0; i < up->n_cmds; i++)
-            if (up->cmds[i].critical)
-                fprintf(say, "    line %d: %s (word %zu)\n", up->cmds[i].line, up->cmds[i].mnemonic, i + 1);
-    }
+    if (!a.quiet) print_summary(say, &a, dict, up, &sec);
 done:
+    sec_close(&sec);
     ulk_upload_destroy(up);
     ulk_cmdlist_destroy(list);
     ulk_dict_destroy(dict);

@@ -19,6 +19,7 @@
 #include "ulk/limits.h"
 #include "ulk/plot.h"
 #include "ulk/rx.h"
+#include "ulk/sdls.h"
 #include "util.h"
 
 static void usage(FILE *out)
@@ -27,6 +28,7 @@ static void usage(FILE *out)
             "usage: ulk decode --dict DICT CAPTURE [--json] [--plot FILE.png|FILE.svg]\n"
             "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N]\n"
             "                  [--iq] [--mode NAME] [--max-offset HZ] [--voice OUT.wav] [--ranging]\n"
+            "                  [--keys FILE [--state STATE]]\n"
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
@@ -46,6 +48,12 @@ static void usage(FILE *out)
             "  --format TYPE           sample type of a raw capture whose name does not say it:\n"
             "                          f32, s16, cf32, ci16\n"
             "  --channel N             channel of a multi-channel WAV (0 = first)\n"
+            "  --keys FILE             key file (NAME HEX, mode 0600): authenticate every frame of a\n"
+            "                          dictionary with link.tc.security (without it: secured, not\n"
+            "                          authenticated)\n"
+            "  --state STATE           receive-side anti-replay window, saved back after the whole\n"
+            "                          capture was decoded (created when absent); a frame not above\n"
+            "                          the last accepted counter is 'replayed'\n"
             "complex captures of the composite carrier (.cf32/.ci16 with SigMF, or a two-channel\n"
             "WAV with --iq; the dictionary's carrier section, docs/carrier.md):\n"
             "  --iq                    a two-channel WAV is I (left) and Q (right)\n"
@@ -66,7 +74,8 @@ static void usage(FILE *out)
             "measured against the capture's sample clock.\n"
             "\nexit: 0 at least one command accepted; 1 no command found (the reason in one line on\n"
             "      stderr: no signal, or words found but none for this dictionary's addresses, or all\n"
-            "      rejected), or the dictionary breaks a rule; 2 usage or I/O error\n");
+            "      rejected, e.g. by the security check), or the dictionary breaks a rule; 2 usage or\n"
+            "      I/O error (a key or state file that cannot be used included)\n");
 }
 
 /* One decode's output state: JSON is written as the units arrive (the array incrementally,
@@ -125,6 +134,24 @@ static cJSON *num_or_null(int have, double v)
     return cJSON_CreateRaw(buf);
 }
 
+/* "authenticated", "not authenticated" (no --keys), or why the security check refused it. */
+static const char *verdict_text(ulk_sdls_verdict v)
+{
+    return v == ULK_SDLS_ACCEPTED ? "authenticated" : v == ULK_SDLS_UNCHECKED ? "not authenticated" : ulk_sdls_verdict_str(v);
+}
+
+/* A secured CLTU's security member: SPI, IV counter, verdict. */
+static cJSON *security_json(const ulk_rx_event *ev)
+{
+    cJSON *sj = cJSON_CreateObject();
+    int ok = sj != NULL;
+    ok = ok && cJSON_AddNumberToObject(sj, "spi", ev->spi) != NULL;
+    ok = ok && cJSON_AddNumberToObject(sj, "iv_counter", (double)ev->iv_counter) != NULL;
+    ok = ok && cJSON_AddStringToObject(sj, "verdict", verdict_text(ev->sec_verdict)) != NULL;
+    if (!ok) cJSON_Delete(sj);
+    return ok ? sj : NULL;
+}
+
 /* One unit as a JSON object (interfaces.md; ccsds-tc adds the packet's identity). */
 static cJSON *unit_json(const ulk_rx_event *ev)
 {
@@ -152,6 +179,7 @@ static cJSON *unit_json(const ulk_rx_event *ev)
         ok &= cJSON_AddNumberToObject(o, "sequence_count", ev->seq_count) != NULL;
         ok &= cJSON_AddNumberToObject(o, "frame_sequence", ev->frame_seq) != NULL;
         ok &= cJSON_AddNumberToObject(o, "corrected_codeblocks", ev->n_corrected) != NULL;
+        if (ev->secured) ok &= add_item(o, "security", security_json(ev));
     }
     snprintf(buf, sizeof buf, "%.3f", ev->dw.margin);
     ok &= add_item(o, "margin", cJSON_CreateRaw(buf));
@@ -262,7 +290,12 @@ static void human_unit(dec_ctx *x, const ulk_rx_event *ev)
     FILE *f = x->spool ? x->spool : stdout;
     if (d->status == ULK_WORD_ACCEPTED) {
         ulk_decoded_format(d, line, sizeof line);
-        if (ev->kind == ULK_RX_CLTU)
+        if (ev->kind == ULK_RX_CLTU && ev->secured)
+            fprintf(f, "%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected, SPI %u IV %llu %s\n",
+                    ev->dw.start_s, line, d->system, ev->seq_count, ev->frame_seq, ev->n_corrected, (unsigned)ev->spi,
+                    (unsigned long long)ev->iv_counter,
+                    ev->sec_verdict == ULK_SDLS_ACCEPTED ? "authenticated" : "secured, NOT authenticated");
+        else if (ev->kind == ULK_RX_CLTU)
             fprintf(f, "%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", ev->dw.start_s, line,
                     d->system, ev->seq_count, ev->frame_seq, ev->n_corrected);
         else
@@ -309,6 +342,11 @@ static void human_tail(dec_ctx *x)
     if (c->demod.n_truncated)
         printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->demod.n_truncated);
     printf("\n");
+    if (c->secured && !c->authenticated)
+        printf("security: frames are secured but NOT authenticated (no --keys given)\n");
+    else if (c->secured)
+        printf("security: every frame verified with the key (MAC) and the anti-replay window%s\n",
+               c->state_saved ? "; receive state saved" : "");
 }
 
 static int on_event(const ulk_rx_event *ev, void *user)
@@ -317,6 +355,9 @@ static int on_event(const ulk_rx_event *ev, void *user)
     switch (ev->kind) {
     case ULK_RX_WARNING:
         fprintf(stderr, "warning: %s\n", ev->text);
+        break;
+    case ULK_RX_NOTICE:
+        fprintf(stderr, "notice: %s\n", ev->text);
         break;
     case ULK_RX_WORD:
     case ULK_RX_CLTU:
@@ -384,7 +425,7 @@ static int parse_args(int argc, char **argv, dec_args *a)
         usage(stderr);
         return CLI_EXIT_USAGE_IO;
     }
-    if ((pr = cli_capture_check("decode", &a->o))) return pr;
+    if ((pr = cli_capture_check("decode", &a->o, a->capture, a->dict_path, NULL))) return pr;
     if (!(a->capture = cli_input("decode", a->capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of stdin */
     const char *ins[] = {a->capture, a->dict_path}, *what[] = {"capture", "dictionary"};
     if (a->plot_path && ((pr = cli_refuse_overwrite("decode", a->plot_path, ins, what, 2)) ||
@@ -404,6 +445,7 @@ static int no_command(const dec_ctx *x)
     const ulk_rx_counts *c = &x->counts;
     if (c->n_accepted > 0) return 0;
     unsigned long long n = c->n_units, na = c->n_rejected_address, nd = c->n_rejected_damaged;
+    unsigned long long ns = c->n_rejected_security;
     const char *unit = x->first_is_tc ? "CLTU" : "word";
     if (n == 0)
         fprintf(stderr, "ulk decode: no command found: %s\n",
@@ -413,6 +455,10 @@ static int no_command(const dec_ctx *x)
                 "ulk decode: no command found: %llu %s%s found, and none of the %llu intact ones matched the "
                 "dictionary's vehicle and system addresses (another vehicle's uplink, or the wrong dictionary?)\n",
                 n, unit, n == 1 ? "" : "s", na);
+    else if (ns > 0)
+        fprintf(stderr, "ulk decode: no command found: %llu %s%s found, all rejected (%llu by the security check: "
+                        "authentication, replay or window; %llu damaged, %llu for another address, %llu for an unknown "
+                        "command or argument)\n", n, unit, n == 1 ? "" : "s", ns, nd, na, n - nd - na - ns);
     else
         fprintf(stderr, "ulk decode: no command found: %llu %s%s found, all rejected (%llu damaged, %llu for another "
                         "address, %llu for an unknown command or argument)\n", n, unit, n == 1 ? "" : "s", nd, na, n - nd - na);

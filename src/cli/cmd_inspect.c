@@ -2,6 +2,7 @@
  * named, hex, binary, sub-bits and start time; or the upload printed back as a command list.
  * Exit 0 shown; 1 the file is not a valid upload (changed, inconsistent, wrong version);
  * 2 usage or I/O. */
+#include <inttypes.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -9,6 +10,7 @@
 #include <cjson/cJSON.h>
 
 #include "cli.h"
+#include "ulk/sdls.h"
 #include "ulk/ccsds.h"
 #include "ulk/subbit.h"
 #include "ulk/upload.h"
@@ -164,7 +166,29 @@ static void hex_of(const uint8_t *p, size_t n, char *out)
 static int parse_tc(const ulk_link *l, const ulk_upload_cmd *c, ulk_tcf_frame *fr, ulk_spp_packet *pk)
 {
     if (ulk_tcf_parse(&l->tc.frame, c->frame, c->n_frame, fr) || fr->verdict != ULK_TCF_OK) return -1;
+    if (l->tc.security.enabled && l->tc.security.service == ULK_SDLS_AUTHENTICATED_ENCRYPTION) {
+        /* the packet is encrypted: its header as the upload's fields say (the reader checked
+         * everything the key does not protect) */
+        memset(pk, 0, sizeof *pk);
+        pk->hdr.type = ULK_SPP_TYPE_TC;
+        pk->hdr.apid = (uint16_t)c->system_addr;
+        pk->hdr.seq_flags = ULK_SPP_SEQ_UNSEGMENTED;
+        pk->hdr.seq_count = c->seq_count;
+        pk->hdr.data_length = (uint16_t)(fr->n_data - ULK_SPP_HDR_OCTETS - 1);
+        return 0;
+    }
     if (ulk_spp_parse(fr->data, fr->n_data, pk) || pk->verdict != ULK_SPP_OK) return -1;
+    return 0;
+}
+
+/* SPI, IV counter and MAC of a secured frame (no key needed to read them). */
+static int sec_fields(const ulk_link *l, const ulk_upload_cmd *c, ulk_sdls_rx_result *r, char *mac_hex)
+{
+    if (!l->tc.security.enabled) return -1;
+    ulk_sdls_frame_read(&l->tc.frame, &l->tc.security, c->frame, c->n_frame, r);
+    if (r->verdict == ULK_SDLS_MALFORMED) return -1;
+    size_t m = (size_t)l->tc.security.mac_octets, at = c->n_frame - (l->tc.frame.fecf ? 2 : 0) - m;
+    for (size_t i = 0; i < m; i++) snprintf(mac_hex + 2 * i, 3, "%02X", c->frame[at + i]);
     return 0;
 }
 
@@ -185,8 +209,17 @@ static int print_text_tc(const char *path, const ulk_upload *u)
            t->frame.segment_header ? "on" : "off", t->frame.fecf ? "on" : "off", t->frame.randomize ? "on" : "off");
     printf("channel    acquisition %u octets, idle %u octets between CLTUs and after the last\n", t->acquisition_octets,
            t->idle_octets);
+    if (t->security.enabled)
+        printf("security   SPI %u, key '%s', %s, aes-256-gcm, IV %d octets, MAC %d octets\n", (unsigned)t->security.spi,
+               t->security.key, ulk_sdls_service_name(t->security.service), t->security.iv_octets, t->security.mac_octets);
     char *hx = malloc(2 * ULK_CLTU_MAX_OCTETS + 1);
-    if (!hx) return 2;
+    ulk_sdls_rx_result *sr = malloc(sizeof *sr);
+    if (!hx || !sr) {
+        free(hx);
+        free(sr);
+        return 2;
+    }
+    char mac[2 * ULK_SDLS_MAX_MAC_OCTETS + 1];
     ulk_start_cursor cur = {0, 0};
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
@@ -210,6 +243,12 @@ static int print_text_tc(const char *path, const ulk_upload *u)
                fr.hdr.version, fr.hdr.bypass, fr.hdr.ctrl_cmd, fr.hdr.spare, fr.hdr.scid, fr.hdr.vcid,
                fr.hdr.frame_length, c->n_frame, fr.hdr.seq_num);
         if (t->frame.segment_header) printf("  segment   sequence flags %u, MAP ID %u\n", fr.seg_flags, fr.map_id);
+        if (sec_fields(l, c, sr, mac)) {
+            if (t->security.enabled) printf("  security  (fields do not parse)\n");
+        } else {
+            printf("  security  SPI %u, IV counter %" PRIu64 ", MAC %s (%s; checked only with the key)\n", (unsigned)sr->spi,
+                   sr->counter, mac, ulk_sdls_service_name(t->security.service));
+        }
         printf("  packet    version %u, type %u, secondary header %u, APID 0x%03X = %s, sequence flags %u, count %u, data length %u\n",
                pk.hdr.version, pk.hdr.type, pk.hdr.sec_hdr_flag, pk.hdr.apid, c->system_name, pk.hdr.seq_flags,
                pk.hdr.seq_count, pk.hdr.data_length);
@@ -232,6 +271,7 @@ static int print_text_tc(const char *path, const ulk_upload *u)
         printf("  CLTU      %zu octets = %zu bits: start sequence, %zu codeblocks, tail sequence\n", c->n_cltu, 8 * c->n_cltu,
                (c->n_cltu - 10) / 8);
     }
+    free(sr);
     free(hx);
     char wa[64];
     ratio_str(u->wait_after, wa, sizeof wa);
@@ -294,6 +334,15 @@ static int print_json_tc(const ulk_upload *u)
             cJSON_AddNumberToObject(f, "sequence_number", fr.hdr.seq_num);
             if (l->tc.frame.segment_header) cJSON_AddNumberToObject(f, "map_id", fr.map_id);
             if (l->tc.frame.fecf) cJSON_AddNumberToObject(f, "fecf", fr.fecf_received);
+            ulk_sdls_rx_result *sr = malloc(sizeof *sr);
+            char mac[2 * ULK_SDLS_MAX_MAC_OCTETS + 1];
+            if (sr && sec_fields(l, c, sr, mac) == 0) {
+                cJSON *sj = cJSON_AddObjectToObject(f, "security");
+                cJSON_AddNumberToObject(sj, "spi", sr->spi);
+                cJSON_AddNumberToObject(sj, "iv_counter", (double)sr->counter);
+                cJSON_AddStringToObject(sj, "mac", mac);
+            }
+            free(sr);
             cJSON *p = cJSON_AddObjectToObject(w, "packet");
             cJSON_AddNumberToObject(p, "version", pk.hdr.version);
             cJSON_AddNumberToObject(p, "type", pk.hdr.type);

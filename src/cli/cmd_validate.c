@@ -115,6 +115,10 @@ static void print_summary_tc(const ulk_dict *d, FILE *out)
     if (T->frame.segment_header) fprintf(out, ", segment header MAP ID %u", T->frame.map_id);
     else fprintf(out, ", no segment header");
     fprintf(out, ", FECF %s, randomizer %s\n", T->frame.fecf ? "on" : "off", T->frame.randomize ? "on" : "off");
+    if (T->security.enabled)
+        fprintf(out, "  security:       SPI %u, key '%s', %s, aes-256-gcm, IV %d + MAC %d octets per frame, window %u\n",
+                (unsigned)T->security.spi, T->security.key, ulk_sdls_service_name(T->security.service),
+                T->security.iv_octets, T->security.mac_octets, (unsigned)T->security.window);
     fprintf(out, "  frame size:     %zu..%zu octets (largest: %s), CLTU up to %zu octets = %s s at R\n", t.min_frame,
             t.max_frame, t.max_mnemonic ? t.max_mnemonic : "?", t.max_cltu, t.cltu_txt);
     fprintf(out, "  channel:        acquisition %u octets, idle %u octets, start sequence errors tolerated %d, BCH %s\n",
@@ -184,6 +188,16 @@ static cJSON *summary_json(const ulk_dict *d)
         cJSON_AddNumberToObject(tc, "idle_octets", T->idle_octets);
         cJSON_AddNumberToObject(tc, "start_errors", T->frame.start_errors);
         cJSON_AddStringToObject(tc, "correction", T->frame.correction == ULK_BCH_TED ? "ted" : "sec");
+        if (T->security.enabled) {
+            cJSON *sj = cJSON_AddObjectToObject(tc, "security");
+            cJSON_AddNumberToObject(sj, "spi", T->security.spi);
+            cJSON_AddStringToObject(sj, "key", T->security.key);
+            cJSON_AddStringToObject(sj, "service", ulk_sdls_service_name(T->security.service));
+            cJSON_AddStringToObject(sj, "algorithm", "aes-256-gcm");
+            cJSON_AddNumberToObject(sj, "iv_octets", T->security.iv_octets);
+            cJSON_AddNumberToObject(sj, "mac_octets", T->security.mac_octets);
+            cJSON_AddNumberToObject(sj, "window", T->security.window);
+        }
         cJSON_AddNumberToObject(s, "min_frame_octets", (double)t.min_frame);
         cJSON_AddNumberToObject(s, "max_frame_octets", (double)t.max_frame);
         cJSON_AddNumberToObject(s, "max_cltu_octets", (double)t.max_cltu);

@@ -23,6 +23,7 @@ static void usage(FILE *out)
     fprintf(out,
             "usage: ulk verify --dict DICT --upload UPLOAD CAPTURE [--json]\n"
             "                  [--rate HZ [--format f32|s16|cf32|ci16]] [--channel N] [--iq] [--mode NAME]\n"
+            "                  [--keys FILE [--state STATE]]\n"
             "\n"
             "Decodes CAPTURE blind (as ulk decode does) and compares the accepted words with the\n"
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
@@ -40,6 +41,8 @@ static void usage(FILE *out)
             "  --json             machine-readable report\n"
             "  --rate HZ, --format TYPE, --channel N      as for ulk decode\n"
             "  --iq, --mode NAME, --max-offset HZ         complex captures, as for ulk decode\n"
+            "  --keys FILE, --state STATE                 authenticate the frames of a secured\n"
+            "                     link, as for ulk decode (a frame that fails is 'rejected')\n"
             "  -h, --help         this text\n"
             "\nexit: 0 the capture holds exactly the upload; 1 it does not, or the dictionary has\n"
             "      errors; 2 usage or I/O error, or the upload was compiled with another dictionary\n"
@@ -182,6 +185,7 @@ static void print_human(const char *capture, const char *upload_path, const ulk_
 static int on_event(const ulk_rx_event *ev, void *user)
 {
     if (ev->kind == ULK_RX_WARNING) fprintf(stderr, "warning: %s\n", ev->text);
+    if (ev->kind == ULK_RX_NOTICE) fprintf(stderr, "notice: %s\n", ev->text);
     return ulk_verify_add(user, ev);
 }
 
@@ -232,7 +236,7 @@ static int parse_args(int argc, char **argv, ver_args *a)
         usage(stderr);
         return CLI_EXIT_USAGE_IO;
     }
-    if ((pr = cli_capture_check("verify", &a->o))) return pr;
+    if ((pr = cli_capture_check("verify", &a->o, a->capture, a->dict_path, a->upload_path))) return pr;
     if (cli_is_std(a->upload_path) && cli_is_std(a->capture)) {
         fprintf(stderr, "ulk verify: standard input ('-') can be only one of the inputs\n");
         return CLI_EXIT_USAGE_IO;
