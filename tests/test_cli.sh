@@ -91,6 +91,20 @@ check "plan - reads the dictionary from standard input" $?
 out=$("$ULK" verify --dict "$DICT" --upload - - <a.wav 2>&1); r=$?
 [ $r -eq 2 ] && case $out in *"only one of the inputs"*) true ;; *) false ;; esac
 check "only one input may be standard input" $? "$out"
+# the CSV on standard output: the summary goes to standard error, nothing else on stdout
+"$ULK" spectrum a.wav --csv - >sp.csv 2>sp.err
+r=$?
+[ $r -eq 0 ] && [ ! -e ./- ] && [ "$(head -n 1 sp.csv)" = "f_hz,power" ] && ! grep -q 'strongest' sp.csv &&
+  grep -q '^strongest line: ' sp.err
+check "spectrum --csv - writes the CSV to standard output, the summary to standard error" $? "exit $r"
+# a raw capture with no telling name: --format cf32 makes the receiver read it as I/Q
+"$ULK" modulate a.ulku --carrier --mode full --dict "$DICT" -o cx.cf32 --rate 96000 -q 2>/dev/null && cp cx.cf32 cx.raw
+"$ULK" decode --dict "$DICT" --json cx.cf32 >cx1.json 2>/dev/null &&
+  "$ULK" decode --dict "$DICT" --json cx.raw --rate 96000 --format cf32 --mode full >cx2.json 2>/dev/null
+r=$?
+[ $r -eq 0 ] && [ "$(grep -c '"accepted"' cx2.json)" -gt 0 ] && cmp -s cx1.json cx2.json
+check "decode --format cf32 reads a raw file without a telling name as I/Q" $? "exit $r"
+rm -f cx.cf32 cx.sigmf-meta cx.raw
 
 # ---- calibration rounding is visible
 err=$("$ULK" compile --dict "$DICT" "$LIST" -o r.ulku -q 2>&1 >/dev/null)

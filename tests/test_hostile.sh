@@ -421,6 +421,10 @@ printf 'ulk-sdls-state 1 receive\nspi 257 last 4\n' >recv.state
 row state-receive-side-for-compile 2 "receive-side state file" --absent s1.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s1.ulku --keys k600.keys --state recv.state
 # no folder for the state (nor its lock): nothing written
 row state-folder-missing 2 "cannot create the state" --absent s2.ulku -- "$ULK" compile --dict "$SDICT" "$SCMD" -o s2.ulku --keys k600.keys --state nodir/s.state
+# the receive state is written back: one that names an input is refused before any work
+row decode-state-is-the-capture 2 "is the same file as the capture" --needs decode -- "$ULK" decode --dict "$SDICT" one.wav --keys k600.keys --state one.wav
+row decode-state-without-keys 2 "--state needs --keys" --needs decode -- "$ULK" decode --dict "$SDICT" one.wav --state r.state
+row decode-keys-unsecured-link 2 "has no link.tc.security" --needs decode -- "$ULK" decode --dict "$DICT" one.wav --keys k600.keys
 
 echo "($xfailed known bugs marked xfail, $skipped rows skipped)"
 echo "$passed passed, $failed failed"
