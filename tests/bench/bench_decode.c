@@ -168,7 +168,7 @@ int main(int argc, char **argv)
     long fa2_words = 2000;
     unsigned long long seed = 1;
     const char *dict_path = ULK_SOURCE_DIR "/dictionaries/demo-subbit.yaml";
-    for (int i = 1; i < argc; i++) {
+    for (int i = 1; i < argc; i += 2) { /* options come in pairs: --name value */
         const char *a = argv[i], *v = i + 1 < argc ? argv[i + 1] : NULL;
         if (!v) { fprintf(stderr, "bench_decode: %s needs a value\n", a); return 2; }
         if (!strcmp(a, "--words")) words = atol(v);
@@ -184,7 +184,6 @@ int main(int argc, char **argv)
         else if (!strcmp(a, "--dict")) dict_path = v;
         else if (!strcmp(a, "--verbose")) { verbose = atoi(v); }
         else { fprintf(stderr, "bench_decode: unknown option %s\n", a); return 2; }
-        i++;
     }
     if (per < 1 || per > 64 || words < 1 || step <= 0) { fprintf(stderr, "bench_decode: bad option value\n"); return 2; }
     ulk_dict *dict = NULL;
