@@ -47,9 +47,10 @@ echo "== native build (Release)"
 cmake -S . -B build-cross-native -DCMAKE_BUILD_TYPE=Release >/dev/null
 cmake --build build-cross-native -j"$jobs" --target ulk >/dev/null
 echo "== aarch64 cross build (Release)"
+tc=()  # the toolchain file is read when the build folder is first configured
+[ -f build-aarch64/CMakeCache.txt ] || tc=(-DCMAKE_TOOLCHAIN_FILE="$here/scripts/aarch64-toolchain.cmake")
 PKG_CONFIG_LIBDIR=/usr/lib/aarch64-linux-gnu/pkgconfig:/usr/share/pkgconfig \
-  cmake -S . -B build-aarch64 -DCMAKE_BUILD_TYPE=Release \
-        -DCMAKE_TOOLCHAIN_FILE="$here/scripts/aarch64-toolchain.cmake" >/dev/null
+  cmake -S . -B build-aarch64 -DCMAKE_BUILD_TYPE=Release "${tc[@]}" >/dev/null
 cmake --build build-aarch64 -j"$jobs" --target ulk >/dev/null
 file build-aarch64/ulk | grep -q "ARM aarch64" || { echo "cross-aarch64: build-aarch64/ulk is not an aarch64 program" >&2; exit 2; }
 QEMU="qemu-aarch64 -L /usr/aarch64-linux-gnu"
