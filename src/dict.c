@@ -1694,6 +1694,55 @@ static void sb_double(sbuf *b, double v)
     sb_puts(b, t);
 }
 
+/* A dictionary number that decides bits (calibration coefficient, range end): as sb_double
+ * when its double's text denotes exactly the value written -- every ordinary number, so the
+ * canonical form and its hash stay what they were -- else the exact value written, as
+ * digits "e" exponent (a JSON number), so that two dictionaries whose numbers differ only
+ * beyond a double's precision, and so may encode different bits, never share a hash. */
+static void sb_exact(sbuf *b, const char *text, double v)
+{
+    char t[40];
+    fmt_num(v, t, sizeof t);
+    mpq_t x, y;
+    mpq_init(x);
+    mpq_init(y);
+    if (text && ulk_q_set_text(x, text, ULK_EXACT_MAX_EXP10, 0, NULL) == 0 &&
+        ulk_q_set_text(y, t, ULK_EXACT_MAX_EXP10, 0, NULL) == 0 && !mpq_equal(x, y)) {
+        /* x = n / d with d = 2^a 5^b (a decimal): n * 10^k / d digits, exponent -k, k = max(a, b) */
+        mpz_t n, d, five;
+        mpz_init_set(n, mpq_numref(x));
+        mpz_init_set(d, mpq_denref(x));
+        mpz_init_set_ui(five, 5);
+        unsigned long a2 = (unsigned long)mpz_scan1(d, 0);
+        mpz_t rest;
+        mpz_init(rest);
+        unsigned long a5 = (unsigned long)mpz_remove(rest, d, five);
+        mpz_clear(rest);
+        unsigned long k = a2 > a5 ? a2 : a5;
+        mpz_set(d, mpq_denref(x));
+        mpz_ui_pow_ui(five, 10, k);
+        mpz_mul(n, n, five);
+        mpz_divexact(n, n, d);
+        mpz_clear(five);
+        char *digits = mpz_get_str(NULL, 10, n);
+        if (digits) {
+            sb_puts(b, digits);
+            if (k) sb_printf(b, "e-%lu", k);
+            void (*freefn)(void *, size_t);
+            mp_get_memory_functions(NULL, NULL, &freefn);
+            freefn(digits, strlen(digits) + 1);
+        } else {
+            sb_puts(b, t);
+        }
+        mpz_clear(n);
+        mpz_clear(d);
+    } else {
+        sb_puts(b, t);
+    }
+    mpq_clear(x);
+    mpq_clear(y);
+}
+
 static void sb_ratio(sbuf *b, ulk_ratio r)
 {
     char t[64];
@@ -1904,15 +1953,15 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
             sb_printf(&b, "%d", a->bits);
             if (a->cal == ULK_CAL_LINEAR) {
                 sb_puts(&b, ",\"calibration\":{\"offset\":");
-                sb_double(&b, a->cal_offset);
+                sb_exact(&b, a->cal_offset_text, a->cal_offset);
                 sb_puts(&b, ",\"scale\":");
-                sb_double(&b, a->cal_scale);
+                sb_exact(&b, a->cal_scale_text, a->cal_scale);
                 sb_puts(&b, "}");
             } else if (a->cal == ULK_CAL_POLY) {
                 sb_puts(&b, ",\"calibration\":{\"polynomial\":[");
                 for (int t = 0; t < a->n_poly; t++) {
                     if (t) sb_puts(&b, ",");
-                    sb_double(&b, a->poly[t]);
+                    sb_exact(&b, a->poly_text ? a->poly_text[t] : NULL, a->poly[t]);
                 }
                 sb_puts(&b, "]}");
             }
@@ -1921,9 +1970,9 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
             sb_str(&b, a->name);
             if (a->has_range) {
                 sb_puts(&b, ",\"range\":[");
-                sb_double(&b, a->range_min);
+                sb_exact(&b, a->range_min_text, a->range_min);
                 sb_puts(&b, ",");
-                sb_double(&b, a->range_max);
+                sb_exact(&b, a->range_max_text, a->range_max);
                 sb_puts(&b, "]");
             }
             sb_puts(&b, ",\"type\":");

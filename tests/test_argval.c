@@ -18,6 +18,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "ulk/dict.h"
@@ -541,6 +542,37 @@ static void test_dictionary_exact(void **st)
     }
 }
 
+/* Two dictionaries whose scales differ only beyond a double's precision encode different bits
+ * (test_issue_tie_linear), so they must not share a canonical form and hash; written the usual
+ * way (0.1, 0.100) the canonical form keeps the double's short text. */
+static void test_canonical_keeps_exact_digits(void **st)
+{
+    (void)st;
+    const char *scales[3] = {"0.1", "0.100", "0.10000000000000000001"};
+    char sha[3][65];
+    char *canon[3];
+    for (int i = 0; i < 3; i++) {
+        char arg[200], text[4096];
+        snprintf(arg, sizeof arg, "{name: v, type: unsigned, bits: 32, calibration: {scale: %s, offset: 0.7}}", scales[i]);
+        snprintf(text, sizeof text, EXACT_YAML, arg);
+        ulk_diag *dg = ulk_diag_create();
+        ulk_dict *d = NULL;
+        if (ulk_dict_load_mem("canon.yaml", text, strlen(text), 0, &d, dg) != 0) {
+            ulk_diag_print(dg, stderr);
+            fail_msg("scale %s: the dictionary should load", scales[i]);
+        }
+        memcpy(sha[i], d->sha256, 65);
+        if (ulk_dict_canonical(d, &canon[i], NULL) != 0) fail_msg("scale %s: no canonical form", scales[i]);
+        ulk_dict_destroy(d);
+        ulk_diag_destroy(dg);
+    }
+    if (!strstr(canon[0], "\"scale\":0.1}")) fail_msg("canonical form of 0.1: %s", canon[0]);
+    if (strcmp(sha[0], sha[1]) != 0) fail_msg("0.1 and 0.100 are one value, yet hashes differ");
+    if (!strstr(canon[2], "\"scale\":10000000000000000001e-20}")) fail_msg("exact digits not kept: %s", canon[2]);
+    if (strcmp(sha[0], sha[2]) == 0) fail_msg("0.1 and 0.10000000000000000001 share a hash");
+    for (int i = 0; i < 3; i++) free(canon[i]);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -557,6 +589,7 @@ int main(void)
         cmocka_unit_test(test_polynomial_exact_tie),
         cmocka_unit_test(test_fmt_double_extremes),
         cmocka_unit_test(test_dictionary_exact),
+        cmocka_unit_test(test_canonical_keeps_exact_digits),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
