@@ -174,13 +174,6 @@ static int num_parse(const char *text, double scale, num_t *x, char *err, size_t
     return 0;
 }
 
-/* Sign of (x - m), exact. */
-static int num_cmp_q(const num_t *x, const mpq_t m)
-{
-    int c = mpq_cmp(x->q, m);
-    return c < 0 ? -1 : c > 0;
-}
-
 static void fmt_sig(double v, int p, char *buf, size_t len);
 /* Shortest text that reads back to v, plain notation where it stays short. */
 static void fmt_short(double v, char *buf, size_t len)
@@ -235,47 +228,72 @@ static void cal_g(const ulk_calq *k, int s, i128 r, mpz_t out, mpz_t tmp)
  * 2X against g(a) + g(b); a tie goes to the smaller raw. 0, or -1 with a reason. */
 static int cal_nearest(const ulk_arg *a, const num_t *x, const char *text, i128 *out, char *err, size_t errlen)
 {
-    ulk_calq k;
-    if (ulk_calq_init(&k, a) != 0) {
-        ulk_calq_clear(&k);
+    const ulk_calq *k = ulk_calq_get(a);
+    if (!k) {
         seterr(err, errlen, "the calibration of '%s' has a coefficient that is not an exact number",
                a->name ? a->name : "?");
         return -1;
     }
     i128 lo, hi;
     raw_range(a, &lo, &hi);
-    mpz_t g1, g2, t;
-    mpq_t X, X2;
-    mpz_inits(g1, g2, t, NULL);
-    mpq_init(X);
-    mpq_init(X2);
-    cal_g(&k, 1, lo, g1, t);
-    cal_g(&k, 1, hi, g2, t);
+    /* scratch numbers kept per thread (the compiler converts many values) */
+    static _Thread_local mpz_t g1, g2, t;
+    static _Thread_local mpq_t X, X2, y;
+    static _Thread_local int scratch_init;
+    if (!scratch_init) {
+        mpz_inits(g1, g2, t, NULL);
+        mpq_init(X);
+        mpq_init(X2);
+        mpq_init(y);
+        scratch_init = 1;
+    }
+    cal_g(k, 1, lo, g1, t);
+    cal_g(k, 1, hi, g2, t);
     const int s = mpz_cmp(g2, g1) >= 0 ? 1 : -1;
-    mpz_mul(mpq_numref(X), mpq_numref(x->q), k.den);
+    mpz_mul(mpq_numref(X), mpq_numref(x->q), k->den);
     mpz_set(mpq_denref(X), mpq_denref(x->q));
     mpq_canonicalize(X);
     if (s < 0) mpq_neg(X, X);
     mpq_mul_2exp(X2, X, 1);
-#define G(r, z) cal_g(&k, s, (r), (z), t)
+#define G(r, z) cal_g(k, s, (r), (z), t)
     /* sign of (2X - (g1 + g2)): where x lies against the midpoint of g1 and g2 */
 #define HALF() (mpz_add(t, g1, g2), mpq_cmp_z(X2, t))
     int rc = 0;
-    i128 l = lo, h = hi + 1;
-    while (l < h) {
-        i128 mid = l + (h - l) / 2;
-        G(mid, g1);
-        if (mpq_cmp_z(X, g1) <= 0) h = mid;
-        else l = mid + 1;
+    i128 u;
+    if (k->n == 2) {
+        /* linear: g(r) = s (c0 + c1 r) rises with r, so u = ceil((s X - c0) / c1), clamped */
+        mpq_set(y, X);
+        if (s < 0) mpq_neg(y, y);
+        mpz_mul(t, mpq_denref(y), k->c[0]);
+        mpz_sub(mpq_numref(y), mpq_numref(y), t);
+        mpz_mul(mpq_denref(y), mpq_denref(y), k->c[1]);
+        mpq_canonicalize(y);                          /* (x den - c0) / c1 */
+        mpz_cdiv_q(g1, mpq_numref(y), mpq_denref(y)); /* ceiling */
+        ulk_z_set_i128(g2, lo);
+        if (mpz_cmp(g1, g2) < 0) u = lo;
+        else {
+            ulk_z_set_i128(g2, hi);
+            if (mpz_cmp(g1, g2) > 0) u = hi + 1;
+            else ulk_z_get_i128(g1, &u);
+        }
+    } else {
+        i128 l = lo, h = hi + 1;
+        while (l < h) {
+            i128 mid = l + (h - l) / 2;
+            G(mid, g1);
+            if (mpq_cmp_z(X, g1) <= 0) h = mid;
+            else l = mid + 1;
+        }
+        u = l;
     }
-    i128 u = l, pick = lo;
+    i128 pick = lo;
     char b1[64], b2[64];
     if (u == lo) {
         G(lo, g2);
         if (mpq_cmp_z(X, g2) != 0) {
             G(lo - 1, g1); /* exactly half a step below f(lo) is accepted */
             if (HALF() < 0) {
-                fmt_cal(&k, lo, b1, sizeof b1);
+                fmt_cal(k, lo, b1, sizeof b1);
                 i128_to_dec(lo, b2);
                 seterr(err, errlen,
                        "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
@@ -288,7 +306,7 @@ static int cal_nearest(const ulk_arg *a, const num_t *x, const char *text, i128 
         G(hi, g1);
         G(hi + 1, g2);
         if (HALF() > 0) {
-            fmt_cal(&k, hi, b1, sizeof b1);
+            fmt_cal(k, hi, b1, sizeof b1);
             i128_to_dec(hi, b2);
             seterr(err, errlen,
                    "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
@@ -320,10 +338,6 @@ static int cal_nearest(const ulk_arg *a, const num_t *x, const char *text, i128 
     }
 #undef G
 #undef HALF
-    mpz_clears(g1, g2, t, NULL);
-    mpq_clear(X);
-    mpq_clear(X2);
-    ulk_calq_clear(&k);
     if (rc == 0) *out = pick;
     return rc;
 }
@@ -331,24 +345,20 @@ static int cal_nearest(const ulk_arg *a, const num_t *x, const char *text, i128 
 static int range_check(const ulk_arg *a, const num_t *x, const char *text, char *err, size_t errlen)
 {
     if (!a->has_range) return 0;
-    mpq_t lo, hi;
-    mpq_init(lo);
-    mpq_init(hi);
-    int rc = 0;
-    if (ulk_arg_range_q(a, lo, hi) != 0) {
+    mpq_srcptr lo, hi;
+    if (ulk_arg_range_get(a, &lo, &hi) != 0) {
         seterr(err, errlen, "the range of '%s' is not an exact number", a->name ? a->name : "?");
-        rc = -1;
-    } else if (num_cmp_q(x, lo) < 0 || num_cmp_q(x, hi) > 0) {
+        return -1;
+    }
+    if (mpq_cmp(x->q, lo) < 0 || mpq_cmp(x->q, hi) > 0) {
         char b1[40], b2[40];
         fmt_short(a->range_min, b1, sizeof b1);
         fmt_short(a->range_max, b2, sizeof b2);
         seterr(err, errlen, "value %s is outside the range [%s, %s]%s%s", text, b1, b2,
                a->units ? " " : "", a->units ? a->units : "");
-        rc = -1;
+        return -1;
     }
-    mpq_clear(lo);
-    mpq_clear(hi);
-    return rc;
+    return 0;
 }
 
 static int eq_nocase(const char *a, const char *b)
@@ -499,16 +509,15 @@ double ulk_arg_raw_to_eng(const ulk_arg *a, uint64_t raw)
     i128 r = a->type == ULK_ARG_SIGNED ? (i128)sign_extend(raw, bits) : (i128)(raw & mask_bits(bits));
     if (is_calibrated(a)) {
         /* the double nearest to the exact f(r): the same on every machine */
-        ulk_calq k;
+        const ulk_calq *k = ulk_calq_get(a);
         double v = NAN;
-        if (ulk_calq_init(&k, a) == 0) {
+        if (k) {
             mpq_t q;
             mpq_init(q);
-            ulk_calq_value(&k, q, r);
+            ulk_calq_value(k, q, r);
             v = ulk_q_to_double(q);
             mpq_clear(q);
         }
-        ulk_calq_clear(&k);
         return v;
     }
     return (double)r;

@@ -10,6 +10,9 @@
 
 #include "ulk/error.h"
 
+/* mpz_set_si / mpz_get_ui carry 64-bit raws: the LP64 targets built (x86-64, aarch64 Linux). */
+_Static_assert(sizeof(long) == 8, "exact.c needs a 64-bit long");
+
 int ulk_q_set_text(mpq_t q, const char *text, long max_exp10, int clamp, int *neg)
 {
     mpq_set_ui(q, 0, 1);
@@ -102,13 +105,21 @@ void ulk_q_set_double_short(mpq_t q, double v)
     if (ulk_q_set_text(q, buf, 400, 0, NULL) != 0) mpq_set_d(q, v); /* not reached: %g text */
 }
 
+/* Scratch integers kept per thread: the compiler rounds many values, and GMP would otherwise
+ * allocate and free them each time. */
+static _Thread_local mpz_t g_rb[4];
+static _Thread_local int g_rb_init;
+
 double ulk_q_round_binary(const mpq_t q, int p, int emin, int emax, int *overflow)
 {
     if (overflow) *overflow = 0;
     int sg = mpq_sgn(q);
     if (sg == 0) return 0.0;
-    mpz_t n, d, Q, R;
-    mpz_inits(n, d, Q, R, NULL);
+    if (!g_rb_init) {
+        for (int i = 0; i < 4; i++) mpz_init(g_rb[i]);
+        g_rb_init = 1;
+    }
+    mpz_ptr n = g_rb[0], d = g_rb[1], Q = g_rb[2], R = g_rb[3];
     mpz_abs(n, mpq_numref(q));
     mpz_set(d, mpq_denref(q));
     /* e = floor(log2 |q|): sizes give it within one */
@@ -130,7 +141,6 @@ double ulk_q_round_binary(const mpq_t q, int p, int emin, int emax, int *overflo
     } else {
         v = ldexp(mpz_get_d(Q), (int)u); /* Q < 2^54 and the result is representable: exact */
     }
-    mpz_clears(n, d, Q, R, NULL);
     return sg < 0 ? -v : v;
 }
 
@@ -138,6 +148,7 @@ double ulk_q_to_double(const mpq_t q) { return ulk_q_round_binary(q, 53, -1022, 
 
 void ulk_z_set_i128(mpz_t z, __int128 v)
 {
+    if (v >= INT64_MIN && v <= INT64_MAX) { mpz_set_si(z, (long)v); return; } /* long is 64 bits (LP64) */
     int neg = v < 0;
     unsigned __int128 u = neg ? (unsigned __int128)(-(v + 1)) + 1 : (unsigned __int128)v;
     mpz_set_ui(z, (unsigned long)(uint64_t)(u >> 64));
@@ -203,6 +214,88 @@ int ulk_calq_init(ulk_calq *k, const ulk_arg *a)
     return rc;
 }
 
+/* ---- the per-thread cache of calibrations */
+
+#define CALQ_CACHE 8
+#define CALQ_KEY_TEXT 64 /* texts longer than this are not cached (built each time) */
+
+typedef struct {
+    int used;
+    const ulk_arg *arg;
+    ulk_cal_kind cal;
+    int n;
+    double v[16];
+    char t[16][CALQ_KEY_TEXT]; /* "" for a NULL text */
+    ulk_calq k;
+} calq_entry;
+
+static _Thread_local calq_entry g_calq[CALQ_CACHE];
+static _Thread_local int g_calq_next;
+static _Thread_local ulk_calq g_calq_uncached;
+static _Thread_local int g_calq_uncached_init;
+
+/* the calibration's k-th number: text (NULL when none) and double */
+static void cal_num(const ulk_arg *a, int i, const char **t, double *v)
+{
+    if (a->cal == ULK_CAL_LINEAR) {
+        *t = i == 0 ? a->cal_offset_text : a->cal_scale_text;
+        *v = i == 0 ? a->cal_offset : a->cal_scale;
+    } else {
+        *t = a->poly_text ? a->poly_text[i] : NULL;
+        *v = a->poly ? a->poly[i] : 0.0;
+    }
+}
+
+static int calq_entry_matches(const calq_entry *e, const ulk_arg *a, int n)
+{
+    if (!e->used || e->arg != a || e->cal != a->cal || e->n != n) return 0;
+    for (int i = 0; i < n; i++) {
+        const char *t;
+        double v;
+        cal_num(a, i, &t, &v);
+        if (memcmp(&v, &e->v[i], sizeof v) != 0 || strcmp(t ? t : "", e->t[i]) != 0) return 0;
+    }
+    return 1;
+}
+
+const ulk_calq *ulk_calq_get(const ulk_arg *a)
+{
+    int n = a->cal == ULK_CAL_LINEAR ? 2 : a->n_poly;
+    if (n < 1 || n > 16 || (a->cal == ULK_CAL_POLY && !a->poly)) return NULL;
+    int cacheable = 1;
+    for (int i = 0; i < n; i++) {
+        const char *t;
+        double v;
+        cal_num(a, i, &t, &v);
+        if (t && strlen(t) >= CALQ_KEY_TEXT) cacheable = 0;
+    }
+    if (!cacheable) {
+        if (g_calq_uncached_init) ulk_calq_clear(&g_calq_uncached);
+        g_calq_uncached_init = 1;
+        return ulk_calq_init(&g_calq_uncached, a) == 0 ? &g_calq_uncached : NULL;
+    }
+    for (int j = 0; j < CALQ_CACHE; j++)
+        if (calq_entry_matches(&g_calq[j], a, n)) return &g_calq[j].k;
+    calq_entry *e = &g_calq[g_calq_next];
+    g_calq_next = (g_calq_next + 1) % CALQ_CACHE;
+    if (e->used) ulk_calq_clear(&e->k);
+    e->used = 0;
+    if (ulk_calq_init(&e->k, a) != 0) {
+        ulk_calq_clear(&e->k);
+        return NULL;
+    }
+    e->used = 1;
+    e->arg = a;
+    e->cal = a->cal;
+    e->n = n;
+    for (int i = 0; i < n; i++) {
+        const char *t;
+        cal_num(a, i, &t, &e->v[i]);
+        snprintf(e->t[i], CALQ_KEY_TEXT, "%s", t ? t : "");
+    }
+    return &e->k;
+}
+
 void ulk_calq_clear(ulk_calq *k)
 {
     for (int i = 0; i < 16; i++) mpz_clear(k->c[i]);
@@ -236,5 +329,54 @@ int ulk_arg_range_q(const ulk_arg *a, mpq_t lo, mpq_t hi)
 {
     int rc = q_of(lo, a->range_min_text, a->range_min);
     if (!rc) rc = q_of(hi, a->range_max_text, a->range_max);
+    return rc;
+}
+
+/* ---- the per-thread cache of range bounds */
+
+typedef struct {
+    int used;
+    const ulk_arg *arg;
+    double v[2];
+    char t[2][CALQ_KEY_TEXT];
+    mpq_t lo, hi;
+} range_entry;
+
+static _Thread_local range_entry g_range[CALQ_CACHE];
+static _Thread_local int g_range_next;
+static _Thread_local mpq_t g_range_uncached[2];
+static _Thread_local int g_range_uncached_init;
+
+int ulk_arg_range_get(const ulk_arg *a, mpq_srcptr *lo, mpq_srcptr *hi)
+{
+    const char *t[2] = {a->range_min_text, a->range_max_text};
+    double v[2] = {a->range_min, a->range_max};
+    if ((t[0] && strlen(t[0]) >= CALQ_KEY_TEXT) || (t[1] && strlen(t[1]) >= CALQ_KEY_TEXT)) {
+        if (!g_range_uncached_init) { mpq_init(g_range_uncached[0]); mpq_init(g_range_uncached[1]); }
+        g_range_uncached_init = 1;
+        *lo = g_range_uncached[0];
+        *hi = g_range_uncached[1];
+        return ulk_arg_range_q(a, g_range_uncached[0], g_range_uncached[1]);
+    }
+    for (int j = 0; j < CALQ_CACHE; j++) {
+        range_entry *e = &g_range[j];
+        if (e->used && e->arg == a && !memcmp(e->v, v, sizeof v) && !strcmp(e->t[0], t[0] ? t[0] : "") &&
+            !strcmp(e->t[1], t[1] ? t[1] : "")) {
+            *lo = e->lo;
+            *hi = e->hi;
+            return 0;
+        }
+    }
+    range_entry *e = &g_range[g_range_next];
+    g_range_next = (g_range_next + 1) % CALQ_CACHE;
+    if (!e->used) { mpq_init(e->lo); mpq_init(e->hi); }
+    e->used = 0;
+    int rc = ulk_arg_range_q(a, e->lo, e->hi);
+    e->used = 1; /* the mpq are initialised from here on */
+    e->arg = rc == 0 ? a : NULL;
+    memcpy(e->v, v, sizeof v);
+    for (int i = 0; i < 2; i++) snprintf(e->t[i], CALQ_KEY_TEXT, "%s", t[i] ? t[i] : "");
+    *lo = e->lo;
+    *hi = e->hi;
     return rc;
 }

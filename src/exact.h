@@ -58,6 +58,11 @@ typedef struct {
  * Initialises k in every case; ulk_calq_clear() it afterwards. */
 int ulk_calq_init(ulk_calq *k, const ulk_arg *a);
 void ulk_calq_clear(ulk_calq *k);
+/* The calibration of a, from a small per-thread cache (building it means reading decimal
+ * texts, and the compiler converts many values of few arguments): NULL when a coefficient
+ * is not an exact number. An entry is reused only when the argument's calibration (kind,
+ * texts, doubles) is the same as when it was built; valid until the next call. */
+const ulk_calq *ulk_calq_get(const ulk_arg *a);
 /* out = sum c[k] r^k (the numerator of f(r)). */
 void ulk_calq_num(const ulk_calq *k, mpz_t out, const mpz_t r);
 /* out = f(r) exactly. */
@@ -65,5 +70,8 @@ void ulk_calq_value(const ulk_calq *k, mpq_t out, __int128 r);
 
 /* The exact range bounds of a (texts, else the doubles); 0 or ULK_EPARSE / ULK_ELIMIT. */
 int ulk_arg_range_q(const ulk_arg *a, mpq_t lo, mpq_t hi);
+/* The same from a small per-thread cache (as ulk_calq_get): 0 with *lo and *hi valid until
+ * the next call, or an error code. */
+int ulk_arg_range_get(const ulk_arg *a, mpq_srcptr *lo, mpq_srcptr *hi);
 
 #endif
