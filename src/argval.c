@@ -1,5 +1,5 @@
 /* src/argval.c - argument values: the operator's engineering text <-> the raw field
- * (docs/dictionary.md section 4, "Argument values").
+ * (docs/dictionary.md section 4: exact arithmetic and the rounding rules).
  *
  * Why exact: the contract decides calibration ties, range ends and the half-step refusal on
  * the decimal value *as written*, not on a binary rounding of it, and the same text must give
