@@ -42,15 +42,10 @@ rm -rf "$logs"; mkdir -p "$logs"
 chmod 1777 "$logs"
 VG="valgrind --suppressions=$here/scripts/valgrind.supp --error-exitcode=97 --leak-check=full --errors-for-leak-kinds=definite,indirect --show-leak-kinds=definite,indirect --num-callers=30"
 wrap=$logs/ulk-under-valgrind
-# Why compile runs natively by default: valgrind computes x87 long double with 64-bit precision
-# (a documented valgrind limitation), and the argument rounding of src/argval.c needs the 80-bit
-# type to decide exact ties, so under valgrind `ulk compile` refuses the demo list and every
-# later step of those tests never runs. The compiler's memory use is still checked by the cmocka
-# programs (test_cmdlist, test_upload) under valgrind and by the fuzzers under ASan.
-# VALGRIND_COMPILE=1 puts compile under valgrind too.
+# Every command runs under valgrind, compile included: argument values are decided in exact
+# rationals (src/exact.h), so valgrind's emulation of x87 long double no longer matters.
 cat >"$wrap" <<EOF
 #!/bin/sh
-if [ "\$1" = compile ] && [ "\${VALGRIND_COMPILE:-0}" != 1 ]; then exec "$bdir/ulk" "\$@"; fi
 exec $VG --log-file="$logs/ulk.%p.log" "$bdir/ulk" "\$@"
 EOF
 chmod 755 "$wrap"

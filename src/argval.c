@@ -1,23 +1,19 @@
 /* src/argval.c - argument values: the operator's engineering text <-> the raw field
- * (subbit-profile.md section 2).
+ * (docs/dictionary.md section 4: exact arithmetic and the rounding rules).
  *
- * Why exact: the contract decides calibration ties and the half-step refusal on the decimal
- * value *as written*, not on its binary rounding. A value is therefore kept as an exact
- * decimal (canonical digits and exponent) and every comparison against a binary value m
- * (range ends, midpoints between calibrated values) is made exactly: the nearest long double
- * settles it unless it equals m, and only then the value is re-read rounded down and up
- * (strtold honours the rounding mode) to learn on which side of m the decimal lies.
- *
- * Calibrated values f(raw) and their midpoints are computed in long double (64-bit
- * mantissa): exact for linear and low-order polynomial calibrations of raws up to ~2^10
- * with binary-exact coefficients, and otherwise within an ulp of long double, far below a
- * raw step. Polynomials are monotonic (the dictionary validator checks it), so the nearest
- * raw is found by bisection over the raw range and a comparison of the two neighbours.
+ * Why exact: the contract decides calibration ties, range ends and the half-step refusal on
+ * the decimal value *as written*, not on a binary rounding of it, and the same text must give
+ * the same bits on every machine. A value is therefore kept as the exact rational its text
+ * denotes (GMP, src/exact.h); calibrations are integer polynomials over one denominator
+ * (ulk_calq), so f(raw) and the midpoints between neighbouring raws are exact integers and
+ * every comparison is an exact one. A binary value appears only at the end, by one correct
+ * rounding: a float32 field (nearest, ties to even) and the engineering value of a raw (the
+ * double nearest to the exact f(raw)). Polynomials are monotonic (the dictionary validator
+ * checks it exactly), so the nearest raw is found by bisection over the raw range and a
+ * comparison of the two neighbours; a tie goes to the smaller raw.
  */
 #include <stdint.h>
 #include <ctype.h>
-#include <errno.h>
-#include <fenv.h>
 #include <float.h>
 #include <math.h>
 #include <stdarg.h>
@@ -26,24 +22,21 @@
 #include <string.h>
 
 #include "ulk/dict.h"
+#include "exact.h"
 #include "util.h"
 
 #define MAX_VALUE_TEXT 1000 /* longest value text taken (bytes) */
+#define MAX_VALUE_EXP10 100000 /* exponents beyond are clamped (src/exact.h: compares the same) */
 
 typedef __int128 i128;
 
 /* An operator's number, exact. */
 typedef struct {
-    int neg;
-    char canon[MAX_VALUE_TEXT + 48]; /* "[-]D...De[-]N": the exact value, scale applied */
-    int is_int;                      /* the value is a whole number */
-    int fits;                        /* is_int and -2^63 <= v < 2^64: ival valid */
+    int neg;    /* a '-' was written (-0 keeps its sign in a float32) */
+    mpq_t q;    /* the exact value, scale applied */
+    int is_int; /* q is a whole number */
+    int fits;   /* is_int and -2^63 <= q < 2^64: ival valid */
     i128 ival;
-    int based;                       /* written in hex or binary */
-    long double xn;                  /* nearest long double */
-    int exact_known, exact;          /* lazily: is xn the value exactly? */
-    long double xd, xu;              /* rounded down / up (valid when exact_known && !exact) */
-    int approx;                      /* a non-decimal scale was applied: xn is all we know */
 } num_t;
 
 static void seterr(char *err, size_t errlen, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
@@ -79,16 +72,6 @@ static int scale_pow10(double scale)
     return 99;
 }
 
-/* i128 -> long double through 64-bit integers where the value fits (every raw value and every
- * accepted integer does): the 128-bit conversion helper is a libgcc routine that some tools
- * (valgrind's x87 emulation) compute wrongly, and there is no need to depend on it. */
-static long double i128_ld(i128 v)
-{
-    if (v >= INT64_MIN && v <= INT64_MAX) return (long double)(int64_t)v;
-    if (v > 0 && v <= (i128)UINT64_MAX) return (long double)(uint64_t)v;
-    return (long double)v;
-}
-
 static void i128_to_dec(i128 v, char *buf)
 {
     char tmp[48];
@@ -101,17 +84,15 @@ static void i128_to_dec(i128 v, char *buf)
     buf[j] = 0;
 }
 
-/* Parses text (whole string) into x; scale multiplies it. 0, or -1 with a reason. */
-static int num_parse(const char *text, double scale, num_t *x, char *err, size_t errlen)
+/* Checks the syntax of text (whole string) for a clear message; 0, or -1 with a reason.
+ * Command lists take decimals and 0x / 0b integers of at most 64 bits. */
+static int num_syntax(const char *text, char *err, size_t errlen)
 {
-    memset(x, 0, sizeof *x);
     size_t tl = strlen(text);
     if (tl == 0) { seterr(err, errlen, "empty value"); return -1; }
     if (tl > MAX_VALUE_TEXT) { seterr(err, errlen, "value text is longer than %d characters", MAX_VALUE_TEXT); return -1; }
     const char *p = text;
-    if (*p == '+' || *p == '-') { x->neg = *p == '-'; p++; }
-    int k10 = scale_pow10(scale);
-
+    if (*p == '+' || *p == '-') p++;
     if (p[0] == '0' && (p[1] == 'x' || p[1] == 'X' || p[1] == 'b' || p[1] == 'B')) {
         int base = (p[1] == 'x' || p[1] == 'X') ? 16 : 2;
         p += 2;
@@ -133,141 +114,64 @@ static int num_parse(const char *text, double scale, num_t *x, char *err, size_t
                 return -1;
             }
         }
-        x->based = 1;
-        x->is_int = 1;
-        x->ival = x->neg ? -(i128)v : (i128)v;
-        if (x->ival < -(((i128)1) << 63)) { seterr(err, errlen, "value %s is beyond 64 bits", text); return -1; }
-        x->fits = 1;
-        char dec[48];
-        i128_to_dec(x->ival, dec);
-        snprintf(x->canon, sizeof x->canon, "%se0", dec);
-        if (k10 != 0) {
-            /* a hex value never carries a unit; a caller-supplied scale still applies */
-            if (k10 == 99) { x->approx = 1; x->xn = i128_ld(x->ival) * scale; x->is_int = 0; x->fits = 0; return 0; }
-            snprintf(x->canon, sizeof x->canon, "%se%d", dec, k10);
-            x->is_int = k10 > 0 || x->ival == 0;
-            x->fits = 0;
-            if (k10 > 0 && k10 < 20) {
-                i128 w = x->ival;
-                int ok = 1;
-                for (int i = 0; i < k10 && ok; i++) {
-                    if (w > ((i128)1 << 100) || w < -((i128)1 << 100)) ok = 0;
-                    else w *= 10;
-                }
-                if (ok && w <= (i128)UINT64_MAX && w >= -(((i128)1) << 63)) { x->ival = w; x->fits = 1; }
-            }
+        if (text[0] == '-' && v > ((unsigned __int128)1 << 63)) {
+            seterr(err, errlen, "value %s is beyond 64 bits", text);
+            return -1;
         }
-        goto finish;
-    }
-
-    /* decimal: digits [. digits] [e [+-] digits] */
-    const char *ip = p;
-    size_t ni = 0, nf = 0;
-    while (isdigit((unsigned char)p[ni])) ni++;
-    const char *fp = NULL;
-    p += ni;
-    if (*p == '.') {
-        fp = p + 1;
-        while (isdigit((unsigned char)fp[nf])) nf++;
-        p = fp + nf;
-    }
-    if (ni + nf == 0) {
-        seterr(err, errlen, "'%s' is not a number", text);
-        return -1;
-    }
-    long e = 0;
-    if (*p == 'e' || *p == 'E') {
-        const char *q = p + 1;
-        int eneg = 0;
-        if (*q == '+' || *q == '-') { eneg = *q == '-'; q++; }
-        if (!isdigit((unsigned char)*q)) { seterr(err, errlen, "'%s' is not a number (bad exponent)", text); return -1; }
-        for (; isdigit((unsigned char)*q); q++)
-            if (e < 1000000) e = e * 10 + (*q - '0');
-        if (eneg) e = -e;
-        p = q;
-    }
-    if (*p) {
-        seterr(err, errlen, "'%s' is not a number (unexpected '%c')", text, *p);
-        return -1;
-    }
-    /* significant digits: integer part then fraction, without leading/trailing zeros */
-    char digs[MAX_VALUE_TEXT + 2];
-    size_t nd = 0;
-    for (size_t i = 0; i < ni; i++) digs[nd++] = ip[i];
-    for (size_t i = 0; i < nf; i++) digs[nd++] = fp[i];
-    long exp10 = e - (long)nf;
-    size_t lead = 0;
-    while (lead < nd && digs[lead] == '0') lead++;
-    size_t end = nd;
-    while (end > lead && digs[end - 1] == '0') { end--; exp10++; }
-    if (lead == end) { /* zero */
-        snprintf(x->canon, sizeof x->canon, "%s0e0", x->neg ? "-" : "");
-        x->is_int = 1;
-        x->fits = 1;
-        x->ival = 0;
-        goto finish;
-    }
-    size_t sig = end - lead;
-    if (k10 == 99) {
-        x->approx = 1;
-    } else {
-        exp10 += k10;
-    }
-    if (exp10 > 100000 || exp10 < -100000) exp10 = exp10 > 0 ? 100000 : -100000;
-    snprintf(x->canon, sizeof x->canon, "%s%.*se%ld", x->neg ? "-" : "", (int)sig, digs + lead, exp10);
-    x->is_int = exp10 >= 0 && !x->approx;
-    if (x->is_int && (long)sig + exp10 <= 20) {
-        unsigned __int128 v = 0;
-        for (size_t i = lead; i < end; i++) v = v * 10 + (unsigned)(digs[i] - '0');
-        for (long i = 0; i < exp10; i++) v *= 10;
-        if (v <= (unsigned __int128)UINT64_MAX) {
-            x->ival = x->neg ? -(i128)v : (i128)v;
-            x->fits = x->ival >= -(((i128)1) << 63);
-        }
-    }
-    if (x->approx) {
-        x->xn = strtold(x->canon, NULL) * (long double)scale;
-        x->is_int = 0;
         return 0;
     }
-finish:
-    if (x->fits) {
-        x->xn = i128_ld(x->ival); /* exact: 64-bit mantissa */
-        if (x->ival == 0 && x->neg) x->xn = -0.0L;
-        x->exact_known = x->exact = 1;
-    } else {
-        x->xn = strtold(x->canon, NULL);
+    size_t ni = 0, nf = 0;
+    while (isdigit((unsigned char)p[ni])) ni++;
+    p += ni;
+    if (*p == '.') {
+        p++;
+        while (isdigit((unsigned char)p[nf])) nf++;
+        p += nf;
     }
+    if (ni + nf == 0) { seterr(err, errlen, "'%s' is not a number", text); return -1; }
+    if (*p == 'e' || *p == 'E') {
+        const char *q = p + 1;
+        if (*q == '+' || *q == '-') q++;
+        if (!isdigit((unsigned char)*q)) { seterr(err, errlen, "'%s' is not a number (bad exponent)", text); return -1; }
+        while (isdigit((unsigned char)*q)) q++;
+        p = q;
+    }
+    if (*p) { seterr(err, errlen, "'%s' is not a number (unexpected '%c')", text, *p); return -1; }
     return 0;
 }
 
-/* Sign of (x - m), exact. */
-static int num_cmp(num_t *x, long double m)
+/* Parses text (whole string) into x (x->q initialised by the caller); scale multiplies it.
+ * 0, or -1 with a reason. */
+static int num_parse(const char *text, double scale, num_t *x, char *err, size_t errlen)
 {
-    if (x->xn < m) return -1;
-    if (x->xn > m) return 1;
-    if (x->approx) return 0;
-    if (!x->exact_known) {
-        int old = fegetround();
-        fesetround(FE_DOWNWARD);
-        x->xd = strtold(x->canon, NULL);
-        fesetround(FE_UPWARD);
-        x->xu = strtold(x->canon, NULL);
-        fesetround(old);
-        x->exact_known = 1;
-        x->exact = x->xd == x->xu;
+    x->neg = x->is_int = x->fits = 0;
+    x->ival = 0;
+    if (num_syntax(text, err, errlen) < 0) return -1;
+    int rc = ulk_q_set_text(x->q, text, MAX_VALUE_EXP10, 1, &x->neg);
+    if (rc) { seterr(err, errlen, "'%s' is not a number", text); return -1; }
+    if (scale != 1.0) {
+        int k10 = scale_pow10(scale);
+        mpq_t f;
+        mpq_init(f);
+        if (k10 != 99) {
+            mpq_set_ui(f, 1, 1);
+            mpz_ui_pow_ui(k10 >= 0 ? mpq_numref(f) : mpq_denref(f), 10, (unsigned long)abs(k10));
+            mpq_canonicalize(f);
+        } else {
+            ulk_q_set_double_short(f, scale);
+        }
+        mpq_mul(x->q, x->q, f);
+        mpq_clear(f);
     }
-    if (x->exact) return 0;
-    /* the decimal lies strictly between xd and xu, and m is one of them */
-    return m == x->xd ? 1 : -1;
-}
-
-/* Short text of x for messages: the value as written (with the scale, if any). */
-static const char *num_show(const num_t *x, const char *text, char *buf, size_t len)
-{
-    (void)x;
-    snprintf(buf, len, "%s", text);
-    return buf;
+    x->is_int = mpz_cmp_ui(mpq_denref(x->q), 1) == 0;
+    if (x->is_int && mpz_sizeinbase(mpq_numref(x->q), 2) <= 65) {
+        i128 v;
+        if (ulk_z_get_i128(mpq_numref(x->q), &v) == 0 && v >= -(((i128)1) << 63) && v <= (i128)UINT64_MAX) {
+            x->ival = v;
+            x->fits = 1;
+        }
+    }
+    return 0;
 }
 
 static void fmt_sig(double v, int p, char *buf, size_t len);
@@ -279,7 +183,6 @@ static void fmt_short(double v, char *buf, size_t len)
         if (strtod(buf, NULL) == v) return;
     }
 }
-static void fmt_ld(long double v, char *buf, size_t len) { fmt_short((double)v, buf, len); }
 
 /* Raw range of an integer argument as integers. */
 static void raw_range(const ulk_arg *a, i128 *lo, i128 *hi)
@@ -293,15 +196,6 @@ static void raw_range(const ulk_arg *a, i128 *lo, i128 *hi)
     }
 }
 
-static long double cal_eval(const ulk_arg *a, i128 r)
-{
-    long double x = i128_ld(r);
-    if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_offset + (long double)a->cal_scale * x;
-    long double acc = 0.0L;
-    for (int k = a->n_poly - 1; k >= 0; k--) acc = acc * x + (long double)a->poly[k];
-    return acc;
-}
-
 static int is_calibrated(const ulk_arg *a)
 {
     return (a->type == ULK_ARG_UNSIGNED || a->type == ULK_ARG_SIGNED) &&
@@ -310,78 +204,153 @@ static int is_calibrated(const ulk_arg *a)
 
 static uint64_t mask_bits(int bits) { return bits >= 64 ? UINT64_MAX : (((uint64_t)1 << bits) - 1); }
 
-/* Nearest raw of a calibrated argument (section 2). 0 or -1 with a reason. */
-static int cal_nearest(const ulk_arg *a, num_t *x, const char *text, i128 *out, char *err, size_t errlen)
+/* Message text of f(r): the double nearest to it. */
+static void fmt_cal(const ulk_calq *k, i128 r, char *buf, size_t len)
 {
+    mpq_t v;
+    mpq_init(v);
+    ulk_calq_value(k, v, r);
+    fmt_short(ulk_q_to_double(v), buf, len);
+    mpq_clear(v);
+}
+
+/* g(r) = s * (numerator of f(r)): non-decreasing in r for a monotonic calibration. */
+static void cal_g(const ulk_calq *k, int s, i128 r, mpz_t out, mpz_t tmp)
+{
+    ulk_z_set_i128(tmp, r);
+    ulk_calq_num(k, out, tmp);
+    if (s < 0) mpz_neg(out, out);
+}
+
+/* Nearest raw of a calibrated argument (docs/dictionary.md section 4): exact. With
+ * X = s * x * den and g(r) = s * den * f(r) (integers), the smallest raw u with g(u) >= X is
+ * found by bisection; the midpoint between two neighbours decides, compared as
+ * 2X against g(a) + g(b); a tie goes to the smaller raw. 0, or -1 with a reason. */
+static int cal_nearest(const ulk_arg *a, const num_t *x, const char *text, i128 *out, char *err, size_t errlen)
+{
+    const ulk_calq *k = ulk_calq_get(a);
+    if (!k) {
+        seterr(err, errlen, "the calibration of '%s' has a coefficient that is not an exact number",
+               a->name ? a->name : "?");
+        return -1;
+    }
     i128 lo, hi;
     raw_range(a, &lo, &hi);
-    long double flo = cal_eval(a, lo), fhi = cal_eval(a, hi);
-    /* g = s*f is non-decreasing; compare s*x with g values */
-    int s = fhi >= flo ? 1 : -1;
-#define G(r) ((long double)s * cal_eval(a, (r)))
-#define CMP(m) (s > 0 ? num_cmp(x, (m)) : -num_cmp(x, -(m)))
-    /* u = smallest r in [lo, hi] with g(r) >= s*x; hi + 1 when none */
-    i128 l = lo, h = hi + 1;
-    while (l < h) {
-        i128 mid = l + (h - l) / 2;
-        if (CMP(G(mid)) <= 0) h = mid;
-        else l = mid + 1;
+    /* scratch numbers kept per thread (the compiler converts many values) */
+    static _Thread_local mpz_t g1, g2, t;
+    static _Thread_local mpq_t X, X2, y;
+    static _Thread_local int scratch_init;
+    if (!scratch_init) {
+        mpz_inits(g1, g2, t, NULL);
+        mpq_init(X);
+        mpq_init(X2);
+        mpq_init(y);
+        scratch_init = 1;
     }
-    i128 u = l, pick;
+    cal_g(k, 1, lo, g1, t);
+    cal_g(k, 1, hi, g2, t);
+    const int s = mpz_cmp(g2, g1) >= 0 ? 1 : -1;
+    mpz_mul(mpq_numref(X), mpq_numref(x->q), k->den);
+    mpz_set(mpq_denref(X), mpq_denref(x->q));
+    mpq_canonicalize(X);
+    if (s < 0) mpq_neg(X, X);
+    mpq_mul_2exp(X2, X, 1);
+#define G(r, z) cal_g(k, s, (r), (z), t)
+    /* sign of (2X - (g1 + g2)): where x lies against the midpoint of g1 and g2 */
+#define HALF() (mpz_add(t, g1, g2), mpq_cmp_z(X2, t))
+    int rc = 0;
+    i128 u;
+    if (k->n == 2) {
+        /* linear: g(r) = s (c0 + c1 r) rises with r, so u = ceil((s X - c0) / c1), clamped */
+        mpq_set(y, X);
+        if (s < 0) mpq_neg(y, y);
+        mpz_mul(t, mpq_denref(y), k->c[0]);
+        mpz_sub(mpq_numref(y), mpq_numref(y), t);
+        mpz_mul(mpq_denref(y), mpq_denref(y), k->c[1]);
+        mpq_canonicalize(y);                          /* (x den - c0) / c1 */
+        mpz_cdiv_q(g1, mpq_numref(y), mpq_denref(y)); /* ceiling */
+        ulk_z_set_i128(g2, lo);
+        if (mpz_cmp(g1, g2) < 0) u = lo;
+        else {
+            ulk_z_set_i128(g2, hi);
+            if (mpz_cmp(g1, g2) > 0) u = hi + 1;
+            else ulk_z_get_i128(g1, &u);
+        }
+    } else {
+        i128 l = lo, h = hi + 1;
+        while (l < h) {
+            i128 mid = l + (h - l) / 2;
+            G(mid, g1);
+            if (mpq_cmp_z(X, g1) <= 0) h = mid;
+            else l = mid + 1;
+        }
+        u = l;
+    }
+    i128 pick = lo;
     char b1[64], b2[64];
     if (u == lo) {
-        long double gl = G(lo);
-        if (CMP(gl) != 0) {
-            long double half = (G(lo - 1) + gl) / 2.0L; /* exactly half a step is accepted */
-            if (CMP(half) < 0) {
-                fmt_ld(s * gl, b1, sizeof b1);
+        G(lo, g2);
+        if (mpq_cmp_z(X, g2) != 0) {
+            G(lo - 1, g1); /* exactly half a step below f(lo) is accepted */
+            if (HALF() < 0) {
+                fmt_cal(k, lo, b1, sizeof b1);
                 i128_to_dec(lo, b2);
                 seterr(err, errlen,
                        "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
                        text, b1, b2);
-                return -1;
+                rc = -1;
             }
         }
         pick = lo;
     } else if (u == hi + 1) {
-        long double gh = G(hi);
-        long double half = (gh + G(hi + 1)) / 2.0L;
-        if (CMP(half) > 0) {
-            fmt_ld(s * gh, b1, sizeof b1);
+        G(hi, g1);
+        G(hi + 1, g2);
+        if (HALF() > 0) {
+            fmt_cal(k, hi, b1, sizeof b1);
             i128_to_dec(hi, b2);
             seterr(err, errlen,
                    "value %s is more than half a raw step from the nearest calibrated value %s (raw %s)",
                    text, b1, b2);
-            return -1;
+            rc = -1;
         }
         pick = hi;
     } else {
-        /* g(u-1) < s*x <= g(u): the nearer one, the smaller raw (u-1) on a tie */
-        long double ga = G(u - 1), gb = G(u);
-        long double half = (ga + gb) / 2.0L;
-        pick = CMP(half) <= 0 ? u - 1 : u;
+        /* g(u-1) < X <= g(u): the nearer one, the smaller raw (u-1) on a tie */
+        G(u - 1, g1);
+        G(u, g2);
+        pick = HALF() <= 0 ? u - 1 : u;
     }
-    /* a flat stretch (non-strict polynomial): the smallest raw of equal value wins */
-    if (pick > lo && G(pick - 1) == G(pick)) {
-        long double gp = G(pick);
-        i128 l2 = lo, h2 = pick;
-        while (l2 < h2) {
-            i128 mid = l2 + (h2 - l2) / 2;
-            if (G(mid) >= gp) h2 = mid;
-            else l2 = mid + 1;
+    /* a flat stretch (a model built in code may have one; the validator refuses them): the
+     * smallest raw of equal value wins */
+    if (rc == 0 && pick > lo) {
+        G(pick - 1, g1);
+        G(pick, g2);
+        if (mpz_cmp(g1, g2) == 0) {
+            i128 l2 = lo, h2 = pick;
+            while (l2 < h2) {
+                i128 mid = l2 + (h2 - l2) / 2;
+                G(mid, g1);
+                if (mpz_cmp(g1, g2) >= 0) h2 = mid;
+                else l2 = mid + 1;
+            }
+            pick = l2;
         }
-        pick = l2;
     }
 #undef G
-#undef CMP
-    *out = pick;
-    return 0;
+#undef HALF
+    if (rc == 0) *out = pick;
+    return rc;
 }
 
-static int range_check(const ulk_arg *a, num_t *x, const char *text, char *err, size_t errlen)
+static int range_check(const ulk_arg *a, const num_t *x, const char *text, char *err, size_t errlen)
 {
     if (!a->has_range) return 0;
-    if (num_cmp(x, (long double)a->range_min) < 0 || num_cmp(x, (long double)a->range_max) > 0) {
+    mpq_srcptr lo, hi;
+    if (ulk_arg_range_get(a, &lo, &hi) != 0) {
+        seterr(err, errlen, "the range of '%s' is not an exact number", a->name ? a->name : "?");
+        return -1;
+    }
+    if (mpq_cmp(x->q, lo) < 0 || mpq_cmp(x->q, hi) > 0) {
         char b1[40], b2[40];
         fmt_short(a->range_min, b1, sizeof b1);
         fmt_short(a->range_max, b2, sizeof b2);
@@ -397,6 +366,70 @@ static int eq_nocase(const char *a, const char *b)
     for (; *a && *b; a++, b++)
         if (tolower((unsigned char)*a) != tolower((unsigned char)*b)) return 0;
     return *a == *b;
+}
+
+/* The numeric part of ulk_arg_from_text (x->q initialised and cleared by the caller). */
+static int convert_number(const ulk_arg *a, const char *text, double scale, num_t *x, ulk_argval *out,
+                          char *err, size_t errlen)
+{
+    if (num_parse(text, scale, x, err, errlen) < 0) return ULK_EPARSE;
+    char shown[MAX_VALUE_TEXT + 64];
+    if (scale != 1.0) {
+        char sb[40];
+        fmt_short(scale, sb, sizeof sb);
+        snprintf(shown, sizeof shown, "%s (x%s)", text, sb);
+    } else {
+        snprintf(shown, sizeof shown, "%s", text);
+    }
+    if (range_check(a, x, shown, err, errlen) < 0) return ULK_EPARSE;
+
+    if (a->type == ULK_ARG_FLOAT32) {
+        /* rounded once from the exact value: nearest, ties to even (IEEE 754 binary32) */
+        int ovf = 0;
+        double d = ulk_q_round_binary(x->q, 24, -126, 127, &ovf);
+        if (ovf) {
+            seterr(err, errlen, "value %s is beyond the largest finite float32 (%g)", shown, (double)FLT_MAX);
+            return ULK_EPARSE;
+        }
+        float f = (float)d; /* exact: d is a binary32 value */
+        if (d == 0.0 && x->neg) f = -0.0f;
+        uint32_t bitsv;
+        memcpy(&bitsv, &f, 4);
+        out->raw = bitsv;
+        out->eng = (double)f;
+        return 0;
+    }
+
+    if (is_calibrated(a)) {
+        i128 r;
+        if (cal_nearest(a, x, shown, &r, err, errlen) < 0) return ULK_EPARSE;
+        out->raw = (uint64_t)r & mask_bits(a->bits);
+        out->eng = ulk_arg_raw_to_eng(a, out->raw);
+        return 0;
+    }
+
+    /* plain integer */
+    if (!x->is_int) {
+        seterr(err, errlen, "value %s is not a whole number (argument '%s' takes integers)", shown,
+               a->name ? a->name : "?");
+        return ULK_EPARSE;
+    }
+    i128 lo, hi;
+    raw_range(a, &lo, &hi);
+    if (!x->fits || x->ival < lo || x->ival > hi) {
+        char b1[48], b2[48];
+        i128_to_dec(lo, b1);
+        i128_to_dec(hi, b2);
+        if (!x->fits)
+            seterr(err, errlen, "value %s is beyond 64 bits", shown);
+        else
+            seterr(err, errlen, "value %s does not fit in %d %s bits [%s, %s]", shown, a->bits,
+                   ulk_arg_type_name(a->type), b1, b2);
+        return ULK_EPARSE;
+    }
+    out->raw = (uint64_t)x->ival & mask_bits(a->bits);
+    out->eng = (double)x->ival;
+    return 0;
 }
 
 int ulk_arg_from_text(const ulk_arg *a, const char *text, double scale, ulk_argval *out, char *err,
@@ -441,61 +474,10 @@ int ulk_arg_from_text(const ulk_arg *a, const char *text, double scale, ulk_argv
         return ULK_EPARSE;
     }
     num_t x;
-    if (num_parse(text, scale, &x, err, errlen) < 0) return ULK_EPARSE;
-    char shown[MAX_VALUE_TEXT + 64];
-    if (scale != 1.0) {
-        char sb[40];
-        fmt_short(scale, sb, sizeof sb);
-        snprintf(shown, sizeof shown, "%s (x%s)", text, sb);
-    } else {
-        num_show(&x, text, shown, sizeof shown);
-    }
-    if (range_check(a, &x, shown, err, errlen) < 0) return ULK_EPARSE;
-
-    if (a->type == ULK_ARG_FLOAT32) {
-        errno = 0;
-        float f = x.approx ? (float)x.xn : strtof(x.canon, NULL);
-        if (isinf(f)) {
-            seterr(err, errlen, "value %s is beyond the largest finite float32 (%g)", shown, (double)FLT_MAX);
-            return ULK_EPARSE;
-        }
-        uint32_t bitsv;
-        memcpy(&bitsv, &f, 4);
-        out->raw = bitsv;
-        out->eng = (double)f;
-        return 0;
-    }
-
-    if (is_calibrated(a)) {
-        i128 r;
-        if (cal_nearest(a, &x, shown, &r, err, errlen) < 0) return ULK_EPARSE;
-        out->raw = (uint64_t)r & mask_bits(a->bits);
-        out->eng = ulk_arg_raw_to_eng(a, out->raw);
-        return 0;
-    }
-
-    /* plain integer */
-    if (!x.is_int) {
-        seterr(err, errlen, "value %s is not a whole number (argument '%s' takes integers)", shown,
-               a->name ? a->name : "?");
-        return ULK_EPARSE;
-    }
-    i128 lo, hi;
-    raw_range(a, &lo, &hi);
-    if (!x.fits || x.ival < lo || x.ival > hi) {
-        char b1[48], b2[48];
-        i128_to_dec(lo, b1);
-        i128_to_dec(hi, b2);
-        if (!x.fits)
-            seterr(err, errlen, "value %s is beyond 64 bits", shown);
-        else
-            seterr(err, errlen, "value %s does not fit in %d %s bits [%s, %s]", shown, a->bits,
-                   ulk_arg_type_name(a->type), b1, b2);
-        return ULK_EPARSE;
-    }
-    out->raw = (uint64_t)x.ival & mask_bits(a->bits);
-    out->eng = (double)x.ival;
-    return 0;
+    mpq_init(x.q);
+    int rc = convert_number(a, text, scale, &x, out, err, errlen);
+    mpq_clear(x.q);
+    return rc;
 }
 
 static int64_t sign_extend(uint64_t raw, int bits)
@@ -526,8 +508,17 @@ double ulk_arg_raw_to_eng(const ulk_arg *a, uint64_t raw)
     int bits = a->bits < 1 ? 1 : a->bits > 64 ? 64 : a->bits;
     i128 r = a->type == ULK_ARG_SIGNED ? (i128)sign_extend(raw, bits) : (i128)(raw & mask_bits(bits));
     if (is_calibrated(a)) {
-        if (a->cal == ULK_CAL_LINEAR) return a->cal_offset + a->cal_scale * (double)r;
-        return (double)cal_eval(a, r);
+        /* the double nearest to the exact f(r): the same on every machine */
+        const ulk_calq *k = ulk_calq_get(a);
+        double v = NAN;
+        if (k) {
+            mpq_t q;
+            mpq_init(q);
+            ulk_calq_value(k, q, r);
+            v = ulk_q_to_double(q);
+            mpq_clear(q);
+        }
+        return v;
     }
     return (double)r;
 }

@@ -23,6 +23,7 @@
 
 #include "carrier_load.h"
 #include "doc.h"
+#include "exact.h"
 #include "ulk/dict.h"
 #include "util.h"
 
@@ -1032,87 +1033,175 @@ int ulk_dict_find_system(const ulk_dict *d, const char *name)
 
 /* ---------------------------------------------------------------- arguments */
 
-static void raw_bounds(const ulk_arg *a, long double *lo, long double *hi)
+typedef __int128 i128;
+
+static void raw_bounds(const ulk_arg *a, i128 *lo, i128 *hi)
 {
     if (a->type == ULK_ARG_SIGNED) {
-        *lo = -ldexpl(1.0L, a->bits - 1);
-        *hi = ldexpl(1.0L, a->bits - 1) - 1.0L;
+        *lo = -((i128)1 << (a->bits - 1));
+        *hi = ((i128)1 << (a->bits - 1)) - 1;
     } else {
-        *lo = 0.0L;
-        *hi = ldexpl(1.0L, a->bits) - 1.0L;
+        *lo = 0;
+        *hi = ((i128)1 << a->bits) - 1;
     }
 }
 
-static long double cal_f(const ulk_arg *a, long double x)
+static void i128_dec(i128 v, char *buf, size_t len)
 {
-    if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_offset + (long double)a->cal_scale * x;
-    long double acc = 0.0L;
-    for (int k = a->n_poly - 1; k >= 0; k--) acc = acc * x + (long double)a->poly[k];
-    return acc;
+    mpz_t z;
+    mpz_init(z);
+    ulk_z_set_i128(z, v);
+    if (mpz_sizeinbase(z, 10) + 2 <= len) mpz_get_str(buf, 10, z);
+    else snprintf(buf, len, "?");
+    mpz_clear(z);
 }
 
-static long double cal_df(const ulk_arg *a, long double x)
+/* Sign of the integer polynomial d (n coefficients) at r. */
+static int zpoly_sign(mpz_t *d, int n, i128 r, mpz_t acc, mpz_t zr)
 {
-    if (a->cal == ULK_CAL_LINEAR) return (long double)a->cal_scale;
-    long double acc = 0.0L;
-    for (int k = a->n_poly - 1; k >= 1; k--) acc = acc * x + (long double)k * (long double)a->poly[k];
-    return acc;
+    ulk_z_set_i128(zr, r);
+    mpz_set_ui(acc, 0);
+    for (int i = n - 1; i >= 0; i--) {
+        mpz_mul(acc, acc, zr);
+        mpz_add(acc, acc, d[i]);
+    }
+    return mpz_sgn(acc);
 }
 
-/* Checks that the calibration is strictly monotonic over the raw range, so that every
- * engineering value has one nearest raw. Up to 2^16 raws every neighbour pair is compared;
- * wider fields are sampled at 65537 points (value and derivative sign): a degree-d
- * polynomial's derivative has at most d-1 roots, and a turn between two samples of a field
- * that wide would need a polynomial no calibration table uses. Returns 1 when monotonic. */
+/* The first integer r in [lo, hi] where the integer polynomial d (n <= 16 coefficients) does
+ * not have the sign s, or hi + 1 when there is none. Exact: on [lo, hi] around the midpoint m
+ * with half-width h, d(m + t) = sum e_k t^k (Taylor shift in integers), and
+ * |e_0| > sum_{k>=1} |e_k| h^k proves d keeps the sign of e_0 there; otherwise the interval
+ * is halved, and a short one (32 integers) is tried point by point. Near each real root the
+ * halving goes down to a short interval, elsewhere it stops early: O(degree * 64) steps. */
+static i128 zpoly_first_off(mpz_t *d, int n, int s, i128 lo, i128 hi)
+{
+    mpz_t acc, zr;
+    mpz_init(acc);
+    mpz_init(zr);
+    i128 res = hi + 1;
+    if (hi - lo < 32) {
+        for (i128 r = lo; r <= hi; r++)
+            if (zpoly_sign(d, n, r, acc, zr) != s) { res = r; break; }
+        mpz_clear(acc);
+        mpz_clear(zr);
+        return res;
+    }
+    i128 m = lo + (hi - lo) / 2, h = hi - m > m - lo ? hi - m : m - lo;
+    mpz_t e[16], zh, hk, bound, t;
+    for (int i = 0; i < n; i++) mpz_init_set(e[i], d[i]);
+    mpz_inits(zh, hk, bound, t, NULL);
+    ulk_z_set_i128(zr, m);
+    for (int i = 0; i + 1 < n; i++)
+        for (int j = n - 2; j >= i; j--) mpz_addmul(e[j], zr, e[j + 1]);
+    ulk_z_set_i128(zh, h);
+    mpz_set_ui(hk, 1);
+    mpz_set_ui(bound, 0);
+    for (int k = 1; k < n; k++) {
+        mpz_mul(hk, hk, zh);
+        mpz_abs(t, e[k]);
+        mpz_addmul(bound, t, hk);
+    }
+    mpz_abs(t, e[0]);
+    int proven = mpz_cmp(t, bound) > 0, s0 = mpz_sgn(e[0]);
+    for (int i = 0; i < n; i++) mpz_clear(e[i]);
+    mpz_clears(zh, hk, bound, t, acc, zr, NULL);
+    if (proven) return s0 == s ? hi + 1 : lo;
+    res = zpoly_first_off(d, n, s, lo, m);
+    if (res <= m) return res;
+    return zpoly_first_off(d, n, s, m + 1, hi);
+}
+
+/* Checks, exactly, that the calibration is strictly monotonic over the raw range, so that
+ * every engineering value has one nearest raw: a linear one needs a scale that is not 0; for a
+ * polynomial f the step D(r) = f(r+1) - f(r), itself an integer polynomial over the common
+ * denominator, must keep one sign and never be 0 for r in [lo, hi - 1] (zpoly_first_off).
+ * The calibrated values at the raw ends must also be finite doubles (they are printed).
+ * Returns 1 when it is. */
 static int check_monotonic(bctx *c, ulk_node *cn, const ulk_arg *a)
 {
-    long double lo, hi;
+    i128 lo, hi;
     raw_bounds(a, &lo, &hi);
+    ulk_calq k;
+    int ok = 1;
+    if (ulk_calq_init(&k, a) != 0) {
+        ulk_calq_clear(&k);
+        return 0; /* reported where the coefficient was read */
+    }
+    char blo[48], bhi[48], bx[48];
+    i128_dec(lo, blo, sizeof blo);
+    i128_dec(hi, bhi, sizeof bhi);
     if (a->cal == ULK_CAL_LINEAR) {
-        if (a->cal_scale == 0.0) {
+        if (mpz_sgn(k.c[1]) == 0) {
             err(c, cn, "calibration scale is 0: every raw value gives the same engineering value");
-            return 0;
+            ok = 0;
         }
-        long double f0 = cal_f(a, lo), f1 = cal_f(a, hi);
-        if (!isfinite(f0) || !isfinite(f1)) {
-            err(c, cn, "calibration overflows over the raw range");
-            return 0;
+    } else {
+        /* D(r) = sum_k c_k ((r+1)^k - r^k) = sum_j r^j sum_{k>j} C(k, j) c_k */
+        int n = k.n - 1;
+        mpz_t dz[16], bin;
+        mpz_init(bin);
+        for (int j = 0; j < n; j++) {
+            mpz_init_set_ui(dz[j], 0);
+            for (int kk = j + 1; kk < k.n; kk++) {
+                mpz_bin_uiui(bin, (unsigned long)kk, (unsigned long)j);
+                mpz_addmul(dz[j], bin, k.c[kk]);
+            }
         }
-        return 1;
-    }
-    long double span = hi - lo;
-    int exhaustive = span <= 65536.0L;
-    long n = exhaustive ? (long)span : 65536;
-    int dir = 0;
-    long double prev = cal_f(a, lo);
-    if (!isfinite(prev)) { err(c, cn, "calibration overflows over the raw range"); return 0; }
-    for (long i = 1; i <= n; i++) {
-        long double x = exhaustive ? lo + (long double)i : lo + span * (long double)i / (long double)n;
-        if (!exhaustive) x = roundl(x);
-        long double f = cal_f(a, x);
-        if (!isfinite(f)) { err(c, cn, "calibration overflows near raw %.0Lf", x); return 0; }
-        int s = f > prev ? 1 : f < prev ? -1 : 0;
-        if (!exhaustive && s != 0) {
-            long double dv = cal_df(a, x);
-            int ds = dv > 0 ? 1 : dv < 0 ? -1 : 0;
-            if (ds != s && i < n) s = 0; /* the derivative says it is turning here */
-        }
-        if (s == 0 || (dir && s != dir)) {
-            char blo[48], bhi[48];
-            snprintf(blo, sizeof blo, "%.0Lf", lo);
-            snprintf(bhi, sizeof bhi, "%.0Lf", hi);
-            if (s == 0)
-                err(c, cn, "calibration is not strictly monotonic over the raw range [%s, %s]: it is flat near raw %.0Lf",
-                    blo, bhi, x);
+        mpz_t acc, zr;
+        mpz_init(acc);
+        mpz_init(zr);
+        int s0 = zpoly_sign(dz, n, lo, acc, zr);
+        i128 r = s0 == 0 ? lo : zpoly_first_off(dz, n, s0, lo, hi - 1);
+        if (r <= hi - 1) {
+            int sr = zpoly_sign(dz, n, r, acc, zr);
+            i128_dec(r + 1, bx, sizeof bx);
+            if (sr == 0)
+                err(c, cn, "calibration is not strictly monotonic over the raw range [%s, %s]: it is flat near raw %s",
+                    blo, bhi, bx);
             else
-                err(c, cn, "calibration is not monotonic over the raw range [%s, %s]: it turns near raw %.0Lf",
-                    blo, bhi, x);
-            return 0;
+                err(c, cn, "calibration is not monotonic over the raw range [%s, %s]: it turns near raw %s",
+                    blo, bhi, bx);
+            ok = 0;
         }
-        dir = s;
-        prev = f;
+        mpz_clear(acc);
+        mpz_clear(zr);
+        mpz_clear(bin);
+        for (int j = 0; j < n; j++) mpz_clear(dz[j]);
     }
-    return 1;
+    if (ok) {
+        mpq_t f;
+        mpq_init(f);
+        for (int end = 0; end < 2 && ok; end++) {
+            ulk_calq_value(&k, f, end ? hi : lo);
+            if (!isfinite(ulk_q_to_double(f))) {
+                err(c, cn, "calibration overflows over the raw range: f(%s) is beyond the largest double", end ? bhi : blo);
+                ok = 0;
+            }
+        }
+        mpq_clear(f);
+    }
+    ulk_calq_clear(&k);
+    return ok;
+}
+
+/* The text of a number node, checked to be kept exactly (src/exact.h); NULL after an error. */
+static char *exact_text(bctx *c, ulk_node *n)
+{
+    mpq_t q;
+    mpq_init(q);
+    int rc = ulk_q_set_text(q, n->text, ULK_EXACT_MAX_EXP10, 0, NULL);
+    mpq_clear(q);
+    if (rc == ULK_ELIMIT) {
+        err(c, n, "'%s': %.40s reaches beyond 10^+-%d and cannot be kept exactly", key_name(n), n->text,
+            ULK_EXACT_MAX_EXP10);
+        return NULL;
+    }
+    if (rc) {
+        err(c, n, "'%s': %.40s is not a number that can be kept exactly", key_name(n), n->text);
+        return NULL;
+    }
+    return adup(c, n->text);
 }
 
 static void build_calibration(bctx *c, ulk_node *cn, ulk_arg *a)
@@ -1132,10 +1221,12 @@ static void build_calibration(bctx *c, ulk_node *cn, ulk_arg *a)
             return;
         }
         double *p = arena_alloc(c->di, (size_t)po->n * sizeof *p);
-        if (!p) { c->oom = 1; return; }
+        char **pt = arena_alloc(c->di, (size_t)po->n * sizeof *pt);
+        if (!p || !pt) { c->oom = 1; return; }
         for (int i = 0; i < po->n; i++)
-            if (!get_num(c, po->items[i], &p[i])) return;
+            if (!get_num(c, po->items[i], &p[i]) || !(pt[i] = exact_text(c, po->items[i]))) return;
         a->poly = p;
+        a->poly_text = pt;
         a->n_poly = po->n;
         a->cal = ULK_CAL_POLY;
         return;
@@ -1145,50 +1236,69 @@ static void build_calibration(bctx *c, ulk_node *cn, ulk_arg *a)
     check_keys(c, cn, "calibration", k, r);
     if (!sc) return;
     a->cal_offset = 0.0;
-    if (!get_num(c, sc, &a->cal_scale)) return;
-    if (of && !get_num(c, of, &a->cal_offset)) return;
+    a->cal_offset_text = NULL;
+    if (!get_num(c, sc, &a->cal_scale) || !(a->cal_scale_text = exact_text(c, sc))) return;
+    if (of && (!get_num(c, of, &a->cal_offset) || !(a->cal_offset_text = exact_text(c, of)))) return;
     a->cal = ULK_CAL_LINEAR;
 }
 
-/* Range endpoints against what the raw width and calibration can represent. */
+/* Range endpoints against what the raw width and calibration can represent, exactly: an
+ * integer range inside the raw range, a calibrated one inside [f(raw_lo), f(raw_hi)]
+ * (ordered), a float32 one strictly inside +-(2^128 - 2^103), where rounding to binary32
+ * starts to overflow (so FLT_MAX written as 3.4028235e38 is a valid end). */
 static void check_range_representable(bctx *c, ulk_node *rn, const ulk_arg *a)
 {
-    long double lo, hi, flo, fhi;
+    mpq_t flo, fhi, rlo, rhi;
+    mpq_inits(flo, fhi, rlo, rhi, NULL);
     const char *how;
+    int bad = 0;
+    if (ulk_arg_range_q(a, rlo, rhi) != 0) goto out; /* reported where the texts were read */
     if (a->type == ULK_ARG_FLOAT32) {
-        flo = -(long double)FLT_MAX;
-        fhi = (long double)FLT_MAX;
+        mpz_ui_pow_ui(mpq_numref(fhi), 2, 128);
+        mpz_t t;
+        mpz_init(t);
+        mpz_ui_pow_ui(t, 2, 103);
+        mpz_sub(mpq_numref(fhi), mpq_numref(fhi), t);
+        mpz_clear(t);
+        mpq_neg(flo, fhi);
         how = "float32";
+        bad = mpq_cmp(rlo, flo) <= 0 || mpq_cmp(rhi, fhi) >= 0;
     } else {
+        i128 lo, hi;
         raw_bounds(a, &lo, &hi);
         if (a->cal != ULK_CAL_NONE) {
-            flo = cal_f(a, lo);
-            fhi = cal_f(a, hi);
-            if (flo > fhi) { long double t = flo; flo = fhi; fhi = t; }
+            ulk_calq k;
+            if (ulk_calq_init(&k, a) != 0) { ulk_calq_clear(&k); goto out; }
+            ulk_calq_value(&k, flo, lo);
+            ulk_calq_value(&k, fhi, hi);
+            ulk_calq_clear(&k);
+            if (mpq_cmp(flo, fhi) > 0) mpq_swap(flo, fhi);
             how = "calibrated raw range";
         } else {
-            flo = lo;
-            fhi = hi;
+            ulk_z_set_i128(mpq_numref(flo), lo);
+            ulk_z_set_i128(mpq_numref(fhi), hi);
             how = a->type == ULK_ARG_SIGNED ? "signed raw" : "unsigned raw";
         }
+        bad = mpq_cmp(rlo, flo) < 0 || mpq_cmp(rhi, fhi) > 0;
     }
-    /* The range as written, in long double so that 2^64 - 1 is exact. */
-    long double rlo = strtold(rn->items[0]->text, NULL), rhi = strtold(rn->items[1]->text, NULL);
-    int neg;
-    uint64_t mag;
-    if (ulk_parse_int_text(rn->items[0]->text, &neg, &mag) == 0) rlo = neg ? -(long double)mag : (long double)mag;
-    if (ulk_parse_int_text(rn->items[1]->text, &neg, &mag) == 0) rhi = neg ? -(long double)mag : (long double)mag;
-    long double tol = a->cal != ULK_CAL_NONE ? 1e-9L * fmaxl(fmaxl(fabsl(flo), fabsl(fhi)), 1.0L) : 0.0L;
-    if (rlo < flo - tol || rhi > fhi + tol) {
+    if (bad) {
         char b1[48], b2[48];
-        fmt_num((double)flo, b1, sizeof b1);
-        fmt_num((double)fhi, b2, sizeof b2);
-        if (a->type == ULK_ARG_FLOAT32)
+        if (a->type == ULK_ARG_FLOAT32) {
             err(c, rn, "range [%s, %s] is beyond what float32 can represent", rn->items[0]->text, rn->items[1]->text);
-        else
+        } else {
+            if (a->cal != ULK_CAL_NONE) {
+                fmt_num(ulk_q_to_double(flo), b1, sizeof b1);
+                fmt_num(ulk_q_to_double(fhi), b2, sizeof b2);
+            } else {
+                mpz_get_str(b1, 10, mpq_numref(flo)); /* at most 20 digits and a sign */
+                mpz_get_str(b2, 10, mpq_numref(fhi));
+            }
             err(c, rn, "range [%s, %s] cannot be represented: %d-bit %s gives [%s, %s]", rn->items[0]->text,
                 rn->items[1]->text, a->bits, how, b1, b2);
+        }
     }
+out:
+    mpq_clears(flo, fhi, rlo, rhi, NULL);
 }
 
 static void build_enum_values(bctx *c, ulk_node *vn, ulk_arg *a, int bits_ok)
@@ -1323,8 +1433,16 @@ static int build_arg(bctx *c, ulk_node *an, ulk_arg *a, ulk_node *cmd_args, int 
         } else if (rn->kind != ULK_NODE_SEQ || rn->n != 2) {
             err(c, rn, "range must be a list [MIN, MAX] of two numbers, not %s%s", ulk_node_type_name(rn),
                 rn->kind == ULK_NODE_SEQ ? " of another length" : "");
-        } else if (get_num(c, rn->items[0], &a->range_min) && get_num(c, rn->items[1], &a->range_max)) {
-            if (a->range_min > a->range_max) {
+        } else if (get_num(c, rn->items[0], &a->range_min) && get_num(c, rn->items[1], &a->range_max) &&
+                   (a->range_min_text = exact_text(c, rn->items[0])) &&
+                   (a->range_max_text = exact_text(c, rn->items[1]))) {
+            mpq_t lo, hi;
+            mpq_init(lo);
+            mpq_init(hi);
+            int above = ulk_arg_range_q(a, lo, hi) == 0 && mpq_cmp(lo, hi) > 0;
+            mpq_clear(lo);
+            mpq_clear(hi);
+            if (above) {
                 err(c, rn, "range [%s, %s] has MIN above MAX", rn->items[0]->text, rn->items[1]->text);
             } else {
                 a->has_range = 1;
@@ -1644,6 +1762,55 @@ static void sb_double(sbuf *b, double v)
     sb_puts(b, t);
 }
 
+/* A dictionary number that decides bits (calibration coefficient, range end): as sb_double
+ * when its double's text denotes exactly the value written -- every ordinary number, so the
+ * canonical form and its hash stay what they were -- else the exact value written, as
+ * digits "e" exponent (a JSON number), so that two dictionaries whose numbers differ only
+ * beyond a double's precision, and so may encode different bits, never share a hash. */
+static void sb_exact(sbuf *b, const char *text, double v)
+{
+    char t[40];
+    fmt_num(v, t, sizeof t);
+    mpq_t x, y;
+    mpq_init(x);
+    mpq_init(y);
+    if (text && ulk_q_set_text(x, text, ULK_EXACT_MAX_EXP10, 0, NULL) == 0 &&
+        ulk_q_set_text(y, t, ULK_EXACT_MAX_EXP10, 0, NULL) == 0 && !mpq_equal(x, y)) {
+        /* x = n / d with d = 2^a 5^b (a decimal): n * 10^k / d digits, exponent -k, k = max(a, b) */
+        mpz_t n, d, five;
+        mpz_init_set(n, mpq_numref(x));
+        mpz_init_set(d, mpq_denref(x));
+        mpz_init_set_ui(five, 5);
+        unsigned long a2 = (unsigned long)mpz_scan1(d, 0);
+        mpz_t rest;
+        mpz_init(rest);
+        unsigned long a5 = (unsigned long)mpz_remove(rest, d, five);
+        mpz_clear(rest);
+        unsigned long k = a2 > a5 ? a2 : a5;
+        mpz_set(d, mpq_denref(x));
+        mpz_ui_pow_ui(five, 10, k);
+        mpz_mul(n, n, five);
+        mpz_divexact(n, n, d);
+        mpz_clear(five);
+        char *digits = mpz_get_str(NULL, 10, n);
+        if (digits) {
+            sb_puts(b, digits);
+            if (k) sb_printf(b, "e-%lu", k);
+            void (*freefn)(void *, size_t);
+            mp_get_memory_functions(NULL, NULL, &freefn);
+            freefn(digits, strlen(digits) + 1);
+        } else {
+            sb_puts(b, t);
+        }
+        mpz_clear(n);
+        mpz_clear(d);
+    } else {
+        sb_puts(b, t);
+    }
+    mpq_clear(x);
+    mpq_clear(y);
+}
+
 static void sb_ratio(sbuf *b, ulk_ratio r)
 {
     char t[64];
@@ -1861,15 +2028,15 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
             sb_printf(&b, "%d", a->bits);
             if (a->cal == ULK_CAL_LINEAR) {
                 sb_puts(&b, ",\"calibration\":{\"offset\":");
-                sb_double(&b, a->cal_offset);
+                sb_exact(&b, a->cal_offset_text, a->cal_offset);
                 sb_puts(&b, ",\"scale\":");
-                sb_double(&b, a->cal_scale);
+                sb_exact(&b, a->cal_scale_text, a->cal_scale);
                 sb_puts(&b, "}");
             } else if (a->cal == ULK_CAL_POLY) {
                 sb_puts(&b, ",\"calibration\":{\"polynomial\":[");
                 for (int t = 0; t < a->n_poly; t++) {
                     if (t) sb_puts(&b, ",");
-                    sb_double(&b, a->poly[t]);
+                    sb_exact(&b, a->poly_text ? a->poly_text[t] : NULL, a->poly[t]);
                 }
                 sb_puts(&b, "]}");
             }
@@ -1878,9 +2045,9 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
             sb_str(&b, a->name);
             if (a->has_range) {
                 sb_puts(&b, ",\"range\":[");
-                sb_double(&b, a->range_min);
+                sb_exact(&b, a->range_min_text, a->range_min);
                 sb_puts(&b, ",");
-                sb_double(&b, a->range_max);
+                sb_exact(&b, a->range_max_text, a->range_max);
                 sb_puts(&b, "]");
             }
             if (a->has_tolerance) {

@@ -12,6 +12,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "exact.h"
 #include "ulk/mod.h"
 #include "ulk/subbit.h"
 #include "util.h"
@@ -77,8 +78,17 @@ static char *start_fmt_value(const start_fmt *f, uint64_t j, char *p)
         for (char *r = q; r > p;) { *--r = (char)('0' + fp % 10); fp /= 10; }
         return q;
     }
-    long double x = (long double)j * (long double)f->rd / (long double)f->rn;
-    return p + snprintf(p, 64, "%.17g", (double)x);
+    /* not a short decimal: the double nearest to the exact j rd / rn (one rounding, the same
+     * on every machine), in 17 significant digits */
+    mpq_t q;
+    mpq_init(q);
+    mpz_set_ui(mpq_numref(q), (unsigned long)j);
+    mpz_mul_ui(mpq_numref(q), mpq_numref(q), (unsigned long)f->rd);
+    mpz_set_ui(mpq_denref(q), (unsigned long)f->rn);
+    mpq_canonicalize(q);
+    double x = ulk_q_to_double(q);
+    mpq_clear(q);
+    return p + snprintf(p, 64, "%.17g", x);
 }
 
 int ulk_timing_write_fp(const ulk_upload *u, ulk_ratio fs, FILE *fp, const char *name, ulk_diag *diag)

@@ -771,8 +771,8 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const u
     const int tc = l->profile == ULK_PROFILE_CCSDS_TC;
     const ulk_profile_ops *prof = ulk_profile_ops_for(l->profile);
     if (tc ? want_keys(r, cj, path, tk, 13) : want_keys(r, cj, path, ck, 10)) return r->status;
-    int64_t v;
-    uint64_t uv;
+    int64_t v = 0; /* set by get_int on success; zero keeps gcc -O3 from warning */
+    uint64_t uv = 0;
     if (get_int(r, cj, "line", path, 1, (double)(1 << 30), NULL, &v)) return r->status;
     c->line = (int)v;
     if (idx > 0 && c->line <= prev_line)
@@ -1324,7 +1324,7 @@ static int read_doc(build_t *b, src_t *s, cJSON *root)
     const cJSON *tj = member(root, "totals");
     static const char *const tk[] = {"words", "subbits", "duration_s"};
     if (want_keys(r, tj, "totals", tk, 3)) return r->status;
-    uint64_t words, subbits;
+    uint64_t words = 0, subbits = 0; /* set by get_int on success */
     if (get_int(r, tj, "words", "totals", 0, 1e15, &words, NULL)) return r->status;
     if (get_int(r, tj, "subbits", "totals", 0, 9e15, &subbits, NULL)) return r->status;
     uint64_t pat = b->patterns + u->idles_after;

@@ -18,9 +18,11 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "ulk/dict.h"
+#include "util.h"
 
 static ulk_arg mk(ulk_arg_type t, int bits)
 {
@@ -50,11 +52,13 @@ static void run_rows(const ulk_arg *a, const row_t *rows, size_t n)
         print_message("row %s: '%s' -> rc %d raw 0x%llx %s\n", rows[i].row, rows[i].text, rc,
                       (unsigned long long)v.raw, err);
         if (rows[i].ok) {
-            assert_int_equal(rc, 0);
-            assert_true(v.raw == rows[i].raw);
+            if (rc != 0 || v.raw != rows[i].raw)
+                fail_msg("row %s: '%s' gave rc %d raw 0x%llx (%s), expected raw 0x%llx", rows[i].row, rows[i].text,
+                         rc, (unsigned long long)v.raw, err, (unsigned long long)rows[i].raw);
         } else {
-            assert_int_equal(rc, ULK_EPARSE);
-            assert_non_null(strstr(err, rows[i].err));
+            if (rc != ULK_EPARSE || !strstr(err, rows[i].err))
+                fail_msg("row %s: '%s' gave rc %d '%s', expected a refusal with '%s'", rows[i].row, rows[i].text, rc,
+                         err, rows[i].err);
         }
     }
 }
@@ -284,6 +288,291 @@ static void test_format_round_trip(void **st)
     }
 }
 
+/* ---------------------------------------------------------------- exact arithmetic
+ * Expected raws below were computed with Python's fractions.Fraction on the decimals as
+ * written (python3 -c "from fractions import Fraction as F; ..."), the exact rationals the
+ * contract decides on; float32 patterns with struct.pack('<f', ...). */
+
+/* The case of issue 14: eng = 0.7 + 0.1 raw over 32 bits. (v - 0.7) / 0.1 for
+ * v = 267639098.85000001485 is 2676390981.5000001485: just above the midpoint, raw
+ * 2676390982 = 0x9f867c46. With the coefficients' doubles instead of their decimals the
+ * quotient is 2676390981.49999999... and the raw would be 0x9f867c45; an 80-bit and a 128-bit
+ * long double disagreed on it. v = 267639098.85 is the exact tie: the smaller raw. */
+static const row_t issue_rows[] = {
+    {"issue_just_above_tie", "267639098.85000001485", 1, 1, 0x9f867c46, NULL},
+    {"issue_exact_tie_smaller_raw", "267639098.85", 1, 1, 0x9f867c45, NULL},
+    {"issue_just_below_tie", "267639098.84999999999999999999", 1, 1, 0x9f867c45, NULL},
+    {"issue_tie_plus_1e_minus_30", "267639098.850000000000000000000000000001", 1, 1, 0x9f867c46, NULL},
+    {"issue_top", "429496730.2", 1, 1, 0xffffffff, NULL},
+    {"issue_half_step_above_top", "429496730.25", 1, 1, 0xffffffff, NULL},
+    {"issue_beyond_half_step_above_top", "429496730.25000000000000000001", 1, 0, 0, "more than half a raw step"},
+};
+
+static void test_issue_tie_linear(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 32);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = 0.1;
+    a.cal_offset = 0.7;
+    /* a model built in code: the doubles' shortest decimals, 0.1 and 0.7 */
+    run_rows(&a, issue_rows, sizeof issue_rows / sizeof issue_rows[0]);
+    /* the same with the texts a dictionary gives */
+    a.cal_scale_text = "0.1";
+    a.cal_offset_text = "0.7";
+    run_rows(&a, issue_rows, sizeof issue_rows / sizeof issue_rows[0]);
+    /* written with more digits than a double holds: decided on the digits */
+    a.cal_scale_text = "0.10000000000000001";
+    const row_t r2[] = {{"scale_long_decimal", "267639098.85000001485", 1, 1, 0x9f867c45, NULL}};
+    run_rows(&a, r2, 1); /* (v - 0.7) / 0.10000000000000001 = 2676390981.4999998809: raw ...c45 */
+    a.cal_scale_text = "0.1";
+    /* engineering values: the double nearest to the exact value. Python:
+     * float(F('0.7') + F('0.1') * 1) == 0.8, while 0.7 + 0.1 * 1 in doubles is 0.7999999999999999 */
+    assert_true(ulk_arg_raw_to_eng(&a, 1) == 0.8);
+    assert_true(ulk_arg_raw_to_eng(&a, 12) == 1.9);
+    assert_true(ulk_arg_raw_to_eng(&a, 0x9f867c46) == 267639098.9);
+    char buf[64];
+    ulk_arg_format(&a, 1, buf, sizeof buf);
+    assert_string_equal(buf, "0.8");
+}
+
+/* A range end is inside the range, whatever its binary rounding: 0.3 as a double is
+ * 0.29999999999999998889776975, below the decimal 0.3. */
+static void test_range_end_written(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 8);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = 0.1;
+    a.cal_scale_text = "0.1";
+    a.has_range = 1;
+    a.range_min = 0;
+    a.range_max = 0.3;
+    a.range_min_text = "0";
+    a.range_max_text = "0.3";
+    const row_t rr[] = {{"range_max_as_written", "0.3", 1, 1, 3, NULL},
+                        {"range_max_plus_tiny", "0.30000000000000000001", 1, 0, 0, "outside the range [0, 0.3]"}};
+    run_rows(&a, rr, 2);
+    ulk_arg f = mk(ULK_ARG_FLOAT32, 32);
+    f.has_range = 1;
+    f.range_min = -3.4e38;
+    f.range_max = 3.4e38;
+    f.range_min_text = "-3.4e38";
+    f.range_max_text = "3.4e38";
+    const row_t fr[] = {{"f32_bound_top", "3.4e38", 1, 1, 0x7f7fc99e, NULL},
+                        {"f32_bound_bottom", "-3.4e38", 1, 1, 0xff7fc99e, NULL},
+                        {"f32_bound_scientific", "340000000000000000000000000000000000000", 1, 1, 0x7f7fc99e, NULL},
+                        {"f32_beyond_bound", "3.4000000000000000001e38", 1, 0, 0, "outside the range"}};
+    run_rows(&f, fr, 4);
+    /* no texts (a model built in code): the doubles' shortest decimals, so the same */
+    f.range_min_text = f.range_max_text = NULL;
+    run_rows(&f, fr, 4);
+}
+
+/* A polynomial, exact: f(r) = 0.5 + 0.25 r + 1e-20 r^2 (8 bits). Between raw 0 (0.5) and raw 1
+ * (0.75 + 1e-20) the midpoint is 0.625 + 5e-21. */
+static void test_polynomial_exact_tie(void **st)
+{
+    (void)st;
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 8);
+    double c[3] = {0.5, 0.25, 1e-20};
+    char *ct[3] = {"0.5", "0.25", "1e-20"};
+    a.cal = ULK_CAL_POLY;
+    a.poly = c;
+    a.poly_text = ct;
+    a.n_poly = 3;
+    const row_t pr[] = {{"poly_midpoint_tie", "0.625000000000000000005", 1, 1, 0, NULL},
+                        {"poly_above_midpoint", "0.6250000000000000000050000001", 1, 1, 1, NULL},
+                        {"poly_decimal_of_midpoint_double", "0.625", 1, 1, 0, NULL}};
+    run_rows(&a, pr, 3);
+}
+
+/* ulk_fmt_double at the extremes that once went through an undefined conversion to long long
+ * (UBSan's float-cast-overflow check runs this in CI). Expected texts: Python's repr() of the
+ * same doubles, which is also the shortest round-trip form. */
+static void test_fmt_double_extremes(void **st)
+{
+    (void)st;
+    static const struct { double v; const char *want; } rows[] = {
+        {9223372036854775808.0, "9.223372036854776e+18"},   /* 2^63 (a uint64 raw) */
+        {18446744073709551615.0, "1.8446744073709552e+19"}, /* 2^64 - 1 as a double */
+        {-9223372036854775808.0, "-9.223372036854776e+18"},
+        {3.4028234663852886e38, "3.4028234663852886e+38"},  /* FLT_MAX */
+        {-3.4028234663852886e38, "-3.4028234663852886e+38"},
+        {1e300, "1e+300"},
+        {-1e300, "-1e+300"},
+        {1.7976931348623157e308, "1.7976931348623157e+308"},
+        {1e15, "1e+15"},
+        {999999999999999.0, "999999999999999"},
+        {-999999999999999.0, "-999999999999999"},
+        {-10.0, "-10"},
+        {0.0, "0"},
+        {-0.0, "-0"},
+        {2.5, "2.5"},
+        {5e-324, "5e-324"},
+    };
+    for (size_t i = 0; i < sizeof rows / sizeof rows[0]; i++) {
+        char buf[40];
+        ulk_fmt_double(rows[i].v, buf, sizeof buf);
+        if (strcmp(buf, rows[i].want) != 0)
+            fail_msg("ulk_fmt_double(%.17g) gave '%s', expected '%s'", rows[i].v, buf, rows[i].want);
+    }
+    char buf[40];
+    ulk_fmt_double(NAN, buf, sizeof buf);
+    assert_non_null(strstr(buf, "nan"));
+    ulk_fmt_double(-HUGE_VAL, buf, sizeof buf);
+    assert_string_equal(buf, "-inf");
+    /* a calibration that reaches 1e300, and a uint64 of 2^63 and above, through the argument
+     * formatter (these values reach the formatter from compile and decode --json) */
+    ulk_arg a = mk(ULK_ARG_UNSIGNED, 2);
+    a.cal = ULK_CAL_LINEAR;
+    a.cal_scale = 1e300;
+    assert_true(ulk_arg_raw_to_eng(&a, 3) == 3e300);
+    ulk_arg_format(&a, 3, buf, sizeof buf);
+    assert_string_equal(buf, "3e+300");
+    ulk_arg u = mk(ULK_ARG_UNSIGNED, 64);
+    assert_true(ulk_arg_raw_to_eng(&u, 0x8000000000000000ull) == 9223372036854775808.0);
+    ulk_fmt_double(ulk_arg_raw_to_eng(&u, UINT64_MAX), buf, sizeof buf);
+    assert_string_equal(buf, "1.8446744073709552e+19");
+}
+
+/* ---- through the dictionary loader: what validate decides, exactly */
+static const char EXACT_YAML[] =
+    "dictionary: {name: exact-cases, version: \"1\"}\n"
+    "link:\n"
+    "  profile: subbit\n"
+    "  bit_rate: 62.5\n"
+    "  subbits: {zero: \"0011\", one: \"1100\", idle: \"0101\"}\n"
+    "  subcarrier: {frequency: 500, waveform: sine, amplitude: 0.8}\n"
+    "  framing: {preamble: 16, gap: 4, postamble: 2}\n"
+    "  word:\n"
+    "    vehicle_address: {bits: 4, value: 0xA}\n"
+    "    system_address_bits: 3\n"
+    "    opcode_bits: 5\n"
+    "    argument_bits: 64\n"
+    "    check: parity-even\n"
+    "systems:\n"
+    "  - {name: EPS, address: 5}\n"
+    "commands:\n"
+    "  - mnemonic: SET\n"
+    "    system: EPS\n"
+    "    opcode: 1\n"
+    "    arguments:\n"
+    "      - %s\n";
+
+typedef struct {
+    const char *row;
+    const char *arg;    /* the argument's flow mapping */
+    const char *err;    /* NULL: loads; else a fragment of the first error */
+    const char *value;  /* when it loads: a value to convert (NULL: none) */
+    uint64_t raw;       /* and its raw */
+} dict_case;
+
+static const dict_case dict_cases[] = {
+    /* 1 + 1e-20 r: steps of 1e-20 vanish in an 80-bit long double (its ulp at 1 is 1.1e-19),
+     * so the sampled check called it flat on x86-64 and not on aarch64. Exactly it rises. */
+    {"nearly_flat_polynomial_loads", "{name: v, type: unsigned, bits: 8, calibration: {polynomial: [1, 1e-20]}}",
+     NULL, "1.000000000000000000015", 1}, /* midpoint of raws 1 and 2: the smaller */
+    {"nearly_flat_polynomial_above_tie", "{name: v, type: unsigned, bits: 8, calibration: {polynomial: [1, 1e-20]}}",
+     NULL, "1.0000000000000000000150000001", 2},
+    /* r - 1e-12 r^2 over 64 bits: the step 1 - 1e-12 (2r + 1) changes sign between r = 499999999999
+     * and 500000000000 (f(500000000001) < f(500000000000)). */
+    {"wide_polynomial_turn_found_exactly",
+     "{name: v, type: unsigned, bits: 64, calibration: {polynomial: [0, 1, -0.000000000001]}}",
+     "it turns near raw 500000000001", NULL, 0},
+    /* 3r - r^2 over 2 bits: 0, 2, 2, 0 */
+    {"polynomial_flat_step", "{name: v, type: unsigned, bits: 2, calibration: {polynomial: [0, 3, -1]}}",
+     "it is flat near raw 2", NULL, 0},
+    /* r^3 over signed 64 bits: the step 3r^2 + 3r + 1 is never 0 */
+    {"cubic_signed_64_loads", "{name: v, type: signed, bits: 64, calibration: {polynomial: [0, 0, 0, 1]}}",
+     NULL, "-8", 0xfffffffffffffffeull},
+    {"float32_range_written_bounds",
+     "{name: v, type: float32, range: [-3.4e38, 3.4e38]}", NULL, "3.4e38", 0x7f7fc99e},
+    /* FLT_MAX as usually printed (3.4028235e38) is above FLT_MAX but rounds to it: a valid end */
+    {"float32_range_printed_flt_max", "{name: v, type: float32, range: [0, 3.4028235e38]}", NULL,
+     "3.4028235e38", 0x7f7fffff},
+    {"float32_range_beyond", "{name: v, type: float32, range: [0, 3.4028236e38]}",
+     "beyond what float32 can represent", NULL, 0},
+    /* 0.1 * 255 = 25.5 exactly: the end is representable (no tolerance needed) */
+    {"calibrated_range_end_exact", "{name: v, type: unsigned, bits: 8, calibration: {scale: 0.1}, range: [0, 25.5]}",
+     NULL, "25.5", 255},
+    {"calibrated_range_end_beyond", "{name: v, type: unsigned, bits: 8, calibration: {scale: 0.1}, range: [0, 25.500000000000000001]}",
+     "cannot be represented", NULL, 0},
+    {"range_min_above_max_by_1e_minus_30", "{name: v, type: float32, range: [1.000000000000000000000000000001, 1]}",
+     "has MIN above MAX", NULL, 0},
+    {"coefficient_beyond_exact_limit", "{name: v, type: unsigned, bits: 8, calibration: {scale: 1e-2000}}",
+     "cannot be kept exactly", NULL, 0},
+    {"calibration_beyond_double", "{name: v, type: unsigned, bits: 16, calibration: {polynomial: [0, 1e300, 1e300]}}",
+     "beyond the largest double", NULL, 0},
+};
+
+static void test_dictionary_exact(void **st)
+{
+    (void)st;
+    for (size_t i = 0; i < sizeof dict_cases / sizeof dict_cases[0]; i++) {
+        const dict_case *c = &dict_cases[i];
+        char text[4096];
+        snprintf(text, sizeof text, EXACT_YAML, c->arg);
+        ulk_diag *dg = ulk_diag_create();
+        ulk_dict *d = NULL;
+        int rc = ulk_dict_load_mem("exact.yaml", text, strlen(text), 0, &d, dg);
+        print_message("row %s: rc %d\n", c->row, rc);
+        if (c->err) {
+            if (rc != ULK_EPARSE || !ulk_diag_first_error(dg) || !strstr(ulk_diag_first_error(dg)->msg, c->err)) {
+                ulk_diag_print(dg, stderr);
+                fail_msg("row %s: expected a refusal with '%s'", c->row, c->err);
+            }
+        } else {
+            if (rc != 0) {
+                ulk_diag_print(dg, stderr);
+                fail_msg("row %s: expected the dictionary to load", c->row);
+            }
+            if (c->value) {
+                const ulk_arg *a = &ulk_dict_find_command(d, "SET")->args[0];
+                ulk_argval v;
+                char err[300] = "";
+                rc = ulk_arg_from_text(a, c->value, 1.0, &v, err, sizeof err);
+                if (rc != 0 || v.raw != c->raw)
+                    fail_msg("row %s: %s -> rc %d raw 0x%llx (%s), expected 0x%llx", c->row, c->value, rc,
+                             (unsigned long long)v.raw, err, (unsigned long long)c->raw);
+            }
+        }
+        ulk_dict_destroy(d);
+        ulk_diag_destroy(dg);
+    }
+}
+
+/* Two dictionaries whose scales differ only beyond a double's precision encode different bits
+ * (test_issue_tie_linear), so they must not share a canonical form and hash; written the usual
+ * way (0.1, 0.100) the canonical form keeps the double's short text. */
+static void test_canonical_keeps_exact_digits(void **st)
+{
+    (void)st;
+    const char *scales[3] = {"0.1", "0.100", "0.10000000000000000001"};
+    char sha[3][65];
+    char *canon[3];
+    for (int i = 0; i < 3; i++) {
+        char arg[200], text[4096];
+        snprintf(arg, sizeof arg, "{name: v, type: unsigned, bits: 32, calibration: {scale: %s, offset: 0.7}}", scales[i]);
+        snprintf(text, sizeof text, EXACT_YAML, arg);
+        ulk_diag *dg = ulk_diag_create();
+        ulk_dict *d = NULL;
+        if (ulk_dict_load_mem("canon.yaml", text, strlen(text), 0, &d, dg) != 0) {
+            ulk_diag_print(dg, stderr);
+            fail_msg("scale %s: the dictionary should load", scales[i]);
+        }
+        memcpy(sha[i], d->sha256, 65);
+        if (ulk_dict_canonical(d, &canon[i], NULL) != 0) fail_msg("scale %s: no canonical form", scales[i]);
+        ulk_dict_destroy(d);
+        ulk_diag_destroy(dg);
+    }
+    if (!strstr(canon[0], "\"scale\":0.1}")) fail_msg("canonical form of 0.1: %s", canon[0]);
+    if (strcmp(sha[0], sha[1]) != 0) fail_msg("0.1 and 0.100 are one value, yet hashes differ");
+    if (!strstr(canon[2], "\"scale\":10000000000000000001e-20}")) fail_msg("exact digits not kept: %s", canon[2]);
+    if (strcmp(sha[0], sha[2]) == 0) fail_msg("0.1 and 0.10000000000000000001 share a hash");
+    for (int i = 0; i < 3; i++) free(canon[i]);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -295,6 +584,12 @@ int main(void)
         cmocka_unit_test(test_float32),
         cmocka_unit_test(test_boolean_enum),
         cmocka_unit_test(test_format_round_trip),
+        cmocka_unit_test(test_issue_tie_linear),
+        cmocka_unit_test(test_range_end_written),
+        cmocka_unit_test(test_polynomial_exact_tie),
+        cmocka_unit_test(test_fmt_double_extremes),
+        cmocka_unit_test(test_dictionary_exact),
+        cmocka_unit_test(test_canonical_keeps_exact_digits),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -80,12 +80,13 @@ static void flip(uint8_t *p, int bit) { p[bit / 8] ^= (uint8_t)(0x80u >> (bit % 
 static void slow_lfsr(const int *coeff_degrees, int n_terms, uint8_t *out, int n_octets)
 {
     uint8_t s[8 * 64 + 8];
+    assert_true(n_octets >= 0 && n_octets <= 64); /* the register history holds 64 octets */
     for (int i = 0; i < 8; i++) s[i] = 1;
-    for (int n = 0; n + 8 < 8 * n_octets + 8; n++) {
+    for (size_t n = 8; n < (size_t)(8 * n_octets + 8); n++) { /* s[n] from s[n-8 .. n-1] */
         int v = 0;
         for (int t = 0; t < n_terms; t++)
-            if (coeff_degrees[t] < 8) v ^= s[n + coeff_degrees[t]];
-        s[n + 8] = (uint8_t)v;
+            if (coeff_degrees[t] >= 0 && coeff_degrees[t] < 8) v ^= s[n - 8 + (size_t)coeff_degrees[t]];
+        s[n] = (uint8_t)v;
     }
     for (int i = 0; i < n_octets; i++) {
         out[i] = 0;

@@ -57,6 +57,13 @@ typedef struct {
     int has_default;
     uint64_t default_raw;      /* raw field of the default */
     double default_eng;        /* its engineering value */
+    /* The numbers as written in the dictionary (decimal, or 0x/0o/0b integer text): bits are
+     * decided on the exact rationals they denote, never on the doubles above, which serve
+     * messages and the canonical form. NULL in a model built in code: then the shortest
+     * decimal that reads back to the double is taken as written. */
+    char *range_min_text, *range_max_text;
+    char *cal_scale_text, *cal_offset_text;
+    char **poly_text;          /* n_poly texts, or NULL */
 } ulk_arg;
 
 typedef struct {
@@ -126,13 +133,16 @@ typedef struct {
 
 /* Converts an operator's value text (without unit; "21.5", "0x1F", "-3", "true", "OPEN",
  * "1.5e3") to raw and engineering values, applying range check, calibration (nearest raw,
- * ties to the smaller raw, refusal beyond half a step) and float32 rounding.
- * scale multiplies a numeric value first (SI prefix of a unit; 1.0 when none).
+ * ties to the smaller raw, refusal beyond half a step) and float32 rounding, all on the
+ * exact rational the decimal text denotes (docs/dictionary.md section 4).
+ * scale multiplies a numeric value first (SI prefix of a unit; 1.0 when none): a power of
+ * ten is taken as exactly that, any other scale as the shortest decimal of the double.
  * Returns 0, or ULK_EPARSE with a one-line reason in err ("value 300 is outside the range
  * [0, 255]", "no label 'OPN' (did you mean 'OPEN'?)"). */
 int ulk_arg_from_text(const ulk_arg *a, const char *text, double scale, ulk_argval *out,
                       char *err, size_t errlen);
-/* Engineering value of a raw field (calibration applied, sign extended). */
+/* Engineering value of a raw field (calibration applied, sign extended): the double
+ * nearest to the exact value (ties to even), the same on every machine. */
 double ulk_arg_raw_to_eng(const ulk_arg *a, uint64_t raw);
 /* Label of an enum code, NULL when undefined. */
 const char *ulk_arg_label(const ulk_arg *a, int64_t code);

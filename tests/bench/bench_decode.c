@@ -168,7 +168,7 @@ int main(int argc, char **argv)
     long fa2_words = 2000;
     unsigned long long seed = 1;
     const char *dict_path = ULK_SOURCE_DIR "/dictionaries/demo-subbit.yaml";
-    for (int i = 1; i < argc; i += 2) { /* every option takes a value */
+    for (int i = 1; i < argc; i += 2) { /* options come in pairs: --name value */
         const char *a = argv[i], *v = i + 1 < argc ? argv[i + 1] : NULL;
         if (!v) { fprintf(stderr, "bench_decode: %s needs a value\n", a); return 2; }
         if (!strcmp(a, "--words")) words = atol(v);
