@@ -16,7 +16,7 @@ mode=${1:-demo}
 
 PKGS="build-essential cmake pkg-config libyaml-dev libcjson-dev libcmocka-dev libsndfile1-dev
       libfftw3-dev libssl-dev libcairo2-dev libgmp-dev python3 python3-numpy python3-scipy python3-yaml
-      python3-jsonschema python3-crcmod"
+      python3-jsonschema python3-crcmod python3-cryptography"
 if [ "$mode" = test ]; then PKGS="$PKGS clang libclang-rt-14-dev valgrind"; fi
 
 missing=""
