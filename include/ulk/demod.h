@@ -1,7 +1,7 @@
 /* ulk/demod.h - blind demodulator for the sub-bit profile (subbit-profile.md sections 3-5).
  *
  * Why blind: a captured uplink starts anywhere in the file, its sample clock and subcarrier
- * are off by up to +-500 ppm (one clock drives both, since f_sc = k R_s), its level, DC
+ * are off by up to +-1000 ppm (one clock drives both, since f_sc = k R_s), its level, DC
  * offset and polarity are unknown. The demodulator takes samples in chunks of any size,
  * keeps memory flat (a few blocks of samples, whatever the capture length) and reports
  * each W-bit word it finds with its start time and a soft margin.
@@ -72,7 +72,17 @@ typedef struct {
     uint64_t n_subbits;     /* soft sub-bits produced */
     uint64_t n_truncated;   /* words cut off by the end of the capture or a loss of signal */
     uint64_t n_ambiguous;   /* words handed on with ambiguous set (alignment not decided) */
+    int at_search_limit;    /* 1 when the clock-error estimate reached the edge of the searched
+                               range (search_limit_ppm) in a block that held the signal: the true
+                               error may lie beyond it and rate_error_ppm is then only a bound;
+                               widen ulk_demod_options.max_ppm */
+    double search_limit_ppm;/* the clock-error range searched, +-this (ppm) */
 } ulk_demod_estimates;
+
+/* Default clock-error search range in ppm: +-1000 ppm (sample clock and subcarrier of a
+ * real recording) with a 25 % margin, so an error of 1000 ppm lies inside the range and
+ * not on its edge. */
+#define ULK_DEMOD_DEFAULT_PPM 1250.0
 
 /* Called for every word, in time order. */
 typedef void (*ulk_demod_word_fn)(const ulk_demod_word *w, void *user);
@@ -84,7 +94,7 @@ typedef struct {
     ulk_demod_word_fn on_word;  /* NULL: words are kept in a list (ulk_demod_word_at) */
     ulk_demod_soft_fn on_soft;  /* NULL: none */
     void *user;
-    double max_ppm;             /* clock-error search range; 0 = default 700 */
+    double max_ppm;             /* clock-error search range; 0 = ULK_DEMOD_DEFAULT_PPM */
     int block_subbits;          /* estimation block in sub-bits; 0 = default 256 */
 } ulk_demod_options;
 
@@ -92,7 +102,8 @@ typedef struct ulk_demod ulk_demod;
 
 /* Creates a demodulator for link cfg at sample rate fs_hz. opt may be NULL (defaults).
  * Returns 0 with *out set; ULK_EINVAL (message in diag) when the link is not a sub-bit
- * profile or fs_hz < 2.5 (f_sc + R_s); ULK_ENOMEM. The caller frees with
+ * profile or fs_hz < 2 (f_sc + R_s) (the data signal's main lobe must lie below Nyquist);
+ * ULK_ENOMEM. The caller frees with
  * ulk_demod_destroy(). cfg is copied. */
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag);
