@@ -76,6 +76,7 @@ struct ulk_demod {
     uint64_t ycap;
     double *qacc;             /* 2k */
     int prev_locked;
+    int flying;               /* the last block was demodulated on the previous clock */
     double prev_rho, prev_beta;
     double amp;               /* running amplitude estimate of the soft values */
     double a_ref, nsr_ref;    /* reference amplitude and its noise-to-signal ratio */
@@ -780,8 +781,21 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     double n_try = 8.0 * fmax * M;
     if (n_try < 1) n_try = 1;
     double thr2 = 2.0 / M * log(n_try / (d->prev_locked ? 1e-2 : 1e-6));
-    if (!(coh * coh >= thr2)) { block_unlock(d); return; } /* NaN-safe */
-    if (at_edge) d->n_at_edge++;
+    /* A block that fails the test right after a locked one is demodulated once more on the
+     * last clock (flywheel): the end of a transmission fills only part of a block, and the
+     * last word's end must not be lost with it. Its soft values go to the pattern stage (which
+     * wants idle before a word and signal energy in it), but it updates no estimate. */
+    int fly = 0;
+    if (!(coh * coh >= thr2)) { /* NaN-safe */
+        if (!d->prev_locked || d->flying) { block_unlock(d); return; }
+        fly = 1;
+    }
+    d->flying = fly;
+    if (at_edge && !fly) d->n_at_edge++;
+    /* Acquisition: the block before this one failed the test, but the signal may have begun
+     * inside it (a short preamble, a transmission after a gap): its sub-bits are demodulated
+     * too, on this block's clock (the window covers it), so the first word is not lost. */
+    int backfill = !d->prev_locked && b > 0;
 
     /* 2. sub-bit clock theta(i) = i rho + beta, modulo 1/(2k) */
     double eps = fhat / (2.0 * k);
@@ -789,7 +803,11 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     double tc = ((double)m_lo + mc + 0.5) * d->sps - 0.5;
     double rho = (1.0 + eps) / d->sps;
     double beta = (phic + M_PI / 2) / (2 * M_PI * k) - eps * tc / d->sps;
-    if (d->prev_locked) {
+    if (fly) {
+        rho = d->prev_rho;
+        beta = d->prev_beta;
+        eps = rho * d->sps - 1.0;
+    } else if (d->prev_locked) {
         double tb = (double)t_lo;
         double dth = (tb * d->prev_rho + d->prev_beta) - (tb * rho + beta);
         beta += floor(dth * twok + 0.5) / twok;
@@ -901,7 +919,8 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     /* Continue right after the last sub-bit handed on (the previous block's clock and this
      * one's may differ by a fraction of a half-cycle at the seam: going by sample ranges
      * alone could skip or repeat the sub-bit that starts there). */
-    int64_t hA = t_lo ? (int64_t)floor(twok * ((double)(t_lo - 1) * rho + beta)) + 1 : H0;
+    uint64_t t_em = backfill ? s_lo : t_lo;
+    int64_t hA = t_em ? (int64_t)floor(twok * ((double)(t_em - 1) * rho + beta)) + 1 : H0;
     if (d->prev_locked && d->have_emit) {
         double from = d->last_emit_pos + 0.5 / rho;
         hA = (int64_t)floor(twok * (from * rho + beta)) + 1;
@@ -951,43 +970,45 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     double a = ny >= 16 ? m2m4_amp(m2, m4) : 0;
     if (!(a > 0)) a = m1;
     if (!(a > 0)) a = 1e-30;
-    d->amp = d->prev_locked && d->amp > 0 ? 0.7 * d->amp + 0.3 * a : a;
-    /* Reference amplitude: a block that holds the signal only in part under-estimates it
-     * (never over), so keep a slowly decaying maximum. */
-    if (a > 0.9 * d->a_ref || !(d->a_ref > 0)) {
-        d->a_ref = a > 0.9 * d->a_ref ? a : 0.9 * d->a_ref;
-        d->nsr_ref = m2 > a * a ? (m2 - a * a) / (a * a) : 0;
-    } else {
-        d->a_ref *= 0.9;
+    if (!fly) {
+        d->amp = d->prev_locked && d->amp > 0 ? 0.7 * d->amp + 0.3 * a : a;
+        /* Reference amplitude: a block that holds the signal only in part under-estimates it
+         * (never over), so keep a slowly decaying maximum. */
+        if (a > 0.9 * d->a_ref || !(d->a_ref > 0)) {
+            d->a_ref = a > 0.9 * d->a_ref ? a : 0.9 * d->a_ref;
+            d->nsr_ref = m2 > a * a ? (m2 - a * a) / (a * a) : 0;
+        } else {
+            d->a_ref *= 0.9;
+        }
+        /* Clock error over the run: linear fit of the unwrapped clock phase at block centres. */
+        {
+            double tm = 0.5 * ((double)t_lo + (double)t_hi);
+            /* Received phase 2 pi k theta_true = template phase + delta: I ~ cos delta, Q ~ sin
+             * delta for a sine; for a square the dumps are triangular in delta, so
+             * delta = (pi/2) Q / (|I| + |Q|) there. */
+            double delta = d->square ? (eq > 0 ? M_PI / 2 * rq / eq : 0) : atan2(zi, zr) / 2;
+            double thm = tm * rho + beta + delta / (2 * M_PI * k);
+            if (!d->run_n) { d->run_t0 = tm; d->run_th0 = thm; }
+            /* Weight: coherence, and the share of the block's own sub-bits that hold signal (a
+             * block at the start or end of a transmission measures its phase on a few sub-bits). */
+            double fsig = d->a_ref > 0 ? (m2 / (d->a_ref * d->a_ref) - d->nsr_ref) : 0;
+            if (fsig < 0) fsig = 0;
+            if (fsig > 1) fsig = 1;
+            double x = tm - d->run_t0, y = thm - d->run_th0 - x / d->sps;
+            double w = coh * coh * coh * coh * fsig * fsig * fsig * fsig * (double)ny;
+            d->run_n++;
+            d->r_w += w; d->r_x += w * x; d->r_y += w * y; d->r_xx += w * x * x; d->r_xy += w * x * y;
+        }
+        /* Blocks that only partly hold the signal have a lower coherence and a poorer clock
+         * estimate: weight by coh^2 (about the block's signal-to-noise share). */
+        d->eps_sum += eps * (double)ny * coh * coh;
+        d->eps_w += (double)ny * coh * coh;
+        if (d->pend_interior) { d->eps_isum += d->eps_pend; d->eps_iw += d->w_pend; }
+        d->pend_interior = d->prev_locked;
+        d->eps_pend = eps * (double)ny * coh * coh;
+        d->w_pend = (double)ny * coh * coh;
+        d->signal_found = 1;
     }
-    /* Clock error over the run: linear fit of the unwrapped clock phase at block centres. */
-    {
-        double tm = 0.5 * ((double)t_lo + (double)t_hi);
-        /* Received phase 2 pi k theta_true = template phase + delta: I ~ cos delta, Q ~ sin
-         * delta for a sine; for a square the dumps are triangular in delta, so
-         * delta = (pi/2) Q / (|I| + |Q|) there. */
-        double delta = d->square ? (eq > 0 ? M_PI / 2 * rq / eq : 0) : atan2(zi, zr) / 2;
-        double thm = tm * rho + beta + delta / (2 * M_PI * k);
-        if (!d->run_n) { d->run_t0 = tm; d->run_th0 = thm; }
-        /* Weight: coherence, and the share of the block's own sub-bits that hold signal (a
-         * block at the start or end of a transmission measures its phase on a few sub-bits). */
-        double fsig = d->a_ref > 0 ? (m2 / (d->a_ref * d->a_ref) - d->nsr_ref) : 0;
-        if (fsig < 0) fsig = 0;
-        if (fsig > 1) fsig = 1;
-        double x = tm - d->run_t0, y = thm - d->run_th0 - x / d->sps;
-        double w = coh * coh * coh * coh * fsig * fsig * fsig * fsig * (double)ny;
-        d->run_n++;
-        d->r_w += w; d->r_x += w * x; d->r_y += w * y; d->r_xx += w * x * x; d->r_xy += w * x * y;
-    }
-    /* Blocks that only partly hold the signal have a lower coherence and a poorer clock
-     * estimate: weight by coh^2 (about the block's signal-to-noise share). */
-    d->eps_sum += eps * (double)ny * coh * coh;
-    d->eps_w += (double)ny * coh * coh;
-    if (d->pend_interior) { d->eps_isum += d->eps_pend; d->eps_iw += d->w_pend; }
-    d->pend_interior = d->prev_locked;
-    d->eps_pend = eps * (double)ny * coh * coh;
-    d->w_pend = (double)ny * coh * coh;
-    d->signal_found = 1;
     d->prev_locked = 1;
     d->prev_rho = rho;
     d->prev_beta = beta;
@@ -1083,7 +1104,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->xcap = (uint64_t)ceil(3 * d->L + 6 * d->sps) + 64;
     d->ucap = 4 * (uint64_t)B + 16;
     d->hcap = (uint64_t)((3 * d->L + 8 * d->sps) * 2.0 * (fsc / fs_hz) * 1.01) + 64;
-    d->ycap = (uint64_t)(d->L / d->sps * 1.01) + 16;
+    d->ycap = 2 * (uint64_t)(d->L / d->sps * 1.01) + 32; /* a block and its backfilled predecessor */
     d->mix_inc = fsc / fs_hz;
     d->u_end = (uint64_t)ceil(d->sps);
     if (cfg->has_pilot && cfg->pilot_amplitude > 0) {
