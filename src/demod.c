@@ -60,15 +60,16 @@ struct ulk_demod {
      * subcarrier and summed over slots of Ls = sps / S samples; everything after works on
      * slots, not samples */
     int slot_path;
-    int S;                    /* slots per nominal sub-bit (0: one sample each) */
-    double Ls;                /* samples per slot */
-    double z_re, z_im;        /* the open slot */
+    int Lsi;                  /* samples per slot: slot j holds samples [j Lsi, (j + 1) Lsi) */
+    double Ls;                /* the same as a double */
+    int fill;                 /* samples in the open slot */
+    float z_re, z_im, z_sx;   /* the open slot (z_sx: its samples' sum, for the DC blocker) */
     float *zre, *zim;         /* closed slots, ring of scap */
     uint64_t scap, s_cnt;     /* slots closed */
-    uint64_t s_end;           /* first sample of slot s_cnt + 1 */
     uint64_t s_w;             /* s_cnt % scap */
-    double sx;                /* sum of the open slot's samples (for the DC blocker) */
-    uint64_t nx;              /* and their count */
+    double dc_sx;             /* samples summed since the DC level last moved */
+    int dc_n, dc_every;       /* their count, and how many between moves */
+    double dc_step;           /* the one-pole step over dc_every samples */
     double *rpre, *qpre;      /* scratch: prefix sums over the window's slots */
     uint64_t rcap;
     double u_re, u_im;
@@ -161,25 +162,16 @@ static inline uint64_t ceil_u64(double x)
 
 static uint64_t blk_start(const ulk_demod *d, uint64_t b) { return (uint64_t)ceil((double)b * d->L); }
 
-/* Slots sit on the grid of nominal sub-bits: slot s = m S + r (r < S) starts at sample
- * ceil(m sps + r Ls), so every S-th slot starts where nominal sub-bit m does (ceil(m sps), the
- * windows of U). In one-sample mode (S = 0) slot s is sample s. */
-static uint64_t slot_first(const ulk_demod *d, uint64_t s)
+static uint64_t pow2_at_least(uint64_t x)
 {
-    if (!d->S) return s;
-    uint64_t m = s / (uint64_t)d->S, r = s % (uint64_t)d->S;
-    return ceil_u64((double)m * d->sps + (double)r * d->Ls);
+    uint64_t p = 1;
+    while (p < x) p <<= 1;
+    return p;
 }
 
-/* The slot holding sample i. */
-static uint64_t slot_of(const ulk_demod *d, uint64_t i)
-{
-    if (!d->S) return i;
-    uint64_t s = (uint64_t)((double)i / d->Ls);
-    while (s > 0 && slot_first(d, s) > i) s--;
-    while (slot_first(d, s + 1) <= i) s++;
-    return s;
-}
+/* First sample of slot s, and the slot holding sample i. */
+static uint64_t slot_first(const ulk_demod *d, uint64_t s) { return s * (uint64_t)d->Lsi; }
+static uint64_t slot_of(const ulk_demod *d, uint64_t i) { return i / (uint64_t)d->Lsi; }
 
 static int64_t floordiv(int64_t a, int64_t b)
 {
@@ -234,10 +226,10 @@ static void group_corr(const ulk_demod *d, uint64_t g, double pol, double *ci, d
 {
     double a = 0, z = 0, o = 0;
     if (d->nrzm) {
-        float v0 = g > 0 ? d->pv[(g - 1) % d->pcap] : 0.0f;
+        float v0 = g > 0 ? d->pv[(g - 1) & (d->pcap - 1)] : 0.0f;
         a = z = o = v0;
         for (int t = 0; t < d->n; t++) {
-            float v = d->pv[(g + (uint64_t)t) % d->pcap];
+            float v = d->pv[(g + (uint64_t)t) & (d->pcap - 1)];
             a += d->lidle[t] * v;
             z += d->lz[t] * v;
             o += d->lo[t] * v;
@@ -249,7 +241,7 @@ static void group_corr(const ulk_demod *d, uint64_t g, double pol, double *ci, d
         return;
     }
     for (int t = 0; t < d->n; t++) {
-        float v = d->pv[(g + (uint64_t)t) % d->pcap];
+        float v = d->pv[(g + (uint64_t)t) & (d->pcap - 1)];
         a += d->pidle[t] * v;
         z += d->pz[t] * v;
         o += d->po[t] * v;
@@ -295,7 +287,7 @@ static int word_energy_ok(const ulk_demod *d, uint64_t s)
     uint64_t m = (uint64_t)d->W * (uint64_t)d->n;
     double a = d->a_ref > 0 ? d->a_ref : 1.0, e = 0;
     for (uint64_t t = 0; t < m; t++) {
-        double y = d->py[(s + t) % d->pcap] / a;
+        double y = d->py[(s + t) & (d->pcap - 1)] / a;
         e += y * y;
     }
     return e / (double)m >= 0.5 + d->nsr_ref;
@@ -317,7 +309,7 @@ static double soft_at(const ulk_demod *d, int64_t j)
 {
     int64_t lo = d->cnt > d->pcap ? (int64_t)(d->cnt - d->pcap) : 0;
     if (j < lo || j >= (int64_t)d->cnt) return 0.0;
-    return d->pv[(uint64_t)j % d->pcap];
+    return d->pv[(uint64_t)j & (d->pcap - 1)];
 }
 
 /* group_corr on any sub-bit index (out-of-range sub-bits count 0), for the alignment test. */
@@ -438,7 +430,7 @@ static void decode_word_at(ulk_demod *d, uint64_t s, double pol, int ambiguous)
     }
     w.margin = margin;
     if (ambiguous) {
-        w.start_s = d->pt[s % d->pcap];
+        w.start_s = d->pt[s & (d->pcap - 1)];
         w.polarity = pol < 0 ? -1 : 1;
         emit_word(d, &w);
         return;
@@ -446,12 +438,12 @@ static void decode_word_at(ulk_demod *d, uint64_t s, double pol, int ambiguous)
     /* E_b/N_0 from the word's own sub-bits (M2M4 moments): noise next to the signal in the
      * edge blocks does not enter. */
     for (uint64_t t = 0; t < (uint64_t)d->W * (uint64_t)d->n; t++) {
-        double y = d->py[(s + t) % d->pcap];
+        double y = d->py[(s + t) & (d->pcap - 1)];
         d->s2 += y * y;
         d->s4 += y * y * y * y;
     }
     d->ns += (uint64_t)d->W * (uint64_t)d->n;
-    w.start_s = d->pt[s % d->pcap];
+    w.start_s = d->pt[s & (d->pcap - 1)];
     w.polarity = pol < 0 ? -1 : 1;
     emit_word(d, &w);
 }
@@ -532,7 +524,7 @@ static void pattern_decide(ulk_demod *d, int flush)
                 uint64_t ng = (d->cnt - d->p) / n;
                 for (uint64_t g = 0; g < ng; g++) mean_b += bitness(d, d->p + g * n, pol);
                 for (uint64_t t = 0; t < ng * n; t++) {
-                    double y = d->py[(d->p + t) % d->pcap] / aref;
+                    double y = d->py[(d->p + t) & (d->pcap - 1)] / aref;
                     e += y * y;
                 }
                 if (ng >= 4 && mean_b > 0 && e / (double)(ng * n) >= 0.5 + d->nsr_ref &&
@@ -615,9 +607,9 @@ static void pattern_push(ulk_demod *d, float y, double t)
     d->last_t = t;
     float v = y;
     uint64_t s = d->cnt;
-    d->pv[s % d->pcap] = v;
-    d->py[s % d->pcap] = y;
-    d->pt[s % d->pcap] = t;
+    d->pv[s & (d->pcap - 1)] = v;
+    d->py[s & (d->pcap - 1)] = y;
+    d->pt[s & (d->pcap - 1)] = t;
     d->cnt++;
     if (d->cnt >= (uint64_t)d->n) {
         uint64_t g = d->cnt - (uint64_t)d->n;
@@ -746,14 +738,14 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
      * BPSK signal has a steady |U| and is not touched, while a few huge samples (clicks,
      * garbage) would otherwise make one U_m dominate and look perfectly coherent. */
     for (int m = 0; m < M; m++) {
-        double r = d->ure[(m_lo + (uint64_t)m) % d->ucap], i = d->uim[(m_lo + (uint64_t)m) % d->ucap];
+        double r = d->ure[(m_lo + (uint64_t)m) & (d->ucap - 1)], i = d->uim[(m_lo + (uint64_t)m) & (d->ucap - 1)];
         d->sre[m] = r * r + i * i;
     }
     double med = median_inplace_copy(d->sre, d->sim, M);
     double lim2 = 9.0 * med;
     double upow = 0;
     for (int m = 0; m < M; m++) {
-        double r = d->ure[(m_lo + (uint64_t)m) % d->ucap], i = d->uim[(m_lo + (uint64_t)m) % d->ucap];
+        double r = d->ure[(m_lo + (uint64_t)m) & (d->ucap - 1)], i = d->uim[(m_lo + (uint64_t)m) & (d->ucap - 1)];
         double p2 = r * r + i * i;
         if (p2 > lim2 && p2 > 0) {
             double g = sqrt(lim2 / p2);
@@ -936,7 +928,8 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
                 bs = slot_of(d, (uint64_t)pH);
                 if (0.5 * (double)(slot_first(d, bs) + slot_first(d, bs + 1) - 1) < pH) bs++;
             }
-            double nsmp = (double)slot_first(d, bs);
+            uint64_t fs0 = slot_first(d, bs);
+            double nsmp = (double)(fs0 < d->n_in ? fs0 : d->n_in);
             uint64_t t = bs - sl_lo;
             if (i == 0) { n0 = nsmp; r0 = R[t]; q0 = Qp[t]; }
             d->ph[i] = R[t] - r0;
@@ -1206,7 +1199,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->L = B * d->sps;
     d->dc_alpha = 1.0 / (8.0 * d->sps);
     d->xcap = (uint64_t)ceil(3 * d->L + 6 * d->sps) + 64;
-    d->ucap = 4 * (uint64_t)B + 16;
+    d->ucap = pow2_at_least(4 * (uint64_t)B + 16); /* rings of 2^j: indices by mask */
     d->hcap = (uint64_t)((3 * d->L + 8 * d->sps) * 2.0 * (fsc / fs_hz) * 1.01) + 64;
     d->ycap = 2 * (uint64_t)(d->L / d->sps * 1.01) + 32; /* a block and its backfilled predecessor */
     /* mixer step in cycles x 2^64 (f_sc / f_s < 1/2) */
@@ -1221,27 +1214,30 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         d->pilot_on = !on_sc && fp < fs_hz / 2;
         d->fp_hz = fp;
     }
-    /* Baseband slots: an eighth of a subcarrier cycle (S = 8k a sub-bit) when that is at
-     * least two samples, else one sample each (exactly what the sample-domain filter does).
+    /* Baseband slots: whole samples, at most an eighth of a subcarrier cycle (one sample at
+     * low rates: exactly what the sample-domain filter does).
      * A sub-bit boundary then falls at most half a slot from a slot boundary, where the sine
      * template is within 1/16 cycle of its zero crossing: at most 0.6 % of one cycle's
      * template energy lands in the neighbouring sub-bit. (Quarter-cycle slots, 2.3 %, cost
      * the demo profile about 0.1 dB at 48 kHz with slots of one or two samples.) Not for a square subcarrier (its harmonics are part of the
      * matched filter) nor with a pilot to remove: those take the samples as they are. */
     {
-        int S = 8 * k;
-        if (d->sps / S < 2.0) S = 0; /* one-sample slots */
-        double n_slots = S ? (double)B * S : (double)B * d->sps;
-        d->slot_path = !d->square && !d->pilot_on && n_slots <= 65536.0;
-        d->S = S;
-        d->Ls = S ? d->sps / S : 1.0;
-        d->s_end = slot_first(d, 1);
-        if (!S) S = (int)ceil(d->sps) + 1;
-        d->scap = 3 * (uint64_t)B * (uint64_t)S + 8 * (uint64_t)S + 64;
+        int Lsi = (int)floor(d->sps / (8.0 * k));
+        if (Lsi < 1) Lsi = 1;
+        d->slot_path = !d->square && !d->pilot_on && (3 * d->L + 8 * d->sps) / Lsi <= 262144.0;
+        d->Lsi = Lsi;
+        d->Ls = Lsi;
+        d->scap = (uint64_t)((3 * d->L + 8 * d->sps) / Lsi) + 64;
         d->rcap = d->scap + 1;
+        /* the DC level moves every quarter of a nominal sub-bit (its time constant is 8 of
+         * them), by the one-pole step of that many samples */
+        int ev = (int)floor(d->sps / 4);
+        if (ev < 1) ev = 1;
+        d->dc_every = ev;
+        d->dc_step = 1.0 - pow(1.0 - d->dc_alpha, ev);
     }
     d->lag = (uint64_t)d->n * (uint64_t)(2 * d->W + 20);
-    d->pcap = d->lag + 4 * (uint64_t)d->n + 16;
+    d->pcap = pow2_at_least(d->lag + 4 * (uint64_t)d->n + 16);
 
     if (d->slot_path) {
         d->zre = ulk_malloc(d->scap * sizeof *d->zre);
@@ -1281,30 +1277,54 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
 
 static void close_u_window(ulk_demod *d)
 {
-    d->ure[d->u_cnt % d->ucap] = d->u_re;
-    d->uim[d->u_cnt % d->ucap] = d->u_im;
+    d->ure[d->u_cnt & (d->ucap - 1)] = d->u_re;
+    d->uim[d->u_cnt & (d->ucap - 1)] = d->u_im;
     d->u_cnt++;
     d->u_re = d->u_im = 0;
     d->u_samples = 0;
     d->u_end = (uint64_t)ceil((double)(d->u_cnt + 1) * d->sps);
 }
 
-/* Closes the open slot. The DC blocker works on slots here: the slot's samples had the
- * blocker's level subtracted as they came (dc below), and the level then moves toward the
- * slot's mean with the one-pole step of its sample count (about R_s / 50, as per sample). */
-static void close_slot(ulk_demod *d, double sum_x, uint64_t n_x)
+/* Stores a slot; the DC level moves every dc_every samples toward their mean (the blocker
+ * works on slots here: each slot had the level of its time subtracted as it came). */
+static inline void store_slot(ulk_demod *d, float zr, float zi, float sx, int nsmp)
 {
-    d->zre[d->s_w] = (float)d->z_re;
-    d->zim[d->s_w] = (float)d->z_im;
+    d->zre[d->s_w] = zr;
+    d->zim[d->s_w] = zi;
     if (++d->s_w == d->scap) d->s_w = 0;
-    d->u_re += d->z_re;
-    d->u_im += d->z_im;
-    d->u_samples = 1;
-    d->z_re = d->z_im = 0;
-    if (n_x) d->dc += d->dc_alpha * (double)n_x * (sum_x / (double)n_x - d->dc);
     d->s_cnt++;
-    d->s_end = slot_first(d, d->s_cnt + 1);
-    if (d->n_in >= d->u_end) close_u_window(d);
+    d->dc_sx += sx;
+    d->dc_n += nsmp;
+    if (d->dc_n >= d->dc_every) {
+        d->dc += d->dc_step * (d->dc_sx / d->dc_n - d->dc);
+        d->dc_sx = 0;
+        d->dc_n = 0;
+    }
+}
+
+/* U_m over nominal sub-bit m = the slots whose centres lie in [m sps, (m + 1) sps), for every
+ * m whose slots are all closed (at the end: every m with at least one). */
+static void u_update(ulk_demod *d, int final)
+{
+    const double L = d->Ls, h = (L - 1) / 2;
+    for (;;) {
+        double p0 = (double)d->u_cnt * d->sps, p1 = p0 + d->sps;
+        double j0f = ceil((p0 - h) / L), j1f = ceil((p1 - h) / L);
+        uint64_t j0 = j0f > 0 ? (uint64_t)j0f : 0, j1 = j1f > 0 ? (uint64_t)j1f : 0;
+        if (j1 > d->s_cnt) {
+            if (!final || j0 >= d->s_cnt) return;
+            j1 = d->s_cnt;
+        }
+        if (d->s_cnt > d->scap && j0 < d->s_cnt - d->scap) j0 = d->s_cnt - d->scap;
+        double ur = 0, ui = 0;
+        for (uint64_t j = j0; j < j1; j++) {
+            ur += d->zre[j % d->scap];
+            ui += d->zim[j % d->scap];
+        }
+        d->ure[d->u_cnt & (d->ucap - 1)] = ur;
+        d->uim[d->u_cnt & (d->ucap - 1)] = ui;
+        d->u_cnt++;
+    }
 }
 
 /* Non-finite samples count as 0 and magnitudes are limited far above any real level (full
@@ -1327,35 +1347,52 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
     if (n && !d->dc_init) { d->dc = sane(x[0]); d->dc_init = 1; }
     uint64_t ready = blk_start(d, d->blk + 2) + (uint64_t)ceil(2 * d->sps) + 2;
     const float *tab = d->tab;
+    const uint64_t inc = d->mix_inc;
     size_t t = 0;
     while (t < n) {
-        /* Run up to the next event (end of a slot or window, a block ready) without tests. */
-        uint64_t stop = d->slot_path ? d->s_end : d->u_end;
-        if (ready < stop) stop = ready;
-        size_t run = stop > d->n_in ? (size_t)(stop - d->n_in) : 1;
-        if (run > n - t) run = n - t;
+        size_t avail = n - t;
+        if (ready - d->n_in < avail) avail = (size_t)(ready - d->n_in);
         uint64_t ph = d->mix_ph;
-        const uint64_t inc = d->mix_inc;
-        double zr = 0, zi = 0;
         if (d->slot_path) {
-            const float dc = (float)d->dc;
-            float sx = 0;
-            for (size_t e = t + run; t < e; t++) {
-                float v = sane(x[t]);
-                float y = v - dc;
-                sx += v;
-                zr += y * tab[((ph >> PH_SHIFT) + TAB_N / 4) & (TAB_N - 1)];
-                zi -= y * tab[ph >> PH_SHIFT];
+            const int Lsi = d->Lsi;
+            if (d->fill == 0 && avail >= (size_t)Lsi) {
+                /* whole slots */
+                size_t ns = avail / (size_t)Lsi;
+                for (size_t q = 0; q < ns; q++) {
+                    const float dc = (float)d->dc;
+                    float zr = 0, zi = 0, sx = 0;
+                    for (int e = 0; e < Lsi; e++, t++) {
+                        float v = sane(x[t]), y = v - dc;
+                        sx += v;
+                        zr += y * tab[((ph >> PH_SHIFT) + TAB_N / 4) & (TAB_N - 1)];
+                        zi -= y * tab[ph >> PH_SHIFT];
+                        ph += inc;
+                    }
+                    store_slot(d, zr, zi, sx, Lsi);
+                }
+                d->n_in += ns * (uint64_t)Lsi;
+            } else {
+                /* one sample into the open slot */
+                float v = sane(x[t]), y = v - (float)d->dc;
+                d->z_sx += v;
+                d->z_re += y * tab[((ph >> PH_SHIFT) + TAB_N / 4) & (TAB_N - 1)];
+                d->z_im -= y * tab[ph >> PH_SHIFT];
                 ph += inc;
+                t++;
+                d->n_in++;
+                if (++d->fill == Lsi) {
+                    store_slot(d, d->z_re, d->z_im, d->z_sx, Lsi);
+                    d->z_re = d->z_im = d->z_sx = 0;
+                    d->fill = 0;
+                }
             }
-            d->z_re += zr;
-            d->z_im += zi;
-            d->sx += sx;
-            d->nx += run;
         } else {
-            /* the samples are kept for the matched filter: the DC blocker runs per sample */
+            /* the samples are kept for the matched filter; the DC blocker runs per sample */
+            uint64_t stop = d->u_end - d->n_in;
+            size_t run = stop < avail ? (size_t)stop : avail;
+            if (run < 1) run = 1;
             size_t xw = d->xw;
-            double dc = d->dc;
+            double dc = d->dc, zr = 0, zi = 0;
             const double al = d->dc_alpha;
             for (size_t e = t + run; t < e; t++) {
                 double v = sane(x[t]);
@@ -1372,19 +1409,12 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
             d->u_re += zr;
             d->u_im += zi;
             d->u_samples += run;
+            d->n_in += run;
+            if (d->n_in >= d->u_end) close_u_window(d);
         }
         d->mix_ph = ph;
-        d->n_in += run;
-        if (d->slot_path) {
-            if (d->n_in >= d->s_end) {
-                close_slot(d, d->sx, d->nx);
-                d->sx = 0;
-                d->nx = 0;
-            }
-        } else if (d->n_in >= d->u_end) {
-            close_u_window(d);
-        }
         if (d->n_in >= ready) {
+            if (d->slot_path) u_update(d, 0);
             process_block(d, d->blk, 0);
             d->blk++;
             ready = blk_start(d, d->blk + 2) + (uint64_t)ceil(2 * d->sps) + 2;
@@ -1399,11 +1429,13 @@ int ulk_demod_finish(ulk_demod *d)
     if (!d) return ULK_EINVAL;
     if (d->finished) return d->status;
     d->finished = 1;
-    if (d->slot_path && d->nx > 0) {
-        close_slot(d, d->sx, d->nx);
-        d->nx = 0;
+    if (d->slot_path) {
+        if (d->fill > 0) store_slot(d, d->z_re, d->z_im, d->z_sx, d->fill);
+        d->fill = 0;
+        u_update(d, 1);
+    } else if (d->u_samples > 0) {
+        close_u_window(d);
     }
-    if (d->u_samples > 0) close_u_window(d);
     while (!d->status && blk_start(d, d->blk) < d->n_in) {
         int last = blk_start(d, d->blk + 1) >= d->n_in;
         process_block(d, d->blk, last);
