@@ -67,6 +67,7 @@ struct ulk_demod {
     float *zre, *zim;         /* closed slots, ring of scap */
     uint64_t scap, s_cnt;     /* slots closed */
     uint64_t s_w;             /* s_cnt % scap */
+    uint64_t u_next;          /* first slot of U window u_cnt */
     double dc_sx;             /* samples summed since the DC level last moved */
     int dc_n, dc_every;       /* their count, and how many between moves */
     double dc_step;           /* the one-pole step over dc_every samples */
@@ -118,6 +119,7 @@ struct ulk_demod {
     int locked, lock_a;       /* group alignment locked by an accepted word (see lock_ok) */
     double lock_pol;
     uint64_t n_ambiguous;     /* words whose alignment could not be decided */
+    double *al_ci, *al_cz, *al_co; /* the alignment test's group correlations */
     int have_last;
     double last_t;
 
@@ -345,22 +347,25 @@ static void group_corr_at(const ulk_demod *d, int64_t g, double pol, double *ci,
  * previous word's bits when words are back to back), idle after it (or, with no gap, either).
  * Every candidate covers the same number of groups, so the values compare directly. */
 #define ALIGN_EDGE 2
-static double word_hyp_ll(const ulk_demod *d, int64_t s, double pol, int back_to_back)
+/* The same over the correlations precomputed for every group start x in [x0, ...) (ci, cz,
+ * co indexed by x - x0). */
+static double word_hyp_ll(const ulk_demod *d, int64_t s, int64_t x0, int back_to_back)
 {
     const int64_t n = d->n;
-    double ll = 0, ci, cz, co;
+    const double *ci = d->al_ci, *cz = d->al_cz, *co = d->al_co;
+    double ll = 0;
     for (int g = 1; g <= ALIGN_EDGE; g++) {
-        group_corr_at(d, s - g * n, pol, &ci, &cz, &co);
-        ll += back_to_back ? (cz > co ? cz : co) : ci;
+        int64_t i = s - g * n - x0;
+        ll += back_to_back ? (cz[i] > co[i] ? cz[i] : co[i]) : ci[i];
     }
     for (int b = 0; b < d->W; b++) {
-        group_corr_at(d, s + b * n, pol, &ci, &cz, &co);
-        ll += cz > co ? cz : co;
+        int64_t i = s + b * n - x0;
+        ll += cz[i] > co[i] ? cz[i] : co[i];
     }
     for (int g = 0; g < ALIGN_EDGE; g++) {
-        group_corr_at(d, s + (d->W + g) * n, pol, &ci, &cz, &co);
-        double m = cz > co ? cz : co;
-        ll += d->l.gap > 0 ? ci : (ci > m ? ci : m);
+        int64_t i = s + (d->W + g) * n - x0;
+        double m = cz[i] > co[i] ? cz[i] : co[i];
+        ll += d->l.gap > 0 ? ci[i] : (ci[i] > m ? ci[i] : m);
     }
     return ll;
 }
@@ -380,7 +385,7 @@ static double word_hyp_ll(const ulk_demod *d, int64_t s, double pol, int back_to
  * slip complements every bit; nrz-l 0011/0110), and an idle pattern with no transitions
  * (00 under nrz-m, 0000 under nrz-l) says nothing about where groups start, so the grid
  * carried across a long idle run can be off; only the word itself and its edges decide. */
-static double align_test(const ulk_demod *d, uint64_t s, double pol, int back_to_back, uint64_t *s_best,
+static double align_test(ulk_demod *d, uint64_t s, double pol, int back_to_back, uint64_t *s_best,
                          double *pol_best)
 {
     double best = -1e300, second = -1e300;
@@ -395,11 +400,17 @@ static double align_test(const ulk_demod *d, uint64_t s, double pol, int back_to
      * words either: in a run of bits a whole-group shift is not visible at the edges. */
     const int range = d->nrzm && !back_to_back ? 2 * d->n - 1 : d->n - 1;
     {
+        /* Every hypothesis reads groups starting at s + del + j n (-ALIGN_EDGE <= j < W +
+         * ALIGN_EDGE): their correlations are computed once for every start in the span. */
+        const int64_t n = d->n;
+        int64_t x0 = (int64_t)s - range - ALIGN_EDGE * n;
+        int64_t nx = 2 * (int64_t)range + (d->W + 2 * ALIGN_EDGE - 1) * n + 1;
+        for (int64_t i = 0; i < nx; i++) group_corr_at(d, x0 + i, pol, &d->al_ci[i], &d->al_cz[i], &d->al_co[i]);
         double pl = pol;
         for (int del = -range; del <= range; del++) {
             int64_t c = (int64_t)s + del;
             if (c < 0) continue;
-            double ll = word_hyp_ll(d, c, pl, back_to_back);
+            double ll = word_hyp_ll(d, c, x0, back_to_back);
             if (ll > best) {
                 second = best;
                 best = ll;
@@ -1266,8 +1277,14 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
     d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
     d->py = ulk_malloc(d->pcap * sizeof *d->py);
+    {
+        size_t nal = (size_t)(4 * d->n + (d->W + 4) * d->n + 8);
+        d->al_ci = ulk_malloc(nal * sizeof *d->al_ci);
+        d->al_cz = ulk_malloc(nal * sizeof *d->al_cz);
+        d->al_co = ulk_malloc(nal * sizeof *d->al_co);
+    }
     if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->dre || !d->dim || !d->ph || !d->ch || !d->qh || !d->yblk ||
-        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py) {
+        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py || !d->al_ci || !d->al_cz || !d->al_co) {
         ulk_demod_destroy(d);
         return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
     }
@@ -1308,22 +1325,25 @@ static void u_update(ulk_demod *d, int final)
 {
     const double L = d->Ls, h = (L - 1) / 2;
     for (;;) {
-        double p0 = (double)d->u_cnt * d->sps, p1 = p0 + d->sps;
-        double j0f = ceil((p0 - h) / L), j1f = ceil((p1 - h) / L);
-        uint64_t j0 = j0f > 0 ? (uint64_t)j0f : 0, j1 = j1f > 0 ? (uint64_t)j1f : 0;
+        double p1 = (double)(d->u_cnt + 1) * d->sps;
+        double j1f = ceil((p1 - h) / L);
+        uint64_t j0 = d->u_next, j1 = j1f > 0 ? (uint64_t)j1f : 0;
         if (j1 > d->s_cnt) {
             if (!final || j0 >= d->s_cnt) return;
             j1 = d->s_cnt;
         }
         if (d->s_cnt > d->scap && j0 < d->s_cnt - d->scap) j0 = d->s_cnt - d->scap;
-        double ur = 0, ui = 0;
+        float ur = 0, ui = 0;
+        uint64_t r = j0 % d->scap;
         for (uint64_t j = j0; j < j1; j++) {
-            ur += d->zre[j % d->scap];
-            ui += d->zim[j % d->scap];
+            ur += d->zre[r];
+            ui += d->zim[r];
+            if (++r == d->scap) r = 0;
         }
         d->ure[d->u_cnt & (d->ucap - 1)] = ur;
         d->uim[d->u_cnt & (d->ucap - 1)] = ui;
         d->u_cnt++;
+        d->u_next = j1 > j0 ? j1 : j0;
     }
 }
 
@@ -1515,6 +1535,9 @@ void ulk_demod_destroy(ulk_demod *d)
     ulk_free(d->pv);
     ulk_free(d->pt);
     ulk_free(d->py);
+    ulk_free(d->al_ci);
+    ulk_free(d->al_cz);
+    ulk_free(d->al_co);
     ulk_free(d->words);
     ulk_free(d);
 }
