@@ -42,6 +42,7 @@ struct ulk_demod {
     ulk_demod_options opt;
     double eps_max;
     float tab[TAB_N];         /* sin(2 pi i / TAB_N) */
+    float tabcs[2 * TAB_N];   /* cos and sin of 2 pi i / TAB_N, side by side */
     int status;
     int finished;
 
@@ -71,6 +72,7 @@ struct ulk_demod {
     double dc_sx;             /* samples summed since the DC level last moved */
     int dc_n, dc_every;       /* their count, and how many between moves */
     double dc_step;           /* the one-pole step over dc_every samples */
+    double dc_inv;            /* 1 / dc_every */
     double *rpre, *qpre;      /* scratch: prefix sums over the window's slots */
     uint64_t rcap;
     double u_re, u_im;
@@ -1201,7 +1203,11 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
         if (!(d->mden > 0)) d->mden = 1;
     }
-    for (int i = 0; i < TAB_N; i++) d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
+    for (int i = 0; i < TAB_N; i++) {
+        d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
+        d->tabcs[2 * i] = (float)cos(2 * M_PI * i / TAB_N);
+        d->tabcs[2 * i + 1] = d->tab[i];
+    }
 
     /* Block size: 256 sub-bits, fewer when a sub-bit is very long so memory stays small. */
     int B = d->opt.block_subbits > 0 ? d->opt.block_subbits : 256;
@@ -1242,9 +1248,10 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         d->rcap = d->scap + 1;
         /* the DC level moves every quarter of a nominal sub-bit (its time constant is 8 of
          * them), by the one-pole step of that many samples */
-        int ev = (int)floor(d->sps / 4);
-        if (ev < 1) ev = 1;
+        int ev = Lsi * (int)floor(d->sps / (4.0 * Lsi)); /* whole slots */
+        if (ev < Lsi) ev = Lsi;
         d->dc_every = ev;
+        d->dc_inv = 1.0 / ev;
         d->dc_step = 1.0 - pow(1.0 - d->dc_alpha, ev);
     }
     d->lag = (uint64_t)d->n * (uint64_t)(2 * d->W + 20);
@@ -1376,20 +1383,42 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
         if (d->slot_path) {
             const int Lsi = d->Lsi;
             if (d->fill == 0 && avail >= (size_t)Lsi) {
-                /* whole slots */
+                /* whole slots: the DC level is constant between its moves */
                 size_t ns = avail / (size_t)Lsi;
+                const float *cs = d->tabcs;
+                float *ZR = d->zre, *ZI = d->zim;
+                uint64_t w = d->s_w;
+                const uint64_t cap = d->scap;
+                double dcd = d->dc, csx = d->dc_sx;
+                float dc = (float)dcd;
+                int cn = d->dc_n;
                 for (size_t q = 0; q < ns; q++) {
-                    const float dc = (float)d->dc;
                     float zr = 0, zi = 0, sx = 0;
                     for (int e = 0; e < Lsi; e++, t++) {
                         float v = sane(x[t]), y = v - dc;
+                        const float *c = cs + 2 * (ph >> PH_SHIFT);
                         sx += v;
-                        zr += y * tab[((ph >> PH_SHIFT) + TAB_N / 4) & (TAB_N - 1)];
-                        zi -= y * tab[ph >> PH_SHIFT];
+                        zr += y * c[0];
+                        zi -= y * c[1];
                         ph += inc;
                     }
-                    store_slot(d, zr, zi, sx, Lsi);
+                    ZR[w] = zr;
+                    ZI[w] = zi;
+                    if (++w == cap) w = 0;
+                    csx += sx;
+                    cn += Lsi;
+                    if (cn >= d->dc_every) {
+                        dcd += d->dc_step * (csx * d->dc_inv - dcd);
+                        dc = (float)dcd;
+                        csx = 0;
+                        cn = 0;
+                    }
                 }
+                d->s_w = w;
+                d->s_cnt += ns;
+                d->dc = dcd;
+                d->dc_sx = csx;
+                d->dc_n = cn;
                 d->n_in += ns * (uint64_t)Lsi;
             } else {
                 /* one sample into the open slot */
