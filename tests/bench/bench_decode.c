@@ -15,7 +15,8 @@
  * captures where not one word was recovered; "f.acc" words reported whose check passes
  * but that were not sent (false acceptances; words the demodulator marks ambiguous are
  * rejected by the dictionary stage and counted apart); "x.rej" other words reported (check
- * fails).
+ * fails); "spur" the words reported, of any status, that overlap no word sent (idle, the
+ * lead-in or noise read as a word; they count in x.rej or f.acc too).
  *
  * Usage: bench_decode [--words N] [--per N] [--ppm X] [--seed S] [--from DB] [--to DB]
  *                     [--step DB] [--noise-s SECONDS] [--speed-s SECONDS] [--dict FILE]
@@ -80,6 +81,7 @@ static double cpu_s(void)
 typedef struct {
     long sent, ok, missing, false_acc, rejected_extra, acq_fail, captures, ambiguous;
     long wrong_bits, misplaced, absent;
+    long spurious; /* words reported (any status) that overlap no word sent: idle or noise read as a word */
 } tally;
 
 static void random_valid_words(sim_rng *r, const ulk_link *l, ulk_word *w, int n)
@@ -153,6 +155,14 @@ static void run_one(const ulk_link *l, double fs, double ebn0, int per, double p
     for (size_t k = 0; k < nw; k++) {
         if (used[k]) continue;
         const ulk_demod_word *g = ulk_demod_word_at(d, k);
+        {
+            double near = 1e9;
+            for (int i = 0; i < per && !noise_only; i++) {
+                double ts = c.delay_s + (double)starts[i] / rs / (1 + c.ppm * 1e-6);
+                if (fabs(g->start_s - ts) < near) near = fabs(g->start_s - ts);
+            }
+            if (near * rs >= (double)l->word_bits * l->n_subbits) t->spurious++;
+        }
         if (g->ambiguous) t->ambiguous++; /* rejected by the dictionary stage ("alignment") */
         else if (ulk_word_check_ok(l, &g->word)) {
             t->false_acc++;
@@ -242,8 +252,8 @@ int main(int argc, char **argv)
     else
         printf("words per point %ld, %d words per capture, clock error uniform +-%g ppm, lead-in %g s + 0..60 ms, fs %g Hz%s, seed %llu\n\n",
                words, per, ppm, g_lead_s, fs, g_invert ? ", inverted" : "", seed);
-    printf("%8s %11s %11s %8s %6s %6s %6s %6s %6s %6s\n", "Eb/N0 dB", "WER", "ideal WER", "words", "bits", "shift", "absent",
-           "acqf", "f.acc", "x.rej");
+    printf("%8s %11s %11s %8s %6s %6s %6s %6s %6s %6s %6s\n", "Eb/N0 dB", "WER", "ideal WER", "words", "bits", "shift", "absent",
+           "acqf", "f.acc", "x.rej", "spur");
 
     sim_rng r;
     sim_seed(&r, seed);
@@ -254,8 +264,8 @@ int main(int argc, char **argv)
         tally t = {0};
         while (t.sent < words) run_one(l, fs, eb, per, ppm, &r, &t, 0);
         double wer = (double)t.missing / (double)t.sent;
-        printf("%8.2f %11.3e %11.3e %8ld %6ld %6ld %6ld %6ld %6ld %6ld\n", eb, wer, theory_wer(l, eb), t.sent,
-               t.wrong_bits, t.misplaced, t.absent, t.acq_fail, t.false_acc, t.rejected_extra);
+        printf("%8.2f %11.3e %11.3e %8ld %6ld %6ld %6ld %6ld %6ld %6ld %6ld\n", eb, wer, theory_wer(l, eb), t.sent,
+               t.wrong_bits, t.misplaced, t.absent, t.acq_fail, t.false_acc, t.rejected_extra, t.spurious);
         fflush(stdout);
         pts_eb[npts] = eb;
         pts_wer[npts] = wer;
