@@ -1,21 +1,30 @@
-/* ulk/demod.h - blind demodulator for the sub-bit profile (subbit-profile.md sections 3-5).
+/* ulk/demod.h - blind demodulator for the sub-bit profile (the profile's sections 3-5).
  *
  * Why blind: a captured uplink starts anywhere in the file, its sample clock and subcarrier
  * are off by up to +-1000 ppm (one clock drives both, since f_sc = k R_s), its level, DC
  * offset and polarity are unknown. The demodulator takes samples in chunks of any size,
- * keeps memory flat (a few blocks of samples, whatever the capture length) and reports
+ * keeps memory flat (a few blocks of slots or samples, whatever the capture length) and reports
  * each W-bit word it finds with its start time and a soft margin.
  *
  * Method (details in docs/decode.md):
- *   1. DC blocker; optional pilot removal (tone estimated per block and subtracted).
+ *   1. DC blocker. For a sine subcarrier without pilot the samples are mixed at once to
+ *      complex baseband with the nominal subcarrier and summed over slots of whole samples
+ *      (at most an eighth of a subcarrier cycle); every later stage works on slots. A square
+ *      subcarrier or a link with a pilot keeps the samples (pilot estimated per block and
+ *      subtracted).
  *   2. Block estimation of the clock on a window of 3 blocks: each nominal sub-bit is mixed
  *      to complex baseband and squared, which strips the BPSK data; a zoomed DFT of the
- *      squared sequence gives the clock error eps (the line sits at 2 k eps cycles per
+ *      squared sequence (searched on sums of D sub-bits, the line being narrow) gives the
+ *      clock error eps (the line sits at 2 k eps cycles per
  *      sub-bit) and the subcarrier phase modulo pi; the phase fixes the sub-bit clock to
  *      within one half-cycle of the subcarrier, and the block's phase is unwrapped against
- *      the previous block so that polarity and sub-bit count stay continuous.
- *   3. Matched filter: integrate-and-dump of the received samples times the recovered
- *      subcarrier template (sine or square) over each half-cycle; the sub-bit boundary (one
+ *      the previous block so that polarity and sub-bit count stay continuous. Every block is
+ *      tested, so a signal after any lead-in or gap is acquired; the block that acquires also
+ *      demodulates the one before it, and the block after a locked run is demodulated once
+ *      on the last clock, so a transmission's first and last words are kept.
+ *   3. Matched filter: integrate-and-dump of the received signal times the recovered
+ *      subcarrier template (sine, on slots; or square, on samples, ramping to 0 within a
+ *      few hundredths of a cycle of its edges) over each half-cycle; the sub-bit boundary (one
  *      of 2k half-cycle positions) is the one whose sub-bit dumps carry the most energy,
  *      accumulated over blocks. Soft sub-bit = dump / template energy.
  *   4. nrz-m: each group's n soft levels and the one before it are correlated with the n + 1
