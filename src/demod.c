@@ -1055,7 +1055,10 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         double from = d->last_emit_pos + 0.5 / rho;
         hA = (int64_t)floor(twok * (from * rho + beta)) + 1;
     }
-    int64_t hB = (int64_t)floor(twok * ((double)(t_hi - 1) * rho + beta));
+    /* On acquisition the whole window is demodulated (for the trim below); only sub-bits
+     * starting before t_hi are handed on. */
+    const uint64_t t_end = backfill ? s_hi : t_hi;
+    int64_t hB = (int64_t)floor(twok * ((double)(t_end - 1) * rho + beta));
     if (hA < H0) hA = H0;
     int64_t j0 = floordiv(hA - qb + twok - 1, twok);
     double sgn = (qb & 1) ? -1.0 : 1.0;
@@ -1088,16 +1091,58 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     }
     if (ny == 0) { block_unlock(d); return; }
 
+    /* On acquisition the block before is backfilled, but the window that passed the test
+     * may hold the transmission's start anywhere, even after this block; after a locked run
+     * a flywheel block holds its end. Noise handed on there would give a unit decoder that
+     * scans for a start sequence (the telecommand profile) false ones. So the sub-bits are
+     * trimmed at the change point of their power: y^2 has mean a^2 + s^2 on the signal and
+     * s^2 on noise, levels unknown, and the split j maximises the Gaussian log-likelihood gain
+     *   G(j) = N ln P(0, N) - j ln P(0, j) - (N - j) ln P(j, N)   (twice nats; P the mean y^2)
+     * over the window's sub-bits (acquisition: the later part the stronger) or the block's
+     * (flywheel: the earlier part the stronger). A split is taken when G exceeds 2 x 10
+     * nats, with 2n + 2 sub-bits of margin; otherwise the power is even and all is kept. */
+    uint64_t y0 = 0, y1 = ny;
+    if (backfill) {
+        y1 = 0;
+        while (y1 < ny && d->tblk[y1] * d->fs_hz < (double)t_hi) y1++;
+    }
+    if ((backfill || fly) && ny >= 32) {
+        double *cs = d->dre; /* scratch: prefix sums of y^2 (4B + 64 doubles; ny <= 3.03 B + 48) */
+        cs[0] = 0;
+        for (uint64_t i = 0; i < ny; i++) cs[i + 1] = cs[i] + (double)d->yblk[i] * d->yblk[i];
+        const double tot = cs[ny], N = (double)ny;
+        double bestg = 20.0;
+        uint64_t jb = 0;
+        for (uint64_t j = 8; j + 8 <= ny; j++) {
+            double p1 = cs[j] / (double)j, p2 = (tot - cs[j]) / (N - (double)j);
+            if (!(p1 > 0) || !(p2 > 0)) continue;
+            if (backfill ? !(p2 > p1) : !(p1 > p2)) continue;
+            double g = N * log(tot / N) - (double)j * log(p1) - (N - (double)j) * log(p2);
+            if (g > bestg) { bestg = g; jb = j; }
+        }
+        const uint64_t mg = 2 * (uint64_t)d->n + 2;
+        if (jb) {
+            if (backfill) y0 = jb > mg ? jb - mg : 0;
+            else y1 = jb + mg < ny ? jb + mg : ny;
+        }
+    }
+    if (backfill || fly) {
+        /* the next block continues after the last sub-bit handed on */
+        if (y1 > y0) d->last_emit_pos = d->tblk[y1 - 1] * d->fs_hz;
+        else if (backfill) d->have_emit = 0;
+    }
+    uint64_t nye = y1 > y0 ? y1 - y0 : 0;
+
     /* 7. amplitude (M2M4 on the block), estimates, hand-over to the pattern stage */
     double m2 = 0, m4 = 0, m1 = 0;
-    for (uint64_t i = 0; i < ny; i++) {
+    for (uint64_t i = y0; i < y1; i++) {
         double y = d->yblk[i];
         m1 += fabs(y);
         m2 += y * y;
         m4 += y * y * y * y;
     }
-    m1 /= (double)ny; m2 /= (double)ny; m4 /= (double)ny;
-    double a = ny >= 16 ? m2m4_amp(m2, m4) : 0;
+    if (nye) { m1 /= (double)nye; m2 /= (double)nye; m4 /= (double)nye; }
+    double a = nye >= 16 ? m2m4_amp(m2, m4) : 0;
     if (!(a > 0)) a = m1;
     if (!(a > 0)) a = 1e-30;
     if (!fly) {
@@ -1125,24 +1170,24 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
             if (fsig < 0) fsig = 0;
             if (fsig > 1) fsig = 1;
             double x = tm - d->run_t0, y = thm - d->run_th0 - x / d->sps;
-            double w = coh * coh * coh * coh * fsig * fsig * fsig * fsig * (double)ny;
+            double w = coh * coh * coh * coh * fsig * fsig * fsig * fsig * (double)nye;
             d->run_n++;
             d->r_w += w; d->r_x += w * x; d->r_y += w * y; d->r_xx += w * x * x; d->r_xy += w * x * y;
         }
         /* Blocks that only partly hold the signal have a lower coherence and a poorer clock
          * estimate: weight by coh^2 (about the block's signal-to-noise share). */
-        d->eps_sum += eps * (double)ny * coh * coh;
-        d->eps_w += (double)ny * coh * coh;
+        d->eps_sum += eps * (double)nye * coh * coh;
+        d->eps_w += (double)nye * coh * coh;
         if (d->pend_interior) { d->eps_isum += d->eps_pend; d->eps_iw += d->w_pend; }
         d->pend_interior = d->prev_locked;
-        d->eps_pend = eps * (double)ny * coh * coh;
-        d->w_pend = (double)ny * coh * coh;
+        d->eps_pend = eps * (double)nye * coh * coh;
+        d->w_pend = (double)nye * coh * coh;
         d->signal_found = 1;
     }
     d->prev_locked = 1;
     d->prev_rho = rho;
     d->prev_beta = beta;
-    for (uint64_t i = 0; i < ny; i++) {
+    for (uint64_t i = y0; i < y1; i++) {
         float y = (float)(d->yblk[i] / d->amp);
         if (d->opt.on_soft) d->opt.on_soft(d->tblk[i], y, d->opt.user);
         d->n_subbits++;
@@ -1238,7 +1283,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->xcap = (uint64_t)ceil(3 * d->L + 6 * d->sps) + 64;
     d->ucap = pow2_at_least(4 * (uint64_t)B + 16); /* rings of 2^j: indices by mask */
     d->hcap = (uint64_t)((3 * d->L + 8 * d->sps) * 2.0 * (fsc / fs_hz) * 1.01) + 64;
-    d->ycap = 2 * (uint64_t)(d->L / d->sps * 1.01) + 32; /* a block and its backfilled predecessor */
+    d->ycap = 3 * (uint64_t)(d->L / d->sps * 1.01) + 48; /* the window on acquisition */
     /* mixer step in cycles x 2^64 (f_sc / f_s < 1/2) */
     d->mix_inc = (uint64_t)llroundl((long double)(fsc / fs_hz) * 18446744073709551616.0L);
     d->u_end = (uint64_t)ceil(d->sps);
@@ -1293,7 +1338,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
     d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
     d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
-    d->dre = ulk_malloc(3 * (size_t)B * sizeof *d->dre + 64);
+    d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
     d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
     d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
     d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
