@@ -69,6 +69,7 @@ struct ulk_demod {
     int slot_path;
     int Lsi;                  /* samples per slot: slot j holds samples [j Lsi, (j + 1) Lsi) */
     double Ls;                /* the same as a double */
+    double inv_Lsi;           /* 1 / Lsi */
     int fill;                 /* samples in the open slot */
     float z_re, z_im, z_sx;   /* the open slot (z_sx: its samples' sum, for the DC blocker) */
     float *zre, *zim;         /* closed slots, ring of scap */
@@ -107,6 +108,7 @@ struct ulk_demod {
     double prev_rho, prev_beta;
     double amp;               /* running amplitude estimate of the soft values */
     double a_ref, nsr_ref;    /* reference amplitude and its noise-to-signal ratio */
+    double inv_aref;          /* 1 / a_ref (1 while there is none) */
     int run_n;                /* locked blocks in the current run */
     double run_t0, run_th0, r_w, r_x, r_y, r_xx, r_xy; /* weighted fit of theta(t) */
     double fit_sum, fit_w;    /* clock error of finished runs, weighted */
@@ -181,7 +183,14 @@ static uint64_t pow2_at_least(uint64_t x)
 
 /* First sample of slot s, and the slot holding sample i. */
 static uint64_t slot_first(const ulk_demod *d, uint64_t s) { return s * (uint64_t)d->Lsi; }
-static uint64_t slot_of(const ulk_demod *d, uint64_t i) { return i / (uint64_t)d->Lsi; }
+static uint64_t slot_of(const ulk_demod *d, uint64_t i)
+{
+    if (d->Lsi == 1) return i;
+    uint64_t s = (uint64_t)((double)i * d->inv_Lsi); /* a multiply, corrected: no division */
+    while (s > 0 && s * (uint64_t)d->Lsi > i) s--;
+    while ((s + 1) * (uint64_t)d->Lsi <= i) s++;
+    return s;
+}
 
 static int64_t floordiv(int64_t a, int64_t b)
 {
@@ -219,10 +228,12 @@ static void emit_word(ulk_demod *d, const ulk_demod_word *w)
  * reference amplitude, taken from the most coherent block so far: a block that holds the
  * signal only in part under-estimates it, and the noise beside the signal must not be
  * inflated by that. */
-static double pattern_scale(const ulk_demod *d)
+static double pattern_scale(const ulk_demod *d) { return d->inv_aref; }
+
+static void set_aref(ulk_demod *d, double a)
 {
-    double a = d->a_ref > 0 ? d->a_ref : 1.0;
-    return 1.0 / a;
+    d->a_ref = a;
+    d->inv_aref = a > 0 ? 1.0 / a : 1.0;
 }
 
 /* Correlations of group g with I, Z and O.
@@ -1150,10 +1161,10 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         /* Reference amplitude: a block that holds the signal only in part under-estimates it
          * (never over), so keep a slowly decaying maximum. */
         if (a > 0.9 * d->a_ref || !(d->a_ref > 0)) {
-            d->a_ref = a > 0.9 * d->a_ref ? a : 0.9 * d->a_ref;
+            set_aref(d, a > 0.9 * d->a_ref ? a : 0.9 * d->a_ref);
             d->nsr_ref = m2 > a * a ? (m2 - a * a) / (a * a) : 0;
         } else {
-            d->a_ref *= 0.9;
+            set_aref(d, 0.9 * d->a_ref);
         }
         /* Clock error over the run: linear fit of the unwrapped clock phase at block centres. */
         {
@@ -1244,6 +1255,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->W = cfg->word_bits;
     d->nrzm = cfg->line_code == ULK_LINE_NRZM;
     d->square = cfg->waveform == ULK_WAVE_SQUARE;
+    d->inv_aref = 1.0;
     if (opt) d->opt = *opt;
     d->eps_max = (d->opt.max_ppm > 0 ? d->opt.max_ppm : ULK_DEMOD_DEFAULT_PPM) * 1e-6;
     for (int t = 0; t < d->n; t++) {
@@ -1309,6 +1321,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
         d->slot_path = !d->square && !d->pilot_on && (3 * d->L + 8 * d->sps) / Lsi <= 262144.0;
         d->Lsi = Lsi;
         d->Ls = Lsi;
+        d->inv_Lsi = 1.0 / Lsi;
         d->scap = (uint64_t)((3 * d->L + 8 * d->sps) / Lsi) + 64;
         d->rcap = d->scap + 1;
         /* the DC level moves every quarter of a nominal sub-bit (its time constant is 8 of
