@@ -116,6 +116,11 @@ typedef struct ulk_demod ulk_demod;
  * ulk_demod_destroy(). cfg is copied. */
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag);
+/* Sets the false-alarm probability per block of the acquisition test (default 1e-6; p in
+ * (0, 1)). Raising it finds weak signals a block sooner and locks on noise more often; such a
+ * false lock is refused by a level test on the soft values. Returns 0, or ULK_EINVAL for a p
+ * out of range or after the first push. */
+int ulk_demod_set_acq_pfa(ulk_demod *d, double p);
 /* Feeds n samples (full scale 1.0; any level). x may be NULL when n is 0. Returns 0 or a
  * sticky negative status (ULK_ENOMEM). Words are reported as soon as they are decided,
  * which is some blocks after they are pushed. */
