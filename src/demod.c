@@ -790,6 +790,7 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         double pp = d->pilot_on ? fmod(fpn * (double)s_lo, 1.0) : 0;
         double *P = d->ph + 1, *C = d->ch + 1, *Q = d->qh + 1;
         int64_t hbase = 2 * (int64_t)cyc0 - H0; /* 0 or -1 */
+        const double edge_h = 0.5 * inc; /* square template's ramp half-width: half a sample, in cycles */
         for (uint64_t i = s_lo; i < s_hi; i++) {
             float x = d->xb[i % d->xcap];
             if (d->pilot_on) {
@@ -801,7 +802,17 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
             int64_t rel = hbase + 2 * cyc + half;
             float c, cq;
             if (d->square) {
-                c = half ? -1.0f : 1.0f;
+                /* A sample within half a sample interval of an estimated edge may lie on either
+                 * side of the true one (the phase estimate is off by a few hundredths of a
+                 * sample, and with a clock error the samples sweep through the edges: at 6
+                 * samples a cycle a third of a sub-bit's samples can sit on edges at once), so
+                 * its weight ramps to 0 there instead of taking a sign that may be wrong.
+                 * Measured (nrz-m, 8 kHz square, 1000 bit/s, 48 kHz, +240 ppm, E_c/N_0
+                 * 10.1 dB): 46 of 432 CLTUs lost with the hard template, 1 with the ramp. */
+                double de = half ? phs - 0.5 : phs;
+                double dd = de < 0.25 ? de : 0.5 - de;
+                float w = dd < edge_h ? (float)(dd / edge_h) : 1.0f;
+                c = half ? -w : w;
                 double pq = phs + 0.25;
                 cq = (pq - floor(pq)) < 0.5 ? 1.0f : -1.0f;
             } else {
