@@ -32,9 +32,50 @@ struct ulk_crec {
     double sum_omega, sum_e2;
     uint64_t n;
     size_t block;
+    /* Sliding search (see ulk_crec_track): while no carrier is held, every hop the last ns
+     * samples are searched for the line; while one is held, its strength is watched. */
+    int state;            /* CREC_FRESH, CREC_LOCKED, CREC_SEARCHING */
+    size_t ns, nl;        /* short and long search windows, samples (nl = 8 ns) */
+    float *ring;          /* the last nl complex samples, interleaved */
+    size_t rpos, rfill, since_s, since_l;
+    uint64_t n_in;        /* samples given to track */
+    double det_ratio;     /* detection threshold: peak bin over the mean bin */
+    double mon_re, mon_im, mon_p;
+    size_t mon_n;
+    int weak;             /* consecutive monitor windows without the line */
+    int n_acq, at_limit;
+    int assist;           /* short windows left for the frequency assist after an acquisition */
+    double az_r, az_i, pz_r, pz_i;
+    size_t az_n;
+    uint64_t acq_sample;
+    void *fbuf, *plan_s, *plan_l; /* FFTW buffer (nl) and the two windows' plans */
+    double *mag;
 };
 
-void ulk_crec_destroy(ulk_crec *r) { ulk_free(r); }
+enum { CREC_FRESH = 0, CREC_LOCKED = 1, CREC_SEARCHING = 2 };
+
+/* Monitor: the line's share of the de-rotated window, R = |sum y|^2 / sum |y|^2, is about
+ * exponential with mean 1 on noise alone and about P_c/N_0 times the window length on a held
+ * carrier (above 60 for 29 dB-Hz in 0.08 s). Below 8 (noise: probability e^-8 = 3e-4) three
+ * windows in a row, the carrier is taken as gone and the search starts again. */
+#define CREC_MON_R 8.0
+#define CREC_MON_N 3
+/* Detection: the largest of n_bins noise bins over their mean exceeds t with probability
+ * about n_bins exp(-t) (bins about exponential and independent; common practice). */
+#define CREC_PFA 1e-7
+
+void ulk_crec_destroy(ulk_crec *r)
+{
+    if (!r) return;
+#ifdef ULK_HAVE_FFTW
+    if (r->plan_s) fftwf_destroy_plan((fftwf_plan)r->plan_s);
+    if (r->plan_l) fftwf_destroy_plan((fftwf_plan)r->plan_l);
+    fftwf_free(r->fbuf);
+#endif
+    ulk_free(r->ring);
+    ulk_free(r->mag);
+    ulk_free(r);
+}
 
 int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
 {
@@ -63,9 +104,67 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     size_t b = 64;
     while ((double)b < 0.5 * fs && b < ((size_t)1 << 20)) b <<= 1; /* 1 M samples at most (8 MB) */
     r->block = b;
+    double ws = cfg->search_s > 0 ? cfg->search_s : 0.02;
+    size_t w = 64;
+    while ((double)w < ws * fs && w < ((size_t)1 << 16)) w <<= 1;
+    while (8 * w > b && w > 64) w >>= 1;
+    r->ns = w;
+    r->nl = 8 * w;
+    r->ring = ulk_calloc(2 * r->nl, sizeof *r->ring);
+    r->mag = ulk_malloc(r->nl * sizeof *r->mag);
+    if (!r->ring || !r->mag) {
+        ulk_crec_destroy(r);
+        return ulk_fail(diag, ULK_ENOMEM, "carrier recovery: out of memory");
+    }
+#ifdef ULK_HAVE_FFTW
+    r->fbuf = fftwf_malloc(r->nl * sizeof(fftwf_complex));
+    r->plan_s = r->fbuf ? (void *)fftwf_plan_dft_1d((int)r->ns, r->fbuf, r->fbuf, FFTW_FORWARD, FFTW_ESTIMATE) : NULL;
+    r->plan_l = r->fbuf ? (void *)fftwf_plan_dft_1d((int)r->nl, r->fbuf, r->fbuf, FFTW_FORWARD, FFTW_ESTIMATE) : NULL;
+    if (!r->plan_s || !r->plan_l) {
+        ulk_crec_destroy(r);
+        return ulk_fail(diag, ULK_ENOMEM, "carrier recovery: out of memory");
+    }
+#endif
     *out = r;
     return 0;
 }
+
+#ifdef ULK_HAVE_FFTW
+/* Strongest bin within +-max_off of the spectrum in buf (nf bins): its signed index, the
+ * parabola's fraction, the peak over the mean bin, and whether it sits at the range's end. */
+static void peak_search(const ulk_crec *r, const fftwf_complex *buf, size_t nf, double *mag, long *best_out,
+                        double *frac_out, double *ratio_out, int *edge)
+{
+    double bin = r->fs / (double)nf;
+    long kmax = (long)ceil(r->max_off / bin);
+    if (kmax > (long)nf / 2 - 2) kmax = (long)nf / 2 - 2;
+    long best = 0;
+    double bestv = -1, sum = 0;
+    for (long k = -kmax - 1; k <= kmax + 1; k++) {
+        size_t i = (size_t)(k < 0 ? k + (long)nf : k);
+        double v = (double)buf[i][0] * buf[i][0] + (double)buf[i][1] * buf[i][1];
+        mag[i] = v;
+        if (k < -kmax || k > kmax) continue;
+        sum += v;
+        if (v > bestv) { bestv = v; best = k; }
+    }
+    double frac = 0;
+    {
+        size_t im1 = (size_t)(best - 1 < 0 ? best - 1 + (long)nf : best - 1);
+        size_t ip1 = (size_t)(best + 1 < 0 ? best + 1 + (long)nf : best + 1);
+        double a = log(mag[im1] + 1e-300), b = log(bestv + 1e-300), c = log(mag[ip1] + 1e-300);
+        double den = a - 2 * b + c;
+        if (den < 0) frac = 0.5 * (a - c) / den;
+        if (frac > 0.5) frac = 0.5;
+        if (frac < -0.5) frac = -0.5;
+    }
+    double mean = sum / (double)(2 * kmax + 1);
+    *best_out = best;
+    *frac_out = frac;
+    *ratio_out = mean > 0 ? bestv / mean : 0;
+    *edge = kmax > 0 && labs(best) == kmax;
+}
+#endif
 
 size_t ulk_crec_block(const ulk_crec *r) { return r ? r->block : 0; }
 
@@ -94,38 +193,102 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
         buf[i][1] = isfinite(im) ? (float)(w * im) : 0;
     }
     fftwf_execute(p);
+    long best;
+    double frac, ratio;
+    int edge;
+    peak_search(r, buf, nf, mag, &best, &frac, &ratio, &edge);
     double bin = r->fs / (double)nf;
-    /* bins up to the one holding max_off are searched; one more each side for the parabola */
     long kmax = (long)ceil(r->max_off / bin);
-    if (kmax > (long)nf / 2 - 2) kmax = (long)nf / 2 - 2;
-    long best = 0;
-    double bestv = -1, sum = 0;
-    for (long k = -kmax - 1; k <= kmax + 1; k++) {
-        size_t i = (size_t)(k < 0 ? k + (long)nf : k);
-        double v = (double)buf[i][0] * buf[i][0] + (double)buf[i][1] * buf[i][1];
-        mag[i] = v;
-        if (k < -kmax || k > kmax) continue;
-        sum += v;
-        if (v > bestv) { bestv = v; best = k; }
-    }
-    double frac = 0;
-    {
-        size_t im1 = (size_t)(best - 1 < 0 ? best - 1 + (long)nf : best - 1);
-        size_t ip1 = (size_t)(best + 1 < 0 ? best + 1 + (long)nf : best + 1);
-        double a = log(mag[im1] + 1e-300), b = log(bestv + 1e-300), c = log(mag[ip1] + 1e-300);
-        double den = a - 2 * b + c;
-        if (den < 0) frac = 0.5 * (a - c) / den;
-        if (frac > 0.5) frac = 0.5;
-        if (frac < -0.5) frac = -0.5;
-    }
-    double mean = sum / (double)(2 * kmax + 1);
-    r->line_db = mean > 0 ? 10 * log10(bestv / mean) : 0;
+    r->line_db = ratio > 0 ? 10 * log10(ratio) : 0;
     r->coarse_hz = ((double)best + frac) * bin;
     r->omega = 2 * M_PI * r->coarse_hz / r->fs;
+    /* Held only when the line stands out of the noise as the sliding search would require;
+     * otherwise (a capture that starts with noise or silence) the search runs over the samples
+     * as they are tracked, from the first one. */
+    double thr = log((double)(2 * kmax + 1) / CREC_PFA);
+    if (ratio >= thr) {
+        r->state = CREC_LOCKED;
+        r->n_acq = 1;
+        r->at_limit = edge;
+        r->acq_sample = 0;
+    } else {
+        r->state = CREC_SEARCHING;
+    }
     fftwf_destroy_plan(p);
     fftwf_free(buf);
     ulk_free(mag);
     return 0;
+#endif
+}
+
+/* One search over the last N samples of the ring (N = ns or nl): on a line, the loop takes
+ * its frequency and the phase it has at the next sample. */
+static void search_window(ulk_crec *r, size_t N)
+{
+#ifdef ULK_HAVE_FFTW
+    fftwf_complex *buf = r->fbuf;
+    size_t j0 = (r->rpos + r->nl - N) % r->nl;
+    for (size_t i = 0; i < N; i++) {
+        size_t j = (j0 + i) % r->nl;
+        double w = 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N);
+        buf[i][0] = (float)(w * r->ring[2 * j]);
+        buf[i][1] = (float)(w * r->ring[2 * j + 1]);
+    }
+    fftwf_execute((fftwf_plan)(N == r->nl ? r->plan_l : r->plan_s));
+    long best;
+    double frac, ratio;
+    int edge;
+    peak_search(r, buf, N, r->mag, &best, &frac, &ratio, &edge);
+    double bin = r->fs / (double)N;
+    long kmax = (long)ceil(r->max_off / bin);
+    if (kmax > (long)N / 2 - 2) kmax = (long)N / 2 - 2;
+    if (!(ratio >= log((double)(2 * kmax + 1) / CREC_PFA))) return;
+    r->line_db = 10 * log10(ratio);
+    r->at_limit = edge;
+    if (N < r->nl) {
+        /* The short window's bin is coarse: the same samples zero-padded to nl give the peak
+         * on a grid 8 times finer. Unwindowed: the transmission usually fills only the end of
+         * the window, which a Hann window would weight down; the other channels' lines are
+         * kHz away. (The magnitude of a non-negative window's transform peaks at the line's
+         * frequency, so a line filling part of the window is not biased.) */
+        for (size_t i = 0; i < r->nl; i++) {
+            size_t j = (j0 + i) % r->nl;
+            buf[i][0] = i < N ? r->ring[2 * j] : 0;
+            buf[i][1] = i < N ? r->ring[2 * j + 1] : 0;
+        }
+        fftwf_execute((fftwf_plan)r->plan_l);
+        double rr;
+        peak_search(r, buf, r->nl, r->mag, &best, &frac, &rr, &edge);
+        bin = r->fs / (double)r->nl;
+    }
+    double f = ((double)best + frac) * bin;
+    double om = 2 * M_PI * f / r->fs;
+    /* The line's phase at the next sample: sum_i w_i x_i exp(-j om (i - N)) has the phase a
+     * line at om has at i = N, whatever part of the window it fills. */
+    double zr = 0, zi = 0;
+    for (size_t i = 0; i < N; i++) {
+        size_t j = (j0 + i) % r->nl;
+        double w = N < r->nl ? 1.0 : 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N), a = -om * ((double)i - (double)N);
+        double c = cos(a), sn = sin(a), xr = r->ring[2 * j], xi = r->ring[2 * j + 1];
+        zr += w * (xr * c - xi * sn);
+        zi += w * (xr * sn + xi * c);
+    }
+    double th = atan2(zi, zr);
+    r->theta = th - 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+    r->omega = om;
+    r->coarse_hz = f;
+    r->state = CREC_LOCKED;
+    r->n_acq++;
+    r->acq_sample = r->n_in;
+    r->weak = 0;
+    r->mon_re = r->mon_im = r->mon_p = 0;
+    r->mon_n = 0;
+    r->assist = 5;
+    r->az_r = r->az_i = r->pz_r = r->pz_i = 0;
+    r->az_n = 0;
+#else
+    (void)r;
+    (void)N;
 #endif
 }
 
@@ -136,6 +299,30 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
     for (size_t i = 0; i < n; i++) {
         double re = iq[2 * i], im = iq[2 * i + 1];
         if (!isfinite(re) || !isfinite(im)) re = im = 0;
+        r->n_in++;
+        if (r->state == CREC_SEARCHING) {
+            /* Nothing is held: the data, voice and ranging stages get silence, not a carrier
+             * turning at the offset frequency. */
+            r->ring[2 * r->rpos] = (float)re;
+            r->ring[2 * r->rpos + 1] = (float)im;
+            r->rpos = (r->rpos + 1) % r->nl;
+            if (r->rfill < r->nl) r->rfill++;
+            if (derot) derot[2 * i] = derot[2 * i + 1] = 0;
+            if (phi) phi[i] = 0;
+            /* the short window finds a strong line within a few hundredths of a second; the
+             * long one (8 times longer, 9 dB more line-to-noise) a weak one */
+            size_t N = 0;
+            if (++r->since_s >= r->ns / 4 && r->rfill >= r->ns) { r->since_s = 0; N = r->ns; }
+            if (++r->since_l >= r->nl / 4 && r->rfill >= r->nl) { r->since_l = 0; N = r->nl; }
+            if (N) {
+                r->theta = th;
+                search_window(r, N);
+                if (r->state == CREC_LOCKED && N == r->nl) r->since_s = 0;
+                th = r->theta;
+                om = r->omega;
+            }
+            continue;
+        }
         double c = cos(th), s = sin(th);
         double yr = re * c + im * s, yi = im * c - re * s; /* x exp(-j theta) */
         double e = (yr == 0 && yi == 0) ? 0 : atan2(yi, yr);
@@ -146,10 +333,46 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
         if (th >= M_PI || th < -M_PI) th -= 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
         r->sum_omega += om;
         r->sum_e2 += e * e;
+        r->n++;
+        if (r->state == CREC_LOCKED && r->assist > 0) {
+            /* Frequency assist: a line found on a few hundredths of a second of signal can be
+             * off by about the loop's pull-in range (+-8 Hz at B_L = 20 Hz). The phase advance
+             * of the mean de-rotated sample from one short window to the next is the residual
+             * frequency (unambiguous within +-f_s / (2 ns), +-23 Hz at the default window);
+             * it is added to the loop's frequency over the first windows. */
+            r->az_r += yr;
+            r->az_i += yi;
+            if (++r->az_n == r->ns) {
+                if (r->pz_r != 0 || r->pz_i != 0) {
+                    double dr = r->az_r * r->pz_r + r->az_i * r->pz_i, di = r->az_i * r->pz_r - r->az_r * r->pz_i;
+                    om += atan2(di, dr) / (double)r->ns;
+                }
+                r->pz_r = r->az_r;
+                r->pz_i = r->az_i;
+                r->az_r = r->az_i = 0;
+                r->az_n = 0;
+                r->assist--;
+            }
+        }
+        if (r->state == CREC_LOCKED) {
+            r->mon_re += yr;
+            r->mon_im += yi;
+            r->mon_p += yr * yr + yi * yi;
+            if (++r->mon_n == r->nl) {
+                double R = r->mon_p > 0 ? (r->mon_re * r->mon_re + r->mon_im * r->mon_im) / r->mon_p : 0;
+                r->weak = R < CREC_MON_R ? r->weak + 1 : 0;
+                r->mon_re = r->mon_im = r->mon_p = 0;
+                r->mon_n = 0;
+                if (r->weak >= CREC_MON_N) {
+                    r->state = CREC_SEARCHING;
+                    r->rfill = r->since_s = r->since_l = 0;
+                    r->weak = 0;
+                }
+            }
+        }
     }
     r->theta = th;
     r->omega = om;
-    r->n += n;
     return 0;
 }
 
@@ -162,6 +385,10 @@ void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st)
     st->mean_freq_hz = r->n ? r->sum_omega / (double)r->n * r->fs / (2 * M_PI) : st->freq_hz;
     st->phase_rms_rad = r->n ? sqrt(r->sum_e2 / (double)r->n) : 0;
     st->n_tracked = r->n;
+    st->n_acquired = r->n_acq;
+    st->holding = r->state != CREC_SEARCHING;
+    st->at_limit = r->at_limit;
+    st->acquired_s = (double)r->acq_sample / r->fs;
 }
 
 /* ---- voice ---- */
