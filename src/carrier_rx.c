@@ -35,8 +35,11 @@ struct ulk_crec {
     /* Sliding search (see ulk_crec_track): while no carrier is held, every hop the last ns
      * samples are searched for the line; while one is held, its strength is watched. */
     int state;            /* CREC_FRESH, CREC_LOCKED, CREC_SEARCHING */
-    size_t ns, nl;        /* short and long search windows, samples (nl = 8 ns) */
-    float *ring;          /* the last nl complex samples, interleaved */
+    size_t ns, nl;        /* short and long search windows, decimated samples (nl = 8 ns) */
+    int dec;              /* decimation of the search: sums of dec samples, rate fs / dec */
+    int dcnt;
+    double dre, dim;      /* the sum being formed */
+    float *ring;          /* the last nl decimated samples, interleaved */
     size_t rpos, rfill, since_s, since_l;
     uint64_t n_in;        /* samples given to track */
     double det_ratio;     /* detection threshold: peak bin over the mean bin */
@@ -48,7 +51,7 @@ struct ulk_crec {
     double az_r, az_i, pz_r, pz_i;
     size_t az_n;
     uint64_t acq_sample;
-    void *fbuf, *plan_s, *plan_l; /* FFTW buffer (nl) and the two windows' plans */
+    void *fbuf, *plan_s, *plan_l; /* FFTW buffer (nl); plans: short window zero-padded to 2 ns, long */
     double *mag;
 };
 
@@ -104,10 +107,14 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     size_t b = 64;
     while ((double)b < 0.5 * fs && b < ((size_t)1 << 20)) b <<= 1; /* 1 M samples at most (8 MB) */
     r->block = b;
+    /* The search looks at +-max_off only: sums of dec samples (a boxcar, -0.8 dB at most at
+     * the range's end, fs / dec >= 4 max_off) cut its cost by dec without losing the line. */
+    r->dec = (int)floor(fs / (4 * mo));
+    if (r->dec < 1) r->dec = 1;
+    double fd = fs / r->dec;
     double ws = cfg->search_s > 0 ? cfg->search_s : 0.02;
     size_t w = 64;
-    while ((double)w < ws * fs && w < ((size_t)1 << 16)) w <<= 1;
-    while (8 * w > b && w > 64) w >>= 1;
+    while ((double)w < ws * fd && w < ((size_t)1 << 16)) w <<= 1;
     r->ns = w;
     r->nl = 8 * w;
     r->ring = ulk_calloc(2 * r->nl, sizeof *r->ring);
@@ -118,7 +125,7 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     }
 #ifdef ULK_HAVE_FFTW
     r->fbuf = fftwf_malloc(r->nl * sizeof(fftwf_complex));
-    r->plan_s = r->fbuf ? (void *)fftwf_plan_dft_1d((int)r->ns, r->fbuf, r->fbuf, FFTW_FORWARD, FFTW_ESTIMATE) : NULL;
+    r->plan_s = r->fbuf ? (void *)fftwf_plan_dft_1d((int)(2 * r->ns), r->fbuf, r->fbuf, FFTW_FORWARD, FFTW_ESTIMATE) : NULL;
     r->plan_l = r->fbuf ? (void *)fftwf_plan_dft_1d((int)r->nl, r->fbuf, r->fbuf, FFTW_FORWARD, FFTW_ESTIMATE) : NULL;
     if (!r->plan_s || !r->plan_l) {
         ulk_crec_destroy(r);
@@ -132,10 +139,10 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
 #ifdef ULK_HAVE_FFTW
 /* Strongest bin within +-max_off of the spectrum in buf (nf bins): its signed index, the
  * parabola's fraction, the peak over the mean bin, and whether it sits at the range's end. */
-static void peak_search(const ulk_crec *r, const fftwf_complex *buf, size_t nf, double *mag, long *best_out,
-                        double *frac_out, double *ratio_out, int *edge)
+static void peak_search(const ulk_crec *r, double rate, const fftwf_complex *buf, size_t nf, double *mag,
+                        long *best_out, double *frac_out, double *ratio_out, int *edge)
 {
-    double bin = r->fs / (double)nf;
+    double bin = rate / (double)nf;
     long kmax = (long)ceil(r->max_off / bin);
     if (kmax > (long)nf / 2 - 2) kmax = (long)nf / 2 - 2;
     long best = 0;
@@ -196,7 +203,7 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
     long best;
     double frac, ratio;
     int edge;
-    peak_search(r, buf, nf, mag, &best, &frac, &ratio, &edge);
+    peak_search(r, r->fs, buf, nf, mag, &best, &frac, &ratio, &edge);
     double bin = r->fs / (double)nf;
     long kmax = (long)ceil(r->max_off / bin);
     r->line_db = ratio > 0 ? 10 * log10(ratio) : 0;
@@ -221,36 +228,40 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
 #endif
 }
 
-/* One search over the last N samples of the ring (N = ns or nl): on a line, the loop takes
- * its frequency and the phase it has at the next sample. */
+/* One search over the last N decimated samples of the ring (N = ns or nl): on a line, the loop
+ * takes its frequency and the phase it has at the next input sample. */
 static void search_window(ulk_crec *r, size_t N)
 {
 #ifdef ULK_HAVE_FFTW
     fftwf_complex *buf = r->fbuf;
+    const double fd = r->fs / r->dec;
     size_t j0 = (r->rpos + r->nl - N) % r->nl;
-    for (size_t i = 0; i < N; i++) {
+    /* The short window is unwindowed and zero-padded to 2 N: a transmission that has just
+     * started fills the newest samples, which a taper would weight down (with Hann the line
+     * shows when it reaches the window's middle); padding halves the loss between bins. The
+     * long window (weak lines, found later anyway) is Hann-tapered. */
+    int shortw = N < r->nl;
+    size_t nf = shortw ? 2 * N : N;
+    for (size_t i = 0; i < nf; i++) {
         size_t j = (j0 + i) % r->nl;
-        double w = 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N);
-        buf[i][0] = (float)(w * r->ring[2 * j]);
-        buf[i][1] = (float)(w * r->ring[2 * j + 1]);
+        double w = shortw ? 1.0 : 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N);
+        buf[i][0] = i < N ? (float)(w * r->ring[2 * j]) : 0;
+        buf[i][1] = i < N ? (float)(w * r->ring[2 * j + 1]) : 0;
     }
-    fftwf_execute((fftwf_plan)(N == r->nl ? r->plan_l : r->plan_s));
+    fftwf_execute((fftwf_plan)(shortw ? r->plan_s : r->plan_l));
     long best;
     double frac, ratio;
     int edge;
-    peak_search(r, buf, N, r->mag, &best, &frac, &ratio, &edge);
-    double bin = r->fs / (double)N;
+    peak_search(r, fd, buf, nf, r->mag, &best, &frac, &ratio, &edge);
+    double bin = fd / (double)nf;
     long kmax = (long)ceil(r->max_off / bin);
-    if (kmax > (long)N / 2 - 2) kmax = (long)N / 2 - 2;
+    if (kmax > (long)nf / 2 - 2) kmax = (long)nf / 2 - 2;
+    /* padded bins are not independent: counting them all is conservative */
     if (!(ratio >= log((double)(2 * kmax + 1) / CREC_PFA))) return;
     r->line_db = 10 * log10(ratio);
     r->at_limit = edge;
-    if (N < r->nl) {
-        /* The short window's bin is coarse: the same samples zero-padded to nl give the peak
-         * on a grid 8 times finer. Unwindowed: the transmission usually fills only the end of
-         * the window, which a Hann window would weight down; the other channels' lines are
-         * kHz away. (The magnitude of a non-negative window's transform peaks at the line's
-         * frequency, so a line filling part of the window is not biased.) */
+    if (shortw) {
+        /* finer: the same samples zero-padded to nl (4 times finer again) */
         for (size_t i = 0; i < r->nl; i++) {
             size_t j = (j0 + i) % r->nl;
             buf[i][0] = i < N ? r->ring[2 * j] : 0;
@@ -258,22 +269,25 @@ static void search_window(ulk_crec *r, size_t N)
         }
         fftwf_execute((fftwf_plan)r->plan_l);
         double rr;
-        peak_search(r, buf, r->nl, r->mag, &best, &frac, &rr, &edge);
-        bin = r->fs / (double)r->nl;
+        peak_search(r, fd, buf, r->nl, r->mag, &best, &frac, &rr, &edge);
+        bin = fd / (double)r->nl;
     }
     double f = ((double)best + frac) * bin;
-    double om = 2 * M_PI * f / r->fs;
-    /* The line's phase at the next sample: sum_i w_i x_i exp(-j om (i - N)) has the phase a
-     * line at om has at i = N, whatever part of the window it fills. */
+    double omd = 2 * M_PI * f / fd; /* rad per decimated sample */
+    /* The line's phase at decimated sample N: sum_i w_i z_i exp(-j omd (i - N)) has the phase a
+     * line at omd has there, whatever part of the window it fills. A sum of dec samples has
+     * the phase of its middle, (dec - 1) / 2 samples after its first; decimated sample N would
+     * start at the next input sample. */
     double zr = 0, zi = 0;
     for (size_t i = 0; i < N; i++) {
         size_t j = (j0 + i) % r->nl;
-        double w = N < r->nl ? 1.0 : 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N), a = -om * ((double)i - (double)N);
+        double w = shortw ? 1.0 : 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N), a = -omd * ((double)i - (double)N);
         double c = cos(a), sn = sin(a), xr = r->ring[2 * j], xi = r->ring[2 * j + 1];
         zr += w * (xr * c - xi * sn);
         zi += w * (xr * sn + xi * c);
     }
-    double th = atan2(zi, zr);
+    double om = 2 * M_PI * f / r->fs;
+    double th = atan2(zi, zr) - om * (double)(r->dec - 1) / 2.0;
     r->theta = th - 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
     r->omega = om;
     r->coarse_hz = f;
@@ -283,7 +297,7 @@ static void search_window(ulk_crec *r, size_t N)
     r->weak = 0;
     r->mon_re = r->mon_im = r->mon_p = 0;
     r->mon_n = 0;
-    r->assist = 5;
+    r->assist = 12;
     r->az_r = r->az_i = r->pz_r = r->pz_i = 0;
     r->az_n = 0;
 #else
@@ -303,16 +317,22 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
         if (r->state == CREC_SEARCHING) {
             /* Nothing is held: the data, voice and ranging stages get silence, not a carrier
              * turning at the offset frequency. */
-            r->ring[2 * r->rpos] = (float)re;
-            r->ring[2 * r->rpos + 1] = (float)im;
-            r->rpos = (r->rpos + 1) % r->nl;
-            if (r->rfill < r->nl) r->rfill++;
+
             if (derot) derot[2 * i] = derot[2 * i + 1] = 0;
             if (phi) phi[i] = 0;
-            /* the short window finds a strong line within a few hundredths of a second; the
-             * long one (8 times longer, 9 dB more line-to-noise) a weak one */
+            r->dre += re;
+            r->dim += im;
+            if (++r->dcnt < r->dec) continue;
+            r->ring[2 * r->rpos] = (float)r->dre;
+            r->ring[2 * r->rpos + 1] = (float)r->dim;
+            r->dre = r->dim = 0;
+            r->dcnt = 0;
+            r->rpos = (r->rpos + 1) % r->nl;
+            if (r->rfill < r->nl) r->rfill++;
+            /* the short window finds a strong line within a few thousandths of a second (hop
+             * an eighth of it); the long one (8 times longer, Hann, hop a quarter) a weak one */
             size_t N = 0;
-            if (++r->since_s >= r->ns / 4 && r->rfill >= r->ns) { r->since_s = 0; N = r->ns; }
+            if (++r->since_s >= r->ns / 8 && r->rfill >= r->ns) { r->since_s = 0; N = r->ns; }
             if (++r->since_l >= r->nl / 4 && r->rfill >= r->nl) { r->since_l = 0; N = r->nl; }
             if (N) {
                 r->theta = th;
@@ -337,15 +357,17 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
         if (r->state == CREC_LOCKED && r->assist > 0) {
             /* Frequency assist: a line found on a few hundredths of a second of signal can be
              * off by about the loop's pull-in range (+-8 Hz at B_L = 20 Hz). The phase advance
-             * of the mean de-rotated sample from one short window to the next is the residual
-             * frequency (unambiguous within +-f_s / (2 ns), +-23 Hz at the default window);
-             * it is added to the loop's frequency over the first windows. */
+             * of the mean de-rotated sample from one quarter of a short window to the next is
+             * the residual frequency (unambiguous within +-2 f_s / ns, +-94 Hz at the default
+             * window); it is added to the loop's frequency over the first 12 quarters (0.06 s),
+             * so that the first words after the acquisition see a steady carrier. */
             r->az_r += yr;
             r->az_i += yi;
-            if (++r->az_n == r->ns) {
+            size_t qa = r->ns * (size_t)r->dec / 4;
+            if (++r->az_n == qa) {
                 if (r->pz_r != 0 || r->pz_i != 0) {
                     double dr = r->az_r * r->pz_r + r->az_i * r->pz_i, di = r->az_i * r->pz_r - r->az_r * r->pz_i;
-                    om += atan2(di, dr) / (double)r->ns;
+                    om += atan2(di, dr) / (double)qa;
                 }
                 r->pz_r = r->az_r;
                 r->pz_i = r->az_i;
@@ -358,7 +380,7 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
             r->mon_re += yr;
             r->mon_im += yi;
             r->mon_p += yr * yr + yi * yi;
-            if (++r->mon_n == r->nl) {
+            if (++r->mon_n == r->nl * (size_t)r->dec) {
                 double R = r->mon_p > 0 ? (r->mon_re * r->mon_re + r->mon_im * r->mon_im) / r->mon_p : 0;
                 r->weak = R < CREC_MON_R ? r->weak + 1 : 0;
                 r->mon_re = r->mon_im = r->mon_p = 0;
@@ -366,6 +388,8 @@ int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *
                 if (r->weak >= CREC_MON_N) {
                     r->state = CREC_SEARCHING;
                     r->rfill = r->since_s = r->since_l = 0;
+                    r->dcnt = 0;
+                    r->dre = r->dim = 0;
                     r->weak = 0;
                 }
             }

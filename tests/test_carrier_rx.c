@@ -120,9 +120,9 @@ static void test_noiseless_phase(void **state)
  * SNR -3 dB (complex noise of total variance 2: the demo's full mode near E_b/N_0 = 8 dB at
  * 96 kHz has about -4 dB). The first block (0.68 s) holds noise only, so the carrier is found
  * by the sliding search, twice. Claims: two acquisitions; each within 0.15 s of its
- * transmission's start (short window 0.021 s, hop a quarter of it) and at the offset within
- * 12 Hz (measured 2 and 9 Hz: the line is found on about 0.013 s of signal; the frequency
- * assist reaches +-23 Hz, the loop pulls in +-8 Hz); the loop's phase over the second half of each transmission right:
+ * transmission's start (short window 0.021 s, hop an eighth of it) and at the offset within
+ * 30 Hz (measured 3.4 and 20 Hz: the line is found on 0.005-0.01 s of signal; the frequency
+ * assist reaches +-94 Hz, the loop then pulls in +-8 Hz); the loop's phase over the second half of each transmission right:
  * the mean of the de-rotated samples times exp(-j phi_sent) is about 1 (above 0.97; the
  * noise's share of the mean is ~0.004 rms over 57600 samples, an unlocked loop gives ~0); outputs 0 from 0.7 s after the first end until the next
  * acquisition (the monitor lets go after three long windows of 0.17 s, which need not be
@@ -178,7 +178,7 @@ static void test_transmissions_after_lead_in(void **state)
         double ts = k ? t2 : t1, dd = k ? d2 : d1;
         if (!(acq_s[k] >= ts && acq_s[k] < ts + 0.15))
             fail_msg("transmission %d (start %.2f s) acquired at %.3f s", k + 1, ts, acq_s[k]);
-        if (!(fabs(acq_hz[k] - fo[k]) < 12)) fail_msg("transmission %d: %+.2f Hz, sent %+.2f Hz", k + 1, acq_hz[k], fo[k]);
+        if (!(fabs(acq_hz[k] - fo[k]) < 30)) fail_msg("transmission %d: %+.2f Hz, sent %+.2f Hz", k + 1, acq_hz[k], fo[k]);
         /* the de-rotated samples times exp(-j phi_sent): mean cos of the loop's phase error */
         double cr = 0, ci = 0;
         size_t a = (size_t)((ts + dd / 2) * fs), b = (size_t)((ts + dd) * fs);
