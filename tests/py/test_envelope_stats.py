@@ -95,23 +95,22 @@ def poisson_binomial_quantile(ps, conf):
     return int(np.searchsorted(np.cumsum(pmf), conf))
 
 
-def words_row(tmp):
-    d = ref.load_dictionary(DSUB)
+def words_row(tmp, dict_path=DSUB, fs=48000, ppm="300", lead=10, reps=60, invert=False, label="sub-bit demo"):
+    d = ref.load_dictionary(dict_path)
     with open(os.path.join(SRC, "dictionaries", "demo-subbit.cmd"), encoding="utf-8") as f:
         items = ref.parse_command_list(d, f.read(), "demo-subbit.cmd")
-    st = ref.build_stream(d, items * 60)
+    st = ref.build_stream(d, items * reps)
     L = d.link
     dzo = sum(a != b for a, b in zip(L.zero, L.one))
     n, W = len(L.zero), L.word_bits
-    fs = 48000
     pts = [solve(lambda e: ideal_wer(e, dzo, n, W), 3e-2), solve(lambda e: ideal_wer(e, dzo, n, W), 1e-2)]
     N = len(st.words)
     for k, e in enumerate(pts):
-        x, _, fse = gc.make_bits_capture(L, st.subbits, fs, ebn0_db=e, ppm="300", delay_s="10", tail_s="0.5",
-                                         seed=100 + k)
+        x, _, fse = gc.make_bits_capture(L, st.subbits, fs, ebn0_db=e, ppm=ppm, delay_s=str(lead), tail_s="0.5",
+                                         invert=invert, seed=100 + k)
         cap = os.path.join(tmp, "w%d.f32" % k)
         gc.write_capture(cap, x, fs)
-        rc, out, err = run("decode", "--dict", DSUB, cap, "--rate", str(fs), "--format", "f32", "--json")
+        rc, out, err = run("decode", "--dict", dict_path, cap, "--rate", str(fs), "--format", "f32", "--json")
         words = json.loads(out)["words"] if rc in (0, 1) and out else []
         sc = float(fs / fse)
         acc = {}
@@ -121,7 +120,7 @@ def words_row(tmp):
         lost = 0
         for i, w in enumerate(st.words):
             j0 = int(np.argmax(st.word == i + 1))
-            t = 10 + j0 / float(L.subbit_rate) / sc
+            t = lead + j0 / float(L.subbit_rate) / sc
             key = round(t * float(L.subbit_rate))
             if not any(w.hex.upper() in acc.get(key + dk, []) for dk in (-1, 0, 1)):
                 lost += 1
@@ -129,14 +128,15 @@ def words_row(tmp):
         lo = int(binom.ppf(1 - CONF, N, ideal_wer(e, dzo, n, W)))
         hi = int(binom.ppf(CONF, N, ideal_wer(e - LOSS_DB, dzo, n, W)))
         check(rc == 0 and lo <= lost <= hi,
-              "sub-bit demo, %.2f dB (ideal WER %.1e): %d of %d words lost, bounds [%d, %d] (ideal %.1f expected; "
-              "ideal at -0.5 dB %.1f)" % (e, ideal_wer(e, dzo, n, W), lost, N, lo, hi, N * ideal_wer(e, dzo, n, W),
-                                            N * ideal_wer(e - LOSS_DB, dzo, n, W)))
-        check(n_acc == N - lost, "sub-bit demo, %.2f dB: every accepted word was sent (%d accepted, %d found)"
-              % (e, n_acc, N - lost))
+              "%s, %g Hz, %s ppm, %g s lead-in, %.2f dB (ideal WER %.1e): %d of %d words lost, bounds [%d, %d] "
+              "(ideal %.1f expected; ideal at -0.5 dB %.1f)"
+              % (label, fs, ppm, lead, e, ideal_wer(e, dzo, n, W), lost, N, lo, hi, N * ideal_wer(e, dzo, n, W),
+                 N * ideal_wer(e - LOSS_DB, dzo, n, W)))
+        check(n_acc == N - lost, "%s, %.2f dB: every accepted word was sent (%d accepted, %d found)"
+              % (label, e, n_acc, N - lost))
 
 
-def cltu_row(tmp):
+def cltu_row(tmp, fs=48000, ppm="-300", lead=10, reps=24):
     upl = os.path.join(tmp, "cc.upl")
     rc, out, err = run("compile", "--dict", DCC, os.path.join(SRC, "dictionaries", "demo-ccsds.cmd"), "-o", upl)
     check(rc == 0, "ccsds demo compiles (%s)" % err.strip()[:200])
@@ -154,7 +154,7 @@ def cltu_row(tmp):
     seq = [np.array([i & 1 for i in range(128)])]
     where = []
     pos = 128
-    for rep in range(24):
+    for rep in range(reps):
         for k, cb in enumerate(cl_bits):
             where.append((pos, k))
             seq += [cb, idle]
@@ -162,11 +162,10 @@ def cltu_row(tmp):
     stream = np.concatenate(seq)
     n_cb = [(len(u[3]) - 10) // 8 for _, u in starts]
     lk = gc.TcLink(up["link"]["bit_rate"], 16000, "sine", 0.9, "nrz-l")
-    fs = 48000
     mean_rej = lambda e: float(np.mean([ideal_cltu_reject(e, n) for n in n_cb]))
     pts = [solve(mean_rej, 1e-1), solve(mean_rej, 2e-2)]
     for k, e in enumerate(pts):
-        x, _, fse = gc.make_bits_capture(lk, stream, fs, ebn0_db=e, ppm="-300", delay_s="10", tail_s="0.3",
+        x, _, fse = gc.make_bits_capture(lk, stream, fs, ebn0_db=e, ppm=ppm, delay_s=str(lead), tail_s="0.3",
                                          seed=200 + k)
         cap = os.path.join(tmp, "c%d.f32" % k)
         gc.write_capture(cap, x, fs)
@@ -179,7 +178,7 @@ def cltu_row(tmp):
         found = set()
         wrong = 0
         for w in acc:
-            b = (w["start_s"] - 10) * R * sc
+            b = (w["start_s"] - lead) * R * sc
             hit = [i for i, (p0, kk) in enumerate(where) if abs(p0 - b) < 0.5 and i not in found and
                    w.get("sequence_count") == starts[kk][1][0] and w.get("frame_sequence") == starts[kk][1][1]]
             if hit:
@@ -192,8 +191,8 @@ def cltu_row(tmp):
         lo = poisson_binomial_quantile(ps_e, 1 - CONF)
         hi = poisson_binomial_quantile(ps_l, CONF)
         check(rc in (0, 1) and lo <= lost <= hi,
-              "ccsds demo, %.2f dB (ideal rejection %.1e): %d of %d CLTUs lost, bounds [%d, %d] (ideal %.1f expected; "
-              "at -0.5 dB %.1f)" % (e, mean_rej(e), lost, len(where), lo, hi, sum(ps_e), sum(ps_l)))
+              "ccsds demo, %g Hz, %s ppm, %g s lead-in, %.2f dB (ideal rejection %.1e): %d of %d CLTUs lost, bounds "
+              "[%d, %d] (ideal %.1f expected; at -0.5 dB %.1f)" % (fs, ppm, lead, e, mean_rej(e), lost, len(where), lo, hi, sum(ps_e), sum(ps_l)))
         check(wrong == 0, "ccsds demo, %.2f dB: every accepted CLTU was sent (%d not)" % (e, wrong))
         check(len(rej) <= lost, "ccsds demo, %.2f dB: %d rejected entries for %d CLTUs lost (no spurious rejection)"
               % (e, len(rej), lost))
