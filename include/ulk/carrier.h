@@ -344,12 +344,14 @@ void ulk_rcorr_destroy(ulk_rcorr *r);
  *
  * Over the whole capture: the first block's line is held only when it stands out as the
  * search below requires (peak bin over the mean bin above ln(n_bins / 1e-7)). Otherwise -- a
- * capture that starts with noise or silence -- ulk_crec_track searches as it goes: every
- * quarter window (window search_s, default 0.08 s) a Hann FFT of the last window, same rule;
- * on a hit the loop takes the line's frequency and its phase at the next sample. While
- * searching, the outputs are 0. While holding, the line's share of each window of de-rotated
- * samples is watched; three windows without it (the transmission ended) and the search starts
- * again, so each of several transmissions separated by gaps is acquired. Memory: one window.
+ * capture that starts with noise or silence -- ulk_crec_track searches as it goes, on sums of
+ * dec = floor(fs / (4 max_offset)) samples: a short window (>= search_s, default 0.02 s),
+ * unwindowed and zero-padded, every eighth of it, and a Hann window 8 times longer every
+ * quarter; on a hit the loop takes the line's frequency and its phase at the next sample, and
+ * a frequency assist corrects it over the next 0.06 s. While searching, the outputs are 0.
+ * While holding, the line's share of each long window of de-rotated samples is watched; three
+ * windows without it (the transmission ended) and the search starts again, so each of several
+ * transmissions separated by gaps is acquired. Memory: one long window. (docs/carrier.md)
  */
 typedef struct {
     double fs_hz;          /* sample rate, > 0 */

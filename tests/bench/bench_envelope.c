@@ -527,7 +527,7 @@ static void run_cell(const profile *pr, cell *c, int quick, uint64_t seed)
 
 static void loss_text(const cell *c, char *buf, size_t n)
 {
-    if (c->loss_flag == 3) snprintf(buf, n, "refused");
+    if (c->loss_flag == 3) snprintf(buf, n, "not measured");
     else if (c->loss_flag == 1) snprintf(buf, n, ">%.1f", c->loss);
     else if (c->loss_flag == 2) snprintf(buf, n, "<=0");
     else snprintf(buf, n, "%.2f", c->loss);
@@ -535,7 +535,7 @@ static void loss_text(const cell *c, char *buf, size_t n)
 
 static void write_png(const char *path, const cell *cells, int ncell, const double *rates_of /* [P_N][3] */)
 {
-    const int cw = 150, ch = 44, lw = 210, th = 60;
+    const int cw = 178, ch = 44, lw = 200, th = 60;
     const int ncol = 6, nrow = P_N * 3;
     int W = lw + ncol * cw + 20, H = th + nrow * ch + 60;
     cairo_surface_t *s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
@@ -566,7 +566,7 @@ static void write_png(const char *path, const cell *cells, int ncell, const doub
                 const cell *c = NULL;
                 for (int q = 0; q < ncell; q++)
                     if (cells[q].p == p && cells[q].fs == rates_of[p * 3 + ri] && cells[q].ppm == ppms[j % 3] &&
-                        (cells[q].lead > 0) == (j >= 3))
+                        (cells[q].lead > 1) == (j >= 3))
                         c = &cells[q];
                 double x0 = lw + j * cw, y0 = th + row * ch;
                 /* plain palette: pale green within 0.5 dB, pale amber within 1 dB, pale red
@@ -589,7 +589,7 @@ static void write_png(const char *path, const cell *cells, int ncell, const doub
                 cairo_move_to(cr, x0 + 8, y0 + 18);
                 cairo_show_text(cr, lt);
                 snprintf(t2, sizeof t2, "%zu/%zu  %zu f.acc", c->acq_fail, c->captures, c->false_acc);
-                if (c->loss_flag == 3) snprintf(t2, sizeof t2, "rate refused");
+                if (c->loss_flag == 3) snprintf(t2, sizeof t2, "(decoder refused)");
                 cairo_move_to(cr, x0 + 8, y0 + 36);
                 cairo_show_text(cr, t2);
             }
