@@ -48,9 +48,16 @@ struct ulk_crec {
     int weak;             /* consecutive monitor windows without the line */
     int n_acq, at_limit;
     int assist;           /* short windows left for the frequency assist after an acquisition */
+    size_t assist_wait;
+    size_t pending;       /* delayed: decimated samples until a line seen is measured */   /* delayed: output samples before the assist starts (the search's
+                             look-ahead: before it the output may be noise only) */
     double az_r, az_i, pz_r, pz_i;
     size_t az_n;
     uint64_t acq_sample;
+    size_t delay;         /* output delay of ulk_crec_push, samples (0: ulk_crec_track) */
+    float *dl;            /* the last `delay` input samples, interleaved */
+    size_t dpos;
+    int drained;
     void *fbuf, *plan_s, *plan_l; /* FFTW buffer (nl); plans: short window zero-padded to 2 ns, long */
     double *mag;
 };
@@ -77,6 +84,7 @@ void ulk_crec_destroy(ulk_crec *r)
 #endif
     ulk_free(r->ring);
     ulk_free(r->mag);
+    ulk_free(r->dl);
     ulk_free(r);
 }
 
@@ -117,6 +125,17 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     while ((double)w < ws * fd && w < ((size_t)1 << 16)) w <<= 1;
     r->ns = w;
     r->nl = 8 * w;
+    if (cfg->delayed) {
+        /* one short window: a line is found within it of the transmission's start; nothing is
+         * held before the search finds one */
+        r->state = CREC_SEARCHING;
+        r->delay = w * (size_t)r->dec;
+        r->dl = ulk_calloc(2 * r->delay, sizeof *r->dl);
+        if (!r->dl) {
+            ulk_crec_destroy(r);
+            return ulk_fail(diag, ULK_ENOMEM, "carrier recovery: out of memory");
+        }
+    }
     r->ring = ulk_calloc(2 * r->nl, sizeof *r->ring);
     r->mag = ulk_malloc(r->nl * sizeof *r->mag);
     if (!r->ring || !r->mag) {
@@ -229,8 +248,9 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
 }
 
 /* One search over the last N decimated samples of the ring (N = ns or nl): on a line, the loop
- * takes its frequency and the phase it has at the next input sample. */
-static void search_window(ulk_crec *r, size_t N)
+ * takes its frequency and the phase it has at the next input sample. mode 0: only say whether
+ * a line is there (1) or not (0); 1: take it; 2: take the strongest bin without the test. */
+static int search_window(ulk_crec *r, size_t N, int mode)
 {
 #ifdef ULK_HAVE_FFTW
     fftwf_complex *buf = r->fbuf;
@@ -257,7 +277,8 @@ static void search_window(ulk_crec *r, size_t N)
     long kmax = (long)ceil(r->max_off / bin);
     if (kmax > (long)nf / 2 - 2) kmax = (long)nf / 2 - 2;
     /* padded bins are not independent: counting them all is conservative */
-    if (!(ratio >= log((double)(2 * kmax + 1) / CREC_PFA))) return;
+    if (mode != 2 && !(ratio >= log((double)(2 * kmax + 1) / CREC_PFA))) return 0;
+    if (mode == 0) return 1;
     r->line_db = 10 * log10(ratio);
     r->at_limit = edge;
     if (shortw) {
@@ -293,111 +314,199 @@ static void search_window(ulk_crec *r, size_t N)
     r->coarse_hz = f;
     r->state = CREC_LOCKED;
     r->n_acq++;
-    r->acq_sample = r->n_in;
     r->weak = 0;
     r->mon_re = r->mon_im = r->mon_p = 0;
     r->mon_n = 0;
     r->assist = 12;
     r->az_r = r->az_i = r->pz_r = r->pz_i = 0;
     r->az_n = 0;
+    return 1;
 #else
     (void)r;
     (void)N;
+    (void)mode;
+    return 0;
 #endif
+}
+
+/* One step: the newest input sample (re, im) feeds the search while no carrier is held; the
+ * sample being output (ore, oim: the same one, or with a delay the one `delay` samples older)
+ * is de-rotated by the loop while a carrier is held, else the outputs are 0. */
+static inline void crec_step(ulk_crec *r, double re, double im, int have_in, double ore, double oim, int have_out,
+                             double *thp, double *omp, float *d2, float *ph)
+{
+    double th = *thp, om = *omp;
+    if (have_in) {
+        r->n_in++;
+        if (r->state == CREC_SEARCHING) {
+            r->dre += re;
+            r->dim += im;
+            if (++r->dcnt == r->dec) {
+                r->ring[2 * r->rpos] = (float)r->dre;
+                r->ring[2 * r->rpos + 1] = (float)r->dim;
+                r->dre = r->dim = 0;
+                r->dcnt = 0;
+                r->rpos = (r->rpos + 1) % r->nl;
+                if (r->rfill < r->nl) r->rfill++;
+                /* the short window finds a strong line within a few thousandths of a second
+                 * (hop an eighth of it); the long one (8 times longer, Hann, hop a quarter) a
+                 * weak one */
+                size_t N = 0;
+                int mode = 1;
+                if (++r->since_s >= r->ns / 8 && r->rfill >= r->ns) { r->since_s = 0; N = r->ns; }
+                if (++r->since_l >= r->nl / 4 && r->rfill >= r->nl) { r->since_l = 0; N = r->nl; }
+                if (r->pending > 0) {
+                    /* delayed: a line seen on the short window is measured half a window later,
+                     * on twice the signal (the look-ahead still covers the start) */
+                    N = 0;
+                    if (--r->pending == 0) { N = r->ns; mode = 2; }
+                } else if (N == r->ns && r->delay) {
+                    if (search_window(r, N, 0)) r->pending = r->ns / 2;
+                    N = 0;
+                }
+                if (N) {
+                    r->theta = th;
+                    search_window(r, N, mode);
+                    if (r->state == CREC_LOCKED) {
+                        if (N == r->nl) r->since_s = 0;
+                        /* the phase was for the next input sample; the sample output now is
+                         * delay + 1 samples before it */
+                        th = r->theta - r->omega * (double)(r->delay + 1);
+                        th -= 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+                        om = r->omega;
+                        r->acq_sample = r->n_in - 1 - r->delay;
+                        r->assist_wait = r->delay;
+                    }
+                }
+            }
+        }
+    }
+    if (!have_out) {
+        *thp = th;
+        *omp = om;
+        return;
+    }
+    if (r->state == CREC_SEARCHING) {
+        /* Nothing is held: the data, voice and ranging stages get silence, not a carrier
+         * turning at the offset frequency. */
+        if (d2) d2[0] = d2[1] = 0;
+        if (ph) *ph = 0;
+        *thp = th;
+        *omp = om;
+        return;
+    }
+    double c = cos(th), sn = sin(th);
+    double yr = ore * c + oim * sn, yi = oim * c - ore * sn; /* x exp(-j theta) */
+    double e = (yr == 0 && yi == 0) ? 0 : atan2(yi, yr);
+    if (d2) { d2[0] = (float)yr; d2[1] = (float)yi; }
+    if (ph) *ph = (float)e;
+    om += r->ki * e;
+    th += om + r->kp * e;
+    if (th >= M_PI || th < -M_PI) th -= 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+    r->sum_omega += om;
+    r->sum_e2 += e * e;
+    r->n++;
+    if (r->state == CREC_LOCKED && r->assist_wait > 0) {
+        r->assist_wait--;
+    } else if (r->state == CREC_LOCKED && r->assist > 0) {
+        /* Frequency assist: a line found on a few thousandths of a second of signal can be
+         * off by more than the loop's pull-in range (+-8 Hz at B_L = 20 Hz). The phase advance
+         * of the mean de-rotated sample from one quarter of a short window to the next is the
+         * residual frequency (unambiguous within +-2 f_s / (dec ns), +-94 Hz at the default
+         * window); it is added to the loop's frequency over the first 12 quarters (0.06 s),
+         * so that the first words after the acquisition see a steady carrier. */
+        r->az_r += yr;
+        r->az_i += yi;
+        size_t qa = r->ns * (size_t)r->dec / 4;
+        if (++r->az_n == qa) {
+            if (r->pz_r != 0 || r->pz_i != 0) {
+                double dr = r->az_r * r->pz_r + r->az_i * r->pz_i, di = r->az_i * r->pz_r - r->az_r * r->pz_i;
+                om += atan2(di, dr) / (double)qa;
+            }
+            r->pz_r = r->az_r;
+            r->pz_i = r->az_i;
+            r->az_r = r->az_i = 0;
+            r->az_n = 0;
+            r->assist--;
+        }
+    }
+    if (r->state == CREC_LOCKED) {
+        r->mon_re += yr;
+        r->mon_im += yi;
+        r->mon_p += yr * yr + yi * yi;
+        if (++r->mon_n == r->nl * (size_t)r->dec) {
+            double R = r->mon_p > 0 ? (r->mon_re * r->mon_re + r->mon_im * r->mon_im) / r->mon_p : 0;
+            r->weak = R < CREC_MON_R ? r->weak + 1 : 0;
+            r->mon_re = r->mon_im = r->mon_p = 0;
+            r->mon_n = 0;
+            if (r->weak >= CREC_MON_N) {
+                r->state = CREC_SEARCHING;
+                r->rfill = r->since_s = r->since_l = 0;
+                r->pending = 0;
+                r->dcnt = 0;
+                r->dre = r->dim = 0;
+                r->weak = 0;
+            }
+        }
+    }
+    *thp = th;
+    *omp = om;
 }
 
 int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi)
 {
     if (!r || (!iq && n)) return ULK_EINVAL;
+    if (r->delay) return ULK_EINVAL; /* a delayed object is run with ulk_crec_push */
     double th = r->theta, om = r->omega;
     for (size_t i = 0; i < n; i++) {
         double re = iq[2 * i], im = iq[2 * i + 1];
         if (!isfinite(re) || !isfinite(im)) re = im = 0;
-        r->n_in++;
-        if (r->state == CREC_SEARCHING) {
-            /* Nothing is held: the data, voice and ranging stages get silence, not a carrier
-             * turning at the offset frequency. */
-
-            if (derot) derot[2 * i] = derot[2 * i + 1] = 0;
-            if (phi) phi[i] = 0;
-            r->dre += re;
-            r->dim += im;
-            if (++r->dcnt < r->dec) continue;
-            r->ring[2 * r->rpos] = (float)r->dre;
-            r->ring[2 * r->rpos + 1] = (float)r->dim;
-            r->dre = r->dim = 0;
-            r->dcnt = 0;
-            r->rpos = (r->rpos + 1) % r->nl;
-            if (r->rfill < r->nl) r->rfill++;
-            /* the short window finds a strong line within a few thousandths of a second (hop
-             * an eighth of it); the long one (8 times longer, Hann, hop a quarter) a weak one */
-            size_t N = 0;
-            if (++r->since_s >= r->ns / 8 && r->rfill >= r->ns) { r->since_s = 0; N = r->ns; }
-            if (++r->since_l >= r->nl / 4 && r->rfill >= r->nl) { r->since_l = 0; N = r->nl; }
-            if (N) {
-                r->theta = th;
-                search_window(r, N);
-                if (r->state == CREC_LOCKED && N == r->nl) r->since_s = 0;
-                th = r->theta;
-                om = r->omega;
-            }
-            continue;
-        }
-        double c = cos(th), s = sin(th);
-        double yr = re * c + im * s, yi = im * c - re * s; /* x exp(-j theta) */
-        double e = (yr == 0 && yi == 0) ? 0 : atan2(yi, yr);
-        if (derot) { derot[2 * i] = (float)yr; derot[2 * i + 1] = (float)yi; }
-        if (phi) phi[i] = (float)e;
-        om += r->ki * e;
-        th += om + r->kp * e;
-        if (th >= M_PI || th < -M_PI) th -= 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
-        r->sum_omega += om;
-        r->sum_e2 += e * e;
-        r->n++;
-        if (r->state == CREC_LOCKED && r->assist > 0) {
-            /* Frequency assist: a line found on a few hundredths of a second of signal can be
-             * off by about the loop's pull-in range (+-8 Hz at B_L = 20 Hz). The phase advance
-             * of the mean de-rotated sample from one quarter of a short window to the next is
-             * the residual frequency (unambiguous within +-2 f_s / ns, +-94 Hz at the default
-             * window); it is added to the loop's frequency over the first 12 quarters (0.06 s),
-             * so that the first words after the acquisition see a steady carrier. */
-            r->az_r += yr;
-            r->az_i += yi;
-            size_t qa = r->ns * (size_t)r->dec / 4;
-            if (++r->az_n == qa) {
-                if (r->pz_r != 0 || r->pz_i != 0) {
-                    double dr = r->az_r * r->pz_r + r->az_i * r->pz_i, di = r->az_i * r->pz_r - r->az_r * r->pz_i;
-                    om += atan2(di, dr) / (double)qa;
-                }
-                r->pz_r = r->az_r;
-                r->pz_i = r->az_i;
-                r->az_r = r->az_i = 0;
-                r->az_n = 0;
-                r->assist--;
-            }
-        }
-        if (r->state == CREC_LOCKED) {
-            r->mon_re += yr;
-            r->mon_im += yi;
-            r->mon_p += yr * yr + yi * yi;
-            if (++r->mon_n == r->nl * (size_t)r->dec) {
-                double R = r->mon_p > 0 ? (r->mon_re * r->mon_re + r->mon_im * r->mon_im) / r->mon_p : 0;
-                r->weak = R < CREC_MON_R ? r->weak + 1 : 0;
-                r->mon_re = r->mon_im = r->mon_p = 0;
-                r->mon_n = 0;
-                if (r->weak >= CREC_MON_N) {
-                    r->state = CREC_SEARCHING;
-                    r->rfill = r->since_s = r->since_l = 0;
-                    r->dcnt = 0;
-                    r->dre = r->dim = 0;
-                    r->weak = 0;
-                }
-            }
-        }
+        crec_step(r, re, im, 1, re, im, 1, &th, &om, derot ? derot + 2 * i : NULL, phi ? phi + i : NULL);
     }
     r->theta = th;
     r->omega = om;
     return 0;
+}
+
+size_t ulk_crec_delay(const ulk_crec *r) { return r ? r->delay : 0; }
+
+long ulk_crec_push(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi)
+{
+    if (!r || (!iq && n) || !r->delay || r->drained) return ULK_EINVAL;
+    double th = r->theta, om = r->omega;
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++) {
+        double re = iq[2 * i], im = iq[2 * i + 1];
+        if (!isfinite(re) || !isfinite(im)) re = im = 0;
+        int have_out = r->n_in >= r->delay;
+        double ore = r->dl[2 * r->dpos], oim = r->dl[2 * r->dpos + 1];
+        r->dl[2 * r->dpos] = (float)re;
+        r->dl[2 * r->dpos + 1] = (float)im;
+        r->dpos = (r->dpos + 1) % r->delay;
+        crec_step(r, re, im, 1, ore, oim, have_out, &th, &om, derot ? derot + 2 * k : NULL, phi ? phi + k : NULL);
+        k += (size_t)have_out;
+    }
+    r->theta = th;
+    r->omega = om;
+    return (long)k;
+}
+
+long ulk_crec_drain(ulk_crec *r, float *derot, float *phi)
+{
+    if (!r || !r->delay || r->drained) return ULK_EINVAL;
+    r->drained = 1;
+    size_t held = r->n_in < r->delay ? (size_t)r->n_in : r->delay;
+    /* the oldest held sample sits at dpos when the ring is full, else at 0 */
+    size_t start = r->n_in < r->delay ? 0 : r->dpos;
+    double th = r->theta, om = r->omega;
+    for (size_t k = 0; k < held; k++) {
+        size_t j = (start + k) % r->delay;
+        crec_step(r, 0, 0, 0, r->dl[2 * j], r->dl[2 * j + 1], 1, &th, &om, derot ? derot + 2 * k : NULL,
+                  phi ? phi + k : NULL);
+    }
+    r->theta = th;
+    r->omega = om;
+    return (long)held;
 }
 
 void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st)

@@ -358,8 +358,12 @@ typedef struct {
     double max_offset_hz;  /* coarse search range +-; 0 = 5000; at most 0.45 fs */
     double loop_bw_hz;     /* B_L; 0 = 20 */
     double damping;        /* zeta; 0 = 0.7071 */
-    double search_s;       /* sliding search window, s (rounded up to a power of two of
-                              samples); 0 = 0.08 */
+    double search_s;       /* short search window, s (rounded up to a power of two of
+                              summed samples); 0 = 0.02 */
+    int delayed;           /* 1: run with ulk_crec_push / ulk_crec_drain, outputs delayed by
+                              one short window so that a transmission's first samples are
+                              de-rotated too (the line is found within that window); 0:
+                              ulk_crec_track, outputs as the samples come */
 } ulk_crec_config;
 
 typedef struct {
@@ -392,6 +396,18 @@ size_t ulk_crec_block(const ulk_crec *r);
  * floats, in (-pi, pi]); both 0 while no carrier is held (sliding search, above). Returns 0
  * or ULK_EINVAL (NULL r, or iq NULL with n > 0). */
 int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi);
+/* Delayed running (config.delayed = 1; ulk_crec_track then returns ULK_EINVAL): pushes n
+ * complex samples and writes the outputs of earlier samples, in order from sample 0, into
+ * derot (2 floats each) and phi (1 each; either may be NULL; room for n): returns how many
+ * (n once ulk_crec_delay(r) samples have been pushed, fewer before), or ULK_EINVAL. The
+ * search looks ahead by the delay, so on a hit the loop starts that many samples back, with
+ * the line's phase extrapolated back, and the transmission's start is de-rotated too. */
+long ulk_crec_push(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi);
+/* At the end: writes the outputs still held (at most ulk_crec_delay(r)) and returns how many;
+ * once. ULK_EINVAL when not delayed or drained already. */
+long ulk_crec_drain(ulk_crec *r, float *derot, float *phi);
+/* The output delay in samples (0 unless delayed). */
+size_t ulk_crec_delay(const ulk_crec *r);
 /* Status so far; r and st must not be NULL. */
 void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st);
 /* Frees r; NULL does nothing. */

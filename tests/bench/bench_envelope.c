@@ -22,7 +22,7 @@
  * data signal through the library's complex generator (ulk_cgen, mode "command", data only, so
  * that the lowest rate 2 (f_sc + R_s) holds for it) with a +1234.5 Hz carrier offset and complex
  * noise sigma^2 = P_d f_s / (R_b E_b/N_0). Decoders: ulk_demod (sub-bit), ulk_demod + ulk_tc_decoder
- * (CCSDS), ulk_crec + ulk_demod (composite): the library directly, not the command line.
+ * (CCSDS), ulk_crec with delayed outputs + ulk_demod (composite): the library directly, not the command line.
  *
  * Usage: bench_envelope [--quick] [--csv FILE] [--png FILE] [--only PROFILE] [--seed N]
  *   --quick   a few hundred words per point, 3 points: a couple of minutes (the loss figures are
@@ -279,7 +279,7 @@ static void run_capture(const profile *pr, double fs, double ppm, double lead_s,
     match_ctx m = {su, ns, 0.5 / rs, l, pr->u, 0, 0, 0};
     const size_t CH = 32768;
     float *x = malloc(CH * sizeof *x);
-    float *iq = NULL, *der = NULL, *first = NULL;
+    float *iq = NULL, *der = NULL;
     ulk_demod *dm = NULL;
     ulk_tc_decoder *tc = NULL;
     soft_batch *sbat = NULL;
@@ -315,24 +315,23 @@ static void run_capture(const profile *pr, double fs, double ppm, double lead_s,
             snprintf(res->why, sizeof res->why, "composite generator refused");
             goto out;
         }
-        ulk_crec_config rc = {.fs_hz = fs};
+        /* delayed outputs: the search looks ahead one short window, so a transmission's
+         * start is de-rotated too (ulk_crec_push) */
+        ulk_crec_config rc = {.fs_hz = fs, .delayed = 1};
         if (ulk_crec_create(&rc, &crec, dg) < 0) {
             res->refused++;
             snprintf(res->why, sizeof res->why, "carrier recovery refused");
             goto out;
         }
-        size_t blk = ulk_crec_block(crec);
         iq = malloc(2 * CH * sizeof *iq);
-        der = malloc(2 * CH * sizeof *der);
-        first = malloc(2 * blk * sizeof *first);
+        der = malloc(2 * (CH + ulk_crec_delay(crec)) * sizeof *der);
+        x = realloc(x, (CH + ulk_crec_delay(crec)) * sizeof *x);
         double rb = ulk_ratio_to_double(l->bit_rate);
         double sig = sqrt(pr->pd_cx * fs / (rb * pow(10, ebn0_db / 10)) / 2); /* per component */
         double fo = 1234.5, m_inv = 1.0 / mo->m_rad[ULK_CH_DATA];
         sim_rng nr;
         sim_seed(&nr, sim_next(&r));
         uint64_t i0 = (uint64_t)ceil(lead_s * fs), pos = 0;
-        size_t nfirst = 0;
-        int acquired = 0;
         for (;;) {
             long got = ulk_cgen_run(cg, iq, CH);
             if (got <= 0) break;
@@ -344,41 +343,15 @@ static void run_capture(const profile *pr, double fs, double ppm, double lead_s,
                 iq[2 * i + 1] = (float)(re * s + im * c + sig * sim_gauss(&nr));
             }
             double c0 = cpu_now();
-            size_t done = 0;
-            if (!acquired) {
-                size_t take = (size_t)got < blk - nfirst ? (size_t)got : blk - nfirst;
-                memcpy(first + 2 * nfirst, iq, 2 * take * sizeof *iq);
-                nfirst += take;
-                done = take;
-                if (nfirst == blk) {
-                    ulk_crec_acquire(crec, first, nfirst);
-                    for (size_t o = 0; o < nfirst; o += CH) {
-                        size_t k = nfirst - o < CH ? nfirst - o : CH;
-                        ulk_crec_track(crec, first + 2 * o, k, der, NULL);
-                        for (size_t j = 0; j < k; j++) x[j] = (float)(der[2 * j + 1] * m_inv);
-                        ulk_demod_push(dm, x, k);
-                    }
-                    acquired = 1;
-                }
-            }
-            if (acquired && done < (size_t)got) {
-                size_t k = (size_t)got - done;
-                ulk_crec_track(crec, iq + 2 * done, k, der, NULL);
-                for (size_t j = 0; j < k; j++) x[j] = (float)(der[2 * j + 1] * m_inv);
-                ulk_demod_push(dm, x, k);
-            }
+            long k = ulk_crec_push(crec, iq, (size_t)got, der, NULL);
+            for (long j = 0; j < k; j++) x[j] = (float)(der[2 * j + 1] * m_inv);
+            if (k > 0) ulk_demod_push(dm, x, (size_t)k);
             cpu += cpu_now() - c0;
         }
         double c0 = cpu_now();
-        if (!acquired && nfirst >= 64) {
-            ulk_crec_acquire(crec, first, nfirst);
-            for (size_t o = 0; o < nfirst; o += CH) {
-                size_t k = nfirst - o < CH ? nfirst - o : CH;
-                ulk_crec_track(crec, first + 2 * o, k, der, NULL);
-                for (size_t j = 0; j < k; j++) x[j] = (float)(der[2 * j + 1] * m_inv);
-                ulk_demod_push(dm, x, k);
-            }
-        }
+        long k = ulk_crec_drain(crec, der, NULL);
+        for (long j = 0; j < k; j++) x[j] = (float)(der[2 * j + 1] * m_inv);
+        if (k > 0) ulk_demod_push(dm, x, (size_t)k);
         ulk_demod_finish(dm);
         cpu += cpu_now() - c0;
     } else {
@@ -414,7 +387,6 @@ out:
     free(x);
     free(iq);
     free(der);
-    free(first);
     free(lvl);
     free(su);
 }
