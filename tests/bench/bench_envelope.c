@@ -1,7 +1,7 @@
 /* tests/bench/bench_envelope.c - the decoder across its operating envelope: a matrix of
  * {sub-bit demo, the n = 7 set, CCSDS demo, composite} x {lowest accepted rate, 48 kHz,
- * 192 kHz} x {0, +1000, -1000 ppm} x {no lead-in, 60 s lead-in}. Prints figures; asserts
- * nothing (a benchmark, never a test).
+ * 192 kHz} x {0, +1000, -1000 ppm} x {no lead-in (0.05 s of noise), 60 s lead-in}. Prints
+ * figures; asserts nothing (a benchmark, never a test).
  *
  * Per cell:
  *   loss      E_b/N_0 (E_c/N_0 for CCSDS) where the measured error rate crosses the target,
