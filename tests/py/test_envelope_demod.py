@@ -4,10 +4,9 @@ the lowest sample rates, fs = 2 (f_sc + R_s) (R_s the sub-bit rate; the channel 
 CCSDS), and clock error to +-1000 ppm, for every profile, on captures from the independent
 numpy generator (gen_capture.py) with long lead-ins, real and complex.
 
-These rows depend on the demodulator's front end (src/demod.c: rates down to 2 (f_sc + R_s),
-+-1000 ppm, pattern alignment from many words) and FAIL until that work is merged: today the
-demodulator refuses rates below 2.5 (f_sc + R_s) and searches +-700 ppm. They are written now
-so that the merge is measured by them.
+These rows measure the demodulator's front end (src/demod.c: rates down to 2 (f_sc + R_s),
+a +-1250 ppm clock search, pattern alignment from many words); before it, the demodulator
+refused rates below 2.5 (f_sc + R_s) and searched +-700 ppm, and these rows failed.
 
 Rows:
   sub-bit demo, real, 30 kHz (the lowest), -1000 ppm, 60 s lead-in, 12 dB: 21 words;

@@ -3,8 +3,8 @@
 written from the contract, not from the C code) with long lead-ins, real and complex, decoded
 by ulk: everything sent is accepted, nothing else is.
 
-Rows (all within the decoder's present limits: rates >= 2.5 (f_sc + R_s), clock error
-within +-700 ppm; the rows beyond them are in test_envelope_demod.py):
+Rows (at 48 and 96 kHz, clock error within +-500 ppm; the lowest rates and +-1000 ppm are in
+test_envelope_demod.py):
   real sub-bit demo, 60 s of noise first, 48 kHz, +500 ppm, E_b/N_0 12 dB: 21 words;
   complex (data-only mode "command", index 1.1 rad), 60 s of noise first, 48 kHz, +300 ppm,
     carrier offset +1234.5 Hz, 12 dB: 21 words (the carrier search slides over the capture);
