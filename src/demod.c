@@ -167,13 +167,6 @@ static inline float tcos(const ulk_demod *d, double cycles)
     return d->tab[i & (TAB_N - 1)];
 }
 
-/* x >= 0: ceil(x) as an integer, without a libm call */
-static inline uint64_t ceil_u64(double x)
-{
-    uint64_t i = (uint64_t)x;
-    return i + ((double)i < x);
-}
-
 static uint64_t blk_start(const ulk_demod *d, uint64_t b) { return (uint64_t)ceil((double)b * d->L); }
 
 static uint64_t pow2_at_least(uint64_t x)
