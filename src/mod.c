@@ -103,13 +103,12 @@ static int ratio_cmp(ulk_ratio x, ulk_ratio y)
     return l < r ? -1 : l > r;
 }
 
-/* 5/2 * (x + y) reduced, or ULK_ELIMIT. y.num == 0 means just 5/2 * x. */
-static int ratio_five_halves_sum(ulk_ratio x, ulk_ratio y, ulk_ratio *out)
+/* 2 * (x + y) reduced, or ULK_ELIMIT. y.num == 0 means just 2 * x. */
+static int ratio_twice_sum(ulk_ratio x, ulk_ratio y, ulk_ratio *out)
 {
     __int128 n = (__int128)x.num * y.den + (__int128)y.num * x.den;
     __int128 d = (__int128)x.den * y.den;
-    n *= 5;
-    d *= 2;
+    n *= 2;
     __int128 gx = n, gy = d;
     while (gy) { __int128 t = gx % gy; gx = gy; gy = t; }
     if (gx) { n /= gx; d /= gx; }
@@ -128,14 +127,15 @@ int ulk_mod_check_rate(const ulk_link *l, ulk_ratio fs, ulk_ratio *lowest, ulk_d
 {
     if (!l || fs.num <= 0 || fs.den <= 0) return ulk_fail(diag, ULK_EINVAL, "sample rate must be > 0");
     ulk_ratio rs = ulk_link_subbit_rate(l), lo, lp;
-    if (ratio_five_halves_sum(l->fsc, rs, &lo) < 0)
+    /* The data signal's main lobe reaches f_sc + R_s: it must lie below Nyquist. */
+    if (ratio_twice_sum(l->fsc, rs, &lo) < 0)
         return ulk_fail(diag, ULK_ELIMIT, "subcarrier and sub-bit rates are too fine for exact arithmetic");
-    const char *why = "2.5 x (subcarrier + sub-bit rate)";
+    const char *why = "2 x (subcarrier + sub-bit rate)";
     if (l->has_pilot) {
         ulk_ratio zero = {0, 1};
-        if (ratio_five_halves_sum(l->fp, zero, &lp) < 0)
+        if (ratio_twice_sum(l->fp, zero, &lp) < 0)
             return ulk_fail(diag, ULK_ELIMIT, "pilot frequency is too fine for exact arithmetic");
-        if (ratio_cmp(lp, lo) > 0) { lo = lp; why = "2.5 x pilot frequency"; }
+        if (ratio_cmp(lp, lo) > 0) { lo = lp; why = "2 x pilot frequency"; }
     }
     if (lowest) *lowest = lo;
     ulk_ratio hi = {ULK_MOD_MAX_RATE_HZ, 1};
@@ -301,6 +301,20 @@ int ulk_mod_create(const ulk_mod_config *cfg, ulk_mod **out, ulk_diag *diag)
         return ulk_fail(diag, ULK_EINVAL, "modulator: the pilot frequency must be > 0");
     int rc = ulk_mod_check_rate(l, cfg->fs, NULL, diag);
     if (rc < 0) return rc;
+    if (l->waveform == ULK_WAVE_SQUARE) {
+        /* A square subcarrier's odd harmonics are part of its waveform; the third (a third of
+         * the fundamental's amplitude) spans 3 f_sc +- R_s. Sampled below twice its top they
+         * fold back below Nyquist: the samples are still the square wave's own values, but a
+         * receiver that filters to the main lobe sees the folded harmonics as distortion. */
+        double fsc = ulk_ratio_to_double(l->fsc), rsd = ulk_ratio_to_double(ulk_link_subbit_rate(l));
+        double fsd = ulk_ratio_to_double(cfg->fs);
+        if (fsd < 2 * (3 * fsc + rsd))
+            ulk_diag_add(diag, ULK_SEV_WARNING, NULL,
+                         "square subcarrier: its harmonics alias at this rate (the third harmonic reaches "
+                         "3 f_sc + R_s = %g Hz, above f_s / 2 = %g Hz, and folds back); use a sine subcarrier or "
+                         "at least %g Hz to keep it below Nyquist",
+                         3 * fsc + rsd, fsd / 2, 2 * (3 * fsc + rsd));
+    }
     double peak = ulk_mod_peak(l);
     if (cfg->format == ULK_FMT_S16 && peak > 1.0 + 1e-12)
         return ulk_fail(diag, ULK_ELIMIT,

@@ -26,7 +26,9 @@ struct ulk_tc_decoder {
     size_t n, cap;
     uint64_t base;
     size_t from;             /* next search position (buffer index) */
-    size_t n_units, n_accepted;
+    size_t n_units, n_accepted, n_ignored;
+    int n_pre;               /* bits checked before a start sequence (0: no check) */
+    uint16_t pre_pat;        /* what they must be: idle, or the tail's last octets */
     ulk_cltu_result res[2];
     ulk_tc_unit unit;
     ulk_sdls_rx *sec;        /* secured links: the verifier (not owned), NULL = no keys */
@@ -67,6 +69,17 @@ int ulk_tc_decoder_create(const ulk_dict *d, ulk_tc_unit_fn on_unit, void *user,
     t->fn = on_unit;
     t->user = user;
     t->nrzm = d->link.line_code == ULK_LINE_NRZM;
+    /* What precedes a real CLTU: the idle sequence (alternating bits from 0, so the octets
+     * just before the start sequence are 0x55), or with no idle between CLTUs the previous
+     * CLTU's tail, whose last two octets are C5 79. The acquisition sequence is idle too. */
+    uint32_t io = d->link.tc.idle_octets, ao = d->link.tc.acquisition_octets;
+    if (io >= 1 && ao >= 1) {
+        t->n_pre = (io >= 2 && ao >= 2) ? 16 : 8;
+        t->pre_pat = t->n_pre == 16 ? 0x5555 : 0x55;
+    } else if (io == 0) {
+        t->n_pre = 16;
+        t->pre_pat = 0xC579;
+    }
     *out = t;
     return 0;
 }
@@ -89,6 +102,24 @@ int ulk_tc_decoder_set_security(ulk_tc_decoder *t, ulk_sdls_rx *rx)
 
 size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t) { return t ? t->n_units : 0; }
 size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t) { return t ? t->n_accepted : 0; }
+size_t ulk_tc_decoder_n_ignored(const ulk_tc_decoder *t) { return t ? t->n_ignored : 0; }
+
+/* Whether a rejected CLTU is one: the bits before its start sequence (same polarity) must be
+ * within two errors of what the transmitter sends there (idle or a tail; two, because under
+ * nrz-m one level error flips two bits). A start sequence matched by chance -- in the noise
+ * before or after a transmission, in the bits of a CLTU already rejected, with start_errors 1
+ * about 17 in 65536 positions per polarity -- is preceded by random bits and passes this with
+ * probability 137/65536 (16 bits) or 37/256 (8). An accepted CLTU needs no such evidence: its
+ * codeblocks and FECF are far stronger. */
+static int looks_sent(const ulk_tc_decoder *t, const uint8_t *bits, size_t start)
+{
+    if (t->n_pre == 0) return 1;
+    if (start < (size_t)t->n_pre) return 0;
+    int err = 0;
+    for (int i = 0; i < t->n_pre; i++)
+        err += bits[start - (size_t)t->n_pre + (size_t)i] != ((t->pre_pat >> (t->n_pre - 1 - i)) & 1u);
+    return err <= 2;
+}
 
 static int reject(ulk_tc_unit *u, ulk_reject_kind k, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
 static int reject(ulk_tc_unit *u, ulk_reject_kind k, const char *fmt, ...)
@@ -214,6 +245,10 @@ static const ulk_cltu_result *open_secured(ulk_tc_decoder *t, const ulk_cltu_res
 static void report(ulk_tc_decoder *t, const ulk_cltu_result *r, int pol)
 {
     ulk_tc_unit *u = &t->unit;
+    if (r->verdict != ULK_CLTU_ACCEPTED && !looks_sent(t, pol > 0 ? t->bits : t->inv, r->start_bit)) {
+        t->n_ignored++;
+        return;
+    }
     /* Only the header fields; args[] is filled up to n_args. */
     memset(u, 0, offsetof(ulk_tc_unit, args));
     u->data_hex[0] = 0;
@@ -270,15 +305,15 @@ static void process(ulk_tc_decoder *t, int flush)
         report(t, r, best ? -1 : 1);
         t->from = r->end_bit > r->start_bit ? r->end_bit : r->start_bit + 1;
     }
-    /* Drop what no CLTU can need any more. */
-    if (t->from > 0 && (t->from > t->cap / 2 || t->from == t->n)) {
-        size_t k = t->from;
+    /* Drop what no CLTU can need any more (keeping the bits a start's check looks back at). */
+    if (t->from > 16 && (t->from > t->cap / 2 || t->from == t->n)) {
+        size_t k = t->from - 16;
         memmove(t->bits, t->bits + k, t->n - k);
         memmove(t->inv, t->inv + k, t->n - k);
         memmove(t->t, t->t + k, (t->n - k) * sizeof *t->t);
         t->n -= k;
         t->base += k;
-        t->from = 0;
+        t->from -= k;
     }
 }
 

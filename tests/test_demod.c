@@ -290,10 +290,13 @@ static void create_refuses_bad_setup(void **state)
     make_link(LK_DEMO, &l);
     ulk_demod *d = (ulk_demod *)1;
     ulk_diag *dg = ulk_diag_create();
-    /* 2.5 (f_sc + R_s) = 37500 Hz for the demo link */
-    assert_int_equal(ulk_demod_create(&l, 37000, NULL, &d, dg), ULK_EINVAL);
+    /* 2 (f_sc + R_s) = 30000 Hz for the demo link: the main lobe's Nyquist rate */
+    assert_int_equal(ulk_demod_create(&l, 29990, NULL, &d, dg), ULK_EINVAL);
     assert_null(d);
-    assert_non_null(strstr(ulk_diag_first_error(dg)->msg, "37500"));
+    assert_non_null(strstr(ulk_diag_first_error(dg)->msg, "30000"));
+    assert_int_equal(ulk_demod_create(&l, 30000, NULL, &d, dg), 0);
+    ulk_demod_destroy(d);
+    d = (ulk_demod *)1;
     ulk_link bad = l;
     ulk_ratio_parse("12345", &bad.fsc); /* not a whole multiple of R_s = 5000 */
     assert_int_equal(ulk_demod_create(&bad, 96000, NULL, &d, dg), ULK_EINVAL);

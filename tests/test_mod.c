@@ -212,6 +212,30 @@ static void test_mod_sample_count(void **st)
     }
 }
 
+/* A square subcarrier is accepted down to 2 (f_sc + R_s), with a warning below
+ * 2 (3 f_sc + R_s), where its third harmonic folds back below Nyquist; none above. */
+static void test_mod_square_alias_warning(void **st)
+{
+    (void)st;
+    static const struct { const char *fs; int warn; } rows[] = {
+        {"20000", 1}, {"51999", 1}, {"52000", 0}, {"192000", 0}, /* f_sc 8000, R_s 2000 */
+    };
+    for (size_t r = 0; r < sizeof rows / sizeof rows[0]; r++) {
+        fx_spec s = {"1000", "01", "10", "00", "8000", NULL, 0.5, 0, ULK_WAVE_SQUARE, ULK_LINE_NRZL, 1, 1, 1, {"1010"}};
+        fx_upload f;
+        fx_make(&f, &s);
+        ulk_mod_config cfg = {.upload = &f.u, .fs = fx_ratio(rows[r].fs), .format = ULK_FMT_F32};
+        ulk_mod *m = NULL;
+        ulk_diag *d = ulk_diag_create();
+        int rc = ulk_mod_create(&cfg, &m, d);
+        if (rc != 0) fail_msg("square at %s Hz: refused (%d)", rows[r].fs, rc);
+        if ((ulk_diag_warnings(d) > 0) != rows[r].warn)
+            fail_msg("square at %s Hz: %zu warnings, want %s", rows[r].fs, ulk_diag_warnings(d), rows[r].warn ? "one" : "none");
+        ulk_mod_destroy(m);
+        ulk_diag_destroy(d);
+    }
+}
+
 /* ---- refusals ---- */
 
 typedef struct {
@@ -225,12 +249,12 @@ static void test_mod_rate_refusal(void **st)
     (void)st;
     /* R_s = 2 * 1000 = 2000 */
     static const rate_row rows[] = {
-        {"just below 2.5 (f_sc + R_s)", "8000", NULL, "24999.999", 0, "lowest acceptable rate is 25000 Hz"},
-        {"exactly 2.5 (f_sc + R_s)", "8000", NULL, "25000", 1, NULL},
-        {"far below", "8000", NULL, "8000", 0, "lowest acceptable rate is 25000 Hz"},
-        {"pilot sets the floor", "8000", "20000", "49999", 0, "lowest acceptable rate is 50000 Hz"},
-        {"pilot floor met", "8000", "20000", "50000", 1, NULL},
-        {"fractional floor", "1000.1", NULL, "7500", 0, "lowest acceptable rate is 7500.25 Hz"},
+        {"just below 2 (f_sc + R_s)", "8000", NULL, "19999.999", 0, "lowest acceptable rate is 20000 Hz"},
+        {"exactly 2 (f_sc + R_s)", "8000", NULL, "20000", 1, NULL},
+        {"far below", "8000", NULL, "8000", 0, "lowest acceptable rate is 20000 Hz"},
+        {"pilot sets the floor", "8000", "20000", "39999", 0, "lowest acceptable rate is 40000 Hz"},
+        {"pilot floor met", "8000", "20000", "40000", 1, NULL},
+        {"fractional floor", "1000.1", NULL, "6000", 0, "lowest acceptable rate is 6000.2 Hz"},
         {"exactly the ceiling", "8000", NULL, "1e9", 1, NULL},
         {"above the ceiling (a mistyped 1e12)", "8000", NULL, "1e12", 0, "highest this tool writes, 1000000000 Hz"},
         {"just above the ceiling", "8000", NULL, "1000000000.001", 0, "highest this tool writes"},
@@ -662,6 +686,7 @@ int main(void)
         cmocka_unit_test(test_mod_line_codes),
         cmocka_unit_test(test_mod_sample_count),
         cmocka_unit_test(test_mod_rate_refusal),
+        cmocka_unit_test(test_mod_square_alias_warning),
         cmocka_unit_test(test_mod_clip_refusal),
         cmocka_unit_test(test_mod_first_sample),
         cmocka_unit_test(test_mod_alloc_failure),

@@ -341,12 +341,29 @@ void ulk_rcorr_destroy(ulk_rcorr *r);
  * With the default B_L = 20 Hz and zeta = 0.707 the loop pulls in a frequency error of about
  * +-8 Hz (2 zeta w_n), far beyond the coarse step's error. The channels are outside the loop
  * bandwidth (subcarriers at kHz; the ranging code's power within B_L is ~B_L / chip_rate of it).
+ *
+ * Over the whole capture: the first block's line is held only when it stands out as the
+ * search below requires (peak bin over the mean bin above ln(n_bins / 1e-7)). Otherwise -- a
+ * capture that starts with noise or silence -- ulk_crec_track searches as it goes, on sums of
+ * dec = floor(fs / (4 max_offset)) samples: a short window (>= search_s, default 0.02 s),
+ * unwindowed and zero-padded, every eighth of it, and a Hann window 8 times longer every
+ * quarter; on a hit the loop takes the line's frequency and its phase at the next sample, and
+ * a frequency assist corrects it over the next 0.06 s. While searching, the outputs are 0.
+ * While holding, the line's share of each long window of de-rotated samples is watched; three
+ * windows without it (the transmission ended) and the search starts again, so each of several
+ * transmissions separated by gaps is acquired. Memory: one long window. (docs/carrier.md)
  */
 typedef struct {
     double fs_hz;          /* sample rate, > 0 */
     double max_offset_hz;  /* coarse search range +-; 0 = 5000; at most 0.45 fs */
     double loop_bw_hz;     /* B_L; 0 = 20 */
     double damping;        /* zeta; 0 = 0.7071 */
+    double search_s;       /* short search window, s (rounded up to a power of two of
+                              summed samples); 0 = 0.02 */
+    int delayed;           /* 1: run with ulk_crec_push / ulk_crec_drain, outputs delayed by
+                              one short window so that a transmission's first samples are
+                              de-rotated too (the line is found within that window); 0:
+                              ulk_crec_track, outputs as the samples come */
 } ulk_crec_config;
 
 typedef struct {
@@ -355,7 +372,11 @@ typedef struct {
     double freq_hz;        /* the loop's frequency now */
     double mean_freq_hz;   /* the loop's frequency averaged over the tracked samples */
     double phase_rms_rad;  /* rms of the phase detector output (phi(t) plus noise) */
-    uint64_t n_tracked;
+    uint64_t n_tracked;    /* samples tracked with a carrier held */
+    int n_acquired;        /* carriers acquired: the first block's, then each sliding-search hit */
+    int holding;           /* 1 while a carrier is held, 0 while searching */
+    int at_limit;          /* the last line found sat at the end of the +-max_offset range */
+    double acquired_s;     /* sample time of the last acquisition, s from the first sample */
 } ulk_crec_status;
 
 typedef struct ulk_crec ulk_crec;
@@ -372,8 +393,21 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n);
 size_t ulk_crec_block(const ulk_crec *r);
 /* Tracks n complex samples in order. Each output may be NULL: derot gets the de-rotated
  * samples x exp(-j theta) (2n floats), phi the composite phase atan2(Q, I) of them (n
- * floats, in (-pi, pi]). Returns 0 or ULK_EINVAL (NULL r, or iq NULL with n > 0). */
+ * floats, in (-pi, pi]); both 0 while no carrier is held (sliding search, above). Returns 0
+ * or ULK_EINVAL (NULL r, or iq NULL with n > 0). */
 int ulk_crec_track(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi);
+/* Delayed running (config.delayed = 1; ulk_crec_track then returns ULK_EINVAL): pushes n
+ * complex samples and writes the outputs of earlier samples, in order from sample 0, into
+ * derot (2 floats each) and phi (1 each; either may be NULL; room for n): returns how many
+ * (n once ulk_crec_delay(r) samples have been pushed, fewer before), or ULK_EINVAL. The
+ * search looks ahead by the delay, so on a hit the loop starts that many samples back, with
+ * the line's phase extrapolated back, and the transmission's start is de-rotated too. */
+long ulk_crec_push(ulk_crec *r, const float *iq, size_t n, float *derot, float *phi);
+/* At the end: writes the outputs still held (at most ulk_crec_delay(r)) and returns how many;
+ * once. ULK_EINVAL when not delayed or drained already. */
+long ulk_crec_drain(ulk_crec *r, float *derot, float *phi);
+/* The output delay in samples (0 unless delayed). */
+size_t ulk_crec_delay(const ulk_crec *r);
 /* Status so far; r and st must not be NULL. */
 void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st);
 /* Frees r; NULL does nothing. */

@@ -1,21 +1,30 @@
-/* ulk/demod.h - blind demodulator for the sub-bit profile (subbit-profile.md sections 3-5).
+/* ulk/demod.h - blind demodulator for the sub-bit profile (the profile's sections 3-5).
  *
  * Why blind: a captured uplink starts anywhere in the file, its sample clock and subcarrier
- * are off by up to +-500 ppm (one clock drives both, since f_sc = k R_s), its level, DC
+ * are off by up to +-1000 ppm (one clock drives both, since f_sc = k R_s), its level, DC
  * offset and polarity are unknown. The demodulator takes samples in chunks of any size,
- * keeps memory flat (a few blocks of samples, whatever the capture length) and reports
+ * keeps memory flat (a few blocks of slots or samples, whatever the capture length) and reports
  * each W-bit word it finds with its start time and a soft margin.
  *
  * Method (details in docs/decode.md):
- *   1. DC blocker; optional pilot removal (tone estimated per block and subtracted).
+ *   1. DC blocker. For a sine subcarrier without pilot the samples are mixed at once to
+ *      complex baseband with the nominal subcarrier and summed over slots of whole samples
+ *      (at most an eighth of a subcarrier cycle); every later stage works on slots. A square
+ *      subcarrier or a link with a pilot keeps the samples (pilot estimated per block and
+ *      subtracted).
  *   2. Block estimation of the clock on a window of 3 blocks: each nominal sub-bit is mixed
  *      to complex baseband and squared, which strips the BPSK data; a zoomed DFT of the
- *      squared sequence gives the clock error eps (the line sits at 2 k eps cycles per
+ *      squared sequence (searched on sums of D sub-bits, the line being narrow) gives the
+ *      clock error eps (the line sits at 2 k eps cycles per
  *      sub-bit) and the subcarrier phase modulo pi; the phase fixes the sub-bit clock to
  *      within one half-cycle of the subcarrier, and the block's phase is unwrapped against
- *      the previous block so that polarity and sub-bit count stay continuous.
- *   3. Matched filter: integrate-and-dump of the received samples times the recovered
- *      subcarrier template (sine or square) over each half-cycle; the sub-bit boundary (one
+ *      the previous block so that polarity and sub-bit count stay continuous. Every block is
+ *      tested, so a signal after any lead-in or gap is acquired; the block that acquires also
+ *      demodulates the one before it, and the block after a locked run is demodulated once
+ *      on the last clock, so a transmission's first and last words are kept.
+ *   3. Matched filter: integrate-and-dump of the received signal times the recovered
+ *      subcarrier template (sine, on slots; or square, on samples, ramping to 0 within a
+ *      few hundredths of a cycle of its edges) over each half-cycle; the sub-bit boundary (one
  *      of 2k half-cycle positions) is the one whose sub-bit dumps carry the most energy,
  *      accumulated over blocks. Soft sub-bit = dump / template energy.
  *   4. nrz-m: each group's n soft levels and the one before it are correlated with the n + 1
@@ -72,7 +81,17 @@ typedef struct {
     uint64_t n_subbits;     /* soft sub-bits produced */
     uint64_t n_truncated;   /* words cut off by the end of the capture or a loss of signal */
     uint64_t n_ambiguous;   /* words handed on with ambiguous set (alignment not decided) */
+    int at_search_limit;    /* 1 when the clock-error estimate reached the edge of the searched
+                               range (search_limit_ppm) in a block that held the signal: the true
+                               error may lie beyond it and rate_error_ppm is then only a bound;
+                               widen ulk_demod_options.max_ppm */
+    double search_limit_ppm;/* the clock-error range searched, +-this (ppm) */
 } ulk_demod_estimates;
+
+/* Default clock-error search range in ppm: +-1000 ppm (sample clock and subcarrier of a
+ * real recording) with a 25 % margin, so an error of 1000 ppm lies inside the range and
+ * not on its edge. */
+#define ULK_DEMOD_DEFAULT_PPM 1250.0
 
 /* Called for every word, in time order. */
 typedef void (*ulk_demod_word_fn)(const ulk_demod_word *w, void *user);
@@ -84,7 +103,7 @@ typedef struct {
     ulk_demod_word_fn on_word;  /* NULL: words are kept in a list (ulk_demod_word_at) */
     ulk_demod_soft_fn on_soft;  /* NULL: none */
     void *user;
-    double max_ppm;             /* clock-error search range; 0 = default 700 */
+    double max_ppm;             /* clock-error search range; 0 = ULK_DEMOD_DEFAULT_PPM */
     int block_subbits;          /* estimation block in sub-bits; 0 = default 256 */
 } ulk_demod_options;
 
@@ -92,10 +111,16 @@ typedef struct ulk_demod ulk_demod;
 
 /* Creates a demodulator for link cfg at sample rate fs_hz. opt may be NULL (defaults).
  * Returns 0 with *out set; ULK_EINVAL (message in diag) when the link is not a sub-bit
- * profile or fs_hz < 2.5 (f_sc + R_s); ULK_ENOMEM. The caller frees with
+ * profile or fs_hz < 2 (f_sc + R_s) (the data signal's main lobe must lie below Nyquist);
+ * ULK_ENOMEM. The caller frees with
  * ulk_demod_destroy(). cfg is copied. */
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag);
+/* Sets the false-alarm probability per block of the acquisition test (default 1e-6; p in
+ * (0, 1)). Raising it finds weak signals a block sooner and locks on noise more often; such a
+ * false lock is refused by a level test on the soft values. Returns 0, or ULK_EINVAL for a p
+ * out of range or after the first push. */
+int ulk_demod_set_acq_pfa(ulk_demod *d, double p);
 /* Feeds n samples (full scale 1.0; any level). x may be NULL when n is 0. Returns 0 or a
  * sticky negative status (ULK_ENOMEM). Words are reported as soon as they are decided,
  * which is some blocks after they are pushed. */

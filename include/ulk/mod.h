@@ -44,11 +44,13 @@ typedef struct ulk_mod ulk_mod;
 
 /* Creates a modulator for cfg. Returns 0 and *out, or:
  *   ULK_EINVAL  cfg, upload or out NULL, or a rate not > 0;
- *   ULK_ELIMIT  f_s below 2.5 x (f_sc + R_s) or below 2.5 x f_p (the message names the lowest
+ *   ULK_ELIMIT  f_s below 2 x (f_sc + R_s) or below 2 x f_p (the message names the lowest
  *               acceptable rate), above ULK_MOD_MAX_RATE_HZ, s16 output that would clip, or
  *               rates whose exact ratios do not fit 62-bit integers;
  *   ULK_ENOMEM.
- * The reason is recorded in diag (may be NULL). Free with ulk_mod_destroy(). */
+ * The reason is recorded in diag (may be NULL). A square subcarrier sampled below
+ * 2 x (3 f_sc + R_s), where its harmonics fold back below Nyquist, is accepted with a warning
+ * in diag. Free with ulk_mod_destroy(). */
 int ulk_mod_create(const ulk_mod_config *cfg, ulk_mod **out, ulk_diag *diag);
 
 /* Produces up to max samples s_i (float, full scale 1.0) into out, in order from i = 0.
@@ -67,8 +69,8 @@ void ulk_mod_destroy(ulk_mod *m);
  * feeds, it keeps a mistyped rate (1e12) from starting a write of hundreds of gigabytes. */
 #define ULK_MOD_MAX_RATE_HZ 1000000000
 
-/* Checks f_s against the link (the rule of ulk_mod_create): at least 2.5 x (f_sc + R_s) and
- * 2.5 x f_p, at most ULK_MOD_MAX_RATE_HZ. Returns 0 or ULK_ELIMIT with a message naming the
+/* Checks f_s against the link (the rule of ulk_mod_create): at least 2 x (f_sc + R_s) (the
+ * data signal's main lobe below Nyquist) and 2 x f_p, at most ULK_MOD_MAX_RATE_HZ. Returns 0 or ULK_ELIMIT with a message naming the
  * lowest (or highest) acceptable rate. When lowest is not NULL it receives the lowest. */
 int ulk_mod_check_rate(const ulk_link *l, ulk_ratio fs, ulk_ratio *lowest, ulk_diag *diag);
 

@@ -8,7 +8,8 @@
  * resolve the 180 degree ambiguity; nrz-m is decoded differentially, which has none),
  * codeblocks in the configured mode, derandomizing, frame and FECF, packet; then the
  * dictionary (APID -> system, opcode -> command, argument bits -> values). Every CLTU found
- * is reported, accepted or rejected with its reason ("start", "codeblock 2 uncorrectable",
+ * is reported, accepted or rejected with its reason (a rejected one only when the bits before
+ * its start sequence are idle or a tail, see ulk_tc_decoder_n_ignored) ("start", "codeblock 2 uncorrectable",
  * "FECF ...", "frame header ...", "unknown APID or opcode ...", "argument ...").
  *
  * Memory stays flat: bits are kept only as long as a CLTU may still need them.
@@ -101,6 +102,10 @@ int ulk_tc_decoder_finish(ulk_tc_decoder *t);
 /* CLTUs reported so far, and how many of them were accepted. */
 size_t ulk_tc_decoder_n_units(const ulk_tc_decoder *t);
 size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t);
+/* Start sequences found whose CLTU failed and whose preceding bits are not what a transmitter
+ * sends there (idle, or a tail when the link has no idle between CLTUs): chance matches in
+ * noise, in the acquisition edge or inside a rejected CLTU. They are not reported as units. */
+size_t ulk_tc_decoder_n_ignored(const ulk_tc_decoder *t);
 void ulk_tc_decoder_destroy(ulk_tc_decoder *t); /* NULL does nothing */
 
 /* The blind front end (ulk/demod.h, run on the link as n = 1 symbols) and the decoder over

@@ -45,7 +45,9 @@ static void usage(FILE *out)
             "options:\n"
             "  -o, --output OUT   sample file to write (atomically: nothing is left on failure)\n"
             "  --rate HZ          sample rate, read exactly as a decimal (44100, 62500.5); it must be\n"
-            "                     at least 2.5 x (subcarrier + sub-bit rate) and 2.5 x the pilot\n"
+            "                     at least 2 x (subcarrier + sub-bit rate) and 2 x the pilot (a\n"
+            "                     square subcarrier below 2 x (3 x subcarrier + sub-bit rate)\n"
+            "                     draws a warning: its harmonics alias)\n"
             "  --format f32|s16   sample type (default: from the extension, else f32); s16 is\n"
             "                     round(32767 s) and is refused when the amplitudes could clip\n"
             "  --timing TABLE     write the timing table (CSV) too, or alone\n"
@@ -428,6 +430,7 @@ int cmd_modulate(int argc, char **argv)
         code = exit_for(rc);
         goto done;
     }
+    if (ulk_diag_warnings(diag)) ulk_diag_print(diag, stderr);
     if (!o.quiet) summary(up, &j, timing_path, n_samples);
     goto done;
 

@@ -15,11 +15,21 @@
  * captures where not one word was recovered; "f.acc" words reported whose check passes
  * but that were not sent (false acceptances; words the demodulator marks ambiguous are
  * rejected by the dictionary stage and counted apart); "x.rej" other words reported (check
- * fails).
+ * fails); "spur" the words reported, of any status, that overlap no word sent (idle, the
+ * lead-in or noise read as a word; they count in x.rej or f.acc too).
  *
  * Usage: bench_decode [--words N] [--per N] [--ppm X] [--seed S] [--from DB] [--to DB]
  *                     [--step DB] [--noise-s SECONDS] [--speed-s SECONDS] [--dict FILE]
+ *                     [--set demo|n7|square] [--rate HZ] [--ppm-fixed X] [--lead-s SECONDS]
+ *                     [--invert 1] [--speed-rate HZ]
  *                     [--fa2-words N (second profile's false-acceptance count; 0 skips)] [--verbose 1]
+ * --set picks a built-in pattern set instead of --dict: "n7" is n = 7, Z 1110010, O 0001101,
+ * I 1010101, 62.5 bit/s, sine subcarrier 4 R_s (1750 Hz), W = 66 with CRC-16; "square" is
+ * n = 4, 0011/1100/0110, 500 bit/s, square subcarrier 6 kHz, W = 34 with CRC-8. --rate sets the
+ * sample rate of the WER sweep (default 48 kHz; "low" = the lowest accepted, 2 (f_sc + R_s)),
+ * --ppm-fixed gives every capture that clock error (instead of uniform in +-ppm), --lead-s adds
+ * that much noise before each capture's signal (on top of the random 0..60 ms), --invert 1
+ * inverts every capture. Throughput is measured at --speed-rate (default 192 kHz) and 48 kHz.
  * Defaults are a quick run (2000 words per point); the figures in docs/decode.md used
  * --words 100000.
  */
@@ -35,6 +45,10 @@
 #include "ulk/word.h"
 
 static int verbose; /* --verbose: say which words went missing */
+static double g_lead_s;   /* --lead-s */
+static int g_ppm_fixed;   /* --ppm-fixed given */
+static double g_ppm_val;
+static int g_invert;      /* --invert */
 
 static double qfunc(double x) { return 0.5 * erfc(x / sqrt(2.0)); }
 
@@ -67,6 +81,7 @@ static double cpu_s(void)
 typedef struct {
     long sent, ok, missing, false_acc, rejected_extra, acq_fail, captures, ambiguous;
     long wrong_bits, misplaced, absent;
+    long spurious; /* words reported (any status) that overlap no word sent: idle or noise read as a word */
 } tally;
 
 static void random_valid_words(sim_rng *r, const ulk_link *l, ulk_word *w, int n)
@@ -94,8 +109,10 @@ static void run_one(const ulk_link *l, double fs, double ebn0, int per, double p
     random_valid_words(r, l, w, per);
     size_t L = 0;
     uint8_t *sb = noise_only ? malloc(1) : sim_subbits(l, w, (size_t)per, &L, starts);
-    sim_cfg c = {.fs_hz = fs, .ppm = (2 * sim_uniform(r) - 1) * ppm_max, .delay_s = 0.06 * sim_uniform(r),
-                 .tail_s = noise_only ? 0.5 : 0.02, .ebn0_db = ebn0, .seed = sim_next(r)};
+    double ppm = (2 * sim_uniform(r) - 1) * ppm_max;
+    if (g_ppm_fixed) ppm = g_ppm_val;
+    sim_cfg c = {.fs_hz = fs, .ppm = ppm, .delay_s = (noise_only ? 0 : g_lead_s) + 0.06 * sim_uniform(r),
+                 .tail_s = noise_only ? 0.5 : 0.02, .ebn0_db = ebn0, .invert = g_invert, .seed = sim_next(r)};
     size_t ns;
     float *x = sim_capture(l, sb, L, &c, &ns);
     ulk_demod *d;
@@ -138,6 +155,14 @@ static void run_one(const ulk_link *l, double fs, double ebn0, int per, double p
     for (size_t k = 0; k < nw; k++) {
         if (used[k]) continue;
         const ulk_demod_word *g = ulk_demod_word_at(d, k);
+        {
+            double near = 1e9;
+            for (int i = 0; i < per && !noise_only; i++) {
+                double ts = c.delay_s + (double)starts[i] / rs / (1 + c.ppm * 1e-6);
+                if (fabs(g->start_s - ts) < near) near = fabs(g->start_s - ts);
+            }
+            if (near * rs >= (double)l->word_bits * l->n_subbits) t->spurious++;
+        }
         if (g->ambiguous) t->ambiguous++; /* rejected by the dictionary stage ("alignment") */
         else if (ulk_word_check_ok(l, &g->word)) {
             t->false_acc++;
@@ -168,6 +193,8 @@ int main(int argc, char **argv)
     long fa2_words = 2000;
     unsigned long long seed = 1;
     const char *dict_path = ULK_SOURCE_DIR "/dictionaries/demo-subbit.yaml";
+    const char *set = NULL, *rate_s = "48000";
+    double speed_rate = 192000;
     for (int i = 1; i < argc; i += 2) { /* options come in pairs: --name value */
         const char *a = argv[i], *v = i + 1 < argc ? argv[i + 1] : NULL;
         if (!v) { fprintf(stderr, "bench_decode: %s needs a value\n", a); return 2; }
@@ -182,6 +209,12 @@ int main(int argc, char **argv)
         else if (!strcmp(a, "--noise-s")) noise_s = atof(v);
         else if (!strcmp(a, "--speed-s")) speed_s = atof(v);
         else if (!strcmp(a, "--dict")) dict_path = v;
+        else if (!strcmp(a, "--set")) set = v;
+        else if (!strcmp(a, "--rate")) rate_s = v;
+        else if (!strcmp(a, "--ppm-fixed")) { g_ppm_fixed = 1; g_ppm_val = atof(v); }
+        else if (!strcmp(a, "--lead-s")) g_lead_s = atof(v);
+        else if (!strcmp(a, "--invert")) g_invert = atoi(v);
+        else if (!strcmp(a, "--speed-rate")) speed_rate = atof(v);
         else if (!strcmp(a, "--verbose")) { verbose = atoi(v); }
         else { fprintf(stderr, "bench_decode: unknown option %s\n", a); return 2; }
     }
@@ -193,20 +226,36 @@ int main(int argc, char **argv)
         return 2;
     }
     ulk_diag_destroy(dg);
+    ulk_link setl;
     const ulk_link *l = &dict->link;
+    if (set) {
+        if (!strcmp(set, "n7"))
+            sim_link(&setl, "62.5", "1110010", "0001101", "1010101", "1750", ULK_WAVE_SINE, ULK_LINE_NRZL, 32, ULK_CHECK_CRC16);
+        else if (!strcmp(set, "square"))
+            sim_link(&setl, "500", "0011", "1100", "0110", "6000", ULK_WAVE_SQUARE, ULK_LINE_NRZL, 16, ULK_CHECK_CRC8);
+        else if (!strcmp(set, "demo"))
+            setl = dict->link;
+        else { fprintf(stderr, "bench_decode: unknown set %s (demo, n7, square)\n", set); return 2; }
+        l = &setl;
+    }
+    double fs = !strcmp(rate_s, "low") ? 2 * (ulk_ratio_to_double(l->fsc) + ulk_ratio_to_double(l->bit_rate) * l->n_subbits)
+                                       : atof(rate_s);
     int dzo = 0;
     for (int i = 0; i < l->n_subbits; i++) dzo += l->zero[i] != l->one[i];
     printf("bench_decode: dictionary %s, n = %d, d = %d, W = %d, R_b = %g bit/s, f_sc = %g Hz, %s, %s\n",
            dict_path, l->n_subbits, dzo, l->word_bits, ulk_ratio_to_double(l->bit_rate),
            ulk_ratio_to_double(l->fsc), ulk_waveform_name(l->waveform), ulk_line_code_name(l->line_code));
-    printf("words per point %ld, %d words per capture, clock error uniform +-%g ppm, random start 0..60 ms, fs 48 kHz, seed %llu\n\n",
-           words, per, ppm, seed);
-    printf("%8s %11s %11s %8s %6s %6s %6s %6s %6s %6s\n", "Eb/N0 dB", "WER", "ideal WER", "words", "bits", "shift", "absent",
-           "acqf", "f.acc", "x.rej");
+    if (g_ppm_fixed)
+        printf("words per point %ld, %d words per capture, clock error %+g ppm, lead-in %g s + 0..60 ms, fs %g Hz%s, seed %llu\n\n",
+               words, per, g_ppm_val, g_lead_s, fs, g_invert ? ", inverted" : "", seed);
+    else
+        printf("words per point %ld, %d words per capture, clock error uniform +-%g ppm, lead-in %g s + 0..60 ms, fs %g Hz%s, seed %llu\n\n",
+               words, per, ppm, g_lead_s, fs, g_invert ? ", inverted" : "", seed);
+    printf("%8s %11s %11s %8s %6s %6s %6s %6s %6s %6s %6s\n", "Eb/N0 dB", "WER", "ideal WER", "words", "bits", "shift", "absent",
+           "acqf", "f.acc", "x.rej", "spur");
 
     sim_rng r;
     sim_seed(&r, seed);
-    const double fs = 48000;
     double pts_eb[128], pts_wer[128];
     int npts = 0;
     tally all = {0};
@@ -214,8 +263,8 @@ int main(int argc, char **argv)
         tally t = {0};
         while (t.sent < words) run_one(l, fs, eb, per, ppm, &r, &t, 0);
         double wer = (double)t.missing / (double)t.sent;
-        printf("%8.2f %11.3e %11.3e %8ld %6ld %6ld %6ld %6ld %6ld %6ld\n", eb, wer, theory_wer(l, eb), t.sent,
-               t.wrong_bits, t.misplaced, t.absent, t.acq_fail, t.false_acc, t.rejected_extra);
+        printf("%8.2f %11.3e %11.3e %8ld %6ld %6ld %6ld %6ld %6ld %6ld %6ld\n", eb, wer, theory_wer(l, eb), t.sent,
+               t.wrong_bits, t.misplaced, t.absent, t.acq_fail, t.false_acc, t.rejected_extra, t.spurious);
         fflush(stdout);
         pts_eb[npts] = eb;
         pts_wer[npts] = wer;
@@ -280,9 +329,9 @@ int main(int argc, char **argv)
         }
     }
 
-    /* Throughput at 192 kHz: a long capture, decode time only. */
-    {
-        const double fs2 = 192000;
+    /* Throughput at --speed-rate and at 48 kHz: a long capture, decode time only. */
+    for (int sr = 0; sr < 2; sr++) {
+        const double fs2 = sr ? 48000 : speed_rate;
         int nwords = 0;
         double rb = ulk_ratio_to_double(l->bit_rate);
         double word_s = (l->word_bits + l->gap) / rb;
@@ -304,8 +353,8 @@ int main(int argc, char **argv)
             for (size_t o = 0; o < ns; o += 4096) ulk_demod_push(d, x + o, ns - o < 4096 ? ns - o : 4096);
         ulk_demod_finish(d);
         double t1 = cpu_s();
-        printf("throughput at 192 kHz: %.1f s of samples decoded in %.2f s CPU = %.0f x real time (%zu words found)\n",
-               reps * dur, t1 - t0, reps * dur / (t1 - t0), ulk_demod_n_words(d));
+        printf("throughput at %g kHz: %.1f s of samples decoded in %.2f s CPU = %.0f x real time (%zu words found)\n",
+               fs2 / 1000, reps * dur, t1 - t0, reps * dur / (t1 - t0), ulk_demod_n_words(d));
         ulk_demod_destroy(d);
         free(x);
         free(sb);

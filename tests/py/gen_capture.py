@@ -29,6 +29,22 @@ CLI:
         [--lead-rms R] [--truth TRUTH.json]
 The truth file records what a decoder should find: every word's hex and its start time in
 the capture, the parameters and the noise sigma.
+
+Envelope captures (module use only):
+    make_bits_capture(link, subbits, fs, ...)   any link (sub-bit or a CCSDS channel-bit link,
+                                                TcLink) from a given sub-bit/channel-bit list,
+                                                real; long lead-ins, exact clock error
+    ccsds_stream(upload_json)                   the channel bits of a ccsds-tc upload rebuilt
+                                                from the standards (test_ccsds_pipeline.py)
+                                                and where each CLTU starts
+    make_complex_capture(link, subbits, fs, m_rad, ...)
+                                                the composite carrier's complex baseband with the
+                                                data channel only: x = exp(j m u(t)) with u the
+                                                data signal over its peak, a carrier offset and
+                                                phase, complex noise of the stated E_b/N_0 with
+                                                P_d from Bessel functions (scipy), noise only in
+                                                the lead-in; transmissions may be concatenated
+    write_cf32(path, x, fs, mode)               .cf32 with its .sigmf-meta (complex, the mode)
 """
 import argparse
 import json
@@ -104,6 +120,104 @@ def make_capture(d, items, fs, ebn0_db=None, ppm=0, delay_s=0, tail_s=0, scale=1
         "n_subbits": int(len(st.subbits)), "words": words,
     }
     return x, truth
+
+
+class TcLink:
+    """The channel-bit link of a ccsds-tc dictionary as ref_subbit.samples() needs it: one
+    symbol per channel bit (R_s = R)."""
+
+    def __init__(self, bit_rate, fsc, waveform="sine", amplitude=1.0, line_code="nrz-l"):
+        self.bit_rate = Fraction(bit_rate)
+        self.subbit_rate = Fraction(bit_rate)
+        self.fsc = Fraction(fsc)
+        self.waveform = waveform
+        self.amplitude = amplitude
+        self.line_code = line_code
+        self.has_pilot = False
+
+
+def make_bits_capture(link, subbits, fs, ebn0_db=None, ppm=0, delay_s=0, tail_s=0, invert=False, seed=0,
+                      rng=None):
+    """Real capture of the given sub-bits (or channel bits) for link: clock error ppm and
+    delay_s exact, noise from E_b/N_0 (section 5, P_d of the link's amplitude). Returns
+    (x, first_sample, fs_eff) with fs_eff = fs (1 + ppm 1e-6): as in make_capture, contract
+    time is (i - i0) / fs_eff, so sub-bit j starts at delay_s + j (1 + eps) / R_s seconds."""
+    fs = Fraction(fs)
+    eps = Fraction(str(ppm)) / 10 ** 6
+    fs_eff = fs * (1 + eps)
+    i0 = Fraction(str(delay_s)) * fs
+    end = i0 + Fraction(len(subbits)) / link.subbit_rate * fs_eff
+    count = ref._ceil(end + Fraction(str(tail_s)) * fs)
+    x = ref.samples(link, subbits, fs_eff, count=count, i0=i0, gate=True)
+    if invert:
+        x = -x
+    rng = rng if rng is not None else np.random.default_rng(seed)
+    if ebn0_db is not None:
+        x = x + rng.normal(0.0, sigma_for_ebn0(link, fs, ebn0_db), count)
+    return x, ref._ceil(i0), fs_eff
+
+
+def ccsds_stream(upload_json):
+    """(channel bits, [(bit index of the CLTU's start, unit)]) of a ccsds-tc upload (the parsed
+    upload JSON), rebuilt independently from the standards by tests/py/test_ccsds_pipeline.py;
+    unit = (packet count, N(S), frame octets, CLTU octets)."""
+    import test_ccsds_pipeline as tcp
+    rows, units = tcp.expected_stream(upload_json, None)
+    bits = np.array([r[3] for r in rows], dtype=np.int64)
+    starts = [j for j, r in enumerate(rows) if r[0] > 0 and r[1] == 0]
+    return bits, list(zip(starts, units))
+
+
+def data_power_fraction(m_rad, waveform):
+    """Useful power of a data channel alone on the carrier, P_d / P_T: the first-order lines of
+    exp(j m d sin(w t)) carry 2 J1(m)^2 (Jacobi-Anger expansion; Abramowitz and Stegun 9.1.42
+    and 9.1.5, from memory), a binary (square) one sin(m)^2 (exp(j m d s) = cos m + j d s sin m)."""
+    from scipy.special import j1
+    return 2 * j1(m_rad) ** 2 if waveform == "sine" else math.sin(m_rad) ** 2
+
+
+def make_complex_capture(link, subbits, fs, m_rad, ebn0_db=None, ppm=0, delay_s=0, tail_s=0, offset_hz=0,
+                         phase_rad=0.0, seed=0, rng=None):
+    """Complex baseband of the composite carrier with only the data channel on (index m_rad):
+    x = exp(j (m u + 2 pi f_o t + phase)) while the transmitter is on, 0 before and after, plus
+    complex noise of total variance sigma^2 = P_d f_s / (R_b E_b/N_0) (half in I, half in Q),
+    u = s / A the data signal over its peak. Returns (x complex128, first_sample, fs_eff)."""
+    fs = Fraction(fs)
+    eps = Fraction(str(ppm)) / 10 ** 6
+    fs_eff = fs * (1 + eps)
+    i0 = Fraction(str(delay_s)) * fs
+    end = i0 + Fraction(len(subbits)) / link.subbit_rate * fs_eff
+    count = ref._ceil(end + Fraction(str(tail_s)) * fs)
+    u = ref.samples(link, subbits, fs_eff, count=count, i0=i0, gate=True) / link.amplitude
+    i = np.arange(count)
+    on = (i >= ref._ceil(i0)) & (i < ref._ceil(end))
+    ph = m_rad * u + 2 * np.pi * ((offset_hz * i / float(fs)) % 1.0) + phase_rad
+    x = np.where(on, np.exp(1j * ph), 0)
+    rng = rng if rng is not None else np.random.default_rng(seed)
+    if ebn0_db is not None:
+        pd = data_power_fraction(m_rad, link.waveform)
+        s2 = pd * float(fs) / (float(link.bit_rate) * 10 ** (ebn0_db / 10))
+        x = x + rng.normal(0, math.sqrt(s2 / 2), count) + 1j * rng.normal(0, math.sqrt(s2 / 2), count)
+    return x, ref._ceil(i0), fs_eff
+
+
+def write_cf32(path, x, fs, mode=None):
+    """Interleaved little-endian float32 I, Q and a SigMF metadata file beside it
+    (core:datatype cf32_le, the sample rate, and ulk:carrier.mode when given)."""
+    x = np.asarray(x)
+    iq = np.empty(2 * len(x), dtype="<f4")
+    iq[0::2] = x.real
+    iq[1::2] = x.imag
+    base = path[:-5] if path.endswith(".cf32") else path
+    tmp = path + ".part"
+    with open(tmp, "wb") as f:
+        f.write(iq.tobytes())
+    os.replace(tmp, path)
+    glob = {"core:datatype": "cf32_le", "core:sample_rate": float(fs), "core:version": "1.0.0"}
+    if mode:
+        glob["ulk:carrier"] = {"mode": mode}
+    with open(base + ".sigmf-meta", "w") as f:
+        json.dump({"global": glob, "captures": [{"core:sample_start": 0}], "annotations": []}, f)
 
 
 def write_capture(path, x, fs, fmt=None):

@@ -288,20 +288,20 @@ CASES = [
 
 
 def check_refusals(tmp, failures):
-    """Rate below 2.5 (f_sc + R_s) and s16 that could clip: exit 1, message, no file."""
+    """Rate below 2 (f_sc + R_s) and s16 that could clip: exit 1, message, no file."""
     case = dict(CASES[0])
     dpath, lpath, upath = (os.path.join(tmp, n) for n in ("r.json", "r.cmd", "r.ulku"))
     json.dump(dictionary(case), open(dpath, "w"))
     open(lpath, "w").write(command_list())
     run(["compile", "--dict", dpath, lpath, "-o", upath, "-q"])
-    # 2.5 x (8000 + 4000) = 30000
+    # 2 x (8000 + 4000) = 24000 (the main lobe's Nyquist rate)
     out = os.path.join(tmp, "low.f32")
-    p = run(["modulate", upath, "-o", out, "--rate", "29999.5"], expect=1)
-    if "30000" not in p.stderr or os.path.exists(out) or os.path.exists(os.path.join(tmp, "low.sigmf-meta")):
-        failures.append(f"rate refusal: message must name 30000 and leave no file:\n{p.stderr}")
-    run(["modulate", upath, "-o", out, "--rate", "30000", "-q"])
+    p = run(["modulate", upath, "-o", out, "--rate", "23999.5"], expect=1)
+    if "24000" not in p.stderr or os.path.exists(out) or os.path.exists(os.path.join(tmp, "low.sigmf-meta")):
+        failures.append(f"rate refusal: message must name 24000 and leave no file:\n{p.stderr}")
+    run(["modulate", upath, "-o", out, "--rate", "24000", "-q"])
     if not os.path.exists(out):
-        failures.append("rate 30000 (exactly the floor) must be accepted")
+        failures.append("rate 24000 (exactly the floor) must be accepted")
     # a full device: exit 2 with the reason, nothing created beside it
     p = run(["modulate", upath, "-o", "/dev/full", "--rate", "48000"], expect=2)
     if "No space left on device" not in p.stderr or any(".tmp." in f for f in os.listdir("/dev")):
