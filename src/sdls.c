@@ -374,7 +374,7 @@ int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sd
     char dummy[8];
     if (!err) { err = dummy; errlen = sizeof dummy; }
     if (!tc || !sa || !frame) return sa_fail(err, errlen, "nothing to secure");
-    layout L;
+    layout L = {0};
     if (ulk_sdls_sa_check(sa, err, errlen) || !sa->enabled || frame_layout(tc, sa, n_frame, &L))
         return sa_fail(err, errlen, "the frame is not laid out for this security association");
     if (counter == 0 || counter == ULK_SDLS_COUNTER_MAX) return sa_fail(err, errlen, "IV counter must be 1..2^64-2");
@@ -436,7 +436,7 @@ int ulk_sdls_frame_read(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const uin
     if (!tc || !sa || !frame || !res) return ULK_EINVAL;
     memset(res, 0, offsetof(ulk_sdls_rx_result, data));
     res->n_data = 0;
-    layout L;
+    layout L = {0};
     if (frame_layout(tc, sa, n_frame, &L)) {
         rx_reason(res, ULK_SDLS_MALFORMED, "frame of %zu octets cannot hold its security header and trailer", n_frame);
         return 0;
@@ -455,7 +455,7 @@ int ulk_sdls_frame_read(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const uin
 int ulk_sdls_check_frame(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const uint8_t *want, const uint8_t *got,
                          size_t n_frame, char *err, size_t errlen)
 {
-    layout L;
+    layout L = {0};
     if (!tc || !sa || !want || !got || frame_layout(tc, sa, n_frame, &L)) {
         snprintf(err, errlen, "the frame does not have the link's security header and trailer");
         return ULK_EPARSE;
@@ -853,7 +853,7 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
     ulk_sdls_frame_read(tc, sa, frame, n_frame, res);
     res->n_data = 0;
     if (res->verdict == ULK_SDLS_MALFORMED) return 0;
-    layout L;
+    layout L = {0};
     frame_layout(tc, sa, n_frame, &L);
     if (res->spi != sa->spi) {
         rx_reason(res, ULK_SDLS_UNKNOWN_SPI, "unknown SPI %u (the link's is %u)", (unsigned)res->spi, (unsigned)sa->spi);
