@@ -14,6 +14,7 @@
 #include "cli.h"
 #include "ulk/ccsds.h"
 #include "ulk/dict.h"
+#include "ulk/sdls.h"
 #include "ulk/error.h"
 
 static void usage(FILE *out)

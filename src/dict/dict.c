@@ -24,7 +24,9 @@
 #include "carrier_load.h"
 #include "doc.h"
 #include "exact.h"
+#include "ulk/ccsds.h"
 #include "ulk/dict.h"
+#include "ulk/sdls.h"
 #include "util.h"
 
 /* ---------------------------------------------------------------- arena */

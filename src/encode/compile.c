@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ulk/ccsds.h"
 #include "ulk/cmdlist.h"
 #include "ulk/profile.h"
 #include "ulk/word.h"

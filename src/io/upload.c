@@ -26,6 +26,7 @@
 #include <openssl/evp.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/sdls.h"
 #include "ulk/profile.h"
 #include "ulk/upload.h"
 #include "ulk/word.h"
