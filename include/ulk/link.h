@@ -47,7 +47,7 @@ typedef enum {
 #define ULK_MAX_WORD_BITS 128 /* 16 + 16 + 16 + 64 + 16 */
 
 /* The bit layer's configuration of the CCSDS telecommand profile (its functions are in
- * ulk/ccsds.h; ccsds-tc-profile.md section 1). */
+ * ulk/ccsds.h; docs/spec/ccsds-tc.md section 1). */
 typedef enum { ULK_BCH_SEC = 0, ULK_BCH_TED = 1 } ulk_bch_mode;
 typedef enum { ULK_TC_EXPEDITED = 0, ULK_TC_SEQUENCE_CONTROLLED = 1 } ulk_tc_service;
 

@@ -80,10 +80,26 @@ typedef struct ulk_profile_ops {
      * octets exceeds 1024"); ULK_ENOMEM. */
     int (*encode)(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen);
     void (*encoder_destroy)(void *enc);  /* NULL does nothing */
+    /* ---- words for messages and metadata ---- */
+    const char *unit_noun;     /* what a command becomes, plural: "words", "CLTUs" */
+    const char *symbol_noun;   /* what the timing table counts: "sub-bits", "channel bits" */
+    /* Writes where the packed arguments of one command go, for "its arguments do not fit %s":
+     * "the 16-bit argument field", "a 1024-octet TC frame (8152 argument bits at most)". */
+    void (*arg_room)(const ulk_link *l, char *buf, size_t n);
+    /* ---- sizes and rates ---- */
+    /* Channel symbols per second on the subcarrier: R_b * n, or R. */
+    ulk_ratio (*symbol_rate)(const ulk_link *l);
+    /* Octets command c's unit takes in memory and in the modulator: ceil(W / 8), or the CLTU. */
+    size_t (*unit_octets)(const ulk_link *l, const ulk_upload_cmd *c);
+    /* The security association of a secured link (enabled), else NULL. */
+    const ulk_sdls_sa *(*security)(const ulk_link *l);
 } ulk_profile_ops;
 
 /* The table of a profile; NULL for an unknown id. */
 const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id);
+/* The table of l's profile, for a link the dictionary loader or upload reader made (its
+ * profile is one of the registered ones). */
+const ulk_profile_ops *ulk_profile_of(const ulk_link *l);
 
 /* Rebuilds what command c's unit must be from its fields (system address, opcode, argument
  * raw values, and for ccsds-tc the sequence count and N(S)) and compares: 0 when c's unit is

@@ -10,6 +10,7 @@
 #include "cli.h"
 #include "ulk/cmdlist.h"
 #include "ulk/dict.h"
+#include "ulk/profile.h"
 #include "ulk/sdls.h"
 #include "ulk/upload.h"
 
@@ -130,8 +131,8 @@ static void sec_notices(const sec_ctx *s, int created)
  * before it is read. Returns 0 or the exit code (message printed, nothing written). */
 static int sec_open(sec_ctx *s, const ulk_dict *dict, const char *dict_path, ulk_diag *diag)
 {
-    const ulk_sdls_sa *sa = dict->link.profile == ULK_PROFILE_CCSDS_TC ? &dict->link.tc.security : NULL;
-    s->sa = sa && sa->enabled ? sa : NULL;
+    const ulk_sdls_sa *sa = ulk_profile_of(&dict->link)->security(&dict->link);
+    s->sa = sa;
     if (s->sa && (!s->keys_path || !s->state_path)) {
         fprintf(stderr,
                 "ulk compile: dictionary %s secures every frame (link.tc.security: SPI %u, key '%s'): give the key file with "

@@ -14,6 +14,7 @@
 #include "cli.h"
 #include "ulk/ccsds.h"
 #include "ulk/dict.h"
+#include "ulk/profile.h"
 #include "ulk/sdls.h"
 #include "ulk/error.h"
 
@@ -169,7 +170,7 @@ static cJSON *summary_json(const ulk_dict *d)
     cJSON *s = cJSON_CreateObject();
     cJSON_AddStringToObject(s, "name", d->name);
     cJSON_AddStringToObject(s, "version", d->version);
-    cJSON_AddStringToObject(s, "profile", L->profile == ULK_PROFILE_CCSDS_TC ? "ccsds-tc" : "subbit");
+    cJSON_AddStringToObject(s, "profile", ulk_profile_of(L)->name);
     cJSON_AddNumberToObject(s, "systems", d->n_systems);
     cJSON_AddNumberToObject(s, "commands", d->n_commands);
     if (L->profile == ULK_PROFILE_CCSDS_TC) {

@@ -10,7 +10,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "ulk/ccsds.h"
 #include "ulk/cmdlist.h"
 #include "ulk/profile.h"
 #include "ulk/word.h"
@@ -419,12 +418,9 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
         for (int j = 0; j < c->n_args && !bad; j++) {
             int w = c->args[j].bits;
             if (w < 1 || w > 64 || pos + (size_t)w > max_arg_bits) {
-                if (lk->profile == ULK_PROFILE_CCSDS_TC)
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit a %d-octet TC frame (%zu argument bits at most)",
-                                 c->mnemonic, ULK_TCF_MAX_OCTETS, max_arg_bits);
-                else
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit the %d-bit argument field",
-                                 c->mnemonic, lk->argument_bits);
+                char room[128];
+                prof->arg_room(lk, room, sizeof room);
+                ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit %s", c->mnemonic, room);
                 bad = 1;
                 break;
             }

@@ -351,12 +351,12 @@ int ulk_upload_write_hook(const ulk_upload *u, const char *path, ulk_upload_comm
                         path, u->n_cmds, ULK_UPLOAD_MAX_CMDS);
     size_t unit_octets = 0;
     for (size_t i = 0; i < u->n_cmds; i++)
-        unit_octets += u->link.profile == ULK_PROFILE_CCSDS_TC ? u->cmds[i].n_cltu : (size_t)(u->link.word_bits + 7) / 8;
+        unit_octets += ulk_profile_of(&u->link)->unit_octets(&u->link, &u->cmds[i]);
     if (unit_octets > ULK_UPLOAD_MAX_UNIT_OCTETS)
         return ulk_fail(diag, ULK_ELIMIT,
                         "%s: the %s of the upload take %zu octets; the limit is %zu (what keeps ulk modulate under "
                         "64 MB); split the command list; nothing written",
-                        path, u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words", unit_octets,
+                        path, ulk_profile_of(&u->link)->unit_noun, unit_octets,
                         ULK_UPLOAD_MAX_UNIT_OCTETS);
     sbuf b = {0};
     build_doc(u, &b);

@@ -62,9 +62,43 @@ static int sb_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out
 
 static void sb_encoder_destroy(void *enc) { (void)enc; }
 
+static void sb_arg_room(const ulk_link *l, char *buf, size_t n)
+{
+    snprintf(buf, n, "the %d-bit argument field", l->argument_bits);
+}
+
+static ulk_ratio sb_symbol_rate(const ulk_link *l) { return ulk_link_subbit_rate(l); }
+
+static size_t sb_unit_octets(const ulk_link *l, const ulk_upload_cmd *c)
+{
+    (void)c;
+    return (size_t)(l->word_bits + 7) / 8;
+}
+
+static const ulk_sdls_sa *sb_security(const ulk_link *l)
+{
+    (void)l;
+    return NULL;
+}
+
 static const ulk_profile_ops subbit_ops = {
-    "subbit",         ULK_PROFILE_SUBBIT, sb_gap_units, sb_filler_rate, sb_filler_symbol, sb_max_arg_bits,
-    sb_unit_bits,     sb_unit_bit,        sb_encoder_create, sb_encode, sb_encoder_destroy,
+    .name = "subbit",
+    .id = ULK_PROFILE_SUBBIT,
+    .gap_units = sb_gap_units,
+    .filler_rate = sb_filler_rate,
+    .filler_symbol = sb_filler_symbol,
+    .max_arg_bits = sb_max_arg_bits,
+    .unit_bits = sb_unit_bits,
+    .unit_bit = sb_unit_bit,
+    .encoder_create = sb_encoder_create,
+    .encode = sb_encode,
+    .encoder_destroy = sb_encoder_destroy,
+    .unit_noun = "words",
+    .symbol_noun = "sub-bits",
+    .arg_room = sb_arg_room,
+    .symbol_rate = sb_symbol_rate,
+    .unit_octets = sb_unit_octets,
+    .security = sb_security,
 };
 
 /* ---------------------------------------------------------------- ccsds-tc profile */
@@ -177,9 +211,40 @@ static int tc_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out
     return 0;
 }
 
+static void tc_arg_room(const ulk_link *l, char *buf, size_t n)
+{
+    snprintf(buf, n, "a %d-octet TC frame (%zu argument bits at most)", ULK_TCF_MAX_OCTETS, tc_max_arg_bits(l));
+}
+
+/* one channel symbol per bit: R_s = R (ccsds-tc-profile.md section 3) */
+static ulk_ratio tc_symbol_rate(const ulk_link *l) { return l->bit_rate; }
+
+static size_t tc_unit_octets(const ulk_link *l, const ulk_upload_cmd *c)
+{
+    (void)l;
+    return c->n_cltu;
+}
+
+static const ulk_sdls_sa *tc_security(const ulk_link *l) { return l->tc.security.enabled ? &l->tc.security : NULL; }
+
 static const ulk_profile_ops ccsds_ops = {
-    "ccsds-tc",   ULK_PROFILE_CCSDS_TC, tc_gap_units,      tc_filler_rate, tc_filler_symbol, tc_max_arg_bits,
-    tc_unit_bits, tc_unit_bit,          tc_encoder_create, tc_encode,      tc_encoder_destroy,
+    .name = "ccsds-tc",
+    .id = ULK_PROFILE_CCSDS_TC,
+    .gap_units = tc_gap_units,
+    .filler_rate = tc_filler_rate,
+    .filler_symbol = tc_filler_symbol,
+    .max_arg_bits = tc_max_arg_bits,
+    .unit_bits = tc_unit_bits,
+    .unit_bit = tc_unit_bit,
+    .encoder_create = tc_encoder_create,
+    .encode = tc_encode,
+    .encoder_destroy = tc_encoder_destroy,
+    .unit_noun = "CLTUs",
+    .symbol_noun = "channel bits",
+    .arg_room = tc_arg_room,
+    .symbol_rate = tc_symbol_rate,
+    .unit_octets = tc_unit_octets,
+    .security = tc_security,
 };
 
 const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id)
@@ -190,6 +255,8 @@ const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id)
     default: return NULL;
     }
 }
+
+const ulk_profile_ops *ulk_profile_of(const ulk_link *l) { return ulk_profile_ops_for(l->profile); }
 
 /* ---------------------------------------------------------------- unit checks (upload reader) */
 
