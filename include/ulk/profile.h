@@ -93,6 +93,10 @@ typedef struct ulk_profile_ops {
     size_t (*unit_octets)(const ulk_link *l, const ulk_upload_cmd *c);
     /* The security association of a secured link (enabled), else NULL. */
     const ulk_sdls_sa *(*security)(const ulk_link *l);
+    /* ---- upload reader ---- */
+    /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
+     * unit itself (a sub-bit word is read field by field). */
+    int (*check_unit)(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen);
 } ulk_profile_ops;
 
 /* The table of a profile; NULL for an unknown id. */
