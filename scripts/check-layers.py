@@ -37,7 +37,6 @@ KNOWN = {
     ("src/io/upload.c", "ulk/ccsds.h"): "the upload file's ccsds-tc records are written and read in upload.c",
     ("src/io/upload.c", "ulk/sdls.h"): "the upload file's security association is read in upload.c",
     ("src/dsp/rx.c", "ulk/tc_decode.h"): "the receiver chooses the CLTU decoder by name",
-    ("src/dsp/verify.c", "ulk/ccsds.h"): "verify compares CLTU octets itself",
     ("include/ulk/rx.h", "ulk/sdls.h"): "receiver events carry the security verdict type",
 }
 

@@ -27,6 +27,7 @@
 #define ULK_PROFILE_H
 
 #include <stddef.h>
+#include <stdio.h>
 #include <stdint.h>
 
 #include "ulk/link.h"
@@ -93,6 +94,17 @@ typedef struct ulk_profile_ops {
     size_t (*unit_octets)(const ulk_link *l, const ulk_upload_cmd *c);
     /* The security association of a secured link (enabled), else NULL. */
     const ulk_sdls_sa *(*security)(const ulk_link *l);
+    /* ---- reports ---- */
+    /* The identity of command c as verify's report shows it: the word in hex, or the packet
+     * data field (opcode and arguments) read from the frame, in hex. buf holds len chars. */
+    void (*unit_hex)(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len);
+    /* The annotation of command c (k-th, 0-based) in a SigMF file: "word 1, line 3, 1A2B",
+     * "CLTU 1, line 3, APID 0x155 count 0 N(S) 0". */
+    void (*unit_comment)(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len);
+    /* The lines of compile's summary that describe the units of an upload with n_symbols
+     * channel symbols (two lines, each "  <what>  <figures>\n"). Returns what fprintf returns
+     * (negative on a write error). */
+    int (*print_units)(FILE *out, const ulk_upload *u, uint64_t n_symbols);
     /* ---- upload reader ---- */
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */

@@ -143,14 +143,8 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
             ulk_mod_first_sample(l, fs, (pat + bits) * (uint64_t)l->n_subbits, &s1) < 0)
             return 0; /* rates too fine: the modulator would have refused already */
         pat += bits;
-        char hex[40], comment[160];
-        if (l->profile == ULK_PROFILE_CCSDS_TC) {
-            snprintf(comment, sizeof comment, "CLTU %zu, line %d, APID 0x%03X count %u N(S) %u", k + 1, u->cmds[k].line,
-                     u->cmds[k].system_addr, u->cmds[k].seq_count, u->cmds[k].frame_seq);
-        } else {
-            ulk_word_hex(&u->cmds[k].word, hex);
-            snprintf(comment, sizeof comment, "word %zu, line %d, %s", k + 1, u->cmds[k].line, hex);
-        }
+        char comment[160];
+        prof->unit_comment(l, &u->cmds[k], k, comment, sizeof comment);
         int rc = ulk_writer_annotate(w, s0, s1 - s0, u->cmds[k].mnemonic, comment);
         if (rc < 0) return rc;
     }

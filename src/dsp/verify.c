@@ -4,7 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "ulk/ccsds.h"
+#include "ulk/profile.h"
 #include "ulk/verify.h"
 #include "util.h"
 
@@ -31,18 +31,7 @@ static int same_unit(const ulk_upload_cmd *c, const ulk_verify_unit *w)
  * packet data field, read from the frame. */
 void ulk_verify_sent_hex(const ulk_upload *u, const ulk_upload_cmd *c, char *buf, size_t len)
 {
-    if (u->link.profile != ULK_PROFILE_CCSDS_TC) {
-        char hx[40];
-        ulk_word_hex(&c->word, hx);
-        snprintf(buf, len, "%s", hx);
-        return;
-    }
-    const ulk_ccsds_tc *tc = &u->link.tc.frame;
-    size_t a = ULK_TCF_HDR_OCTETS + (tc->segment_header ? 1 : 0) + ULK_SPP_HDR_OCTETS;
-    size_t b = c->n_frame - (tc->fecf ? 2 : 0);
-    size_t k = 0;
-    for (size_t i = a; i < b && k + 3 <= len; i++, k += 2) snprintf(buf + k, 3, "%02X", c->frame[i]);
-    buf[k < len ? k : len - 1] = 0;
+    ulk_profile_of(&u->link)->unit_hex(&u->link, c, buf, len);
 }
 
 typedef ulk_verify_op op;

@@ -191,6 +191,34 @@ static int tc_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, 
     return rc;
 }
 
+/* the packet data field, read from the frame: after the frame header, segment header and
+ * packet header, before the FECF */
+static void tc_unit_hex(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len)
+{
+    const ulk_ccsds_tc *tc = &l->tc.frame;
+    size_t a = ULK_TCF_HDR_OCTETS + (tc->segment_header ? 1 : 0) + ULK_SPP_HDR_OCTETS;
+    size_t b = c->n_frame - (tc->fecf ? 2 : 0);
+    size_t k = 0;
+    for (size_t i = a; i < b && k + 3 <= len; i++, k += 2) snprintf(buf + k, 3, "%02X", c->frame[i]);
+    buf[k < len ? k : len - 1] = 0;
+}
+
+static void tc_unit_comment(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len)
+{
+    (void)l;
+    snprintf(buf, len, "CLTU %zu, line %d, APID 0x%03X count %u N(S) %u", k + 1, c->line, c->system_addr,
+             c->seq_count, c->frame_seq);
+}
+
+static int tc_print_units(FILE *out, const ulk_upload *up, uint64_t n_bits)
+{
+    size_t oct = 0;
+    for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
+    int a = fprintf(out, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
+    int b = fprintf(out, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_bits);
+    return a < 0 || b < 0 ? -1 : a + b;
+}
+
 const ulk_profile_ops ulk_profile_ccsds_tc = {
     .name = "ccsds-tc",
     .id = ULK_PROFILE_CCSDS_TC,
@@ -209,5 +237,8 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .symbol_rate = tc_symbol_rate,
     .unit_octets = tc_unit_octets,
     .security = tc_security,
+    .unit_hex = tc_unit_hex,
+    .unit_comment = tc_unit_comment,
+    .print_units = tc_print_units,
     .check_unit = tc_check_unit,
 };

@@ -78,6 +78,30 @@ static const ulk_sdls_sa *sb_security(const ulk_link *l)
     return NULL;
 }
 
+static void sb_unit_hex(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len)
+{
+    (void)l;
+    char hx[40];
+    ulk_word_hex(&c->word, hx);
+    snprintf(buf, len, "%s", hx);
+}
+
+static void sb_unit_comment(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len)
+{
+    (void)l;
+    char hex[40];
+    ulk_word_hex(&c->word, hex);
+    snprintf(buf, len, "word %zu, line %d, %s", k + 1, c->line, hex);
+}
+
+static int sb_print_units(FILE *out, const ulk_upload *up, uint64_t n_sub)
+{
+    int a = fprintf(out, "  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits,
+                    ulk_check_name(up->link.check));
+    int b = fprintf(out, "  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
+    return a < 0 || b < 0 ? -1 : a + b;
+}
+
 const ulk_profile_ops ulk_profile_subbit = {
     .name = "subbit",
     .id = ULK_PROFILE_SUBBIT,
@@ -96,5 +120,8 @@ const ulk_profile_ops ulk_profile_subbit = {
     .symbol_rate = sb_symbol_rate,
     .unit_octets = sb_unit_octets,
     .security = sb_security,
+    .unit_hex = sb_unit_hex,
+    .unit_comment = sb_unit_comment,
+    .print_units = sb_print_units,
     .check_unit = NULL,
 };
