@@ -105,6 +105,14 @@ typedef struct ulk_profile_ops {
      * channel symbols (two lines, each "  <what>  <figures>\n"). Returns what fprintf returns
      * (negative on a write error). */
     int (*print_units)(FILE *out, const ulk_upload *u, uint64_t n_symbols);
+    /* `ulk inspect`: every unit of upload u with its fields named (path is the name shown),
+     * or the same as one JSON document. Return 0, ULK_ENOMEM, or ULK_EIO when out failed. */
+    int (*inspect_text)(FILE *out, const char *path, const ulk_upload *u);
+    int (*inspect_json)(FILE *out, const ulk_upload *u);
+    /* `ulk validate`: the summary of dictionary d (its link profile's figures), as text, or
+     * as a cJSON object (a cJSON *; NULL when out of memory) the caller owns. */
+    void (*summary_text)(const ulk_dict *d, FILE *out);
+    void *(*summary_json)(const ulk_dict *d);
     /* ---- upload reader ---- */
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */

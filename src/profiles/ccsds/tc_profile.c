@@ -219,6 +219,8 @@ static int tc_print_units(FILE *out, const ulk_upload *up, uint64_t n_bits)
     return a < 0 || b < 0 ? -1 : a + b;
 }
 
+static void *tc_summary_json(const ulk_dict *d) { return ulk_tc_summary_json(d); }
+
 const ulk_profile_ops ulk_profile_ccsds_tc = {
     .name = "ccsds-tc",
     .id = ULK_PROFILE_CCSDS_TC,
@@ -239,6 +241,10 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .security = tc_security,
     .unit_hex = tc_unit_hex,
     .unit_comment = tc_unit_comment,
+    .inspect_text = ulk_tc_inspect_text,
+    .inspect_json = ulk_tc_inspect_json,
+    .summary_text = ulk_tc_summary_text,
+    .summary_json = tc_summary_json,
     .print_units = tc_print_units,
     .check_unit = tc_check_unit,
 };

@@ -102,6 +102,8 @@ static int sb_print_units(FILE *out, const ulk_upload *up, uint64_t n_sub)
     return a < 0 || b < 0 ? -1 : a + b;
 }
 
+static void *sb_summary_json(const ulk_dict *d) { return ulk_subbit_summary_json(d); }
+
 const ulk_profile_ops ulk_profile_subbit = {
     .name = "subbit",
     .id = ULK_PROFILE_SUBBIT,
@@ -122,6 +124,10 @@ const ulk_profile_ops ulk_profile_subbit = {
     .security = sb_security,
     .unit_hex = sb_unit_hex,
     .unit_comment = sb_unit_comment,
+    .inspect_text = ulk_subbit_inspect_text,
+    .inspect_json = ulk_subbit_inspect_json,
+    .summary_text = ulk_subbit_summary_text,
+    .summary_json = sb_summary_json,
     .print_units = sb_print_units,
     .check_unit = NULL,
 };
