@@ -16,6 +16,11 @@
  * dictionary side of compiling (arguments by name -> raw fields -> packed bits).
  *
  * A profile never sees samples and never formats arguments: packed argument bits go in.
+ * Besides encoding, the table holds what else differs between profiles: its words in
+ * messages, its rates, its security association, its lines in the reports of compile,
+ * inspect, validate and verify, and the upload reader's check of a unit (the rest is listed
+ * in DEVELOPERS.md, "How to add a link profile"). Each profile's table lives in its folder
+ * under src/profiles/ and is registered in src/profiles/profile.c.
  *
  * Usage (what ulk_compile does):
  *     const ulk_profile_ops *p = ulk_profile_ops_for(d->link.profile);
@@ -113,6 +118,11 @@ typedef struct ulk_profile_ops {
      * as a cJSON object (a cJSON *; NULL when out of memory) the caller owns. */
     void (*summary_text)(const ulk_dict *d, FILE *out);
     void *(*summary_json)(const ulk_dict *d);
+    /* verify: the scheduled start in seconds of every unit of u (n_cmds >= 1), malloc'd
+     * (ulk_free), for breaking ties between equal alignments; NULL when out of memory or the
+     * rates are unusable. The operation itself is NULL for a profile without a time preference
+     * (ccsds-tc: CLTUs are aligned by content alone). */
+    double *(*unit_start_times)(const ulk_upload *u);
     /* ---- upload reader ---- */
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */

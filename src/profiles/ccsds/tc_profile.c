@@ -125,7 +125,7 @@ static void tc_arg_room(const ulk_link *l, char *buf, size_t n)
     snprintf(buf, n, "a %d-octet TC frame (%zu argument bits at most)", ULK_TCF_MAX_OCTETS, tc_max_arg_bits(l));
 }
 
-/* one channel symbol per bit: R_s = R (ccsds-tc-profile.md section 3) */
+/* one channel symbol per bit: R_s = R (docs/spec/ccsds-tc.md section 3) */
 static ulk_ratio tc_symbol_rate(const ulk_link *l) { return l->bit_rate; }
 
 static size_t tc_unit_octets(const ulk_link *l, const ulk_upload_cmd *c)
@@ -246,5 +246,6 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .summary_text = ulk_tc_summary_text,
     .summary_json = tc_summary_json,
     .print_units = tc_print_units,
+    .unit_start_times = NULL,
     .check_unit = tc_check_unit,
 };

@@ -104,6 +104,23 @@ static int sb_print_units(FILE *out, const ulk_upload *up, uint64_t n_sub)
 
 static void *sb_summary_json(const ulk_dict *d) { return ulk_subbit_summary_json(d); }
 
+/* idles and words of n sub-bits at R_s (docs/spec/subbit.md section 3) */
+static double *sb_unit_start_times(const ulk_upload *u)
+{
+    size_t nu = u->n_cmds;
+    double rs = ulk_ratio_to_double(u->link.bit_rate) * u->link.n_subbits;
+    if (!(rs > 0)) return NULL;
+    double *t = ulk_malloc(nu * sizeof *t);
+    if (!t) return NULL;
+    double g = 0; /* groups (idle patterns and bits) before word i */
+    for (size_t i = 0; i < nu; i++) {
+        g += (double)ulk_upload_idles_before(u, i);
+        t[i] = g * u->link.n_subbits / rs;
+        g += u->link.word_bits;
+    }
+    return t;
+}
+
 const ulk_profile_ops ulk_profile_subbit = {
     .name = "subbit",
     .id = ULK_PROFILE_SUBBIT,
@@ -129,5 +146,6 @@ const ulk_profile_ops ulk_profile_subbit = {
     .summary_text = ulk_subbit_summary_text,
     .summary_json = sb_summary_json,
     .print_units = sb_print_units,
+    .unit_start_times = sb_unit_start_times,
     .check_unit = NULL,
 };
