@@ -50,6 +50,9 @@ typedef struct {
     size_t n_arg_bits;
 } ulk_unit_request;
 
+/* The upload writer's text buffer: opaque here, see ulk_profile_ops.upload_write_link. */
+struct ulk_jbuf;
+
 /* Which filler run a gap is. */
 typedef enum { ULK_GAP_FIRST = 0, ULK_GAP_BETWEEN = 1, ULK_GAP_LAST = 2 } ulk_gap;
 
@@ -123,6 +126,12 @@ typedef struct ulk_profile_ops {
      * rates are unusable. The operation itself is NULL for a profile without a time preference
      * (ccsds-tc: CLTUs are aligned by content alone). */
     double *(*unit_start_times)(const ulk_upload *u);
+    /* ---- upload writer ---- */
+    /* The link object of an upload file (",\n  \"link\": {...},\n"), and the end of command
+     * c's record after its arguments ("],\n ... }"), into the writer's text buffer (opaque
+     * here; the library's internal src/io/upload_text.h). */
+    void (*upload_write_link)(const ulk_link *l, struct ulk_jbuf *b);
+    void (*upload_write_unit)(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
     /* ---- upload reader ---- */
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */

@@ -22,5 +22,10 @@ void ulk_subbit_summary_text(const ulk_dict *d, FILE *out);
 cJSON *ulk_subbit_summary_json(const ulk_dict *d);
 void ulk_tc_summary_text(const ulk_dict *d, FILE *out);
 cJSON *ulk_tc_summary_json(const ulk_dict *d);
+/* the upload file's parts (ulk_profile_ops.upload_write_link / upload_write_unit) */
+void ulk_subbit_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
+void ulk_subbit_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
+void ulk_tc_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
+void ulk_tc_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
 
 #endif
