@@ -28,6 +28,8 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "ulk/link.h"
+
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -73,25 +75,8 @@ extern "C" {
 
 /* ---- the profile's tc section (ccsds-tc-profile.md section 1) ---- */
 
-typedef enum { ULK_BCH_SEC = 0, ULK_BCH_TED = 1 } ulk_bch_mode;
-typedef enum { ULK_TC_EXPEDITED = 0, ULK_TC_SEQUENCE_CONTROLLED = 1 } ulk_tc_service;
-
-typedef struct {
-    uint16_t spacecraft_id;    /* SCID, 0..1023 */
-    uint8_t virtual_channel;   /* VCID, 0..63 */
-    ulk_tc_service service;    /* expedited: Type-BD (bypass 1, N(S) 0); else Type-AD */
-    int segment_header;        /* 1: a one-octet segment header (sequence flags '11') */
-    uint8_t map_id;            /* MAP ID of the segment header, 0..63 */
-    int fecf;                  /* 1: frames end in a 16-bit FECF */
-    int randomize;             /* 1: frames are pseudo-randomized before coding */
-    int start_errors;          /* start-sequence bit errors the decoder tolerates, 0 or 1 */
-    ulk_bch_mode correction;   /* codeblock decoding mode */
-    /* Space Data Link Security (ulk/sdls.h): octets of the security header (SPI + IV) after
-     * the segment header and of the security trailer (MAC) before the FECF; 0 and 0 for an
-     * unsecured link. ulk_tcf_build leaves them zero for ulk_sdls_protect to fill. */
-    uint8_t sec_header_octets;  /* 0, or 3..64 */
-    uint8_t sec_trailer_octets; /* 0..64 (0 unless sec_header_octets) */
-} ulk_ccsds_tc;
+/* ulk_bch_mode, ulk_tc_service and ulk_ccsds_tc, the parameter block, are declared in
+ * ulk/link.h: the link model carries them, so the link header includes no profile header. */
 
 /* Fills tc with the profile's defaults: SCID 0, VCID 0, expedited, no segment header, FECF
  * on, randomizer on, start_errors 0, SEC. NULL does nothing. */

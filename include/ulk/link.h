@@ -9,9 +9,6 @@
 
 #include <stdint.h>
 
-#include "ulk/ccsds.h"
-#include "ulk/sdls.h"
-
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -48,6 +45,46 @@ typedef enum {
 
 #define ULK_MAX_SUBBITS 16
 #define ULK_MAX_WORD_BITS 128 /* 16 + 16 + 16 + 64 + 16 */
+
+/* The bit layer's configuration of the CCSDS telecommand profile (its functions are in
+ * ulk/ccsds.h; docs/spec/ccsds-tc.md section 1). */
+typedef enum { ULK_BCH_SEC = 0, ULK_BCH_TED = 1 } ulk_bch_mode;
+typedef enum { ULK_TC_EXPEDITED = 0, ULK_TC_SEQUENCE_CONTROLLED = 1 } ulk_tc_service;
+
+typedef struct {
+    uint16_t spacecraft_id;    /* SCID, 0..1023 */
+    uint8_t virtual_channel;   /* VCID, 0..63 */
+    ulk_tc_service service;    /* expedited: Type-BD (bypass 1, N(S) 0); else Type-AD */
+    int segment_header;        /* 1: a one-octet segment header (sequence flags '11') */
+    uint8_t map_id;            /* MAP ID of the segment header, 0..63 */
+    int fecf;                  /* 1: frames end in a 16-bit FECF */
+    int randomize;             /* 1: frames are pseudo-randomized before coding */
+    int start_errors;          /* start-sequence bit errors the decoder tolerates, 0 or 1 */
+    ulk_bch_mode correction;   /* codeblock decoding mode */
+    /* Space Data Link Security (ulk/sdls.h): octets of the security header (SPI + IV) after
+     * the segment header and of the security trailer (MAC) before the FECF; 0 and 0 for an
+     * unsecured link. ulk_tcf_build leaves them zero for ulk_sdls_protect to fill. */
+    uint8_t sec_header_octets;  /* 0, or 3..64 */
+    uint8_t sec_trailer_octets; /* 0..64 (0 unless sec_header_octets) */
+} ulk_ccsds_tc;
+
+/* The security association of a secured ccsds-tc link (its functions are in ulk/sdls.h):
+ * the dictionary's link.tc.security map. */
+#define ULK_SDLS_KEY_NAME_MAX 48     /* key names: 1..47 of [A-Za-z0-9_.-] */
+typedef enum { ULK_SDLS_AUTHENTICATION = 0, ULK_SDLS_AUTHENTICATED_ENCRYPTION = 1 } ulk_sdls_service;
+typedef enum { ULK_SDLS_AES_256_GCM = 0 } ulk_sdls_algorithm;
+
+/* The security association of a link: the dictionary's link.tc.security map. */
+typedef struct {
+    int enabled;                       /* 0: no security (every other field unused) */
+    uint16_t spi;                      /* 1..65534 */
+    char key[ULK_SDLS_KEY_NAME_MAX];   /* the key's name in the key file (never key material) */
+    ulk_sdls_service service;
+    ulk_sdls_algorithm algorithm;
+    int iv_octets;                     /* 12..16, default 12 */
+    int mac_octets;                    /* 12..16, default 16 */
+    uint32_t window;                   /* receiving side's anti-replay window, 1..2^20, default 64 */
+} ulk_sdls_sa;
 
 /* The `tc` section of the CCSDS telecommand profile (ccsds-tc-profile.md section 1). The
  * frame, coding and decoder choices are the bit layer's own configuration (ulk/ccsds.h);

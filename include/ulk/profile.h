@@ -16,6 +16,11 @@
  * dictionary side of compiling (arguments by name -> raw fields -> packed bits).
  *
  * A profile never sees samples and never formats arguments: packed argument bits go in.
+ * Besides encoding, the table holds what else differs between profiles: its words in
+ * messages, its rates, its security association, its lines in the reports of compile,
+ * inspect, validate and verify, and the upload reader's check of a unit (the rest is listed
+ * in DEVELOPERS.md, "How to add a link profile"). Each profile's table lives in its folder
+ * under src/profiles/ and is registered in src/profiles/profile.c.
  *
  * Usage (what ulk_compile does):
  *     const ulk_profile_ops *p = ulk_profile_ops_for(d->link.profile);
@@ -27,6 +32,7 @@
 #define ULK_PROFILE_H
 
 #include <stddef.h>
+#include <stdio.h>
 #include <stdint.h>
 
 #include "ulk/link.h"
@@ -43,6 +49,9 @@ typedef struct {
     const uint8_t *arg_bits;   /* packed arguments, 0/1, MSB first, dictionary order, no padding */
     size_t n_arg_bits;
 } ulk_unit_request;
+
+/* The upload writer's text buffer: opaque here, see ulk_profile_ops.upload_write_link. */
+struct ulk_jbuf;
 
 /* Which filler run a gap is. */
 typedef enum { ULK_GAP_FIRST = 0, ULK_GAP_BETWEEN = 1, ULK_GAP_LAST = 2 } ulk_gap;
@@ -80,10 +89,60 @@ typedef struct ulk_profile_ops {
      * octets exceeds 1024"); ULK_ENOMEM. */
     int (*encode)(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen);
     void (*encoder_destroy)(void *enc);  /* NULL does nothing */
+    /* ---- words for messages and metadata ---- */
+    const char *unit_noun;     /* what a command becomes, plural: "words", "CLTUs" */
+    const char *symbol_noun;   /* what the timing table counts: "sub-bits", "channel bits" */
+    /* Writes where the packed arguments of one command go, for "its arguments do not fit %s":
+     * "the 16-bit argument field", "a 1024-octet TC frame (8152 argument bits at most)". */
+    void (*arg_room)(const ulk_link *l, char *buf, size_t n);
+    /* ---- sizes and rates ---- */
+    /* Channel symbols per second on the subcarrier: R_b * n, or R. */
+    ulk_ratio (*symbol_rate)(const ulk_link *l);
+    /* Octets command c's unit takes in memory and in the modulator: ceil(W / 8), or the CLTU. */
+    size_t (*unit_octets)(const ulk_link *l, const ulk_upload_cmd *c);
+    /* The security association of a secured link (enabled), else NULL. */
+    const ulk_sdls_sa *(*security)(const ulk_link *l);
+    /* ---- reports ---- */
+    /* The identity of command c as verify's report shows it: the word in hex, or the packet
+     * data field (opcode and arguments) read from the frame, in hex. buf holds len chars. */
+    void (*unit_hex)(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len);
+    /* The annotation of command c (k-th, 0-based) in a SigMF file: "word 1, line 3, 1A2B",
+     * "CLTU 1, line 3, APID 0x155 count 0 N(S) 0". */
+    void (*unit_comment)(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len);
+    /* The lines of compile's summary that describe the units of an upload with n_symbols
+     * channel symbols (two lines, each "  <what>  <figures>\n"). Returns what fprintf returns
+     * (negative on a write error). */
+    int (*print_units)(FILE *out, const ulk_upload *u, uint64_t n_symbols);
+    /* `ulk inspect`: every unit of upload u with its fields named (path is the name shown),
+     * or the same as one JSON document. Return 0, ULK_ENOMEM, or ULK_EIO when out failed. */
+    int (*inspect_text)(FILE *out, const char *path, const ulk_upload *u);
+    int (*inspect_json)(FILE *out, const ulk_upload *u);
+    /* `ulk validate`: the summary of dictionary d (its link profile's figures), as text, or
+     * as a cJSON object (a cJSON *; NULL when out of memory) the caller owns. */
+    void (*summary_text)(const ulk_dict *d, FILE *out);
+    void *(*summary_json)(const ulk_dict *d);
+    /* verify: the scheduled start in seconds of every unit of u (n_cmds >= 1), malloc'd
+     * (ulk_free), for breaking ties between equal alignments; NULL when out of memory or the
+     * rates are unusable. The operation itself is NULL for a profile without a time preference
+     * (ccsds-tc: CLTUs are aligned by content alone). */
+    double *(*unit_start_times)(const ulk_upload *u);
+    /* ---- upload writer ---- */
+    /* The link object of an upload file (",\n  \"link\": {...},\n"), and the end of command
+     * c's record after its arguments ("],\n ... }"), into the writer's text buffer (opaque
+     * here; the library's internal src/io/upload_text.h). */
+    void (*upload_write_link)(const ulk_link *l, struct ulk_jbuf *b);
+    void (*upload_write_unit)(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
+    /* ---- upload reader ---- */
+    /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
+     * unit itself (a sub-bit word is read field by field). */
+    int (*check_unit)(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen);
 } ulk_profile_ops;
 
 /* The table of a profile; NULL for an unknown id. */
 const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id);
+/* The table of l's profile, for a link the dictionary loader or upload reader made (its
+ * profile is one of the registered ones). */
+const ulk_profile_ops *ulk_profile_of(const ulk_link *l);
 
 /* Rebuilds what command c's unit must be from its fields (system address, opcode, argument
  * raw values, and for ccsds-tc the sequence count and N(S)) and compares: 0 when c's unit is

@@ -46,7 +46,7 @@ extern "C" {
 
 #define ULK_SDLS_KEY_OCTETS 32       /* AES-256 */
 #define ULK_SDLS_SPI_OCTETS 2
-#define ULK_SDLS_KEY_NAME_MAX 48     /* key names: 1..47 of [A-Za-z0-9_.-] */
+/* ULK_SDLS_KEY_NAME_MAX (key names: 1..47 of [A-Za-z0-9_.-]) is in ulk/link.h */
 #define ULK_SDLS_MIN_IV_OCTETS 12    /* the counter needs 8; GCM's recommended IV is 12 */
 #define ULK_SDLS_MAX_IV_OCTETS 16
 #define ULK_SDLS_MIN_MAC_OCTETS 12   /* 96..128-bit tags (NIST SP 800-38D s.5.2.1.2, from memory) */
@@ -54,20 +54,8 @@ extern "C" {
 #define ULK_SDLS_MAX_WINDOW 1048576u
 #define ULK_SDLS_COUNTER_MAX UINT64_MAX /* never handed out: the counter would wrap after it */
 
-typedef enum { ULK_SDLS_AUTHENTICATION = 0, ULK_SDLS_AUTHENTICATED_ENCRYPTION = 1 } ulk_sdls_service;
-typedef enum { ULK_SDLS_AES_256_GCM = 0 } ulk_sdls_algorithm;
-
-/* The security association of a link: the dictionary's link.tc.security map. */
-typedef struct {
-    int enabled;                       /* 0: no security (every other field unused) */
-    uint16_t spi;                      /* 1..65534 */
-    char key[ULK_SDLS_KEY_NAME_MAX];   /* the key's name in the key file (never key material) */
-    ulk_sdls_service service;
-    ulk_sdls_algorithm algorithm;
-    int iv_octets;                     /* 12..16, default 12 */
-    int mac_octets;                    /* 12..16, default 16 */
-    uint32_t window;                   /* receiving side's anti-replay window, 1..2^20, default 64 */
-} ulk_sdls_sa;
+/* ulk_sdls_service, ulk_sdls_algorithm and ulk_sdls_sa, the security association of a link
+ * (the dictionary's link.tc.security map), are declared in ulk/link.h with the link model. */
 
 /* Defaults: disabled, SPI 0, authentication, aes-256-gcm, IV 12, MAC 16, window 64. */
 void ulk_sdls_sa_default(ulk_sdls_sa *sa);

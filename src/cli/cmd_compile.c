@@ -10,6 +10,7 @@
 #include "cli.h"
 #include "ulk/cmdlist.h"
 #include "ulk/dict.h"
+#include "ulk/profile.h"
 #include "ulk/sdls.h"
 #include "ulk/upload.h"
 
@@ -130,8 +131,8 @@ static void sec_notices(const sec_ctx *s, int created)
  * before it is read. Returns 0 or the exit code (message printed, nothing written). */
 static int sec_open(sec_ctx *s, const ulk_dict *dict, const char *dict_path, ulk_diag *diag)
 {
-    const ulk_sdls_sa *sa = dict->link.profile == ULK_PROFILE_CCSDS_TC ? &dict->link.tc.security : NULL;
-    s->sa = sa && sa->enabled ? sa : NULL;
+    const ulk_sdls_sa *sa = ulk_profile_of(&dict->link)->security(&dict->link);
+    s->sa = sa;
     if (s->sa && (!s->keys_path || !s->state_path)) {
         fprintf(stderr,
                 "ulk compile: dictionary %s secures every frame (link.tc.security: SPI %u, key '%s'): give the key file with "
@@ -211,15 +212,7 @@ static void print_summary(FILE *say, const args *a, const ulk_dict *dict, const 
     ulk_ratio_format(up->link.bit_rate, rb, sizeof rb);
     fprintf(say, "compiled %s with %s %s -> %s\n", a->list_path, dict->name, dict->version, a->out_path);
     fprintf(say, "  commands  %zu\n", up->n_cmds);
-    if (up->link.profile == ULK_PROFILE_CCSDS_TC) {
-        size_t oct = 0;
-        for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
-        fprintf(say, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
-        fprintf(say, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_sub);
-    } else {
-        fprintf(say, "  words     %zu x %d bits (check %s)\n", up->n_cmds, up->link.word_bits, ulk_check_name(up->link.check));
-        fprintf(say, "  sub-bits  %llu (%d per bit)\n", (unsigned long long)n_sub, up->link.n_subbits);
-    }
+    ulk_profile_of(&up->link)->print_units(say, up, n_sub);
     if (s->sa && up->n_cmds)
         fprintf(say, "  security  SPI %u, %s, IV counters %" PRIu64 "..%" PRIu64 " (next %" PRIu64 " in %s)\n",
                 (unsigned)s->sa->spi, ulk_sdls_service_name(s->sa->service), s->first, s->first + up->n_cmds - 1,

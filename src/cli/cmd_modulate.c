@@ -110,7 +110,7 @@ static char *identity_json(const ulk_upload *u, const char *upload_path, uint64_
     ulk_ratio_format(l->fsc, buf, sizeof buf);
     ok &= cJSON_AddStringToObject(o, "ulk:subcarrier_hz_exact", buf) != NULL;
     ok &= cJSON_AddNumberToObject(o, "ulk:subbits_per_bit", l->n_subbits) != NULL;
-    ok &= cJSON_AddStringToObject(o, "ulk:profile", l->profile == ULK_PROFILE_CCSDS_TC ? "ccsds-tc" : "subbit") != NULL;
+    ok &= cJSON_AddStringToObject(o, "ulk:profile", ulk_profile_of(l)->name) != NULL;
     ok &= cJSON_AddStringToObject(o, "ulk:waveform", ulk_waveform_name(l->waveform)) != NULL;
     ok &= cJSON_AddStringToObject(o, "ulk:line_code", ulk_line_code_name(l->line_code)) != NULL;
     ok &= cJSON_AddNumberToObject(o, "ulk:amplitude", l->amplitude) != NULL;
@@ -145,14 +145,8 @@ static int annotate_words(ulk_writer *w, const ulk_upload *u, ulk_ratio fs)
             ulk_mod_first_sample(l, fs, (pat + bits) * (uint64_t)l->n_subbits, &s1) < 0)
             return 0; /* rates too fine: the modulator would have refused already */
         pat += bits;
-        char hex[40], comment[160];
-        if (l->profile == ULK_PROFILE_CCSDS_TC) {
-            snprintf(comment, sizeof comment, "CLTU %zu, line %d, APID 0x%03X count %u N(S) %u", k + 1, u->cmds[k].line,
-                     u->cmds[k].system_addr, u->cmds[k].seq_count, u->cmds[k].frame_seq);
-        } else {
-            ulk_word_hex(&u->cmds[k].word, hex);
-            snprintf(comment, sizeof comment, "word %zu, line %d, %s", k + 1, u->cmds[k].line, hex);
-        }
+        char comment[160];
+        prof->unit_comment(l, &u->cmds[k], k, comment, sizeof comment);
         int rc = ulk_writer_annotate(w, s0, s1 - s0, u->cmds[k].mnemonic, comment);
         if (rc < 0) return rc;
     }
@@ -272,7 +266,7 @@ static int write_samples(const ulk_upload *up, const sample_job *j, uint64_t *n_
     snprintf(desc, sizeof desc, "ulk modulate: upload %s (list %s, dictionary %s %s), %zu %s", j->up_path,
              up->source ? up->source : "?", up->dict_name ? up->dict_name : "?",
              up->dict_version ? up->dict_version : "?", up->n_cmds,
-             up->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words");
+             ulk_profile_of(&up->link)->unit_noun);
     extra = identity_json(up, j->up_path, ulk_upload_n_subbits(up));
     buf = ulk_malloc(CHUNK * sizeof(float));
     if (!extra || !buf) { ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", j->out_path); code = 2; goto out; }
@@ -347,7 +341,7 @@ static void summary(const ulk_upload *up, const sample_job *j, const char *timin
                 j->cont == ULK_CONTAINER_WAV ? "WAV" : cli_is_std(j->out_path) ? "raw" : "raw + SigMF");
     if (timing_path && !cli_is_std(timing_path))
         fprintf(say, "timing table %s: %llu %s at %s Hz\n", timing_path, (unsigned long long)ulk_upload_n_subbits(up),
-                up->link.profile == ULK_PROFILE_CCSDS_TC ? "channel bits" : "sub-bits", j->rate_norm);
+                ulk_profile_of(&up->link)->symbol_noun, j->rate_norm);
 }
 
 int cmd_modulate(int argc, char **argv)

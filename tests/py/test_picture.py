@@ -145,7 +145,7 @@ def main():
             for f in FOREIGN:
                 check(max(abs(a - b) for a, b in zip(c, f)) > 0.02, "colour %s is not a default cycle's %s" % (c, f))
         # the picture code carries no default cycle either
-        for name in ("picture.c", "plot.c", "carrier_plot.c", "spectrum.c"):
+        for name in ("io/picture.c", "io/plot.c", "io/carrier_plot.c", "dsp/spectrum.c"):
             text = open(os.path.join(SRC, "src", name), encoding="utf-8").read()
             nums = re.findall(r"\{\s*([01]\.\d+)\s*,\s*([01]\.\d+)\s*,\s*([01]\.\d+)\s*\}", text)
             bad = [t for t in nums if tuple(round(float(v), 2) for v in t) in FOREIGN]

@@ -8,6 +8,7 @@
 
 #include "ulk/carrier.h"
 #include "ulk/link.h"
+#include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "util.h"
 
@@ -30,8 +31,7 @@ static int build_marks(const ulk_dict *d, int is_complex, ulk_spectrum_mark *m)
     const ulk_link *l = &d->link;
     const ulk_carrier *c = ulk_dict_carrier(d);
     double fo = c && is_complex ? ulk_ratio_to_double(c->offset_hz) : 0.0;
-    double rs = l->profile == ULK_PROFILE_CCSDS_TC ? ulk_ratio_to_double(l->bit_rate)
-                                                    : ulk_ratio_to_double(ulk_link_subbit_rate(l));
+    double rs = ulk_ratio_to_double(ulk_profile_of(l)->symbol_rate(l));
     double fsc = ulk_ratio_to_double(l->fsc);
     if (c && is_complex) add_mark(m, &n, fo, 0, "carrier");
     add_mark(m, &n, fo + fsc, rs, "data");

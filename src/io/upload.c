@@ -26,9 +26,11 @@
 #include <openssl/evp.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/sdls.h"
 #include "ulk/profile.h"
 #include "ulk/upload.h"
 #include "ulk/word.h"
+#include "upload_text.h"
 #include "util.h"
 
 /* ------------------------------------------------------------------ lifetime */
@@ -75,11 +77,12 @@ void ulk_upload_destroy(ulk_upload *u)
 
 /* ------------------------------------------------------------------ writer */
 
-typedef struct {
+struct ulk_jbuf {
     char *p;
     size_t n, cap;
     int oom;
-} sbuf;
+};
+typedef struct ulk_jbuf sbuf;
 
 static void sb_grow(sbuf *b, size_t add)
 {
@@ -101,22 +104,30 @@ static void sb_put(sbuf *b, const char *s, size_t n)
     b->p[b->n] = 0;
 }
 
-static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void sb_printf(sbuf *b, const char *fmt, ...)
+static void sb_vprintf(sbuf *b, const char *fmt, va_list ap0)
 {
     char tmp[512];
     va_list ap;
-    va_start(ap, fmt);
+    va_copy(ap, ap0);
     int k = vsnprintf(tmp, sizeof tmp, fmt, ap);
     va_end(ap);
     if (k < 0) return;
     if ((size_t)k < sizeof tmp) { sb_put(b, tmp, (size_t)k); return; }
     sb_grow(b, (size_t)k);
     if (b->oom) return;
-    va_start(ap, fmt);
+    va_copy(ap, ap0);
     vsnprintf(b->p + b->n, (size_t)k + 1, fmt, ap);
     va_end(ap);
     b->n += (size_t)k;
+}
+
+static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void sb_printf(sbuf *b, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    sb_vprintf(b, fmt, ap);
+    va_end(ap);
 }
 
 /* A JSON string: quotes, backslashes and control bytes escaped; other bytes as they are. */
@@ -155,11 +166,6 @@ static void sb_double(sbuf *b, double v)
     sb_put(b, t, strlen(t));
 }
 
-static void pattern_str(const uint8_t *p, int n, char *out)
-{
-    for (int i = 0; i < n; i++) out[i] = (char)('0' + (p[i] & 1));
-    out[n] = 0;
-}
 
 /* Duration as an exact rational: patterns / R_b. */
 static ulk_ratio duration_ratio(const ulk_upload *u, uint64_t patterns, int *ok)
@@ -190,39 +196,24 @@ static void sb_hex(sbuf *b, const uint8_t *p, size_t n)
     b->p[b->n] = 0;
 }
 
-/* The link object of a ccsds-tc upload: the dictionary's link section, every default applied. */
-static void build_link_tc(const ulk_link *l, sbuf *b)
+/* ---- the writer's text buffer, for the profiles' parts of an upload (upload_text.h) */
+
+void ulk_jb_put(ulk_jbuf *b, const char *s) { sb_put(b, s, strlen(s)); }
+void ulk_jb_printf(ulk_jbuf *b, const char *fmt, ...)
 {
-    const ulk_tc_params *t = &l->tc;
-    static const char head[] = ",\n  \"link\": {\n    \"profile\": \"ccsds-tc\",\n    \"bit_rate\": ";
-    sb_put(b, head, sizeof head - 1);
-    sb_ratio(b, l->bit_rate);
-    sb_printf(b, ",\n    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
-    sb_ratio(b, l->fsc);
-    sb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
-    sb_double(b, l->amplitude);
-    sb_printf(b,
-              "},\n    \"tc\": {\"spacecraft_id\": %u, \"virtual_channel\": %u, \"service\": \"%s\", "
-              "\"first_sequence\": %u, \"segment_header\": ",
-              t->frame.spacecraft_id, t->frame.virtual_channel,
-              t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited", t->first_sequence);
-    if (t->frame.segment_header) sb_printf(b, "{\"map_id\": %u}", t->frame.map_id);
-    else sb_put(b, "null", 4);
-    sb_printf(b,
-              ",\n           \"fecf\": %s, \"randomize\": %s, \"acquisition_octets\": %u, \"idle_octets\": %u, "
-              "\"start_errors\": %d, \"correction\": \"%s\"}\n  },\n",
-              t->frame.fecf ? "true" : "false", t->frame.randomize ? "true" : "false", t->acquisition_octets,
-              t->idle_octets, t->frame.start_errors, t->frame.correction == ULK_BCH_TED ? "ted" : "sec");
-    if (t->security.enabled && !b->oom) {
-        /* the security association by key name: key material never enters an upload */
-        const ulk_sdls_sa *sa = &t->security;
-        b->n -= strlen("}\n  },\n"); /* reopen the tc object written just above */
-        sb_printf(b, ",\n           \"security\": {\"spi\": %u, \"key\": ", (unsigned)sa->spi);
-        sb_str(b, sa->key);
-        sb_printf(b, ", \"service\": \"%s\", \"algorithm\": \"aes-256-gcm\", \"iv_octets\": %d, \"mac_octets\": %d, "
-                     "\"window\": %u}}\n  },\n",
-                  ulk_sdls_service_name(sa->service), sa->iv_octets, sa->mac_octets, (unsigned)sa->window);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    sb_vprintf(b, fmt, ap);
+    va_end(ap);
+}
+void ulk_jb_str(ulk_jbuf *b, const char *s) { sb_str(b, s); }
+void ulk_jb_ratio(ulk_jbuf *b, ulk_ratio r) { sb_ratio(b, r); }
+void ulk_jb_double(ulk_jbuf *b, double v) { sb_double(b, v); }
+void ulk_jb_hex(ulk_jbuf *b, const uint8_t *p, size_t n) { sb_hex(b, p, n); }
+int ulk_jb_oom(const ulk_jbuf *b) { return b->oom; }
+void ulk_jb_unput(ulk_jbuf *b, size_t n)
+{
+    if (!b->oom && n <= b->n) b->n -= n;
 }
 
 #define DIGEST_HEAD "  \"digest\": \"sha256:"
@@ -241,10 +232,6 @@ static void sha256_hex(const void *p, size_t n, char out[65])
 static void build_doc(const ulk_upload *u, sbuf *b)
 {
     const ulk_link *l = &u->link;
-    char pz[17], po[17], pi[17];
-    pattern_str(l->zero, l->n_subbits, pz);
-    pattern_str(l->one, l->n_subbits, po);
-    pattern_str(l->idle, l->n_subbits, pi);
     sb_printf(b, "{\n  \"format\": \"ulk-upload\",\n  \"version\": %d,\n", ULK_UPLOAD_FORMAT_VERSION);
     sb_put(b, "  \"dictionary\": {\"name\": ", 25);
     sb_str(b, u->dict_name);
@@ -254,39 +241,11 @@ static void build_doc(const ulk_upload *u, sbuf *b)
     sb_str(b, u->dict_sha256);
     sb_put(b, "},\n  \"source\": ", 15);
     sb_str(b, u->source ? u->source : "");
-    int tc = l->profile == ULK_PROFILE_CCSDS_TC;
-    if (tc) build_link_tc(l, b);
-    else sb_put(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ", 55);
-    if (!tc) {
-    sb_ratio(b, l->bit_rate);
-    sb_printf(b, ",\n    \"subbits\": {\"zero\": \"%s\", \"one\": \"%s\", \"idle\": \"%s\"},\n", pz, po, pi);
-    sb_printf(b, "    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
-    sb_ratio(b, l->fsc);
-    sb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
-    sb_double(b, l->amplitude);
-    sb_put(b, "},\n    \"pilot\": ", 16);
-    if (l->has_pilot) {
-        sb_put(b, "{\"frequency\": ", 14);
-        sb_ratio(b, l->fp);
-        sb_put(b, ", \"amplitude\": ", 15);
-        sb_double(b, l->pilot_amplitude);
-        sb_put(b, "}", 1);
-    } else {
-        sb_put(b, "null", 4);
-    }
-    sb_printf(b, ",\n    \"framing\": {\"preamble\": %d, \"gap\": %d, \"postamble\": %d},\n", l->preamble, l->gap,
-              l->postamble);
-    sb_printf(b,
-              "    \"word\": {\"vehicle_address\": {\"bits\": %d, \"value\": %u}, \"system_address_bits\": %d, "
-              "\"opcode_bits\": %d, \"argument_bits\": %d, \"check\": \"%s\", \"word_bits\": %d}\n  },\n",
-              l->vehicle_bits, l->vehicle_value, l->system_bits, l->opcode_bits, l->argument_bits,
-              ulk_check_name(l->check), l->word_bits);
-    }
+    const ulk_profile_ops *prof = ulk_profile_of(l);
+    prof->upload_write_link(l, b);
     sb_put(b, "  \"commands\": [", 15);
     for (size_t i = 0; i < u->n_cmds; i++) {
         const ulk_upload_cmd *c = &u->cmds[i];
-        char hex[40];
-        ulk_word_hex(&c->word, hex);
         sb_printf(b, "%s\n    {\"line\": %d, \"mnemonic\": ", i ? "," : "", c->line);
         sb_str(b, c->mnemonic);
         sb_put(b, ", \"system\": ", 12);
@@ -307,17 +266,7 @@ static void build_doc(const ulk_upload *u, sbuf *b)
             sb_str(b, a->text);
             sb_put(b, "}", 1);
         }
-        if (tc) {
-            sb_printf(b, "],\n     \"sequence_count\": %u, \"frame_sequence\": %u,\n     \"frame\": \"", c->seq_count,
-                      c->frame_seq);
-            sb_hex(b, c->frame, c->n_frame);
-            static const char mid[] = "\",\n     \"cltu\": \"";
-            sb_put(b, mid, sizeof mid - 1);
-            sb_hex(b, c->cltu, c->n_cltu);
-            sb_put(b, "\"}", 2);
-        } else {
-            sb_printf(b, "],\n     \"word\": \"%s\"}", hex);
-        }
+        prof->upload_write_unit(l, c, b);
     }
     uint64_t pat = total_patterns(u);
     int ok;
@@ -350,12 +299,12 @@ int ulk_upload_write_hook(const ulk_upload *u, const char *path, ulk_upload_comm
                         path, u->n_cmds, ULK_UPLOAD_MAX_CMDS);
     size_t unit_octets = 0;
     for (size_t i = 0; i < u->n_cmds; i++)
-        unit_octets += u->link.profile == ULK_PROFILE_CCSDS_TC ? u->cmds[i].n_cltu : (size_t)(u->link.word_bits + 7) / 8;
+        unit_octets += ulk_profile_of(&u->link)->unit_octets(&u->link, &u->cmds[i]);
     if (unit_octets > ULK_UPLOAD_MAX_UNIT_OCTETS)
         return ulk_fail(diag, ULK_ELIMIT,
                         "%s: the %s of the upload take %zu octets; the limit is %zu (what keeps ulk modulate under "
                         "64 MB); split the command list; nothing written",
-                        path, u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTUs" : "words", unit_octets,
+                        path, ulk_profile_of(&u->link)->unit_noun, unit_octets,
                         ULK_UPLOAD_MAX_UNIT_OCTETS);
     sbuf b = {0};
     build_doc(u, &b);

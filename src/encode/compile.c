@@ -259,6 +259,114 @@ static const char *base_name(const char *p)
     return s ? s + 1 : p;
 }
 
+/* The message for an argument name c does not have: a suggestion, or what it takes. */
+static void no_such_arg(ulk_diag *diag, const ulk_loc *aloc, const ulk_command *c, const char *name)
+{
+    const char *cands[64];
+    for (int j = 0; j < c->n_args; j++) cands[j] = c->args[j].name;
+    const char *sug = ulk_suggest(name, cands, (size_t)c->n_args);
+    if (sug)
+        ulk_diag_add(diag, ULK_SEV_ERROR, aloc, "%s has no argument '%.80s' (did you mean '%s'?)",
+                     c->mnemonic, name, sug);
+    else if (c->n_args == 0)
+        ulk_diag_add(diag, ULK_SEV_ERROR, aloc, "%s takes no arguments (found '%.80s')", c->mnemonic,
+                     name);
+    else {
+        char names[400] = "";
+        size_t used = 0;
+        for (int j = 0; j < c->n_args && used + 70 < sizeof names; j++)
+            used += (size_t)snprintf(names + used, sizeof names - used, "%s%s", j ? ", " : "",
+                                     c->args[j].name);
+        ulk_diag_add(diag, ULK_SEV_ERROR, aloc, "%s has no argument '%.80s' (arguments: %s)",
+                     c->mnemonic, name, names);
+    }
+}
+
+/* The raw values of command c's arguments on list item it (given by name, else the
+ * dictionary's default) into vals, in dictionary order, and the confirmation of a critical
+ * command. Every problem is reported to diag; returns 1 when there was one, else 0. */
+static int resolve_args(const ulk_cmdlist *l, const ulk_cl_item *it, const ulk_command *c, ulk_argval *vals,
+                        ulk_diag *diag)
+{
+    ulk_loc loc = {l->file, it->line, it->col, NULL};
+    char err[1400];
+    int bad = 0;
+    int given[64];
+    memset(given, 0, sizeof given);
+    for (int k = 0; k < it->n_args; k++) {
+        const ulk_cl_arg *ca = &it->args[k];
+        ulk_loc aloc = {l->file, it->line, ca->col, NULL};
+        int ai = -1;
+        for (int j = 0; j < c->n_args; j++)
+            if (!strcmp(c->args[j].name, ca->name)) { ai = j; break; }
+        if (ai < 0) {
+            no_such_arg(diag, &aloc, c, ca->name);
+            bad = 1;
+            continue;
+        }
+        if (given[ai]) {
+            ulk_diag_add(diag, ULK_SEV_ERROR, &aloc, "argument '%s' given twice", ca->name);
+            bad = 1;
+            continue;
+        }
+        given[ai] = 1;
+        int off;
+        double requested;
+        if (value_of(&c->args[ai], ca->value, &vals[ai], &requested, &off, err, sizeof err) < 0) {
+            ulk_loc vloc = {l->file, it->line, ca->value_col + off, NULL};
+            ulk_diag_add(diag, ULK_SEV_ERROR, &vloc, "%s %s: %s", c->mnemonic, ca->name, err);
+            bad = 1;
+        } else {
+            ulk_loc vloc = {l->file, it->line, ca->value_col, NULL};
+            bad |= check_rounding(diag, &vloc, c->mnemonic, &c->args[ai], &vals[ai], requested);
+        }
+    }
+    for (int j = 0; j < c->n_args; j++) {
+        if (given[j]) continue;
+        const ulk_arg *a = &c->args[j];
+        if (!a->default_text) {
+            ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: missing argument '%s' (%s%s%s; it has no default)",
+                         c->mnemonic, a->name, ulk_arg_type_name(a->type), a->units ? ", " : "",
+                         a->units ? a->units : "");
+            bad = 1;
+            continue;
+        }
+        int off;
+        double requested;
+        if (value_of(a, a->default_text, &vals[j], &requested, &off, err, sizeof err) < 0) {
+            ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: the default of argument '%s' is unusable: %s",
+                         c->mnemonic, a->name, err);
+            bad = 1;
+        }
+    }
+    if (c->critical && !it->confirm) {
+        ulk_diag_add(diag, ULK_SEV_ERROR, &loc,
+                     "%s is a critical command: add 'confirm' to the line to send it", c->mnemonic);
+        bad = 1;
+    } else if (!c->critical && it->confirm) {
+        ulk_diag_add(diag, ULK_SEV_WARNING, &loc, "'confirm' on %s, which is not a critical command",
+                     c->mnemonic);
+    }
+    return bad;
+}
+
+/* The filler after the last command: its wait (from list line `line`) or the profile's
+ * minimum, whichever is longer. Returns 1 when the wait is too long (reported), else 0. */
+static int set_postamble(ulk_upload *u, const ulk_profile_ops *prof, ulk_ratio wait, const char *file, int line,
+                         ulk_diag *diag)
+{
+    int bad = 0;
+    uint64_t need = 0;
+    if (ulk_wait_patterns(wait, prof->filler_rate(&u->link), &need) < 0) {
+        ulk_loc loc = {file, line, 1, NULL};
+        ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "the wait after the last command is too long");
+        bad = 1;
+    }
+    uint64_t base = prof->gap_units(&u->link, ULK_GAP_LAST);
+    u->idles_after = need > base ? need : base;
+    return bad;
+}
+
 int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_diag *diag)
 {
     *out = NULL;
@@ -340,90 +448,15 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
             continue;
         }
         ulk_argval vals[64];
-        int given[64];
-        memset(given, 0, sizeof given);
-        for (int k = 0; k < it->n_args; k++) {
-            const ulk_cl_arg *ca = &it->args[k];
-            ulk_loc aloc = {l->file, it->line, ca->col, NULL};
-            int ai = -1;
-            for (int j = 0; j < c->n_args; j++)
-                if (!strcmp(c->args[j].name, ca->name)) { ai = j; break; }
-            if (ai < 0) {
-                const char *cands[64];
-                for (int j = 0; j < c->n_args; j++) cands[j] = c->args[j].name;
-                const char *sug = ulk_suggest(ca->name, cands, (size_t)c->n_args);
-                if (sug)
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &aloc, "%s has no argument '%.80s' (did you mean '%s'?)",
-                                 c->mnemonic, ca->name, sug);
-                else if (c->n_args == 0)
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &aloc, "%s takes no arguments (found '%.80s')", c->mnemonic,
-                                 ca->name);
-                else {
-                    char names[400] = "";
-                    size_t used = 0;
-                    for (int j = 0; j < c->n_args && used + 70 < sizeof names; j++)
-                        used += (size_t)snprintf(names + used, sizeof names - used, "%s%s", j ? ", " : "",
-                                                 c->args[j].name);
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &aloc, "%s has no argument '%.80s' (arguments: %s)",
-                                 c->mnemonic, ca->name, names);
-                }
-                bad = 1;
-                continue;
-            }
-            if (given[ai]) {
-                ulk_diag_add(diag, ULK_SEV_ERROR, &aloc, "argument '%s' given twice", ca->name);
-                bad = 1;
-                continue;
-            }
-            given[ai] = 1;
-            int off;
-            double requested;
-            if (value_of(&c->args[ai], ca->value, &vals[ai], &requested, &off, err, sizeof err) < 0) {
-                ulk_loc vloc = {l->file, it->line, ca->value_col + off, NULL};
-                ulk_diag_add(diag, ULK_SEV_ERROR, &vloc, "%s %s: %s", c->mnemonic, ca->name, err);
-                bad = 1;
-            } else {
-                ulk_loc vloc = {l->file, it->line, ca->value_col, NULL};
-                bad |= check_rounding(diag, &vloc, c->mnemonic, &c->args[ai], &vals[ai], requested);
-            }
-        }
-        for (int j = 0; j < c->n_args; j++) {
-            if (given[j]) continue;
-            const ulk_arg *a = &c->args[j];
-            if (!a->default_text) {
-                ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: missing argument '%s' (%s%s%s; it has no default)",
-                             c->mnemonic, a->name, ulk_arg_type_name(a->type), a->units ? ", " : "",
-                             a->units ? a->units : "");
-                bad = 1;
-                continue;
-            }
-            int off;
-            double requested;
-            if (value_of(a, a->default_text, &vals[j], &requested, &off, err, sizeof err) < 0) {
-                ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: the default of argument '%s' is unusable: %s",
-                             c->mnemonic, a->name, err);
-                bad = 1;
-            }
-        }
-        if (c->critical && !it->confirm) {
-            ulk_diag_add(diag, ULK_SEV_ERROR, &loc,
-                         "%s is a critical command: add 'confirm' to the line to send it", c->mnemonic);
-            bad = 1;
-        } else if (!c->critical && it->confirm) {
-            ulk_diag_add(diag, ULK_SEV_WARNING, &loc, "'confirm' on %s, which is not a critical command",
-                         c->mnemonic);
-        }
+        bad |= resolve_args(l, it, c, vals, diag);
         /* pack the arguments in dictionary order (the profile pads: zeros up to D, or to an octet) */
         size_t pos = 0;
         for (int j = 0; j < c->n_args && !bad; j++) {
             int w = c->args[j].bits;
             if (w < 1 || w > 64 || pos + (size_t)w > max_arg_bits) {
-                if (lk->profile == ULK_PROFILE_CCSDS_TC)
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit a %d-octet TC frame (%zu argument bits at most)",
-                                 c->mnemonic, ULK_TCF_MAX_OCTETS, max_arg_bits);
-                else
-                    ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit the %d-bit argument field",
-                                 c->mnemonic, lk->argument_bits);
+                char room[128];
+                prof->arg_room(lk, room, sizeof room);
+                ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "%s: its arguments do not fit %s", c->mnemonic, room);
                 bad = 1;
                 break;
             }
@@ -460,16 +493,7 @@ int ulk_compile(const ulk_dict *d, const ulk_cmdlist *l, ulk_upload **out, ulk_d
     }
     u->wait_after = pending;
     u->wait_after_s = ulk_ratio_to_double(pending);
-    {
-        uint64_t need = 0;
-        if (ulk_wait_patterns(pending, prof->filler_rate(lk), &need) < 0) {
-            ulk_loc loc = {l->file, pending_line, 1, NULL};
-            ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "the wait after the last command is too long");
-            errors++;
-        }
-        uint64_t base = prof->gap_units(lk, ULK_GAP_LAST);
-        u->idles_after = need > base ? need : base;
-    }
+    errors += set_postamble(u, prof, pending, l->file, pending_line, diag);
     if (l->n_commands == 0) {
         ulk_loc loc = {l->file, 0, 0, NULL};
         ulk_diag_add(diag, ULK_SEV_ERROR, &loc, "the command list has no commands; an empty upload is refused");

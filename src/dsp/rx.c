@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "ulk/sampleio.h"
 #include "ulk/tc_decode.h"
@@ -328,12 +329,12 @@ static int rx_setup_security(ulk_rx *rx)
     const ulk_rx_options *o = &rx->o;
     const ulk_link *l = &rx->dict->link;
     int asked = o->keys_path || o->state_path;
-    if (l->profile != ULK_PROFILE_CCSDS_TC || !l->tc.security.enabled) {
+    const ulk_sdls_sa *sa = ulk_profile_of(l)->security(l);
+    if (!sa) {
         if (!asked) return 0;
         return ulk_fail(rx->diag, ULK_EINVAL, "%s: the dictionary has no link.tc.security: --keys and --state have "
                                               "nothing to do", rx->name);
     }
-    const ulk_sdls_sa *sa = &l->tc.security;
     rx->est.secured = 1;
     if (!o->keys_path) {
         if (o->state_path)

@@ -1,71 +1,14 @@
-/* src/profile.c - the two link profiles behind ulk/profile.h: the sub-bit word profile
- * (subbit-profile.md sections 2-3) and the CCSDS telecommand profile (ccsds-tc-profile.md
- * sections 2-3, on the bit layer of ccsds.c).
+/* src/profiles/ccsds/tc_profile.c - the CCSDS telecommand profile behind ulk/profile.h
+ * (docs/spec/ccsds-tc.md sections 2-3, on the bit layer of ccsds.c): one CLTU per command,
+ * alternating idle bits between.
  */
 #include <stdio.h>
 #include <string.h>
 
+#include "profiles.h"
 #include "ulk/ccsds.h"
-#include "ulk/profile.h"
 #include "ulk/sdls.h"
-#include "ulk/word.h"
 #include "util.h"
-
-/* ---------------------------------------------------------------- sub-bit profile */
-
-static uint64_t sb_gap_units(const ulk_link *l, ulk_gap g)
-{
-    return (uint64_t)(g == ULK_GAP_FIRST ? l->preamble : g == ULK_GAP_BETWEEN ? l->gap : l->postamble);
-}
-
-static ulk_ratio sb_filler_rate(const ulk_link *l) { return l->bit_rate; }
-
-static int sb_filler_symbol(const ulk_link *l, uint64_t k, int j)
-{
-    (void)k;
-    return l->idle[j];
-}
-
-static size_t sb_max_arg_bits(const ulk_link *l) { return (size_t)l->argument_bits; }
-
-static uint64_t sb_unit_bits(const ulk_link *l, const ulk_upload_cmd *c)
-{
-    (void)c;
-    return (uint64_t)l->word_bits;
-}
-
-static int sb_unit_bit(const ulk_link *l, const ulk_upload_cmd *c, uint64_t i)
-{
-    (void)l;
-    return c->word.bits[i];
-}
-
-static int sb_encoder_create(const ulk_link *l, void **enc)
-{
-    *enc = (void *)l;
-    return 0;
-}
-
-static int sb_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen)
-{
-    const ulk_link *l = enc;
-    if (req->n_arg_bits > (size_t)l->argument_bits) {
-        snprintf(err, errlen, "its arguments do not fit the %d-bit argument field", l->argument_bits);
-        return ULK_ELIMIT;
-    }
-    uint8_t field[64];
-    memset(field, 0, sizeof field);
-    if (req->n_arg_bits) memcpy(field, req->arg_bits, req->n_arg_bits);
-    ulk_word_build(l, req->system_addr, req->opcode, field, &out->word);
-    return 0;
-}
-
-static void sb_encoder_destroy(void *enc) { (void)enc; }
-
-static const ulk_profile_ops subbit_ops = {
-    "subbit",         ULK_PROFILE_SUBBIT, sb_gap_units, sb_filler_rate, sb_filler_symbol, sb_max_arg_bits,
-    sb_unit_bits,     sb_unit_bit,        sb_encoder_create, sb_encode, sb_encoder_destroy,
-};
 
 /* ---------------------------------------------------------------- ccsds-tc profile */
 
@@ -177,21 +120,23 @@ static int tc_encode(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out
     return 0;
 }
 
-static const ulk_profile_ops ccsds_ops = {
-    "ccsds-tc",   ULK_PROFILE_CCSDS_TC, tc_gap_units,      tc_filler_rate, tc_filler_symbol, tc_max_arg_bits,
-    tc_unit_bits, tc_unit_bit,          tc_encoder_create, tc_encode,      tc_encoder_destroy,
-};
-
-const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id)
+static void tc_arg_room(const ulk_link *l, char *buf, size_t n)
 {
-    switch (id) {
-    case ULK_PROFILE_SUBBIT: return &subbit_ops;
-    case ULK_PROFILE_CCSDS_TC: return &ccsds_ops;
-    default: return NULL;
-    }
+    snprintf(buf, n, "a %d-octet TC frame (%zu argument bits at most)", ULK_TCF_MAX_OCTETS, tc_max_arg_bits(l));
 }
 
-/* ---------------------------------------------------------------- unit checks (upload reader) */
+/* one channel symbol per bit: R_s = R (docs/spec/ccsds-tc.md section 3) */
+static ulk_ratio tc_symbol_rate(const ulk_link *l) { return l->bit_rate; }
+
+static size_t tc_unit_octets(const ulk_link *l, const ulk_upload_cmd *c)
+{
+    (void)l;
+    return c->n_cltu;
+}
+
+static const ulk_sdls_sa *tc_security(const ulk_link *l) { return l->tc.security.enabled ? &l->tc.security : NULL; }
+
+/* ---- unit checks (upload reader) */
 
 static size_t pack_args(const ulk_upload_cmd *c, uint8_t *bits, size_t cap)
 {
@@ -205,12 +150,8 @@ static size_t pack_args(const ulk_upload_cmd *c, uint8_t *bits, size_t cap)
     return pos;
 }
 
-int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
+static int tc_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
 {
-    if (l->profile != ULK_PROFILE_CCSDS_TC) {
-        snprintf(err, errlen, "only ccsds-tc units are checked here");
-        return ULK_EINVAL;
-    }
     uint8_t bits[8 * ULK_TCF_MAX_OCTETS];
     size_t n = pack_args(c, bits, sizeof bits);
     if (n == (size_t)-1) {
@@ -249,3 +190,64 @@ int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err
     ulk_free(want.cltu);
     return rc;
 }
+
+/* the packet data field, read from the frame: after the frame header, segment header and
+ * packet header, before the FECF */
+static void tc_unit_hex(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len)
+{
+    const ulk_ccsds_tc *tc = &l->tc.frame;
+    size_t a = ULK_TCF_HDR_OCTETS + (tc->segment_header ? 1 : 0) + ULK_SPP_HDR_OCTETS;
+    size_t b = c->n_frame - (tc->fecf ? 2 : 0);
+    size_t k = 0;
+    for (size_t i = a; i < b && k + 3 <= len; i++, k += 2) snprintf(buf + k, 3, "%02X", c->frame[i]);
+    buf[k < len ? k : len - 1] = 0;
+}
+
+static void tc_unit_comment(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len)
+{
+    (void)l;
+    snprintf(buf, len, "CLTU %zu, line %d, APID 0x%03X count %u N(S) %u", k + 1, c->line, c->system_addr,
+             c->seq_count, c->frame_seq);
+}
+
+static int tc_print_units(FILE *out, const ulk_upload *up, uint64_t n_bits)
+{
+    size_t oct = 0;
+    for (size_t i = 0; i < up->n_cmds; i++) oct += up->cmds[i].n_cltu;
+    int a = fprintf(out, "  CLTUs     %zu (%zu octets; one packet per frame per CLTU)\n", up->n_cmds, oct);
+    int b = fprintf(out, "  channel   %llu bits (acquisition, CLTUs, idle)\n", (unsigned long long)n_bits);
+    return a < 0 || b < 0 ? -1 : a + b;
+}
+
+static void *tc_summary_json(const ulk_dict *d) { return ulk_tc_summary_json(d); }
+
+const ulk_profile_ops ulk_profile_ccsds_tc = {
+    .name = "ccsds-tc",
+    .id = ULK_PROFILE_CCSDS_TC,
+    .gap_units = tc_gap_units,
+    .filler_rate = tc_filler_rate,
+    .filler_symbol = tc_filler_symbol,
+    .max_arg_bits = tc_max_arg_bits,
+    .unit_bits = tc_unit_bits,
+    .unit_bit = tc_unit_bit,
+    .encoder_create = tc_encoder_create,
+    .encode = tc_encode,
+    .encoder_destroy = tc_encoder_destroy,
+    .unit_noun = "CLTUs",
+    .symbol_noun = "channel bits",
+    .arg_room = tc_arg_room,
+    .symbol_rate = tc_symbol_rate,
+    .unit_octets = tc_unit_octets,
+    .security = tc_security,
+    .unit_hex = tc_unit_hex,
+    .unit_comment = tc_unit_comment,
+    .inspect_text = ulk_tc_inspect_text,
+    .inspect_json = ulk_tc_inspect_json,
+    .summary_text = ulk_tc_summary_text,
+    .summary_json = tc_summary_json,
+    .upload_write_link = ulk_tc_upload_write_link,
+    .upload_write_unit = ulk_tc_upload_write_unit,
+    .print_units = tc_print_units,
+    .unit_start_times = NULL,
+    .check_unit = tc_check_unit,
+};

@@ -24,7 +24,9 @@
 #include "carrier_load.h"
 #include "doc.h"
 #include "exact.h"
+#include "ulk/ccsds.h"
 #include "ulk/dict.h"
+#include "ulk/sdls.h"
 #include "util.h"
 
 /* ---------------------------------------------------------------- arena */
@@ -753,6 +755,27 @@ static void build_link_tc(bctx *c, ulk_node *ln)
     }
 }
 
+/* link.framing: idle patterns before the first word, between words and after the last. */
+static void build_framing(bctx *c, ulk_node *fr)
+{
+    ulk_link *L = &c->d->link;
+    static const char *const fk[] = {"preamble", "gap", "postamble", NULL};
+    check_keys(c, fr, "link.framing", fk, fk);
+    int64_t v;
+    ulk_node *pn2 = ulk_node_get(fr, "preamble");
+    /* 10^8 idle patterns is over a day at 1 kbit/s: beyond it is a typing error. */
+    if (pn2 && get_int(c, pn2, 0, 100000000, &v, "preamble (idle patterns)")) {
+        L->preamble = (int)v;
+        if (v < 16)
+            warn(c, pn2, "preamble of %lld idle patterns is short (P < 16): the decoder may not acquire the signal before the first word",
+                 (long long)v);
+    }
+    ulk_node *gn = ulk_node_get(fr, "gap");
+    if (gn && get_int(c, gn, 0, 100000000, &v, "gap (idle patterns)")) L->gap = (int)v;
+    ulk_node *tn = ulk_node_get(fr, "postamble");
+    if (tn && get_int(c, tn, 0, 100000000, &v, "postamble (idle patterns)")) L->postamble = (int)v;
+}
+
 static void build_link(bctx *c, ulk_node *ln)
 {
     ulk_link *L = &c->d->link;
@@ -805,23 +828,7 @@ static void build_link(bctx *c, ulk_node *ln)
     }
 
     ulk_node *fr = ulk_node_get(ln, "framing");
-    if (fr && want_map(c, fr, "link.framing")) {
-        static const char *const fk[] = {"preamble", "gap", "postamble", NULL};
-        check_keys(c, fr, "link.framing", fk, fk);
-        int64_t v;
-        ulk_node *pn2 = ulk_node_get(fr, "preamble");
-        /* 10^8 idle patterns is over a day at 1 kbit/s: beyond it is a typing error. */
-        if (pn2 && get_int(c, pn2, 0, 100000000, &v, "preamble (idle patterns)")) {
-            L->preamble = (int)v;
-            if (v < 16)
-                warn(c, pn2, "preamble of %lld idle patterns is short (P < 16): the decoder may not acquire the signal before the first word",
-                     (long long)v);
-        }
-        ulk_node *gn = ulk_node_get(fr, "gap");
-        if (gn && get_int(c, gn, 0, 100000000, &v, "gap (idle patterns)")) L->gap = (int)v;
-        ulk_node *tn = ulk_node_get(fr, "postamble");
-        if (tn && get_int(c, tn, 0, 100000000, &v, "postamble (idle patterns)")) L->postamble = (int)v;
-    }
+    if (fr && want_map(c, fr, "link.framing")) build_framing(c, fr);
 
     ulk_node *wn = ulk_node_get(ln, "word");
     if (wn && want_map(c, wn, "link.word")) {

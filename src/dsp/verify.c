@@ -4,7 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "ulk/ccsds.h"
+#include "ulk/profile.h"
 #include "ulk/verify.h"
 #include "util.h"
 
@@ -31,18 +31,7 @@ static int same_unit(const ulk_upload_cmd *c, const ulk_verify_unit *w)
  * packet data field, read from the frame. */
 void ulk_verify_sent_hex(const ulk_upload *u, const ulk_upload_cmd *c, char *buf, size_t len)
 {
-    if (u->link.profile != ULK_PROFILE_CCSDS_TC) {
-        char hx[40];
-        ulk_word_hex(&c->word, hx);
-        snprintf(buf, len, "%s", hx);
-        return;
-    }
-    const ulk_ccsds_tc *tc = &u->link.tc.frame;
-    size_t a = ULK_TCF_HDR_OCTETS + (tc->segment_header ? 1 : 0) + ULK_SPP_HDR_OCTETS;
-    size_t b = c->n_frame - (tc->fecf ? 2 : 0);
-    size_t k = 0;
-    for (size_t i = a; i < b && k + 3 <= len; i++, k += 2) snprintf(buf + k, 3, "%02X", c->frame[i]);
-    buf[k < len ? k : len - 1] = 0;
+    ulk_profile_of(&u->link)->unit_hex(&u->link, c, buf, len);
 }
 
 typedef ulk_verify_op op;
@@ -51,23 +40,16 @@ typedef ulk_verify_op op;
 #define OP_EXTRA ULK_VERIFY_EXTRA
 #define OP_CHANGED ULK_VERIFY_CHANGED
 
-/* Scheduled start of each upload word in seconds from the first word's (sub-bit profile:
- * idles and words of n sub-bits at R_s), and the capture's offset from the first accepted
- * word equal to an upload word. NULL (no time preference) for ccsds-tc, or out of memory. */
+/* Scheduled start of each upload unit in seconds from the first one's (the profile's
+ * unit_start_times), and the capture's offset from the first accepted unit equal to an upload
+ * unit. NULL when the profile gives no time preference, or out of memory. */
 static double *schedule(const ulk_upload *u, const ulk_verify_unit *acc, size_t na, double *offset)
 {
     size_t nu = u->n_cmds;
-    if (u->link.profile != ULK_PROFILE_SUBBIT || !nu) return NULL;
-    double rs = ulk_ratio_to_double(u->link.bit_rate) * u->link.n_subbits;
-    if (!(rs > 0)) return NULL;
-    double *t = ulk_malloc(nu * sizeof *t);
+    const ulk_profile_ops *p = ulk_profile_of(&u->link);
+    if (!nu || !p->unit_start_times) return NULL;
+    double *t = p->unit_start_times(u);
     if (!t) return NULL;
-    double g = 0; /* groups (idle patterns and bits) before word i */
-    for (size_t i = 0; i < nu; i++) {
-        g += (double)ulk_upload_idles_before(u, i);
-        t[i] = g * u->link.n_subbits / rs;
-        g += u->link.word_bits;
-    }
     double t0 = t[0];
     for (size_t i = 0; i < nu; i++) t[i] -= t0;
     *offset = 0;
