@@ -309,6 +309,9 @@ row decode-raw-all-nan 1 "no signal found" --needs decode -- "$ULK" decode --dic
 # ---------------------------------------------------------------- verify
 row verify-upload-truncated 2 "cut short" --needs verify -- "$ULK" verify --dict "$DICT" --upload t.ulku c3.wav
 row verify-capture-truncated 2 "truncated" --needs verify -- "$ULK" verify --dict "$DICT" --upload one.ulku c2.wav
+# a capture of silence: every upload command missing, each named with its fields as encoded
+row verify-silence-names-fields 1 "missing  word 2 (line 5): OBC_SET_TIME seconds=523124044s" --needs verify -- "$ULK" verify --dict "$DICT" --upload demo.ulku c3.wav --channel 0
+row verify-silence-float-encoded 1 "ADCS_SET_GAIN kp=0.02500000037252903N*m/rad (list text 0.025N*m/rad)" --needs verify -- "$ULK" verify --dict "$DICT" --upload demo.ulku c3.wav --channel 0
 
 # ---------------------------------------------------------------- command lists as people make them
 printf '\xef\xbb\xbfOBC_NOOP\r\nwait 1s\r\nOBC_NOOP\r\n' >bom.cmd
@@ -358,6 +361,14 @@ row broken-dict-verify 1 "dictionary broken.yaml has errors" --needs verify -- "
 "$ULK" modulate one.ulku -o bare.s16 --rate 48000 -q >/dev/null 2>&1; rm -f bare.sigmf-meta
 row raw-without-metadata 2 "the sample rate is missing; give it with --rate HZ" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16
 row raw-format-from-extension 0 "accepted" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16 --rate 48000
+
+# ---------------------------------------------------------------- what verify and decode report
+# another vehicle's word: rejected with its reason and the bits as read; one word is "1 word"
+demo_with 's/value: 0xA7/value: 0xA6/' >other.yaml
+"$ULK" compile --dict other.yaml one.cmd -o other.ulku >/dev/null 2>&1 && "$ULK" modulate other.ulku -o other.wav --rate 48000 -q >/dev/null 2>&1
+row verify-other-vehicle-rejected 1 "rejected word at 0.032000 s (vehicle): wrong vehicle address 0xA6 (this dictionary's vehicle is 0xA7) [hex " --needs verify -- "$ULK" verify --dict "$DICT" --upload one.ulku other.wav
+row verify-one-word-singular 0 "holds exactly the upload's 1 word, in order" --needs verify -- "$ULK" verify --dict "$DICT" --upload one.ulku one.wav
+row decode-one-word-singular 0 "1 word: 1 accepted, 0 rejected" --needs decode -- "$ULK" decode --dict "$DICT" one.wav
 # the receiver tells the reader that --format was given (src/rx.c: hint.format_given)
 row raw-format-contradicts-extension 2 "the extension says s16 samples but --format f32 was given" --needs decode -- "$ULK" decode --dict "$DICT" bare.s16 --rate 48000 --format f32
 cp bare.s16 bare.sigmf-data

@@ -75,8 +75,15 @@ int ulk_decode_demod_word(const ulk_dict *dict, const ulk_demod_word *w, ulk_dec
  * "range", "padding", "length", "none"). */
 const char *ulk_reject_name(ulk_reject_kind k);
 
-/* Writes the accepted command in command-list syntax ("MNEMONIC a=1 b=OPEN") into buf.
- * Returns the length that was needed (like snprintf). */
+/* The exact engineering value a raw field encodes, as text: calibrated and float32 values as
+ * the shortest decimal of the double nearest the exact value (raw 3 at a step of 0.37 is
+ * "1.11", although the command-list text "1" compiles to the same raw), enum labels,
+ * true/false, uncalibrated integers exactly. It compiles back to the same raw. */
+void ulk_arg_encoded(const ulk_arg *a, uint64_t raw, char *buf, size_t len);
+
+/* Writes the accepted command in command-list syntax with each argument's encoded value
+ * (ulk_arg_encoded; "MNEMONIC a=1.11deg b=OPEN") into buf. Returns the length that was
+ * needed (like snprintf). */
 int ulk_decoded_format(const ulk_decoded *r, char *buf, size_t len);
 
 #ifdef __cplusplus

@@ -66,7 +66,9 @@ static void usage(FILE *out)
             "  -h, --help              this text\n"
             "\n"
             "Human output lists accepted commands in command-list syntax with their start times,\n"
-            "and rejected words with their reason. With a ccsds-tc dictionary each unit is a CLTU:\n"
+            "each argument as the exact value its raw field encodes (a calibrated or float32 value\n"
+            "may read 1.11 where the list said 1), and rejected words with their reason.\n"
+            "With a ccsds-tc dictionary each unit is a CLTU:\n"
             "start sequence found in either polarity, codeblocks decoded, frame, FECF and packet\n"
             "checked, then the command; \"hex\" is the packet data field.\n"
             "Estimates: E_b/N_0 as the sub-bit profile\n"
@@ -159,7 +161,7 @@ static cJSON *unit_json(const ulk_rx_event *ev)
     cJSON *o = cJSON_CreateObject();
     if (!o) return NULL;
     char buf[64];
-    snprintf(buf, sizeof buf, "%.9f", ev->dw.start_s);
+    snprintf(buf, sizeof buf, "%.6f", ev->dw.start_s); /* to the microsecond, as the human lines */
     int ok = add_item(o, "start_s", cJSON_CreateRaw(buf));
     int acc = d->status == ULK_WORD_ACCEPTED;
     ok &= cJSON_AddStringToObject(o, "status", acc ? "accepted" : "rejected") != NULL;
@@ -304,8 +306,11 @@ static void human_unit(dec_ctx *x, const ulk_rx_event *ev)
         fprintf(f, "%12.6f s  # rejected CLTU (%s): %s%s%s%s\n", ev->dw.start_s, ulk_reject_name(d->reject), d->reason,
                 ev->hex[0] ? " [data " : "", ev->hex, ev->hex[0] ? "]" : "");
     } else {
-        fprintf(f, "%12.6f s  # rejected (%s): %s [hex %s]\n", ev->dw.start_s, ulk_reject_name(d->reject), d->reason,
-                d->hex);
+        /* the bits as read, unless there are none (a word of the wrong length) or the reason
+         * already shows them (ambiguous alignment) */
+        int hx = d->hex[0] && !strstr(d->reason, d->hex);
+        fprintf(f, "%12.6f s  # rejected (%s): %s%s%s%s\n", ev->dw.start_s, ulk_reject_name(d->reject), d->reason,
+                hx ? " [hex " : "", hx ? d->hex : "", hx ? "]" : "");
     }
 }
 
@@ -329,7 +334,8 @@ static void human_tail(dec_ctx *x)
         printf("ranging: code phase %.4f chips, %.9f s from the capture start (peak/mean %.1f, %.2f code periods)\n",
                c->ranging.phase_chips, c->ranging.delay_s, c->ranging.peak_to_mean, c->ranging.n_periods);
     if (c->voice_rate_hz)
-        printf("voice: %llu samples at %d Hz written\n", (unsigned long long)c->voice_samples, c->voice_rate_hz);
+        printf("voice: %llu sample%s at %d Hz written\n", (unsigned long long)c->voice_samples,
+               c->voice_samples == 1 ? "" : "s", c->voice_rate_hz);
     if (x->spool) {
         char buf[8192];
         size_t n;
@@ -340,7 +346,8 @@ static void human_tail(dec_ctx *x)
     unsigned long long n = x->counts.n_units, acc = x->counts.n_accepted;
     printf("%llu %s%s: %llu accepted, %llu rejected", n, x->first_is_tc ? "CLTU" : "word", n == 1 ? "" : "s", acc, n - acc);
     if (c->demod.n_truncated)
-        printf("; %llu word(s) cut off by the end of the capture", (unsigned long long)c->demod.n_truncated);
+        printf("; %llu word%s cut off by the end of the capture", (unsigned long long)c->demod.n_truncated,
+               c->demod.n_truncated == 1 ? "" : "s");
     printf("\n");
     if (c->secured && !c->authenticated)
         printf("security: frames are secured but NOT authenticated (no --keys given)\n");

@@ -29,8 +29,11 @@ static void usage(FILE *out)
             "upload's words: same count, same order, same bits. Anything else is reported:\n"
             "  missing   an upload word that is not in the capture\n"
             "  extra     an accepted word that is not in the upload\n"
-            "  changed   an upload command received with other argument values (field by field)\n"
+            "  changed   an upload command received with other argument values (field by field:\n"
+            "            sent and received values as encoded, both raw fields)\n"
             "  rejected  words found but refused (check failed, unknown command, ...)\n"
+            "Each command is shown with its fields as encoded, the upload's list text beside a\n"
+            "value where it reads differently.\n"
             "The upload must have been compiled with DICT (same dictionary SHA-256).\n"
             "With a ccsds-tc dictionary the words are CLTUs, compared by command, APID, packet\n"
             "sequence count, N(S) and argument values.\n"
@@ -49,44 +52,119 @@ static void usage(FILE *out)
             "      (refused, nothing compared)\n");
 }
 
-/* The changed fields of one command: argument name, value sent, value received. */
-static void changed_fields(const ulk_upload_cmd *uc, const ulk_verify_unit *w, cJSON *f)
+/* The dictionary's command an upload command was compiled from (the digests agree, so it is
+ * there; NULL only for an upload read without it). */
+static const ulk_command *sent_command(const ulk_dict *dict, const ulk_upload_cmd *uc)
 {
+    return ulk_dict_find_opcode(dict, uc->system_addr, uc->opcode);
+}
+
+/* A field at its full width in hex ("0x03" for 8 bits). */
+static void raw_hex(uint64_t raw, int bits, char *buf, size_t len)
+{
+    snprintf(buf, len, "0x%0*llX", bits > 0 ? (bits + 3) / 4 : 1, (unsigned long long)raw);
+}
+
+/* The unit written after a number, as the command list takes it ("" for labels, booleans and
+ * arguments without units). */
+static const char *unit_of(const ulk_arg *a)
+{
+    return a->units && a->type != ULK_ARG_ENUM && a->type != ULK_ARG_BOOLEAN ? a->units : "";
+}
+
+/* 1 when the list text reads as another value than the encoded one ("1" beside "1.11"). */
+static int text_differs(const ulk_arg *a, const char *enc, const char *text)
+{
+    if (a->type == ULK_ARG_ENUM || a->type == ULK_ARG_BOOLEAN) return strcmp(enc, text) != 0;
+    return strtod(enc, NULL) != strtod(text, NULL);
+}
+
+/* One sent argument: its encoded value, the upload's list text beside it where that reads
+ * differently ("angle=1.11deg (list text 1deg)"). */
+static void sent_value(const ulk_arg *a, const ulk_upload_arg *ua, char *buf, size_t len)
+{
+    char enc[64];
+    ulk_arg_encoded(a, ua->raw, enc, sizeof enc);
+    const char *un = unit_of(a);
+    if (ua->text && text_differs(a, enc, ua->text)) snprintf(buf, len, "%s%s (list text %s%s)", enc, un, ua->text, un);
+    else snprintf(buf, len, "%s%s", enc, un);
+}
+
+/* The sent command with its fields: "CAM_CONFIG mode=FAST exposure=0.25s". */
+static void sent_text(const ulk_dict *dict, const ulk_upload_cmd *uc, char *buf, size_t len)
+{
+    const ulk_command *c = sent_command(dict, uc);
+    size_t n = (size_t)snprintf(buf, len, "%s", uc->mnemonic);
+    for (int k = 0; k < uc->n_args && n < len; k++) {
+        char v[200];
+        if (c && k < c->n_args) sent_value(&c->args[k], &uc->args[k], v, sizeof v);
+        else snprintf(v, sizeof v, "%s", uc->args[k].text ? uc->args[k].text : "?");
+        n += (size_t)snprintf(buf + n, len - n, " %s=%s", uc->args[k].name, v);
+    }
+    if (uc->critical && n < len) snprintf(buf + n, len - n, " confirm");
+}
+
+/* The changed fields of one command: argument name, value sent (encoded, with the list text
+ * where it differs), value received (encoded), both raw fields. Returns the count. */
+static int changed_fields(const ulk_upload_cmd *uc, const ulk_verify_unit *w, cJSON *f)
+{
+    int n = 0;
     for (int a = 0; a < w->n_args && a < uc->n_args; a++) {
         if (uc->args[a].raw == w->raw[a]) continue;
         const ulk_arg *arg = &w->cmd->args[a];
-        char sent[64], recv[64];
-        ulk_arg_format(arg, uc->args[a].raw, sent, sizeof sent);
-        ulk_arg_format(arg, w->raw[a], recv, sizeof recv);
+        char enc_s[64], recv[64], rs[24], rr[24];
+        ulk_arg_encoded(arg, uc->args[a].raw, enc_s, sizeof enc_s);
+        ulk_arg_encoded(arg, w->raw[a], recv, sizeof recv);
+        raw_hex(uc->args[a].raw, arg->bits, rs, sizeof rs);
+        raw_hex(w->raw[a], arg->bits, rr, sizeof rr);
+        n++;
         if (f) {
             cJSON *fo = cJSON_CreateObject();
             cJSON_AddStringToObject(fo, "field", arg->name);
-            cJSON_AddStringToObject(fo, "sent", sent);
+            cJSON_AddStringToObject(fo, "sent", enc_s);
+            if (uc->args[a].text && text_differs(arg, enc_s, uc->args[a].text))
+                cJSON_AddStringToObject(fo, "sent_list_text", uc->args[a].text);
             cJSON_AddStringToObject(fo, "received", recv);
+            cJSON_AddStringToObject(fo, "raw_sent", rs);
+            cJSON_AddStringToObject(fo, "raw_received", rr);
             cJSON_AddItemToArray(f, fo);
         } else {
-            printf("           %s: sent %s, received %s\n", arg->name, sent, recv);
+            const char *lt = uc->args[a].text && text_differs(arg, enc_s, uc->args[a].text) ? uc->args[a].text : NULL;
+            printf("           %s: sent %s%s (%s%s%sraw %s), received %s%s (raw %s)\n", arg->name, enc_s, unit_of(arg),
+                   lt ? "list text " : "", lt ? lt : "", lt ? ", " : "", rs, recv, unit_of(arg), rr);
         }
     }
+    return n;
+}
+
+/* A time in seconds to the microsecond, as the human report prints it. */
+static cJSON *time_json(double t)
+{
+    char buf[64];
+    snprintf(buf, sizeof buf, "%.6f", t);
+    return cJSON_CreateRaw(buf);
 }
 
 /* One entry of the JSON report for a missing, extra or changed command. */
-static cJSON *op_json(const ulk_upload *u, const ulk_verify *v, const ulk_verify_op *p)
+static cJSON *op_json(const ulk_dict *dict, const ulk_upload *u, const ulk_verify *v, const ulk_verify_op *p)
 {
     cJSON *e = cJSON_CreateObject();
     if (p->kind == ULK_VERIFY_MISSING || p->kind == ULK_VERIFY_CHANGED) {
         const ulk_upload_cmd *uc = &u->cmds[p->upload_index];
-        char hx[2 * ULK_TCF_MAX_OCTETS + 1];
+        char hx[2 * ULK_TCF_MAX_OCTETS + 1], txt[4096];
         ulk_verify_sent_hex(u, uc, hx, sizeof hx);
+        sent_text(dict, uc, txt, sizeof txt);
         cJSON_AddNumberToObject(e, "index", (double)(p->upload_index + 1));
         cJSON_AddNumberToObject(e, "line", uc->line);
         cJSON_AddStringToObject(e, "mnemonic", uc->mnemonic);
+        cJSON_AddStringToObject(e, p->kind == ULK_VERIFY_CHANGED ? "sent" : "text", txt);
         cJSON_AddStringToObject(e, p->kind == ULK_VERIFY_CHANGED ? "hex_sent" : "hex", hx);
     }
     if (p->kind == ULK_VERIFY_EXTRA || p->kind == ULK_VERIFY_CHANGED) {
         const ulk_verify_unit *w = ulk_verify_accepted(v, p->accepted_index);
-        cJSON_AddNumberToObject(e, "start_s", w->start_s);
+        cJSON_AddItemToObject(e, "start_s", time_json(w->start_s));
         if (p->kind == ULK_VERIFY_EXTRA) cJSON_AddStringToObject(e, "mnemonic", w->cmd->mnemonic);
+        cJSON_AddStringToObject(e, p->kind == ULK_VERIFY_CHANGED ? "received" : "text", w->text);
         cJSON_AddStringToObject(e, p->kind == ULK_VERIFY_CHANGED ? "hex_received" : "hex", w->hex);
         if (w->tc) {
             cJSON_AddNumberToObject(e, "sequence_count", w->seq_count);
@@ -116,7 +194,7 @@ static tally count_ops(const ulk_verify *v)
     return t;
 }
 
-static int print_json(const ulk_upload *u, const ulk_verify *v)
+static int print_json(const ulk_dict *dict, const ulk_upload *u, const ulk_verify *v)
 {
     cJSON *root = cJSON_CreateObject();
     cJSON_AddBoolToObject(root, "match", ulk_verify_good(v));
@@ -128,15 +206,16 @@ static int print_json(const ulk_upload *u, const ulk_verify *v)
     for (size_t k = 0; k < ulk_verify_n_ops(v); k++) {
         const ulk_verify_op *p = ulk_verify_op_at(v, k);
         if (p->kind == ULK_VERIFY_MATCH) continue;
-        cJSON_AddItemToArray(p->kind == ULK_VERIFY_MISSING ? jm : p->kind == ULK_VERIFY_EXTRA ? je : jc, op_json(u, v, p));
+        cJSON_AddItemToArray(p->kind == ULK_VERIFY_MISSING ? jm : p->kind == ULK_VERIFY_EXTRA ? je : jc, op_json(dict, u, v, p));
     }
     for (size_t i = 0; i < ulk_verify_n_rejected(v); i++) {
         const ulk_verify_unit *w = ulk_verify_rejected(v, i);
         cJSON *e = cJSON_CreateObject();
-        cJSON_AddNumberToObject(e, "start_s", w->start_s);
+        cJSON_AddItemToObject(e, "start_s", time_json(w->start_s));
+        cJSON_AddStringToObject(e, "unit", w->tc ? "CLTU" : "word");
         cJSON_AddStringToObject(e, "reason", w->text);
         cJSON_AddStringToObject(e, "reject", ulk_reject_name(w->reject));
-        cJSON_AddStringToObject(e, "hex", w->hex);
+        if (w->hex[0]) cJSON_AddStringToObject(e, "hex", w->hex); /* none when nothing was recovered */
         cJSON_AddItemToArray(jr, e);
     }
     char *txt = cJSON_Print(root);
@@ -147,36 +226,58 @@ static int print_json(const ulk_upload *u, const ulk_verify *v)
     return 0;
 }
 
-static void print_op(const ulk_upload *u, const ulk_verify *v, const ulk_verify_op *p)
+static void print_op(const ulk_dict *dict, const ulk_upload *u, const ulk_verify *v, const ulk_verify_op *p)
 {
     const ulk_upload_cmd *uc = p->kind != ULK_VERIFY_EXTRA ? &u->cmds[p->upload_index] : NULL;
     const ulk_verify_unit *w = p->kind != ULK_VERIFY_MISSING ? ulk_verify_accepted(v, p->accepted_index) : NULL;
+    const char *unit = u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTU" : "word";
+    char txt[4096];
     if (p->kind == ULK_VERIFY_MISSING) {
-        printf("  missing  word %zu (line %d): %s\n", p->upload_index + 1, uc->line, uc->mnemonic);
+        sent_text(dict, uc, txt, sizeof txt);
+        printf("  missing  %s %zu (line %d): %s\n", unit, p->upload_index + 1, uc->line, txt);
     } else if (p->kind == ULK_VERIFY_EXTRA) {
         printf("  extra    at %.6f s: %s\n", w->start_s, w->text);
     } else if (p->kind == ULK_VERIFY_CHANGED) {
-        printf("  changed  word %zu (line %d) at %.6f s: %s\n", p->upload_index + 1, uc->line, w->start_s, uc->mnemonic);
-        if (w->tc && (uc->seq_count != w->seq_count || uc->frame_seq != w->frame_seq))
+        sent_text(dict, uc, txt, sizeof txt);
+        printf("  changed  %s %zu (line %d) at %.6f s: %s\n", unit, p->upload_index + 1, uc->line, w->start_s, txt);
+        int shown = 0;
+        if (w->tc && (uc->seq_count != w->seq_count || uc->frame_seq != w->frame_seq)) {
             printf("           packet count / N(S): sent %u / %u, received %u / %u\n", uc->seq_count, uc->frame_seq,
                    w->seq_count, w->frame_seq);
-        changed_fields(uc, w, NULL);
+            shown = 1;
+        }
+        shown += changed_fields(uc, w, NULL);
+        if (!shown) { /* the same fields, other bits: show them */
+            char hx[2 * ULK_TCF_MAX_OCTETS + 1];
+            ulk_verify_sent_hex(u, uc, hx, sizeof hx);
+            printf("           %s: sent %s, received %s\n", w->tc ? "packet data" : "bits", hx, w->hex);
+        }
     }
 }
 
-static void print_human(const char *capture, const char *upload_path, const ulk_upload *u, const ulk_verify *v)
+/* "1 word", "2 words". */
+static const char *plural(size_t n) { return n == 1 ? "" : "s"; }
+
+static void print_human(const char *capture, const char *upload_path, const ulk_dict *dict, const ulk_upload *u,
+                        const ulk_verify *v)
 {
     size_t nrej = ulk_verify_n_rejected(v);
-    printf("%s against %s: %zu upload word(s), %zu accepted, %zu rejected in the capture\n", capture, upload_path,
-           u->n_cmds, ulk_verify_n_accepted(v), nrej);
-    for (size_t k = 0; k < ulk_verify_n_ops(v); k++) print_op(u, v, ulk_verify_op_at(v, k));
+    const char *unit = u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTU" : "word";
+    printf("%s against %s: %zu upload %s%s, %zu accepted, %zu rejected in the capture\n", capture, upload_path,
+           u->n_cmds, unit, plural(u->n_cmds), ulk_verify_n_accepted(v), nrej);
+    for (size_t k = 0; k < ulk_verify_n_ops(v); k++) print_op(dict, u, v, ulk_verify_op_at(v, k));
     for (size_t i = 0; i < nrej; i++) {
         const ulk_verify_unit *w = ulk_verify_rejected(v, i);
-        printf("  rejected at %.6f s: %s [hex %s]\n", w->start_s, w->text, w->hex);
+        /* the bits or packet data as read, unless none were recovered or the reason shows them */
+        int hx = w->hex[0] && !strstr(w->text, w->hex);
+        printf("  rejected %s at %.6f s (%s): %s%s%s%s\n", w->tc ? "CLTU" : "word", w->start_s,
+               ulk_reject_name(w->reject), w->text, hx ? (w->tc ? " [data " : " [hex ") : "", hx ? w->hex : "",
+               hx ? "]" : "");
     }
     tally t = count_ops(v);
     if (ulk_verify_good(v))
-        printf("VERIFIED: the capture holds exactly the upload's %zu word(s), in order\n", u->n_cmds);
+        printf("VERIFIED: the capture holds exactly the upload's %zu %s%s, in order\n", u->n_cmds, unit,
+               plural(u->n_cmds));
     else
         printf("NOT VERIFIED: %zu matched, %zu missing, %zu extra, %zu changed, %zu rejected\n", t.match, t.miss,
                t.extra, t.chg, nrej);
@@ -290,9 +391,9 @@ int cmd_verify(int argc, char **argv)
     }
     if (ulk_verify_compare(v) < 0) { fprintf(stderr, "ulk verify: out of memory\n"); goto out; }
     if (a.json) {
-        if (print_json(u, v) < 0) goto out;
+        if (print_json(dict, u, v) < 0) goto out;
     } else {
-        print_human(a.capture, a.upload_path, u, v);
+        print_human(a.capture, a.upload_path, dict, u, v);
     }
     ret = ulk_verify_good(v) ? 0 : 1;
 out:

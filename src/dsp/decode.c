@@ -12,6 +12,7 @@
 
 #include "ulk/decode.h"
 #include "ulk/error.h"
+#include "util.h"
 
 const char *ulk_reject_name(ulk_reject_kind k)
 {
@@ -80,7 +81,8 @@ int ulk_decode_word(const ulk_dict *dict, const ulk_word *w, ulk_decoded *r)
     r->status = ULK_WORD_ACCEPTED;
     r->reject = ULK_REJ_NONE;
     if (w->n_bits != l->word_bits || w->n_bits < 1 || w->n_bits > ULK_MAX_WORD_BITS)
-        return reject(r, ULK_REJ_LENGTH, "word of %d bits (the dictionary's words have %d)", w->n_bits, l->word_bits);
+        return reject(r, ULK_REJ_LENGTH, "word of %d bit%s (the dictionary's words have %d)", w->n_bits,
+                      w->n_bits == 1 ? "" : "s", l->word_bits);
     ulk_word_hex(w, r->hex);
     ulk_word_layout lay = ulk_word_layout_of(l);
     r->vehicle = (uint32_t)ulk_word_get(w, lay.vehicle_pos, l->vehicle_bits);
@@ -129,12 +131,28 @@ int ulk_decode_word(const ulk_dict *dict, const ulk_word *w, ulk_decoded *r)
     return 0;
 }
 
+/* The value the raw field encodes: a calibrated or float32 value as the shortest decimal that
+ * reads back as the same double (1.11 for raw 3 at a step of 0.37, where the command-list
+ * text "1" compiles to the same raw); labels, booleans and uncalibrated integers as
+ * ulk_arg_format writes them (integers exact beyond 2^53). */
+void ulk_arg_encoded(const ulk_arg *a, uint64_t raw, char *buf, size_t len)
+{
+    if (a->type == ULK_ARG_ENUM || a->type == ULK_ARG_BOOLEAN || (a->type != ULK_ARG_FLOAT32 && a->cal == ULK_CAL_NONE)) {
+        ulk_arg_format(a, raw, buf, len);
+        return;
+    }
+    double eng = ulk_arg_raw_to_eng(a, raw);
+    if (!isfinite(eng)) ulk_arg_format(a, raw, buf, len);
+    else ulk_fmt_double(eng, buf, len);
+}
+
 int ulk_decoded_format(const ulk_decoded *r, char *buf, size_t len)
 {
     if (!r || !r->cmd) return snprintf(buf, len, "%s", "");
     size_t n = (size_t)snprintf(buf, len, "%s", r->cmd->mnemonic);
     for (int i = 0; i < r->n_args; i++) {
-        const char *v = r->args[i].text;
+        char v[64];
+        ulk_arg_encoded(r->args[i].arg, r->args[i].raw, v, sizeof v);
         /* a unit is written straight after a decimal number, as the command list takes it */
         const ulk_arg *a = r->args[i].arg;
         int unit = a->units && a->units[0] && a->type != ULK_ARG_ENUM && a->type != ULK_ARG_BOOLEAN;

@@ -375,7 +375,7 @@ def main():
         rc, _, err = run("compile", "-q", "--dict", ddict, opath, "-o", oup)
         check(rc == 0, "other compile: %s" % err)
         rc, out, err = run("verify", "--dict", ddict, "--upload", oup, rx)
-        check(rc == 1 and "NOT VERIFIED" in out and "changed" in out and "speed: sent -1400, received -1500" in out,
+        check(rc == 1 and "NOT VERIFIED" in out and "changed" in out and "speed: sent -1400rpm (raw 0xFA88), received -1500rpm (raw 0xFA24)" in out,
               "verify against another upload: exit %d %s" % (rc, out[-600:]))
         rc, out, err = run("verify", "--dict", os.path.join(SRC, "dictionaries", "demo-subbit.yaml"), "--upload", upath, rx)
         check(rc == 2, "verify with another dictionary: exit %d" % rc)

@@ -542,8 +542,8 @@ int ulk_cltu_decode(const ulk_ccsds_tc *tc, const uint8_t *bits, size_t n_bits, 
      * codeblock lets the decoder run on to the end of a recording. */
     if (stop == STOP_END_OF_BITS && (n_oct < ULK_TCF_HDR_OCTETS || L > n_oct)) {
         res->end_bit = start;
-        set_reason(res, ULK_CLTU_TRUNCATED, "bits end inside the CLTU after %d codeblocks",
-                   res->n_codeblocks);
+        set_reason(res, ULK_CLTU_TRUNCATED, "bits end inside the CLTU after %d codeblock%s",
+                   res->n_codeblocks, res->n_codeblocks == 1 ? "" : "s");
         return ULK_OK;
     }
     res->end_bit = stop_end < n_bits ? stop_end : n_bits;
