@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ulk/limits.h"
 #include "ulk/rx.h"
 #include "ulk/sampleio.h"
 #include "ulk/tc_decode.h"
@@ -279,13 +280,16 @@ static int cx_setup(ulk_rx *rx)
     rx->est.complex_ = 1;
     rx->est.m_data = mo->on[ULK_CH_DATA] ? mo->m_rad[ULK_CH_DATA] : 0;
     rx->inv_m = rx->est.m_data > 0 ? 1.0 / rx->est.m_data : 0;
+    /* delayed outputs: the search looks ahead by a short window, so a transmission found after
+     * noise or a gap is de-rotated from its first sample (its first word is kept) */
     ulk_crec_config cc = {.fs_hz = rx->o.fs_hz, .max_offset_hz = rx->o.max_offset_hz,
-                          .loop_bw_hz = c->has_loop ? c->loop_bw_hz : 0};
+                          .loop_bw_hz = c->has_loop ? c->loop_bw_hz : 0, .delayed = 1};
     rx->est.loop_bw_hz = cc.loop_bw_hz > 0 ? cc.loop_bw_hz : 20;
     rc = ulk_crec_create(&cc, &rx->crec, rx->diag);
     if (rc < 0) return rc;
     rx->want = ulk_crec_block(rx->crec);
     rx->cap = rx->want < CX_CHUNK ? CX_CHUNK : rx->want;
+    if (rx->cap < ulk_crec_delay(rx->crec)) rx->cap = ulk_crec_delay(rx->crec); /* the drain's outputs */
     rx->acq = ulk_malloc(2 * rx->want * sizeof *rx->acq);
     rx->phi = ulk_malloc(rx->cap * sizeof *rx->phi);
     rx->derot = ulk_malloc(2 * rx->cap * sizeof *rx->derot);
@@ -412,11 +416,11 @@ int ulk_rx_push(ulk_rx *rx, const float *x, size_t n)
     return rx_demod(rx, x, n);
 }
 
-/* Runs n complex samples through the loop, the ranging correlator and the voice demodulator;
- * the data samples (quadrature / m_data) go to the demodulator. */
-static int cx_process(ulk_rx *rx, const float *iq, size_t n)
+/* The n de-rotated outputs in rx->derot / rx->phi (in order from the capture's first sample)
+ * to the ranging correlator, the voice demodulator and, as data samples (quadrature /
+ * m_data), the demodulator. */
+static int cx_outputs(ulk_rx *rx, size_t n)
 {
-    ulk_crec_track(rx->crec, iq, n, rx->derot, rx->phi);
     if (rx->rc && ulk_rcorr_feed(rx->rc, rx->derot, n) < 0)
         return rx->err = ulk_fail(rx->diag, ULK_EINVAL, "%s: ranging failed", rx->name);
     if (rx->vd) {
@@ -441,6 +445,15 @@ static int cx_process(ulk_rx *rx, const float *iq, size_t n)
     return rx_demod(rx, rx->data, n);
 }
 
+/* Runs n complex samples (n <= rx->cap) through the carrier recovery (delayed by
+ * ulk_crec_delay) and its outputs on. */
+static int cx_process(ulk_rx *rx, const float *iq, size_t n)
+{
+    long k = ulk_crec_push(rx->crec, iq, n, rx->derot, rx->phi);
+    if (k < 0) return rx->err = ulk_fail(rx->diag, (int)k, "%s: carrier recovery failed", rx->name);
+    return k > 0 ? cx_outputs(rx, (size_t)k) : 0;
+}
+
 /* Coarse carrier search on the acquisition block, then that block through the loop. */
 static int cx_acquire(ulk_rx *rx)
 {
@@ -450,11 +463,8 @@ static int cx_acquire(ulk_rx *rx)
     int rc = ulk_crec_acquire(rx->crec, rx->acq, rx->n_acq);
     if (rc < 0) return rx->err = ulk_fail(rx->diag, rc, "%s: carrier acquisition failed (%s)", rx->name, ulk_status_str(rc));
     rx->acquired = 1;
-    ulk_crec_status st;
-    ulk_crec_get_status(rx->crec, &st);
-    if (st.line_db < 10)
-        rx_warn(rx, "%s: no clear residual carrier line (%.1f dB over the mean bin within the search "
-                    "range); the carrier estimate %+.3f Hz may be wrong", rx->name, st.line_db, st.coarse_hz);
+    /* a block without a clear line is searched on as it is tracked (a lead-in of noise); only
+     * a capture in which no line was found anywhere gets the warning, at finish */
     return cx_process(rx, rx->acq, rx->n_acq);
 }
 
@@ -488,6 +498,16 @@ int ulk_rx_push_complex(ulk_rx *rx, const float *iq, size_t n)
 static int cx_finish(ulk_rx *rx)
 {
     ulk_crec_get_status(rx->crec, &rx->est.crec);
+    const ulk_crec_status *st = &rx->est.crec;
+    double range = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
+    if (st->n_acquired == 0)
+        rx_warn(rx, "%s: no residual carrier line found anywhere in the capture (searched +-%g Hz; the first "
+                    "block's strongest bin %.1f dB over the mean, at %+.3f Hz): nothing could be de-rotated or decoded",
+                rx->name, range, st->line_db, st->coarse_hz);
+    else if (st->at_limit)
+        rx_warn(rx, "%s: carrier offset estimate %+.3f Hz reached the search limit of +-%g Hz: the carrier may lie "
+                    "further off and this line be another one; nothing beyond it is searched (widen --max-offset)",
+                rx->name, st->coarse_hz, range);
     if (rx->rc) {
         int rc = ulk_rcorr_result(rx->rc, &rx->est.ranging);
         if (rc < 0)
@@ -510,7 +530,12 @@ int ulk_rx_finish(ulk_rx *rx)
     if (rx->finished) return ulk_fail(rx->diag, ULK_EINVAL, "%s: the receiver was finished already", rx->name);
     rx->finished = 1;
     int rc;
-    if (rx->o.complex_ && !rx->acquired && (rc = cx_acquire(rx)) < 0) return rc;
+    if (rx->o.complex_) {
+        if (!rx->acquired && (rc = cx_acquire(rx)) < 0) return rc;
+        long k = ulk_crec_drain(rx->crec, rx->derot, rx->phi); /* the last delay's outputs */
+        if (k < 0) return rx->err = ulk_fail(rx->diag, (int)k, "%s: carrier recovery failed", rx->name);
+        if (k > 0 && (rc = cx_outputs(rx, (size_t)k)) < 0) return rc;
+    }
     rc = ulk_demod_finish(rx->demod);
     if (rc >= 0 && rx->tc) {
         tc_flush(rx);
