@@ -500,6 +500,7 @@ static int cx_finish(ulk_rx *rx)
     ulk_crec_get_status(rx->crec, &rx->est.crec);
     const ulk_crec_status *st = &rx->est.crec;
     double range = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
+    rx->est.max_offset_hz = range;
     if (st->n_acquired == 0)
         rx_warn(rx, "%s: no residual carrier line found anywhere in the capture (searched +-%g Hz; the first "
                     "block's strongest bin %.1f dB over the mean, at %+.3f Hz): nothing could be de-rotated or decoded",
@@ -543,6 +544,11 @@ int ulk_rx_finish(ulk_rx *rx)
     }
     if (rc < 0 || rx->err) return rx_fail(rx, rc);
     ulk_demod_get_estimates(rx->demod, &rx->est.demod);
+    const ulk_demod_estimates *de = &rx->est.demod;
+    if (de->signal_found && de->at_search_limit)
+        rx_warn(rx, "%s: clock error estimate reached the search limit of +-%g ppm (mean estimate %+.1f ppm): the "
+                    "capture's clock may be further off; nothing beyond it is searched", rx->name,
+                de->search_limit_ppm, de->rate_error_ppm);
     rx->est.duration_s = (double)rx->est.n_samples / rx->o.fs_hz;
     if (rx->o.complex_ && (rc = cx_finish(rx)) < 0) return rx->err = rc;
     /* the receive window moves only when the whole capture was decoded */

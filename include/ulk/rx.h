@@ -94,6 +94,7 @@ typedef struct {
     double m_data;             /* data index the quadrature was divided by (0: data off) */
     double loop_bw_hz;         /* B_L of the carrier loop */
     ulk_crec_status crec;      /* coarse and tracked carrier offset, line strength */
+    double max_offset_hz;      /* the carrier search range, +-this (crec.at_limit: reached) */
     int has_ranging;
     ulk_ranging_result ranging;
     int voice_rate_hz;         /* voice WAV written (0: not asked) */
