@@ -305,6 +305,7 @@ static int cx_decim_plan(ulk_rx *rx)
     rx->D = d;
     rx->nh = 2 * d * k + 1;
     rx->skip = (size_t)k;
+    rx->ph = d - 1; /* outputs at inputs 0, D, 2 D, ...: output j is centred on input (j - K) D */
     rx->h = ulk_malloc((size_t)rx->nh * sizeof *rx->h);
     rx->zr = ulk_calloc(4 * (size_t)rx->nh, sizeof *rx->zr);
     rx->dbuf = ulk_malloc(2 * (CX_CHUNK / (size_t)d + 2) * sizeof *rx->dbuf);

@@ -143,6 +143,27 @@ def main():
               "complex, two transmissions (+2100, -3300 Hz) after 5 s and a 4 s gap: %d of 42 words accepted (the first "
               "of each: %d of 2), %d other (rc %d %s)" % (good, good_first, other, rc, err.strip()[:200]))
 
+        # 3b. complex at 192 kHz: the receiver decimates by 4 before the carrier recovery (data
+        # only, sine subcarrier); a carrier near the search range's edge and +1000 ppm
+        fs = 192000
+        x, _, fse = gc.make_complex_capture(d.link, st.subbits, fs, 1.1, ebn0_db=12, ppm="1000", delay_s="2",
+                                            tail_s="0.5", offset_hz=-4600.0, phase_rad=2.1, seed=16)
+        cap = os.path.join(tmp, "c192.cf32")
+        gc.write_cf32(cap, x, fs, mode="command")
+        rc, j, err = decode(DSUB, cap)
+        truth = word_times(d, st, 2, fse, fs)
+        good, other = match(j["words"], truth, tol)
+        off = [min(abs(w["start_s"] - t) for t, _ in truth) for w in j["words"] if w.get("status") == "accepted"]
+        check(rc == 0 and good == 21 and other == 0,
+              "complex, 192 kHz (decimated), -4600 Hz, +1000 ppm: %d of 21 words accepted, %d other (rc %d %s)"
+              % (good, other, rc, err.strip()[:200]))
+        # times on the capture's base: the filter's delay removed exactly (within one 192 kHz
+        # sample, 5.2 us; measured 1.2 us, 1.3 us without decimation; output j taken three
+        # samples late gave 11.6 us)
+        check(off and max(off) < 1 / 192000.0,
+              "complex, 192 kHz: start times within one sample of the truth (largest %.1f us)"
+              % (1e6 * max(off) if off else -1))
+
         # 4. CCSDS, 60 s lead-in: all CLTUs, no rejected entry
         fs = 48000
         upl = os.path.join(tmp, "cc.upl")
