@@ -55,4 +55,44 @@ grep -qx "ulk decode: no command found: no signal in the capture" sil.err
 check "silence: the reason says no signal" $? "stderr: $(cat sil.err)"
 /usr/bin/python3 -c 'import json; d = json.load(open("sil.json")); assert d["words"] == [] and d["estimates"]["signal_found"] is False' 2>/dev/null
 check "silence: --json still one document with no words" $? "$(cat sil.json)"
+# An estimate at its search limit is said plainly (issue 12). The help's figure is the
+# demodulator's default range; a capture impaired at +1500 ppm (beyond it) is reported at the
+# limit in the human summary, on stderr and in --json, by decode and verify; one at +1000 ppm
+# (inside it) is not.
+lim=$("$ULK" decode --help | sed -n 's/.*off by up to +-\([0-9]*\) ppm.*/\1/p')
+check "help names the clock search range" $([ -n "$lim" ]; echo $?) "help: $("$ULK" decode --help | head -8)"
+"$ULK" impair demo.wav -o p1500.wav --ppm 1500 --ebn0 14 --seed 3 --dict demo-subbit.yaml 2>/dev/null || exit 1
+"$ULK" impair demo.wav -o p1000.wav --ppm 1000 --ebn0 14 --seed 3 --dict demo-subbit.yaml 2>/dev/null || exit 1
+"$ULK" decode --dict demo-subbit.yaml p1500.wav >p15.out 2>p15.err
+grep -q "clock error estimate reached the search limit of +-$lim ppm (mean estimate +[0-9.]* ppm): the capture's clock may be further off; nothing beyond it is searched" p15.err
+check "+1500 ppm: decode warns the clock estimate is at the limit" $? "stderr: $(cat p15.err)"
+head -1 p15.out | grep -q "at the search limit of +-$lim ppm"
+check "+1500 ppm: the summary says it" $? "$(head -1 p15.out)"
+"$ULK" decode --dict demo-subbit.yaml p1500.wav --json >p15.json 2>/dev/null
+LIM=$lim /usr/bin/python3 -c '
+import json, os, sys
+e = json.load(open("p15.json"))["estimates"]
+sys.exit(0 if e["at_search_limit"] is True and e["search_limit_ppm"] == float(os.environ["LIM"]) else 1)'
+check "+1500 ppm: --json at_search_limit true, search_limit_ppm = the help's figure" $? "$(tail -12 p15.json)"
+"$ULK" verify --dict demo-subbit.yaml --upload demo.upl p1500.wav >v15.out 2>v15.err
+grep -q "reached the search limit of +-$lim ppm" v15.err
+check "+1500 ppm: verify warns too" $? "stderr: $(cat v15.err)"
+"$ULK" decode --dict demo-subbit.yaml p1000.wav --json >p10.json 2>p10.err
+/usr/bin/python3 -c '
+import json, sys
+d = json.load(open("p10.json"))
+sys.exit(0 if d["estimates"]["at_search_limit"] is False and sum(w["status"] == "accepted" for w in d["words"]) == 21 else 1)'
+check "+1000 ppm: all 21 words, not at the limit" $? "$(tail -12 p10.json)"
+check "+1000 ppm: no search-limit warning" $(grep -c "search limit" p10.err) "stderr: $(cat p10.err)"
+
+# A complex capture of noise only: one warning that no carrier line was found anywhere.
+/usr/bin/python3 - <<'PY'
+import random, struct
+r = random.Random(5)
+with open("noise.cf32", "wb") as f:
+    f.write(b"".join(struct.pack("<ff", r.gauss(0, 0.1), r.gauss(0, 0.1)) for _ in range(96000)))
+PY
+"$ULK" decode --dict demo-subbit.yaml noise.cf32 --rate 48000 --format cf32 --mode command >nz.out 2>nz.err
+grep -q "no residual carrier line found anywhere in the capture" nz.err
+check "complex noise: warned that no carrier line was found" $? "stderr: $(cat nz.err)"
 exit $fail

@@ -49,6 +49,7 @@
 #include <stddef.h>
 #include <stdint.h>
 #include "ulk/error.h"
+#include "ulk/limits.h"
 #include "ulk/link.h"
 #include "ulk/word.h"
 
@@ -91,7 +92,7 @@ typedef struct {
 /* Default clock-error search range in ppm: +-1000 ppm (sample clock and subcarrier of a
  * real recording) with a 25 % margin, so an error of 1000 ppm lies inside the range and
  * not on its edge. */
-#define ULK_DEMOD_DEFAULT_PPM 1250.0
+#define ULK_DEMOD_DEFAULT_PPM ((double)ULK_DEMOD_DEFAULT_MAX_PPM)
 
 /* Called for every word, in time order. */
 typedef void (*ulk_demod_word_fn)(const ulk_demod_word *w, void *user);

@@ -5,8 +5,9 @@
 
 /* ulk impair: largest clock error of the simulated signal, ppm (|--ppm| <= this) */
 #define ULK_IMPAIR_MAX_PPM 10000
-/* blind demodulator: default clock-error search range, +- ppm (ulk_demod_config.max_ppm = 0) */
-#define ULK_DEMOD_DEFAULT_MAX_PPM 700
+/* blind demodulator: default clock-error search range, +- ppm (ulk_demod_options.max_ppm = 0):
+ * +-1000 ppm (sample clock and subcarrier of a real recording) with a 25 % margin */
+#define ULK_DEMOD_DEFAULT_MAX_PPM 1250
 /* complex captures: default coarse carrier-offset search range, +- Hz (decode --max-offset) */
 #define ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ 5000
 

@@ -9,6 +9,13 @@
  * which on a link with security (link.tc.security, ulk/sdls.h) verifies every frame with the
  * keys and the receive-side anti-replay state given in the options.
  *
+ * Complex captures: the carrier recovery runs with delayed outputs (a transmission found after
+ * noise or a gap is de-rotated from its first sample); when only a sine data channel is
+ * decoded (no ranging, no voice) the samples are low-passed and decimated before it, with
+ * every time still on the capture's sample clock (docs/carrier.md). Warnings at finish: no
+ * carrier line found anywhere, the carrier offset or the clock-error estimate at the edge of
+ * its search range.
+ *
  *     ulk_rx *rx;
  *     ulk_rx_create(dict, &opt, &rx, diag);
  *     while (more samples) {
@@ -94,6 +101,7 @@ typedef struct {
     double m_data;             /* data index the quadrature was divided by (0: data off) */
     double loop_bw_hz;         /* B_L of the carrier loop */
     ulk_crec_status crec;      /* coarse and tracked carrier offset, line strength */
+    double max_offset_hz;      /* the carrier search range, +-this (crec.at_limit: reached) */
     int has_ranging;
     ulk_ranging_result ranging;
     int voice_rate_hz;         /* voice WAV written (0: not asked) */

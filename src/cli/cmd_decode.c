@@ -32,8 +32,9 @@ static void usage(FILE *out)
             "\n"
             "Finds the command words in a capture without being told where they start, and\n"
             "interprets them with the dictionary. The capture may start anywhere, its clock and\n"
-            "subcarrier may be off by up to +-" ULK_STR(ULK_DEMOD_DEFAULT_MAX_PPM) " ppm, its level anywhere from -40 dBFS to full\n"
-            "scale, with a DC offset, inverted, and noisy. Each word is accepted (check passed,\n"
+            "subcarrier may be off by up to +-" ULK_STR(ULK_DEMOD_DEFAULT_MAX_PPM) " ppm (the range searched; an estimate at its\n"
+            "edge is reported), its level anywhere from -40 dBFS to full scale, with a DC\n"
+            "offset, inverted, and noisy. Each word is accepted (check passed,\n"
             "our vehicle, a known command with valid arguments) or rejected with its reason.\n"
             "\n"
             "  CAPTURE                 WAV, or raw .f32/.s16 little-endian mono with its\n"
@@ -73,7 +74,8 @@ static void usage(FILE *out)
             "checked, then the command; \"hex\" is the packet data field.\n"
             "Estimates: E_b/N_0 as the sub-bit profile\n"
             "defines it (P_d f_s / (2 sigma^2 R_b)), the subcarrier frequency and clock error\n"
-            "measured against the capture's sample clock.\n"
+            "measured against the capture's sample clock. An estimate that reached the edge of\n"
+            "its search range (clock error, carrier offset) is said so, on stdout and stderr.\n"
             "\nexit: 0 at least one command accepted; 1 no command found (the reason in one line on\n"
             "      stderr: no signal, or words found but none for this dictionary's addresses, or all\n"
             "      rejected, e.g. by the security check), or the dictionary breaks a rule; 2 usage or\n"
@@ -226,6 +228,8 @@ static cJSON *estimates_json(const ulk_demod_estimates *d)
     ok = ok && add_item(e, "rate_error_ppm", num_or_null(s, round(d->rate_error_ppm * 100) / 100));
     ok = ok && cJSON_AddBoolToObject(e, "signal_found", s) != NULL;
     ok = ok && cJSON_AddNumberToObject(e, "truncated_words", (double)d->n_truncated) != NULL;
+    ok = ok && cJSON_AddBoolToObject(e, "at_search_limit", s && d->at_search_limit) != NULL;
+    ok = ok && cJSON_AddNumberToObject(e, "search_limit_ppm", d->search_limit_ppm) != NULL;
     if (!ok) cJSON_Delete(e);
     return ok ? e : NULL;
 }
@@ -239,6 +243,9 @@ static cJSON *carrier_json(const ulk_rx_estimates *c)
     ok = ok && add_item(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
     ok = ok && add_item(k, "coarse_offset_hz", num_or_null(1, round(c->crec.coarse_hz * 1000) / 1000));
     ok = ok && add_item(k, "line_db", num_or_null(1, round(c->crec.line_db * 100) / 100));
+    ok = ok && cJSON_AddBoolToObject(k, "acquired", c->crec.n_acquired > 0) != NULL;
+    ok = ok && cJSON_AddBoolToObject(k, "at_search_limit", c->crec.n_acquired > 0 && c->crec.at_limit) != NULL;
+    ok = ok && cJSON_AddNumberToObject(k, "search_limit_hz", c->max_offset_hz) != NULL;
     ok = ok && add_item(k, "loop_bandwidth_hz", num_or_null(1, c->loop_bw_hz));
     ok = ok && add_item(k, "data_index_rad", num_or_null(c->m_data > 0, c->m_data));
     if (!ok) cJSON_Delete(k);
@@ -319,14 +326,22 @@ static void human_tail(dec_ctx *x)
 {
     const ulk_rx_estimates *c = &x->est;
     printf("%s: %g Hz, %.3f s", x->capture, c->fs_hz, c->duration_s);
-    if (c->demod.signal_found)
+    if (c->demod.signal_found && c->demod.at_search_limit)
+        printf("; E_b/N_0 %.1f dB, subcarrier %.3f Hz, clock error %+.1f ppm: at the search limit of +-%g ppm, "
+               "the clock may be further off and nothing beyond it is searched\n", c->demod.ebn0_db, c->demod.subcarrier_hz, c->demod.rate_error_ppm,
+               c->demod.search_limit_ppm);
+    else if (c->demod.signal_found)
         printf("; E_b/N_0 %.1f dB, subcarrier %.3f Hz, clock error %+.1f ppm\n", c->demod.ebn0_db,
                c->demod.subcarrier_hz, c->demod.rate_error_ppm);
     else
         printf("; no signal found\n");
     if (c->complex_) {
-        printf("carrier: mode %s, offset %+.3f Hz (coarse %+.3f Hz, line %.1f dB over the mean bin), loop B_L %g Hz",
-               c->mode, c->crec.mean_freq_hz, c->crec.coarse_hz, c->crec.line_db, c->loop_bw_hz);
+        if (!c->crec.n_acquired)
+            printf("carrier: mode %s, no line found within +-%g Hz", c->mode, c->max_offset_hz);
+        else
+            printf("carrier: mode %s, offset %+.3f Hz (coarse %+.3f Hz%s, line %.1f dB over the mean bin), loop B_L %g Hz",
+                   c->mode, c->crec.mean_freq_hz, c->crec.coarse_hz, c->crec.at_limit ? ", at the search limit" : "",
+                   c->crec.line_db, c->loop_bw_hz);
         if (c->m_data > 0) printf("; data = quadrature / %g rad\n", c->m_data);
         else printf("; data is off in this mode\n");
     }

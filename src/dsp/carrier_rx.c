@@ -61,6 +61,7 @@ struct ulk_crec {
     int drained;
     void *fbuf, *plan_s, *plan_l; /* FFTW buffer (nl); plans: short window zero-padded to 2 ns, long */
     double *mag;
+    double *hann;         /* the long window's Hann taps (nl): not recomputed every hop */
 };
 
 enum { CREC_FRESH = 0, CREC_LOCKED = 1, CREC_SEARCHING = 2 };
@@ -125,6 +126,7 @@ void ulk_crec_destroy(ulk_crec *r)
     ulk_free(r->ring);
     ulk_free(r->mag);
     ulk_free(r->dl);
+    ulk_free(r->hann);
     ulk_free(r);
 }
 
@@ -179,7 +181,10 @@ int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag)
     }
     r->ring = ulk_calloc(2 * r->nl, sizeof *r->ring);
     r->mag = ulk_malloc(r->nl * sizeof *r->mag);
-    if (!r->ring || !r->mag) {
+    r->hann = ulk_malloc(r->nl * sizeof *r->hann);
+    if (r->hann)
+        for (size_t i = 0; i < r->nl; i++) r->hann[i] = 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)r->nl);
+    if (!r->ring || !r->mag || !r->hann) {
         ulk_crec_destroy(r);
         return ulk_fail(diag, ULK_ENOMEM, "carrier recovery: out of memory");
     }
@@ -305,7 +310,7 @@ static int search_window(ulk_crec *r, size_t N, int mode)
     size_t nf = shortw ? 2 * N : N;
     for (size_t i = 0; i < nf; i++) {
         size_t j = (j0 + i) % r->nl;
-        double w = shortw ? 1.0 : 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)N);
+        double w = shortw ? 1.0 : r->hann[i];
         buf[i][0] = i < N ? (float)(w * r->ring[2 * j]) : 0;
         buf[i][1] = i < N ? (float)(w * r->ring[2 * j + 1]) : 0;
     }

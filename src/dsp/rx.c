@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ulk/limits.h"
 #include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "ulk/sampleio.h"
@@ -56,6 +57,16 @@ struct ulk_rx {
     size_t n_acq, want, cap;  /* acquisition block collected / wanted; buffer capacity */
     int acquired;
     double inv_m;             /* 1 / m_data, 0 when data is off */
+    /* decimating front end (cx_decim_plan): low-pass and keep every D-th sample */
+    int D;                    /* 1: none */
+    int nh;                   /* taps, 2 D K + 1 */
+    float *h;                 /* taps */
+    float *zr;                /* the last nh inputs, interleaved, doubled (4 nh floats) */
+    int zpos;                 /* ring position of the newest input */
+    int ph;                   /* inputs since the last output */
+    size_t skip;              /* first outputs dropped: the filter's delay, K outputs */
+    float *dbuf;              /* decimated samples of one push */
+    double fs_in;             /* the capture's rate (o.fs_hz is the decimated one) */
     /* ccsds-tc with link.tc.security: */
     ulk_sdls_keys *keys;
     ulk_sdls_state *state;    /* receive-side window, saved back at finish */
@@ -266,6 +277,98 @@ static int cx_voice(ulk_rx *rx, const ulk_carrier *c)
     return 0;
 }
 
+/* Decimation of a complex capture before the carrier recovery: the carrier recovery and the
+ * data decoder cost per sample (the loop is a chain of dependent steps), so at 192 kHz most of
+ * the time went to samples far above what the data needs. Only the data channel is decoded
+ * (no --ranging, no --voice: their channels may lie far out) and only for a sine subcarrier
+ * without pilot (a square one's harmonics carry a quarter of its energy, which the demodulator's
+ * square template uses). B = max_offset + f_sc + R_s bounds the data's main lobe around the
+ * carrier; D is the largest factor (<= 8) leaving f_s / D >= 2.5 B. The low-pass is a
+ * Blackman-windowed sinc cut at f_s / (2 D), of 2 D K + 1 taps, K = ceil(5.5 / (2 D dw)) with
+ * dw = (f_s / D - 2 B) / f_s the transition band (Blackman: about 5.5 / N wide, stopband
+ * about -74 dB; common practice): flat over |f| <= B, and what folds onto |f| <= B (from
+ * |f| >= f_s / D - B) suppressed. Its delay, K D input samples, is removed by dropping the
+ * first K outputs, so output m is input sample m D and every time reported stays exact. */
+static int cx_decim_plan(ulk_rx *rx)
+{
+    rx->D = 1;
+    const ulk_link *l = &rx->dict->link;
+    if (rx->o.ranging || rx->o.voice_path || l->waveform != ULK_WAVE_SINE || l->has_pilot) return 0;
+    double fs = rx->o.fs_hz;
+    double rs = ulk_ratio_to_double(l->bit_rate) * (l->profile == ULK_PROFILE_CCSDS_TC ? 1 : l->n_subbits);
+    double mo = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
+    double b = mo + ulk_ratio_to_double(l->fsc) + rs;
+    int d = (int)floor(fs / (2.5 * b));
+    if (d > 8) d = 8;
+    if (d < 2) return 0;
+    double dw = (fs / d - 2 * b) / fs;
+    int k = (int)ceil(5.5 / (2.0 * d * dw));
+    rx->D = d;
+    rx->nh = 2 * d * k + 1;
+    rx->skip = (size_t)k;
+    rx->ph = d - 1; /* outputs at inputs 0, D, 2 D, ...: output j is centred on input (j - K) D */
+    rx->h = ulk_malloc((size_t)rx->nh * sizeof *rx->h);
+    rx->zr = ulk_calloc(4 * (size_t)rx->nh, sizeof *rx->zr);
+    rx->dbuf = ulk_malloc(2 * (CX_CHUNK / (size_t)d + 2) * sizeof *rx->dbuf);
+    if (!rx->h || !rx->zr || !rx->dbuf) return ulk_fail(rx->diag, ULK_ENOMEM, "%s: out of memory", rx->name);
+    double sum = 0, fc = 0.5 / d;
+    double *t = ulk_malloc((size_t)rx->nh * sizeof *t);
+    if (!t) return ulk_fail(rx->diag, ULK_ENOMEM, "%s: out of memory", rx->name);
+    for (int i = 0; i < rx->nh; i++) {
+        double m = i - (rx->nh - 1) / 2.0;
+        double s = m == 0 ? 2 * fc : sin(2 * M_PI * fc * m) / (M_PI * m);
+        double w = 0.42 - 0.5 * cos(2 * M_PI * i / (rx->nh - 1)) + 0.08 * cos(4 * M_PI * i / (rx->nh - 1));
+        t[i] = s * w;
+        sum += t[i];
+    }
+    for (int i = 0; i < rx->nh; i++) rx->h[i] = (float)(t[i] / sum);
+    ulk_free(t);
+    rx->fs_in = fs;
+    rx->o.fs_hz = fs / d;
+    return 0;
+}
+
+/* n complex samples through the low-pass; every D-th output (after the first skip) into
+ * rx->dbuf. Returns the outputs written (n / D + 1 at most). */
+static size_t cx_decimate(ulk_rx *rx, const float *iq, size_t n)
+{
+    const int nh = rx->nh, d = rx->D;
+    size_t m = 0;
+    for (size_t i = 0; i < n; i++) {
+        rx->zpos = rx->zpos == 0 ? nh - 1 : rx->zpos - 1;
+        float re = iq[2 * i], im = iq[2 * i + 1];
+        if (!isfinite(re) || !isfinite(im)) re = im = 0;
+        float *z = rx->zr + 2 * rx->zpos;
+        z[0] = z[2 * nh] = re;
+        z[1] = z[2 * nh + 1] = im;
+        if (++rx->ph < d) continue;
+        rx->ph = 0;
+        if (rx->skip) {
+            rx->skip--;
+            continue;
+        }
+        /* the taps are symmetric: h[t] (z[t] + z[nh-1-t]) halves the products; two partial
+         * sums each, so the adds are not one chain */
+        const float *h = rx->h, *zb = z + 2 * (nh - 1);
+        float a0 = h[nh / 2] * z[nh - 1], b0 = h[nh / 2] * z[nh], a1 = 0, b1 = 0;
+        int t = 0, half = nh / 2;
+        for (; t + 1 < half; t += 2) {
+            a0 += h[t] * (z[2 * t] + zb[-2 * t]);
+            b0 += h[t] * (z[2 * t + 1] + zb[-2 * t + 1]);
+            a1 += h[t + 1] * (z[2 * t + 2] + zb[-2 * t - 2]);
+            b1 += h[t + 1] * (z[2 * t + 3] + zb[-2 * t - 1]);
+        }
+        for (; t < half; t++) {
+            a0 += h[t] * (z[2 * t] + zb[-2 * t]);
+            b0 += h[t] * (z[2 * t + 1] + zb[-2 * t + 1]);
+        }
+        rx->dbuf[2 * m] = a0 + a1;
+        rx->dbuf[2 * m + 1] = b0 + b1;
+        m++;
+    }
+    return m;
+}
+
 static int cx_setup(ulk_rx *rx)
 {
     const ulk_carrier *c = ulk_dict_carrier(rx->dict);
@@ -276,17 +379,22 @@ static int cx_setup(ulk_rx *rx)
     const ulk_carrier_mode *mo = NULL;
     int rc = cx_mode(rx, c, &mo);
     if (rc < 0) return rc;
+    rc = cx_decim_plan(rx);
+    if (rc < 0) return rc;
     snprintf(rx->est.mode, sizeof rx->est.mode, "%s", mo->name);
     rx->est.complex_ = 1;
     rx->est.m_data = mo->on[ULK_CH_DATA] ? mo->m_rad[ULK_CH_DATA] : 0;
     rx->inv_m = rx->est.m_data > 0 ? 1.0 / rx->est.m_data : 0;
+    /* delayed outputs: the search looks ahead by a short window, so a transmission found after
+     * noise or a gap is de-rotated from its first sample (its first word is kept) */
     ulk_crec_config cc = {.fs_hz = rx->o.fs_hz, .max_offset_hz = rx->o.max_offset_hz,
-                          .loop_bw_hz = c->has_loop ? c->loop_bw_hz : 0};
+                          .loop_bw_hz = c->has_loop ? c->loop_bw_hz : 0, .delayed = 1};
     rx->est.loop_bw_hz = cc.loop_bw_hz > 0 ? cc.loop_bw_hz : 20;
     rc = ulk_crec_create(&cc, &rx->crec, rx->diag);
     if (rc < 0) return rc;
     rx->want = ulk_crec_block(rx->crec);
     rx->cap = rx->want < CX_CHUNK ? CX_CHUNK : rx->want;
+    if (rx->cap < ulk_crec_delay(rx->crec)) rx->cap = ulk_crec_delay(rx->crec); /* the drain's outputs */
     rx->acq = ulk_malloc(2 * rx->want * sizeof *rx->acq);
     rx->phi = ulk_malloc(rx->cap * sizeof *rx->phi);
     rx->derot = ulk_malloc(2 * rx->cap * sizeof *rx->derot);
@@ -413,11 +521,11 @@ int ulk_rx_push(ulk_rx *rx, const float *x, size_t n)
     return rx_demod(rx, x, n);
 }
 
-/* Runs n complex samples through the loop, the ranging correlator and the voice demodulator;
- * the data samples (quadrature / m_data) go to the demodulator. */
-static int cx_process(ulk_rx *rx, const float *iq, size_t n)
+/* The n de-rotated outputs in rx->derot / rx->phi (in order from the capture's first sample)
+ * to the ranging correlator, the voice demodulator and, as data samples (quadrature /
+ * m_data), the demodulator. */
+static int cx_outputs(ulk_rx *rx, size_t n)
 {
-    ulk_crec_track(rx->crec, iq, n, rx->derot, rx->phi);
     if (rx->rc && ulk_rcorr_feed(rx->rc, rx->derot, n) < 0)
         return rx->err = ulk_fail(rx->diag, ULK_EINVAL, "%s: ranging failed", rx->name);
     if (rx->vd) {
@@ -442,6 +550,15 @@ static int cx_process(ulk_rx *rx, const float *iq, size_t n)
     return rx_demod(rx, rx->data, n);
 }
 
+/* Runs n complex samples (n <= rx->cap) through the carrier recovery (delayed by
+ * ulk_crec_delay) and its outputs on. */
+static int cx_process(ulk_rx *rx, const float *iq, size_t n)
+{
+    long k = ulk_crec_push(rx->crec, iq, n, rx->derot, rx->phi);
+    if (k < 0) return rx->err = ulk_fail(rx->diag, (int)k, "%s: carrier recovery failed", rx->name);
+    return k > 0 ? cx_outputs(rx, (size_t)k) : 0;
+}
+
 /* Coarse carrier search on the acquisition block, then that block through the loop. */
 static int cx_acquire(ulk_rx *rx)
 {
@@ -451,19 +568,14 @@ static int cx_acquire(ulk_rx *rx)
     int rc = ulk_crec_acquire(rx->crec, rx->acq, rx->n_acq);
     if (rc < 0) return rx->err = ulk_fail(rx->diag, rc, "%s: carrier acquisition failed (%s)", rx->name, ulk_status_str(rc));
     rx->acquired = 1;
-    ulk_crec_status st;
-    ulk_crec_get_status(rx->crec, &st);
-    if (st.line_db < 10)
-        rx_warn(rx, "%s: no clear residual carrier line (%.1f dB over the mean bin within the search "
-                    "range); the carrier estimate %+.3f Hz may be wrong", rx->name, st.line_db, st.coarse_hz);
+    /* a block without a clear line is searched on as it is tracked (a lead-in of noise); only
+     * a capture in which no line was found anywhere gets the warning, at finish */
     return cx_process(rx, rx->acq, rx->n_acq);
 }
 
-int ulk_rx_push_complex(ulk_rx *rx, const float *iq, size_t n)
+/* Samples at the carrier recovery's rate (decimated, or the capture's). */
+static int cx_push(ulk_rx *rx, const float *iq, size_t n)
 {
-    if (rx->err) return rx->err;
-    if (!rx->o.complex_ || rx->finished) return ulk_fail(rx->diag, ULK_EINVAL, "%s: I/Q samples pushed to a real receiver, or after finish", rx->name);
-    rx->est.n_samples += n;
     while (n > 0 && !rx->acquired) {
         size_t k = rx->want - rx->n_acq < n ? rx->want - rx->n_acq : n;
         memcpy(rx->acq + 2 * rx->n_acq, iq, 2 * k * sizeof *iq);
@@ -485,10 +597,37 @@ int ulk_rx_push_complex(ulk_rx *rx, const float *iq, size_t n)
     return 0;
 }
 
+int ulk_rx_push_complex(ulk_rx *rx, const float *iq, size_t n)
+{
+    if (rx->err) return rx->err;
+    if (!rx->o.complex_ || rx->finished) return ulk_fail(rx->diag, ULK_EINVAL, "%s: I/Q samples pushed to a real receiver, or after finish", rx->name);
+    rx->est.n_samples += n;
+    if (rx->D < 2) return cx_push(rx, iq, n);
+    while (n > 0) {
+        size_t k = n < CX_CHUNK ? n : CX_CHUNK;
+        int rc = cx_push(rx, rx->dbuf, cx_decimate(rx, iq, k));
+        if (rc < 0) return rc;
+        iq += 2 * k;
+        n -= k;
+    }
+    return 0;
+}
+
 /* Ranging result and voice file at the end of a complex capture. */
 static int cx_finish(ulk_rx *rx)
 {
     ulk_crec_get_status(rx->crec, &rx->est.crec);
+    const ulk_crec_status *st = &rx->est.crec;
+    double range = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
+    rx->est.max_offset_hz = range;
+    if (st->n_acquired == 0)
+        rx_warn(rx, "%s: no residual carrier line found anywhere in the capture (searched +-%g Hz; the first "
+                    "block's strongest bin %.1f dB over the mean, at %+.3f Hz): nothing could be de-rotated or decoded",
+                rx->name, range, st->line_db, st->coarse_hz);
+    else if (st->at_limit)
+        rx_warn(rx, "%s: carrier offset estimate %+.3f Hz reached the search limit of +-%g Hz: the carrier may lie "
+                    "further off and this line be another one; nothing beyond it is searched (widen --max-offset)",
+                rx->name, st->coarse_hz, range);
     if (rx->rc) {
         int rc = ulk_rcorr_result(rx->rc, &rx->est.ranging);
         if (rc < 0)
@@ -511,7 +650,21 @@ int ulk_rx_finish(ulk_rx *rx)
     if (rx->finished) return ulk_fail(rx->diag, ULK_EINVAL, "%s: the receiver was finished already", rx->name);
     rx->finished = 1;
     int rc;
-    if (rx->o.complex_ && !rx->acquired && (rc = cx_acquire(rx)) < 0) return rc;
+    if (rx->o.complex_) {
+        if (rx->D > 1) {
+            /* the filter's delay: zeros until the last sample's output is out */
+            static const float zero[2 * 64];
+            for (size_t left = (size_t)(rx->nh - 1) / 2; left > 0;) {
+                size_t k = left < 64 ? left : 64;
+                if ((rc = cx_push(rx, rx->dbuf, cx_decimate(rx, zero, k))) < 0) return rc;
+                left -= k;
+            }
+        }
+        if (!rx->acquired && (rc = cx_acquire(rx)) < 0) return rc;
+        long k = ulk_crec_drain(rx->crec, rx->derot, rx->phi); /* the last delay's outputs */
+        if (k < 0) return rx->err = ulk_fail(rx->diag, (int)k, "%s: carrier recovery failed", rx->name);
+        if (k > 0 && (rc = cx_outputs(rx, (size_t)k)) < 0) return rc;
+    }
     rc = ulk_demod_finish(rx->demod);
     if (rc >= 0 && rx->tc) {
         tc_flush(rx);
@@ -519,7 +672,12 @@ int ulk_rx_finish(ulk_rx *rx)
     }
     if (rc < 0 || rx->err) return rx_fail(rx, rc);
     ulk_demod_get_estimates(rx->demod, &rx->est.demod);
-    rx->est.duration_s = (double)rx->est.n_samples / rx->o.fs_hz;
+    const ulk_demod_estimates *de = &rx->est.demod;
+    if (de->signal_found && de->at_search_limit)
+        rx_warn(rx, "%s: clock error estimate reached the search limit of +-%g ppm (mean estimate %+.1f ppm): the "
+                    "capture's clock may be further off; nothing beyond it is searched", rx->name,
+                de->search_limit_ppm, de->rate_error_ppm);
+    rx->est.duration_s = (double)rx->est.n_samples / (rx->D > 1 ? rx->fs_in : rx->o.fs_hz);
     if (rx->o.complex_ && (rc = cx_finish(rx)) < 0) return rx->err = rc;
     /* the receive window moves only when the whole capture was decoded */
     if (rx->state && (rc = ulk_sdls_state_save(rx->state, rx->state_path, rx->diag)) < 0) return rx->err = rc;
@@ -579,6 +737,9 @@ void ulk_rx_destroy(ulk_rx *rx)
     ulk_free(rx->phi);
     ulk_free(rx->audio);
     ulk_free(rx->data);
+    ulk_free(rx->h);
+    ulk_free(rx->zr);
+    ulk_free(rx->dbuf);
     ulk_free(rx);
 }
 
@@ -697,7 +858,8 @@ static int rf_loop(ulk_rx *rx, rf_src *s, const char *path, ulk_rx_event_fn fn, 
         long got;
         int rc;
         if (s->is_cx) {
-            size_t ask = !rx->acquired && rx->want - rx->n_acq < CX_CHUNK ? rx->want - rx->n_acq : CX_CHUNK;
+            size_t need = (rx->want - rx->n_acq) * (size_t)(rx->D > 1 ? rx->D : 1); /* capture samples */
+            size_t ask = !rx->acquired && need < CX_CHUNK ? need : CX_CHUNK;
             got = rf_read_cx(s, ask ? ask : CX_CHUNK, path, diag);
             if (got < 0) return (int)got;
             if (got == 0) break;

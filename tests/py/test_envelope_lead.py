@@ -3,17 +3,16 @@
 written from the contract, not from the C code) with long lead-ins, real and complex, decoded
 by ulk: everything sent is accepted, nothing else is.
 
-Rows (at 48 and 96 kHz, clock error within +-500 ppm; the lowest rates and +-1000 ppm are in
+Rows (at 48 kHz, clock error within +-500 ppm; the lowest rates and +-1000 ppm are in
 test_envelope_demod.py):
   real sub-bit demo, 60 s of noise first, 48 kHz, +500 ppm, E_b/N_0 12 dB: 21 words;
   complex (data-only mode "command", index 1.1 rad), 60 s of noise first, 48 kHz, +300 ppm,
     carrier offset +1234.5 Hz, 12 dB: 21 words (the carrier search slides over the capture);
   complex, two transmissions separated by 4 s of noise after a 5 s lead-in, offsets +2100 and
-    -3300 Hz, 96 kHz: each transmission acquired, every word that starts 0.05 s or more after
-    its carrier comes on accepted (40), nothing else accepted. (The first word of each starts
-    0.032 s after the carrier: the carrier search outputs nothing until it has found the line,
-    5-10 ms in, and the demodulator then needs about 25 ms of idle before a word; the second
-    transmission's first word is lost, the first's is not. Known limit, docs/carrier.md.)
+    -3300 Hz, 48 kHz: each transmission acquired and every word accepted (42), the first of each
+    too (it starts 0.032 s after the carrier comes on: the receiver runs the carrier recovery
+    with delayed outputs, so the samples before the line was found are de-rotated as well),
+    nothing else accepted.
   real CCSDS demo, 60 s of noise first, 48 kHz, +300 ppm, E_c/N_0 12 dB: 18 CLTUs accepted and
     no rejected entry (noise, acquisition and idle produce none).
 """
@@ -122,9 +121,12 @@ def main():
         good, other = match(j["words"], word_times(d, st, 60, fse, fs), tol)
         check(rc == 0 and good == 21 and other == 0,
               "complex, 60 s lead-in, +1234.5 Hz: %d of 21 words accepted, %d other (rc %d %s)" % (good, other, rc, err.strip()[:200]))
+        check("residual carrier" not in err,
+              "complex, 60 s lead-in: no carrier warning (a carrier was found, after the lead-in): %s" % err.strip()[:200])
 
-        # 3. complex, two transmissions separated by a gap
-        fs = 96000
+        # 3. complex, two transmissions separated by a gap (at 48 kHz, seeds 13 and 14, the
+        # receiver without delayed carrier outputs lost the second transmission's first word)
+        fs = 48000
         x1, _, fse = gc.make_complex_capture(d.link, st.subbits, fs, 1.1, ebn0_db=12, ppm="-200", delay_s="5",
                                              tail_s="4", offset_hz=2100.0, phase_rad=0.3, seed=13)
         x2, _, _ = gc.make_complex_capture(d.link, st.subbits, fs, 1.1, ebn0_db=12, ppm="-200", delay_s="0",
@@ -134,13 +136,33 @@ def main():
         gc.write_cf32(cap, np.concatenate([x1, x2]), fs, mode="command")
         rc, j, err = decode(DSUB, cap)
         truth = word_times(d, st, 5, fse, fs) + word_times(d, st, t2, fse, fs)
-        late = [w for w in truth if (w[0] - 5 >= 0.05 and w[0] < t2) or w[0] - t2 >= 0.05]
+        first = [truth[0], truth[len(truth) // 2]]
         good, other = match(j["words"], truth, tol)
-        good_late, _ = match(j["words"], late, tol)
-        check(rc == 0 and good_late == len(late) == 40 and other == 0,
-              "complex, two transmissions (+2100, -3300 Hz) after 5 s and a 4 s gap: %d of the %d words 0.05 s or more "
-              "after their carrier's start accepted, %d of 42 in all, %d other (rc %d %s)"
-              % (good_late, len(late), good, other, rc, err.strip()[:200]))
+        good_first, _ = match(j["words"], first, tol)
+        check(rc == 0 and good == len(truth) == 42 and good_first == 2 and other == 0,
+              "complex, two transmissions (+2100, -3300 Hz) after 5 s and a 4 s gap: %d of 42 words accepted (the first "
+              "of each: %d of 2), %d other (rc %d %s)" % (good, good_first, other, rc, err.strip()[:200]))
+
+        # 3b. complex at 192 kHz: the receiver decimates by 4 before the carrier recovery (data
+        # only, sine subcarrier); a carrier near the search range's edge and +1000 ppm
+        fs = 192000
+        x, _, fse = gc.make_complex_capture(d.link, st.subbits, fs, 1.1, ebn0_db=12, ppm="1000", delay_s="2",
+                                            tail_s="0.5", offset_hz=-4600.0, phase_rad=2.1, seed=16)
+        cap = os.path.join(tmp, "c192.cf32")
+        gc.write_cf32(cap, x, fs, mode="command")
+        rc, j, err = decode(DSUB, cap)
+        truth = word_times(d, st, 2, fse, fs)
+        good, other = match(j["words"], truth, tol)
+        off = [min(abs(w["start_s"] - t) for t, _ in truth) for w in j["words"] if w.get("status") == "accepted"]
+        check(rc == 0 and good == 21 and other == 0,
+              "complex, 192 kHz (decimated), -4600 Hz, +1000 ppm: %d of 21 words accepted, %d other (rc %d %s)"
+              % (good, other, rc, err.strip()[:200]))
+        # times on the capture's base: the filter's delay removed exactly (within one 192 kHz
+        # sample, 5.2 us; measured 1.2 us, 1.3 us without decimation; output j taken three
+        # samples late gave 11.6 us)
+        check(off and max(off) < 1 / 192000.0,
+              "complex, 192 kHz: start times within one sample of the truth (largest %.1f us)"
+              % (1e6 * max(off) if off else -1))
 
         # 4. CCSDS, 60 s lead-in: all CLTUs, no rejected entry
         fs = 48000
