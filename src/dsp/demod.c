@@ -1380,6 +1380,75 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
 
 /* ---------------------------------------------------------------- public */
 
+/* The sub-bit patterns of zero, one and idle as +-1 chips and as the line levels they
+ * give, and the decision denominator (d->mden) those levels imply. */
+static void demod_set_patterns(ulk_demod *d, const ulk_link *cfg)
+{
+    for (int t = 0; t < d->n; t++) {
+        d->pz[t] = cfg->zero[t] ? 1.0f : -1.0f;
+        d->po[t] = cfg->one[t] ? 1.0f : -1.0f;
+        d->pidle[t] = cfg->idle[t] ? 1.0f : -1.0f;
+        d->d_zo += cfg->zero[t] != cfg->one[t];
+    }
+    if (d->d_zo == 0) d->d_zo = 1;
+    {
+        float lz = 1, lo = 1, li = 1;
+        double czo = 1; /* correlation of the n + 1 levels of Z and O (the leading +1 shared) */
+        for (int t = 0; t < d->n; t++) {
+            if (cfg->zero[t]) lz = -lz;
+            if (cfg->one[t]) lo = -lo;
+            if (cfg->idle[t]) li = -li;
+            d->lz[t] = lz;
+            d->lo[t] = lo;
+            d->lidle[t] = li;
+            czo += lz * lo;
+        }
+        d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
+        if (!(d->mden > 0)) d->mden = 1;
+    }
+}
+
+/* Allocates the demodulator's buffers at the capacities set; -1 when memory is short
+ * (the caller destroys d, which frees what was allocated). */
+static int demod_alloc(ulk_demod *d)
+{
+    const int B = d->B, k = d->k;
+    if (d->slot_path) {
+        d->zre = ulk_malloc(d->scap * sizeof *d->zre);
+        d->zim = ulk_malloc(d->scap * sizeof *d->zim);
+        d->rpre = ulk_malloc(d->rcap * sizeof *d->rpre);
+        d->qpre = ulk_malloc(d->rcap * sizeof *d->qpre);
+        if (!d->zre || !d->zim || !d->rpre || !d->qpre) return -1;
+        d->xcap = 1; /* the samples themselves are not kept */
+    }
+    d->xb = ulk_malloc(d->xcap * sizeof *d->xb);
+    d->ure = ulk_malloc(d->ucap * sizeof *d->ure);
+    d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
+    d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
+    d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
+    d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
+    d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
+    d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
+    d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
+    d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
+    d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
+    d->tblk = ulk_malloc(d->ycap * sizeof *d->tblk);
+    d->qacc = ulk_calloc(4 * (size_t)k, sizeof *d->qacc);
+    d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
+    d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
+    d->py = ulk_malloc(d->pcap * sizeof *d->py);
+    {
+        size_t nal = (size_t)(4 * d->n + (d->W + 4) * d->n + 8);
+        d->al_ci = ulk_malloc(nal * sizeof *d->al_ci);
+        d->al_cz = ulk_malloc(nal * sizeof *d->al_cz);
+        d->al_co = ulk_malloc(nal * sizeof *d->al_co);
+    }
+    if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->dre || !d->dim || !d->ph || !d->ch || !d->qh || !d->yblk ||
+        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py || !d->al_ci || !d->al_cz || !d->al_co)
+        return -1;
+    return 0;
+}
+
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag)
 {
@@ -1431,28 +1500,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     if (opt) d->opt = *opt;
     d->eps_max = (d->opt.max_ppm > 0 ? d->opt.max_ppm : ULK_DEMOD_DEFAULT_PPM) * 1e-6;
     d->acq_pfa = 1e-6;
-    for (int t = 0; t < d->n; t++) {
-        d->pz[t] = cfg->zero[t] ? 1.0f : -1.0f;
-        d->po[t] = cfg->one[t] ? 1.0f : -1.0f;
-        d->pidle[t] = cfg->idle[t] ? 1.0f : -1.0f;
-        d->d_zo += cfg->zero[t] != cfg->one[t];
-    }
-    if (d->d_zo == 0) d->d_zo = 1;
-    {
-        float lz = 1, lo = 1, li = 1;
-        double czo = 1; /* correlation of the n + 1 levels of Z and O (the leading +1 shared) */
-        for (int t = 0; t < d->n; t++) {
-            if (cfg->zero[t]) lz = -lz;
-            if (cfg->one[t]) lo = -lo;
-            if (cfg->idle[t]) li = -li;
-            d->lz[t] = lz;
-            d->lo[t] = lo;
-            d->lidle[t] = li;
-            czo += lz * lo;
-        }
-        d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
-        if (!(d->mden > 0)) d->mden = 1;
-    }
+    demod_set_patterns(d, cfg);
     for (int i = 0; i < TAB_N; i++) {
         d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
         d->tabcs[2 * i] = (float)cos(2 * M_PI * i / TAB_N);
@@ -1508,41 +1556,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->lag = (uint64_t)d->n * (uint64_t)(2 * d->W + 20);
     d->pcap = pow2_at_least(d->lag + 4 * (uint64_t)d->n + 16);
 
-    if (d->slot_path) {
-        d->zre = ulk_malloc(d->scap * sizeof *d->zre);
-        d->zim = ulk_malloc(d->scap * sizeof *d->zim);
-        d->rpre = ulk_malloc(d->rcap * sizeof *d->rpre);
-        d->qpre = ulk_malloc(d->rcap * sizeof *d->qpre);
-        if (!d->zre || !d->zim || !d->rpre || !d->qpre) {
-            ulk_demod_destroy(d);
-            return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
-        }
-        d->xcap = 1; /* the samples themselves are not kept */
-    }
-    d->xb = ulk_malloc(d->xcap * sizeof *d->xb);
-    d->ure = ulk_malloc(d->ucap * sizeof *d->ure);
-    d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
-    d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
-    d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
-    d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
-    d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
-    d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
-    d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
-    d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
-    d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
-    d->tblk = ulk_malloc(d->ycap * sizeof *d->tblk);
-    d->qacc = ulk_calloc(4 * (size_t)k, sizeof *d->qacc);
-    d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
-    d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
-    d->py = ulk_malloc(d->pcap * sizeof *d->py);
-    {
-        size_t nal = (size_t)(4 * d->n + (d->W + 4) * d->n + 8);
-        d->al_ci = ulk_malloc(nal * sizeof *d->al_ci);
-        d->al_cz = ulk_malloc(nal * sizeof *d->al_cz);
-        d->al_co = ulk_malloc(nal * sizeof *d->al_co);
-    }
-    if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->dre || !d->dim || !d->ph || !d->ch || !d->qh || !d->yblk ||
-        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py || !d->al_ci || !d->al_cz || !d->al_co) {
+    if (demod_alloc(d) != 0) {
         ulk_demod_destroy(d);
         return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
     }
