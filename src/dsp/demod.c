@@ -744,21 +744,35 @@ static double m2m4_amp(double m2, double m4)
     return sqrt(a2);
 }
 
-static void process_block(ulk_demod *d, uint64_t b, int final)
-{
-    const int k = d->k, B = d->B, twok = 2 * k;
-    uint64_t s_lo = b ? blk_start(d, b - 1) : 0;
-    uint64_t s_hi = blk_start(d, b + 2);
-    if (s_hi > d->n_in) s_hi = d->n_in;
-    uint64_t t_lo = blk_start(d, b), t_hi = final ? d->n_in : blk_start(d, b + 1);
-    if (t_hi > d->n_in) t_hi = d->n_in;
-    if (t_lo >= t_hi || s_hi <= s_lo) return;
-    uint64_t m_lo = b ? (b - 1) * (uint64_t)B : 0;
-    uint64_t m_hi = (b + 2) * (uint64_t)B;
-    if (m_hi > d->u_cnt) m_hi = d->u_cnt;
-    if (m_hi <= m_lo || m_hi - m_lo < 12) { block_unlock(d); return; }
-    int M = (int)(m_hi - m_lo);
+/* One block's working values, handed from stage to stage of process_block (each stage's
+ * helper reads what the earlier ones wrote; none keeps anything across blocks). */
+typedef struct {
+    uint64_t b;
+    uint64_t s_lo, s_hi;   /* the analysis window, samples */
+    uint64_t t_lo, t_hi;   /* the block itself, samples */
+    uint64_t m_lo;         /* the window's first sub-bit slot of U */
+    int M;                 /* sub-bits of U in the window */
+    double mc;             /* the window's centre, in sub-bits from m_lo */
+    double fhat, xr, xi;   /* the squared line: frequency, cycles per sub-bit, and its DFT */
+    double coh;            /* the line's coherence */
+    int fly, backfill;
+    double eps, rho, beta; /* the sub-bit clock */
+    double hp_r, hp_i, fpn; /* the pilot: amplitude and frequency, cycles per sample */
+    uint64_t i_lo, i_hi;   /* samples the matched filter reads */
+    int64_t H0;            /* the first half-cycle */
+    int64_t nfull;         /* half-cycles known complete: [H0, H0 + nfull) */
+    int qb;                /* the half-cycle (mod 2k) that starts a sub-bit */
+    uint64_t ny, y0, y1, nye; /* soft sub-bits made, and the range [y0, y1) handed on */
+    double zr, zi, rq, eq; /* residual subcarrier phase sums */
+} blk_state;
 
+/* Stage 1: finds the squared line and tests it; 0 when the block is not demodulated
+ * (the lock is then dropped), else st->fhat, xr, xi, coh, mc, fly and backfill are set. */
+static int blk_detect(ulk_demod *d, blk_state *st)
+{
+    const int k = d->k;
+    const uint64_t b = st->b, m_lo = st->m_lo;
+    const int M = st->M;
     /* 1. squared baseband and its zoomed DFT. |U| is limited to 3x its median first: a
      * BPSK signal has a steady |U| and is not touched, while a few huge samples (clicks,
      * garbage) would otherwise make one U_m dominate and look perfectly coherent. */
@@ -782,7 +796,7 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         d->sim[m] = 2 * r * i;
         upow += p2;
     }
-    if (!(upow > 0)) { block_unlock(d); return; }
+    if (!(upow > 0)) { block_unlock(d); return 0; }
     double mc = (M - 1) / 2.0;
     double fmax = 2.0 * k * d->eps_max;
     if (fmax > 0.45) fmax = 0.45;
@@ -848,7 +862,7 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
      * wants idle before a word and signal energy in it), but it updates no estimate. */
     int fly = 0;
     if (!(coh * coh >= thr2)) { /* NaN-safe */
-        if (!d->prev_locked || d->flying) { block_unlock(d); return; }
+        if (!d->prev_locked || d->flying) { block_unlock(d); return 0; }
         fly = 1;
     }
     d->flying = fly;
@@ -862,7 +876,23 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
      * inside it (a short preamble, a transmission after a gap): its sub-bits are demodulated
      * too, on this block's clock (the window covers it), so the first word is not lost. */
     int backfill = !d->prev_locked && b > 0;
+    st->mc = mc;
+    st->fhat = fhat;
+    st->xr = xr;
+    st->xi = xi;
+    st->coh = coh;
+    st->fly = fly;
+    st->backfill = backfill;
+    return 1;
+}
 
+/* Stages 2 and 3: sets the sub-bit clock (st->eps, rho, beta) and the pilot's estimate. */
+static void blk_clock_pilot(ulk_demod *d, blk_state *st)
+{
+    const int k = d->k, twok = 2 * k;
+    const uint64_t s_lo = st->s_lo, s_hi = st->s_hi, t_lo = st->t_lo, m_lo = st->m_lo;
+    const double fhat = st->fhat, xr = st->xr, xi = st->xi, mc = st->mc;
+    const int fly = st->fly;
     /* 2. sub-bit clock theta(i) = i rho + beta, modulo 1/(2k) */
     double eps = fhat / (2.0 * k);
     double phic = atan2(xi, xr) / 2.0;
@@ -897,76 +927,81 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         hp_r *= 2.0 / (double)(s_hi - s_lo);
         hp_i *= 2.0 / (double)(s_hi - s_lo);
     }
+    st->eps = eps;
+    st->rho = rho;
+    st->beta = beta;
+    st->hp_r = hp_r;
+    st->hp_i = hp_i;
+    st->fpn = fpn;
+}
 
-    /* Samples the matched filter needs: the whole window on acquisition (the half-cycle
-     * choice below has no history yet, and the block before is backfilled), else the block
-     * itself with two sub-bits either side (the choice is carried over from earlier blocks). */
-    uint64_t i_lo = s_lo, i_hi = s_hi;
-    if (d->prev_locked) {
-        uint64_t mg = (uint64_t)ceil(2 * d->sps) + 2;
-        if (t_lo > s_lo + mg) i_lo = t_lo - mg;
-        if (t_hi + mg < s_hi) i_hi = t_hi + mg;
+/* Stage 4 from the baseband slots: writes the prefix sums d->ph, qh, ch of half-cycles
+ * H0 .. H0 + nh_need; 0 when the slots needed are no longer held (lock dropped). */
+static int blk_dumps_slots(ulk_demod *d, const blk_state *st, uint64_t nh_need)
+{
+    const int k = d->k;
+    const uint64_t i_lo = st->i_lo, i_hi = st->i_hi;
+    const double rho = st->rho, beta = st->beta;
+    const int64_t H0 = st->H0;
+    /* From the baseband slots: a slot's sum z = sum x_i exp(-j 2 pi f_sc i / f_s) gives
+     * sum x_i sin(2 pi k theta(i)) = -Im(exp(-j psi) z) exactly when the template's phase
+     * offset psi = 2 pi k (theta(i) - i / sps) is constant over the slot; it moves by
+     * 2 pi k eps / S a slot (under 1e-3 rad), so psi is taken at the slot's centre. A
+     * half-cycle holds the slots whose centres fall in it; its template energy is half its
+     * sample count. ph, qh and ch are written directly as prefix sums. */
+    const double Ls = d->Ls;
+    uint64_t sl_lo = slot_of(d, i_lo);
+    if (d->s_cnt > d->scap && sl_lo < d->s_cnt - d->scap) sl_lo = d->s_cnt - d->scap;
+    uint64_t sl_hi = d->s_cnt;
+    if (i_hi > 0 && slot_of(d, i_hi - 1) + 1 < sl_hi) sl_hi = slot_of(d, i_hi - 1) + 1;
+    if (sl_hi <= sl_lo || sl_hi - sl_lo + 1 > d->rcap) { block_unlock(d); return 0; }
+    double drho = rho - 1.0 / d->sps;
+    double c0 = ((double)sl_lo + 0.5) * Ls - 0.5;
+    double p0 = k * (c0 * drho + beta);
+    p0 -= floor(p0);
+    double cr = cos(2 * M_PI * p0), sr = sin(2 * M_PI * p0);
+    double wr = cos(2 * M_PI * k * drho * Ls), wi = sin(2 * M_PI * k * drho * Ls);
+    double *R = d->rpre, *Qp = d->qpre;
+    R[0] = Qp[0] = 0;
+    uint64_t nsl = sl_hi - sl_lo, ri = sl_lo % d->scap;
+    for (uint64_t t = 0; t < nsl; t++) {
+        double zr = d->zre[ri], zi = d->zim[ri];
+        if (++ri == d->scap) ri = 0;
+        R[t + 1] = R[t] + (sr * zr - cr * zi);
+        Qp[t + 1] = Qp[t] + (cr * zr + sr * zi);
+        double nr = cr * wr - sr * wi;
+        sr = sr * wr + cr * wi;
+        cr = nr;
     }
-    /* 4. half-cycle integrate-and-dump with the recovered template */
-    double th0 = (double)i_lo * rho + beta;
-    double kth = k * th0;
-    double cyc0 = floor(kth);
-    double phs = kth - cyc0;
-    int64_t H0 = 2 * (int64_t)cyc0 + (phs >= 0.5);
-    double inc = k * rho;
-    uint64_t nh_need = (uint64_t)((double)(i_hi - i_lo) * 2 * inc) + 8;
-    if (nh_need + 1 > d->hcap) { block_unlock(d); return; } /* cannot happen: sized at create */
-    if (d->slot_path) {
-        /* From the baseband slots: a slot's sum z = sum x_i exp(-j 2 pi f_sc i / f_s) gives
-         * sum x_i sin(2 pi k theta(i)) = -Im(exp(-j psi) z) exactly when the template's phase
-         * offset psi = 2 pi k (theta(i) - i / sps) is constant over the slot; it moves by
-         * 2 pi k eps / S a slot (under 1e-3 rad), so psi is taken at the slot's centre. A
-         * half-cycle holds the slots whose centres fall in it; its template energy is half its
-         * sample count. ph, qh and ch are written directly as prefix sums. */
-        const double Ls = d->Ls;
-        uint64_t sl_lo = slot_of(d, i_lo);
-        if (d->s_cnt > d->scap && sl_lo < d->s_cnt - d->scap) sl_lo = d->s_cnt - d->scap;
-        uint64_t sl_hi = d->s_cnt;
-        if (i_hi > 0 && slot_of(d, i_hi - 1) + 1 < sl_hi) sl_hi = slot_of(d, i_hi - 1) + 1;
-        if (sl_hi <= sl_lo || sl_hi - sl_lo + 1 > d->rcap) { block_unlock(d); return; }
-        double drho = rho - 1.0 / d->sps;
-        double c0 = ((double)sl_lo + 0.5) * Ls - 0.5;
-        double p0 = k * (c0 * drho + beta);
-        p0 -= floor(p0);
-        double cr = cos(2 * M_PI * p0), sr = sin(2 * M_PI * p0);
-        double wr = cos(2 * M_PI * k * drho * Ls), wi = sin(2 * M_PI * k * drho * Ls);
-        double *R = d->rpre, *Qp = d->qpre;
-        R[0] = Qp[0] = 0;
-        uint64_t nsl = sl_hi - sl_lo, ri = sl_lo % d->scap;
-        for (uint64_t t = 0; t < nsl; t++) {
-            double zr = d->zre[ri], zi = d->zim[ri];
-            if (++ri == d->scap) ri = 0;
-            R[t + 1] = R[t] + (sr * zr - cr * zi);
-            Qp[t + 1] = Qp[t] + (cr * zr + sr * zi);
-            double nr = cr * wr - sr * wi;
-            sr = sr * wr + cr * wi;
-            cr = nr;
+    double twokd = 2.0 * k, n0 = 0, r0 = 0, q0 = 0;
+    for (uint64_t i = 0; i <= nh_need; i++) {
+        double pH = ((double)(H0 + (int64_t)i) / twokd - beta) / rho;
+        /* the first slot whose centre is at or after p_H */
+        uint64_t bs;
+        if (!(pH > (double)slot_first(d, sl_lo))) bs = sl_lo;
+        else if (!(pH < (double)slot_first(d, sl_hi))) bs = sl_hi;
+        else {
+            bs = slot_of(d, (uint64_t)pH);
+            if (0.5 * (double)(slot_first(d, bs) + slot_first(d, bs + 1) - 1) < pH) bs++;
         }
-        double twokd = 2.0 * k, n0 = 0, r0 = 0, q0 = 0;
-        for (uint64_t i = 0; i <= nh_need; i++) {
-            double pH = ((double)(H0 + (int64_t)i) / twokd - beta) / rho;
-            /* the first slot whose centre is at or after p_H */
-            uint64_t bs;
-            if (!(pH > (double)slot_first(d, sl_lo))) bs = sl_lo;
-            else if (!(pH < (double)slot_first(d, sl_hi))) bs = sl_hi;
-            else {
-                bs = slot_of(d, (uint64_t)pH);
-                if (0.5 * (double)(slot_first(d, bs) + slot_first(d, bs + 1) - 1) < pH) bs++;
-            }
-            uint64_t fs0 = slot_first(d, bs);
-            double nsmp = (double)(fs0 < d->n_in ? fs0 : d->n_in);
-            uint64_t t = bs - sl_lo;
-            if (i == 0) { n0 = nsmp; r0 = R[t]; q0 = Qp[t]; }
-            d->ph[i] = R[t] - r0;
-            d->qh[i] = Qp[t] - q0;
-            d->ch[i] = 0.5 * (nsmp - n0);
-        }
-    } else {
+        uint64_t fs0 = slot_first(d, bs);
+        double nsmp = (double)(fs0 < d->n_in ? fs0 : d->n_in);
+        uint64_t t = bs - sl_lo;
+        if (i == 0) { n0 = nsmp; r0 = R[t]; q0 = Qp[t]; }
+        d->ph[i] = R[t] - r0;
+        d->qh[i] = Qp[t] - q0;
+        d->ch[i] = 0.5 * (nsmp - n0);
+    }
+    return 1;
+}
+
+/* Stage 4 from the samples: writes the prefix sums d->ph, qh, ch of half-cycles
+ * H0 .. H0 + nh_need, the pilot subtracted; cyc0 and phs are the clock at i_lo. */
+static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_need, double cyc0, double phs)
+{
+    const uint64_t i_lo = st->i_lo, i_hi = st->i_hi;
+    const int64_t H0 = st->H0;
+    const double hp_r = st->hp_r, hp_i = st->hp_i, fpn = st->fpn, inc = d->k * st->rho;
     memset(d->ph, 0, (nh_need + 1) * sizeof *d->ph);
     memset(d->ch, 0, (nh_need + 1) * sizeof *d->ch);
     memset(d->qh, 0, (nh_need + 1) * sizeof *d->qh);
@@ -1022,6 +1057,40 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         d->ch[i] += d->ch[i - 1];
         d->qh[i] += d->qh[i - 1];
     }
+}
+
+/* Stage 4: half-cycle dumps over [st->i_lo, i_hi), st->H0 and st->nfull; 0 when there
+ * are too few (the lock is then dropped). */
+static int blk_dumps(ulk_demod *d, blk_state *st)
+{
+    const int k = d->k, twok = 2 * k;
+    const uint64_t s_lo = st->s_lo, s_hi = st->s_hi, t_lo = st->t_lo, t_hi = st->t_hi;
+    const double rho = st->rho, beta = st->beta;
+    /* Samples the matched filter needs: the whole window on acquisition (the half-cycle
+     * choice below has no history yet, and the block before is backfilled), else the block
+     * itself with two sub-bits either side (the choice is carried over from earlier blocks). */
+    uint64_t i_lo = s_lo, i_hi = s_hi;
+    if (d->prev_locked) {
+        uint64_t mg = (uint64_t)ceil(2 * d->sps) + 2;
+        if (t_lo > s_lo + mg) i_lo = t_lo - mg;
+        if (t_hi + mg < s_hi) i_hi = t_hi + mg;
+    }
+    /* 4. half-cycle integrate-and-dump with the recovered template */
+    double th0 = (double)i_lo * rho + beta;
+    double kth = k * th0;
+    double cyc0 = floor(kth);
+    double phs = kth - cyc0;
+    int64_t H0 = 2 * (int64_t)cyc0 + (phs >= 0.5);
+    double inc = k * rho;
+    uint64_t nh_need = (uint64_t)((double)(i_hi - i_lo) * 2 * inc) + 8;
+    if (nh_need + 1 > d->hcap) { block_unlock(d); return 0; } /* cannot happen: sized at create */
+    st->i_lo = i_lo;
+    st->i_hi = i_hi;
+    st->H0 = H0;
+    if (d->slot_path) {
+        if (!blk_dumps_slots(d, st, nh_need)) return 0;
+    } else {
+        blk_dumps_samples(d, st, nh_need, cyc0, phs);
     }
     uint64_t nh = nh_need;
     int64_t Hlast = (int64_t)floor(twok * ((double)(i_hi - 1) * rho + beta)); /* last (maybe partial) */
@@ -1034,8 +1103,17 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     }
     int64_t nfull = Hlast - H0;  /* half-cycles known complete: [H0, Hlast) */
     if (nfull > (int64_t)nh) nfull = (int64_t)nh;
-    if (nfull < twok) { block_unlock(d); return; }
+    if (nfull < twok) { block_unlock(d); return 0; }
+    st->nfull = nfull;
+    return 1;
+}
 
+/* Stage 5: sets st->qb, the half-cycle that starts a sub-bit; 0 when the dumps hold no
+ * energy (the lock is then dropped). */
+static int blk_subbit_phase(ulk_demod *d, blk_state *st)
+{
+    const int twok = 2 * d->k;
+    const int64_t H0 = st->H0, nfull = st->nfull;
     /* 5. which half-cycle starts a sub-bit: energy of the sub-bit dumps, accumulated */
     double mtot = 0;
     double *mq = d->qacc + twok; /* scratch: second half of the qacc allocation */
@@ -1049,13 +1127,25 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         mq[q] = e;
         mtot += e;
     }
-    if (!(mtot > 0)) { block_unlock(d); return; }
+    if (!(mtot > 0)) { block_unlock(d); return 0; }
     int qb = 0;
     for (int q = 0; q < twok; q++) {
         d->qacc[q] = (d->prev_locked ? 0.6 * d->qacc[q] : 0) + mq[q] * twok / mtot;
         if (d->qacc[q] > d->qacc[qb]) qb = q;
     }
+    st->qb = qb;
+    return 1;
+}
 
+/* Stage 6: the soft sub-bits into d->yblk / tblk (st->ny of them) and the residual
+ * phase sums; 0 when there are none (the lock is then dropped). */
+static int blk_soft(ulk_demod *d, blk_state *st)
+{
+    const int twok = 2 * d->k;
+    const uint64_t s_lo = st->s_lo, s_hi = st->s_hi, t_lo = st->t_lo, t_hi = st->t_hi;
+    const double rho = st->rho, beta = st->beta;
+    const int64_t H0 = st->H0, nfull = st->nfull;
+    const int qb = st->qb, backfill = st->backfill;
     /* 6. soft sub-bits whose start falls in [t_lo, t_hi) */
     /* Continue right after the last sub-bit handed on (the previous block's clock and this
      * one's may differ by a fraction of a half-cycle at the seam: going by sample ranges
@@ -1100,8 +1190,21 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         d->have_emit = 1;
         ny++;
     }
-    if (ny == 0) { block_unlock(d); return; }
+    if (ny == 0) { block_unlock(d); return 0; }
+    st->ny = ny;
+    st->zr = zr;
+    st->zi = zi;
+    st->rq = rq;
+    st->eq = eq;
+    return 1;
+}
 
+/* Trim and level test: sets the range [st->y0, y1) of soft sub-bits handed on; 0 when an
+ * acquisition fails the level test (the lock is then dropped). */
+static int blk_trim(ulk_demod *d, blk_state *st)
+{
+    const uint64_t t_hi = st->t_hi, ny = st->ny;
+    const int backfill = st->backfill, fly = st->fly;
     /* On acquisition the block before is backfilled, but the window that passed the test
      * may hold the transmission's start anywhere, even after this block; after a locked run
      * a flywheel block holds its end. Noise handed on there would give a unit decoder that
@@ -1166,10 +1269,24 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
         if (!(aq > 0) || !(aq * aq >= ACQ_MIN_SNR * sq)) {
             d->have_emit = 0;
             block_unlock(d);
-            return;
+            return 0;
         }
     }
+    st->y0 = y0;
+    st->y1 = y1;
+    st->nye = nye;
+    return 1;
+}
 
+/* Stage 7: amplitude and estimates from the block, then the soft sub-bits [st->y0, y1)
+ * go to the pattern stage. */
+static void blk_hand_on(ulk_demod *d, const blk_state *st)
+{
+    const int k = d->k;
+    const uint64_t t_lo = st->t_lo, t_hi = st->t_hi, y0 = st->y0, y1 = st->y1, nye = st->nye;
+    const double eps = st->eps, rho = st->rho, beta = st->beta, coh = st->coh;
+    const double zr = st->zr, zi = st->zi, rq = st->rq, eq = st->eq;
+    const int fly = st->fly;
     /* 7. amplitude (M2M4 on the block), estimates, hand-over to the pattern stage */
     double m2 = 0, m4 = 0, m1 = 0;
     for (uint64_t i = y0; i < y1; i++) {
@@ -1232,7 +1349,105 @@ static void process_block(ulk_demod *d, uint64_t b, int final)
     }
 }
 
+/* Demodulates block b (the last one when final): each stage returns 0 when the block
+ * ends there. */
+static void process_block(ulk_demod *d, uint64_t b, int final)
+{
+    const int B = d->B;
+    uint64_t s_lo = b ? blk_start(d, b - 1) : 0;
+    uint64_t s_hi = blk_start(d, b + 2);
+    if (s_hi > d->n_in) s_hi = d->n_in;
+    uint64_t t_lo = blk_start(d, b), t_hi = final ? d->n_in : blk_start(d, b + 1);
+    if (t_hi > d->n_in) t_hi = d->n_in;
+    if (t_lo >= t_hi || s_hi <= s_lo) return;
+    uint64_t m_lo = b ? (b - 1) * (uint64_t)B : 0;
+    uint64_t m_hi = (b + 2) * (uint64_t)B;
+    if (m_hi > d->u_cnt) m_hi = d->u_cnt;
+    if (m_hi <= m_lo || m_hi - m_lo < 12) { block_unlock(d); return; }
+    blk_state st = {0};
+    st.b = b;
+    st.s_lo = s_lo;
+    st.s_hi = s_hi;
+    st.t_lo = t_lo;
+    st.t_hi = t_hi;
+    st.m_lo = m_lo;
+    st.M = (int)(m_hi - m_lo);
+    if (!blk_detect(d, &st)) return;
+    blk_clock_pilot(d, &st);
+    if (!blk_dumps(d, &st) || !blk_subbit_phase(d, &st) || !blk_soft(d, &st) || !blk_trim(d, &st)) return;
+    blk_hand_on(d, &st);
+}
+
 /* ---------------------------------------------------------------- public */
+
+/* The sub-bit patterns of zero, one and idle as +-1 chips and as the line levels they
+ * give, and the decision denominator (d->mden) those levels imply. */
+static void demod_set_patterns(ulk_demod *d, const ulk_link *cfg)
+{
+    for (int t = 0; t < d->n; t++) {
+        d->pz[t] = cfg->zero[t] ? 1.0f : -1.0f;
+        d->po[t] = cfg->one[t] ? 1.0f : -1.0f;
+        d->pidle[t] = cfg->idle[t] ? 1.0f : -1.0f;
+        d->d_zo += cfg->zero[t] != cfg->one[t];
+    }
+    if (d->d_zo == 0) d->d_zo = 1;
+    {
+        float lz = 1, lo = 1, li = 1;
+        double czo = 1; /* correlation of the n + 1 levels of Z and O (the leading +1 shared) */
+        for (int t = 0; t < d->n; t++) {
+            if (cfg->zero[t]) lz = -lz;
+            if (cfg->one[t]) lo = -lo;
+            if (cfg->idle[t]) li = -li;
+            d->lz[t] = lz;
+            d->lo[t] = lo;
+            d->lidle[t] = li;
+            czo += lz * lo;
+        }
+        d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
+        if (!(d->mden > 0)) d->mden = 1;
+    }
+}
+
+/* Allocates the demodulator's buffers at the capacities set; -1 when memory is short
+ * (the caller destroys d, which frees what was allocated). */
+static int demod_alloc(ulk_demod *d)
+{
+    const int B = d->B, k = d->k;
+    if (d->slot_path) {
+        d->zre = ulk_malloc(d->scap * sizeof *d->zre);
+        d->zim = ulk_malloc(d->scap * sizeof *d->zim);
+        d->rpre = ulk_malloc(d->rcap * sizeof *d->rpre);
+        d->qpre = ulk_malloc(d->rcap * sizeof *d->qpre);
+        if (!d->zre || !d->zim || !d->rpre || !d->qpre) return -1;
+        d->xcap = 1; /* the samples themselves are not kept */
+    }
+    d->xb = ulk_malloc(d->xcap * sizeof *d->xb);
+    d->ure = ulk_malloc(d->ucap * sizeof *d->ure);
+    d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
+    d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
+    d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
+    d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
+    d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
+    d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
+    d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
+    d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
+    d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
+    d->tblk = ulk_malloc(d->ycap * sizeof *d->tblk);
+    d->qacc = ulk_calloc(4 * (size_t)k, sizeof *d->qacc);
+    d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
+    d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
+    d->py = ulk_malloc(d->pcap * sizeof *d->py);
+    {
+        size_t nal = (size_t)(4 * d->n + (d->W + 4) * d->n + 8);
+        d->al_ci = ulk_malloc(nal * sizeof *d->al_ci);
+        d->al_cz = ulk_malloc(nal * sizeof *d->al_cz);
+        d->al_co = ulk_malloc(nal * sizeof *d->al_co);
+    }
+    if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->dre || !d->dim || !d->ph || !d->ch || !d->qh || !d->yblk ||
+        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py || !d->al_ci || !d->al_cz || !d->al_co)
+        return -1;
+    return 0;
+}
 
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag)
@@ -1285,28 +1500,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     if (opt) d->opt = *opt;
     d->eps_max = (d->opt.max_ppm > 0 ? d->opt.max_ppm : ULK_DEMOD_DEFAULT_PPM) * 1e-6;
     d->acq_pfa = 1e-6;
-    for (int t = 0; t < d->n; t++) {
-        d->pz[t] = cfg->zero[t] ? 1.0f : -1.0f;
-        d->po[t] = cfg->one[t] ? 1.0f : -1.0f;
-        d->pidle[t] = cfg->idle[t] ? 1.0f : -1.0f;
-        d->d_zo += cfg->zero[t] != cfg->one[t];
-    }
-    if (d->d_zo == 0) d->d_zo = 1;
-    {
-        float lz = 1, lo = 1, li = 1;
-        double czo = 1; /* correlation of the n + 1 levels of Z and O (the leading +1 shared) */
-        for (int t = 0; t < d->n; t++) {
-            if (cfg->zero[t]) lz = -lz;
-            if (cfg->one[t]) lo = -lo;
-            if (cfg->idle[t]) li = -li;
-            d->lz[t] = lz;
-            d->lo[t] = lo;
-            d->lidle[t] = li;
-            czo += lz * lo;
-        }
-        d->mden = d->nrzm ? (d->n + 1) - fabs(czo) : 2.0 * d->d_zo;
-        if (!(d->mden > 0)) d->mden = 1;
-    }
+    demod_set_patterns(d, cfg);
     for (int i = 0; i < TAB_N; i++) {
         d->tab[i] = (float)sin(2 * M_PI * i / TAB_N);
         d->tabcs[2 * i] = (float)cos(2 * M_PI * i / TAB_N);
@@ -1362,41 +1556,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     d->lag = (uint64_t)d->n * (uint64_t)(2 * d->W + 20);
     d->pcap = pow2_at_least(d->lag + 4 * (uint64_t)d->n + 16);
 
-    if (d->slot_path) {
-        d->zre = ulk_malloc(d->scap * sizeof *d->zre);
-        d->zim = ulk_malloc(d->scap * sizeof *d->zim);
-        d->rpre = ulk_malloc(d->rcap * sizeof *d->rpre);
-        d->qpre = ulk_malloc(d->rcap * sizeof *d->qpre);
-        if (!d->zre || !d->zim || !d->rpre || !d->qpre) {
-            ulk_demod_destroy(d);
-            return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
-        }
-        d->xcap = 1; /* the samples themselves are not kept */
-    }
-    d->xb = ulk_malloc(d->xcap * sizeof *d->xb);
-    d->ure = ulk_malloc(d->ucap * sizeof *d->ure);
-    d->uim = ulk_malloc(d->ucap * sizeof *d->uim);
-    d->sre = ulk_malloc(3 * (size_t)B * sizeof *d->sre + 64);
-    d->sim = ulk_malloc(3 * (size_t)B * sizeof *d->sim + 64);
-    d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
-    d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
-    d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
-    d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
-    d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
-    d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
-    d->tblk = ulk_malloc(d->ycap * sizeof *d->tblk);
-    d->qacc = ulk_calloc(4 * (size_t)k, sizeof *d->qacc);
-    d->pv = ulk_malloc(d->pcap * sizeof *d->pv);
-    d->pt = ulk_malloc(d->pcap * sizeof *d->pt);
-    d->py = ulk_malloc(d->pcap * sizeof *d->py);
-    {
-        size_t nal = (size_t)(4 * d->n + (d->W + 4) * d->n + 8);
-        d->al_ci = ulk_malloc(nal * sizeof *d->al_ci);
-        d->al_cz = ulk_malloc(nal * sizeof *d->al_cz);
-        d->al_co = ulk_malloc(nal * sizeof *d->al_co);
-    }
-    if (!d->xb || !d->ure || !d->uim || !d->sre || !d->sim || !d->dre || !d->dim || !d->ph || !d->ch || !d->qh || !d->yblk ||
-        !d->tblk || !d->qacc || !d->pv || !d->pt || !d->py || !d->al_ci || !d->al_cz || !d->al_co) {
+    if (demod_alloc(d) != 0) {
         ulk_demod_destroy(d);
         return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
     }
