@@ -84,6 +84,10 @@ row() {
     esac
   done
   shift
+  # an empty fragment would match any message (grep -F ''): the row would prove nothing
+  if [ -z "$frag" ]; then
+    failed=$((failed + 1)); echo "FAIL  $name: the row names no expected message fragment"; return
+  fi
   # a row never skips: a command missing from the build is a failure (the row cannot prove
   # what it claims), and so is a root run that cannot drop to another user
   if [ -n "$needs" ] && ! have "$needs"; then

@@ -514,7 +514,8 @@ def float32_bits(value, negative=False):
         fl += 1
     exact = fl * q                                               # representable
     bits = struct.unpack("<I", struct.pack("<f", float(exact)))[0]
-    assert Fraction(struct.unpack("<f", struct.pack("<I", bits))[0]) == exact
+    assert Fraction(struct.unpack("<f", struct.pack("<I", bits))[0]) == exact, \
+        "float32 rounding: %s is not representable as bits 0x%08x" % (exact, bits)
     return bits | (sign << 31)
 
 
@@ -778,7 +779,7 @@ def encode_command(d, cmd):
         used += a.bits
     _put(bits, 0, L.argument_bits - used)
     _put(bits, check_bits(L.check, bits), L.check_bits)
-    assert len(bits) == L.word_bits
+    assert len(bits) == L.word_bits, "%s: word of %d bits, the link has %d" % (cmd.cdef.mnemonic, len(bits), L.word_bits)
     return Word(cmd.cdef.mnemonic, bits, cmd.line, dict(cmd.values))
 
 

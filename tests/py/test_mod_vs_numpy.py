@@ -138,7 +138,8 @@ def reference(case, fs):
     i = np.arange(n, dtype=np.int64)
     q = rs / fs                                  # j = floor(i q), exactly
     j = (i * q.numerator) // q.denominator
-    assert j[-1] == L - 1 and math.floor(Fraction(n) * q) >= L - 1
+    assert j[-1] == L - 1 and math.floor(Fraction(n) * q) >= L - 1, \
+        "sample-to-sub-bit index: last sample on sub-bit %d of %d" % (j[-1], L)
 
     def phase(f):                                # i f / f_s mod 1 as (numerator r, denominator den)
         p = frac_of(f) / fs

@@ -89,7 +89,8 @@ def main():
     with tempfile.TemporaryDirectory(dir=TMPROOT) as tmp:
         with open(os.path.join(SRC, "dictionaries", "demo-subbit.yaml"), encoding="utf-8") as f:
             t = f.read()
-        assert "    tone_hz: 1000" in t and "    full: {" in t
+        assert "    tone_hz: 1000" in t and "    full: {" in t, \
+            "demo-subbit.yaml no longer has the tone_hz and full: lines this test edits"
         t = t.replace("    tone_hz: 1000", "    audio: tone.wav")
         t = t.replace("    full: {", "    speech: {voice: %g}\n    full: {" % M_V)
         dct = os.path.join(tmp, "d.yaml")
