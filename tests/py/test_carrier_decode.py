@@ -210,8 +210,9 @@ def main():
         check(rc == 0, "ccsds-tc: impair", err)
         rc, out, err = run("decode", "--dict", tcd, tcn, "--json")
         j = json.loads(out) if rc == 0 else {"words": [None]}
-        check(rc == 0 and len(j["words"]) > 0 and all(w["status"] == "accepted" for w in j["words"]),
-              "ccsds-tc: %d CLTUs, all accepted" % len(j["words"]), err)
+        # demo-ccsds.cmd compiles to 18 commands, one CLTU each: every one decoded and accepted
+        check(rc == 0 and len(j["words"]) == 18 and all(w["status"] == "accepted" for w in j["words"]),
+              "ccsds-tc: %d CLTUs (18 sent), all accepted" % len(j["words"]), err)
         rc, out, err = run("verify", "--dict", tcd, "--upload", tcu, tcn)
         check(rc == 0, "ccsds-tc: verify exit 0", out + err)
     print("%d check(s) failed" % failed if failed else "all checks passed")

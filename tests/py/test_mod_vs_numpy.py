@@ -10,7 +10,7 @@ timing table (section 6). The dictionaries and command lists are written by this
 compiled with `ulk compile`; the words of the upload file are only cross-checked against
 the ones computed here.
 
-Checks: max |diff| <= 1e-5 for f32 and <= 1 LSB for s16, for sine and square subcarriers,
+Checks: max |diff| <= 2e-7 for f32 (measured 6.98e-08) and <= 1 LSB for s16, for sine and square subcarriers,
 nrz-l and nrz-m, with and without a pilot, at rates where f_s / R_s is whole and where it is
 not (and one whose phase period is too long for a table); raw + SigMF and WAV (read back with
 scipy.io.wavfile, a Debian reference library); the timing table row by row, with start_s
@@ -26,6 +26,8 @@ from fractions import Fraction
 
 import numpy as np
 import scipy.io.wavfile
+
+F32_TOL = 2e-7  # max |diff| of f32 samples; measured 6.98e-08 (case c, nrz-m + pilot)
 
 ULK = os.environ.get("ULK", "ulk")
 
@@ -227,9 +229,11 @@ def check_case(tmp, case, failures):
                 failures.append(f"{name} {out}: max |diff| {diff} LSB > 1")
         else:
             diff = np.max(np.abs(x.astype(np.float64) - ref))
-            if diff > 1e-5:
+            # measured: at most 6.98e-08 (case c; float32 rounding of values up to ~1.x is
+            # half an ULP, 5.96e-08, plus the float32 phase arithmetic); limit ~3x that
+            if diff > F32_TOL:
                 k = int(np.argmax(np.abs(x.astype(np.float64) - ref)))
-                failures.append(f"{name} {out}: max |diff| {diff:.3g} > 1e-5 at sample {k}")
+                failures.append(f"{name} {out}: max |diff| {diff:.3g} > {F32_TOL:g} at sample {k}")
         print(f"  {name:45s} {out:12s} {len(x):7d} samples  max|diff| {diff:.3g}{' LSB' if x.dtype == np.int16 else ''}")
     check_timing(case, fs, os.path.join(tmp, "timing.csv"), failures)
     # the table alone, without samples, is the same table

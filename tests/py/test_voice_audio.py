@@ -9,7 +9,7 @@ mode added.
  (a) `ulk modulate --carrier` of the voice-only mode against an independent numpy/scipy
      computation of the formula: a(t) = samples / peak, linear interpolation at i * f_in / fs
      (exact integer positions), silence after the end, scipy.integrate.cumulative_trapezoid;
-     max |phase difference| < 1e-3 rad (over the file and the silent tail).
+     max |phase difference| < 5e-6 rad (measured 1.13e-06; over the file and the silent tail).
  (b) `ulk decode --voice` of the full mode (data, voice, ranging) recovers f_a within 1 Hz.
  (c) --voice-audio overrides the section (a stereo WAV: refused without --voice-channel,
      with --voice-channel 1 equal to the mono capture); a silent WAV is refused, nothing
@@ -118,7 +118,8 @@ def main():
         check(abs(np.max(np.abs(a)) - 1) < 1e-3, "reference audio peak %.5f ~ 1" % np.max(np.abs(a)))
         d = np.abs(np.angle(x * np.conj(ref)))
         end = int(np.ceil(n_in * FS / FIN)) + 1
-        check(np.max(d) < 1e-3, "phase vs numpy formula: max |diff| %.3g rad (limit 1e-3), over the audio %.3g, "
+        # measured 1.13e-06 rad (float32 samples, phase accumulated in double); limit ~4x that
+        check(np.max(d) < 5e-6, "phase vs numpy formula: max |diff| %.3g rad (limit 5e-6), over the audio %.3g, "
               "after its end %.3g" % (np.max(d), np.max(d[:end]), np.max(d[end:])))
         # the same check would fail for a rectangular-rule integral or an unnormalised audio
         alt = np.exp(1j * M_V * np.sin(2 * np.pi * ((np.arange(n) * FV) % FS) / FS +
