@@ -1,5 +1,5 @@
 /* src/sdls.c - Space Data Link Security on TC frames (CCSDS 355.0-B-1) with AES-256-GCM
- * (CCSDS 352.0-B) through OpenSSL's EVP interface; key file, anti-replay state file,
+ * (CCSDS 352.0-B-2 section 5, from memory) through OpenSSL's EVP interface; key file, anti-replay state file,
  * sending and receiving side. See ulk/sdls.h for the layout and docs/sdls.md for the rules.
  */
 #define _GNU_SOURCE

@@ -1,7 +1,8 @@
 /* tests/test_ccsds.c - the CCSDS telecommand bit layer against the standards.
  *
- * Outside sources, named beside each check: CCSDS 231.0-B (randomizer, BCH code, start and
- * tail sequences), CCSDS 232.0-B and 133.0-B (header layouts, rebuilt here field by field
+ * Outside sources, named beside each check: CCSDS 231.0-B-4 (randomizer section 6, BCH code section 3, start
+ * and tail sequences section 5), CCSDS 232.0-B-4 section 4.1.2 and 133.0-B-2 section 4.1.3
+ * (header layouts; all these section numbers from memory, rebuilt here field by field
  * with a slow bit writer), the published CRC catalogue (CRC-16/IBM-3740 check value).
  * The FECF is also cross-checked with python3-crcmod by tests/py/test_ccsds_crcmod.py,
  * which runs this program as `test_ccsds --print-frames` to get frames to check; the BCH
@@ -105,7 +106,7 @@ static void slow_lfsr(const int *coeff_degrees, int n_terms, uint8_t *out, int n
 static void test_randomizer_first_40_bits(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: the first 40 bits of the TC pseudo-random sequence. */
+    /* CCSDS 231.0-B-4 section 6 (from memory): the first 40 bits of the TC pseudo-random sequence. */
     const uint8_t expect[5] = {0xFF, 0x39, 0x9E, 0x5A, 0x68};
     uint8_t seq[5];
     ulk_tc_random_sequence(seq, 5);
@@ -119,7 +120,7 @@ static void test_randomizer_first_40_bits(void **state)
 static void test_randomizer_polynomial(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, all-ones start. */
+    /* CCSDS 231.0-B-4 section 6 (from memory): h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, all-ones start. */
     assert_int_equal(ULK_TC_RANDOMIZER_POLY, (1u << 8) | (1u << 6) | (1u << 4) | (1u << 3) |
                                                  (1u << 2) | (1u << 1) | 1u);
     static const int tc_poly[] = {8, 6, 4, 3, 2, 1, 0};
@@ -137,7 +138,7 @@ static void test_randomizer_polynomial(void **state)
         for (int i = 0; i + divisors[d] < 512; i++) same &= bits[i] == bits[i + divisors[d]];
         assert_false(same);
     }
-    /* The polynomial x^8+x^7+x^5+x^3+1 is the TM randomizer (CCSDS 131.0-B; its sequence
+    /* The polynomial x^8+x^7+x^5+x^3+1 is the TM randomizer (CCSDS 131.0-B-2 section 9; its sequence
      * FF 48 0E C0 9A from memory): the same generic LFSR gives that, not the TC sequence. */
     static const int tm_poly[] = {8, 7, 5, 3, 0};
     uint8_t tm[5];
@@ -223,7 +224,8 @@ static void test_bch_encode_matches_slow_encoder(void **state)
         assert_true(poly_is_zero(a, 7));
         assert_int_equal(ulk_bch_syndrome(cb), 0);
     }
-    /* All-zero information: parity 0000000 sent complemented (CCSDS 231.0-B). */
+    /* All-zero information: parity 0000000 sent complemented (CCSDS 231.0-B-4 section 3,
+     * from memory; CCSDS 201.0-B-3 page 3-1, verified). */
     uint8_t z[7] = {0}, cb[8];
     ulk_bch_encode(z, cb);
     assert_int_equal(cb[7], 0xFE);
@@ -336,7 +338,7 @@ static void test_bch_ted_detects_every_one_two_three_bit_error(void **state)
 static void test_tail_sequence_is_not_correctable(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: tail sequence C5C5C5C5C5C5C579. */
+    /* CCSDS 231.0-B-4 section 5 (from memory): tail sequence C5C5C5C5C5C5C579. */
     const uint8_t tail[8] = {0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0x79};
     uint8_t out[7];
     assert_int_equal(ulk_bch_decode(ULK_BCH_SEC, tail, out, NULL), ULK_CB_REJECTED);
@@ -372,7 +374,7 @@ typedef struct {
 static void test_spp_header_layout(void **state)
 {
     (void)state;
-    /* CCSDS 133.0-B: version 3, type 1, secondary header flag 1, APID 11, sequence flags 2,
+    /* CCSDS 133.0-B-2 section 4.1.3 (from memory): version 3, type 1, secondary header flag 1, APID 11, sequence flags 2,
      * sequence count 14, data length 16 bits. */
     static const spp_row rows[] = {
         {"typical", {0, 1, 0, 0x155, 3, 0x002A, 0x0001}},
@@ -416,7 +418,7 @@ typedef struct {
 static void test_tcf_header_layout(void **state)
 {
     (void)state;
-    /* CCSDS 232.0-B: version 2, bypass 1, control command 1, spare 2, SCID 10, VCID 6,
+    /* CCSDS 232.0-B-4 section 4.1.2 (from memory): version 2, bypass 1, control command 1, spare 2, SCID 10, VCID 6,
      * frame length 10, frame sequence number 8 bits. */
     static const tcf_row rows[] = {
         {"typical", {0, 1, 0, 0, 0x2A7, 0x15, 0x01F, 0x00}},
@@ -711,7 +713,7 @@ static void test_cltu_layout(void **state)
         size_t n_cb = (n_frame + 6) / 7;
         assert_int_equal(n, 2 + 8 * n_cb + 8);
         assert_int_equal(n, ulk_cltu_octets(n_frame));
-        /* CCSDS 231.0-B: start sequence EB90, tail sequence C5C5C5C5C5C5C579. */
+        /* CCSDS 231.0-B-4 section 5 (from memory): start sequence EB90, tail sequence C5C5C5C5C5C5C579. */
         const uint8_t start[2] = {0xEB, 0x90};
         const uint8_t tail[8] = {0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0x79};
         assert_memory_equal(cltu, start, 2);

@@ -8,7 +8,7 @@
  *     document itself was not at hand); tests/py/test_sdls_frames.py checks the same six with
  *     python3-cryptography, a second implementation.
  *   - frame layout: CCSDS 355.0-B-1 (security header after the primary and segment headers,
- *     trailer before the FECF; section numbers from memory) and CCSDS 232.0-B (FECF).
+ *     trailer before the FECF; section numbers from memory) and CCSDS 232.0-B-4 section 4.1.4 (FECF, from memory).
  */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -258,7 +258,7 @@ static void test_frame_layout_and_verdicts(void **state)
         int same = !memcmp(f + 20, plain + 20, 9);
         if (svc == 0 && !same) fail_msg("authentication: the data field must stay in clear");
         if (svc == 1 && same) fail_msg("authenticated-encryption: the data field must be encrypted");
-        /* FECF (CCSDS 232.0-B) over the whole secured frame */
+        /* FECF (CCSDS 232.0-B-4 section 4.1.4, from memory) over the whole secured frame */
         assert_int_equal(ulk_tcf_crc16(f, n - 2), (uint16_t)(f[n - 2] << 8 | f[n - 1]));
         ulk_tcf_frame pf;
         ulk_tcf_parse(&tc, f, n, &pf);

@@ -38,7 +38,7 @@ SRC = os.environ.get("ULK_SOURCE_DIR") or os.path.normpath(
 failures = []
 checks = 0
 
-crc16 = crcmod.predefined.mkCrcFun("crc-ccitt-false")  # CCSDS 232.0-B FECF
+crc16 = crcmod.predefined.mkCrcFun("crc-ccitt-false")  # CCSDS 232.0-B-4 section 4.1.4 FECF (from memory)
 
 KEY_HEX = "4f72726568617272696b636b2d64656d6f2d6b65792d6e6f742d7265616c2121"
 OTHER_HEX = "00" * 31 + "01"
