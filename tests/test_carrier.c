@@ -100,7 +100,8 @@ static void test_bessel_grid_vs_integral_and_libm(void **st)
 
 /* ---------------------------------------------------------------- power division */
 
-/* Intermodulation summed line by line (Jacobi-Anger: exp(j m sin t) = sum_n J_n(m) e^{jnt};
+/* Intermodulation summed line by line (Jacobi-Anger: exp(j m sin t) = sum_n J_n(m) e^{jnt},
+ * Abramowitz and Stegun, Handbook of Mathematical Functions, 1964, 9.1.41 to 9.1.45, from memory;
  * a binary channel is cos m + j c sin m): every line of the product that is not the carrier
  * or a channel's own first-order line. Independent of the 1 - ... definition. */
 static double intermod_by_lines(const ulk_chan_term *t, int n)

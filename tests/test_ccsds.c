@@ -579,6 +579,7 @@ static void test_spp_parse_verdicts(void **state)
     }
     uint8_t d[2] = {1, 2}, o[16];
     size_t n;
+    /* 0x7FF is the idle packets' APID (CCSDS 133.0-B-2 section 4.1.3.3.4, from memory). */
     assert_int_equal(ulk_spp_build(0x7FF, 0, d, 2, o, sizeof o, &n), ULK_EINVAL);
     assert_int_equal(ulk_spp_build(0x7FE, 0x3FFF, d, 2, o, sizeof o, &n), ULK_OK);
     assert_int_equal(ulk_spp_build(1, 0x4000, d, 2, o, sizeof o, &n), ULK_EINVAL);
@@ -654,7 +655,8 @@ static void test_tcf_parse_verdicts(void **state)
         ulk_tcf_parse(&tc, c, n, &fr);
         if (fr.verdict != rows[i].verdict) fail_msg("row %s: %s", rows[i].name, ulk_tcf_verdict_str(fr.verdict));
     }
-    /* Size limit: 1024 octets at most. */
+    /* Size limit: 1024 octets at most (CCSDS 232.0-B-4 section 4.1.2, from memory; CCSDS
+     * 202.0-B-2 section 4.2.1, verified). */
     static uint8_t big[1100], out[1100];
     size_t max_data = 1024 - 5 - 1 - 2;
     assert_int_equal(ulk_tcf_build(&tc, 0, big, max_data, out, sizeof out, &n), ULK_OK);

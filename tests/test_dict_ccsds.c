@@ -6,7 +6,7 @@
  * The broken dictionaries are rows, as in test_dict.c: each takes the small valid
  * dictionary below (YAML or JSON), replaces literal text, and names the finding expected.
  * Field widths come from the standards (CCSDS 232.0-B-4 section 4.1.2, from memory: SCID 10 bits, VCID 6 bits, MAP ID 6
- * bits, N(S) 8 bits, frame at most 1024 octets, 5-octet header, 2-octet FECF, 1-octet
+ * bits, N(S) 8 bits, frame at most 1024 octets (also CCSDS 202.0-B-2 section 4.2.1, verified), 5-octet header, 2-octet FECF, 1-octet
  * segment header; CCSDS 133.0-B-2 section 4.1.3, from memory: APID 11 bits, 0x7FF idle, 6-octet primary header), not
  * from the library's constants.
  */

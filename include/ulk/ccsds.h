@@ -35,7 +35,9 @@ extern "C" {
 /* ---- sizes and fixed values ---- */
 
 #define ULK_SPP_HDR_OCTETS 6        /* Space Packet primary header (CCSDS 133.0-B-2 section 4.1.3, from memory) */
-#define ULK_SPP_APID_IDLE 0x7FFu    /* idle packets' APID: never a command's */
+/* Idle packets' APID, all ones: never a command's (CCSDS 133.0-B-2 section 4.1.3.3.4, from
+ * memory). */
+#define ULK_SPP_APID_IDLE 0x7FFu
 #define ULK_SPP_MAX_APID 0x7FEu
 #define ULK_SPP_MAX_SEQ_COUNT 0x3FFFu
 #define ULK_SPP_SEQ_UNSEGMENTED 3u  /* sequence flags '11' */
@@ -44,7 +46,9 @@ extern "C" {
 #define ULK_TCF_HDR_OCTETS 5        /* TC Transfer Frame primary header (CCSDS 232.0-B-4 section 4.1.2, from memory) */
 #define ULK_TCF_SEG_OCTETS 1        /* optional segment header */
 #define ULK_TCF_FECF_OCTETS 2       /* optional frame error control field */
-#define ULK_TCF_MAX_OCTETS 1024     /* largest TC Transfer Frame (10-bit length field) */
+/* Largest TC Transfer Frame, 1024 octets (the 10-bit frame length field holds length - 1):
+ * CCSDS 232.0-B-4 section 4.1.2, from memory; CCSDS 202.0-B-2 section 4.2.1, verified. */
+#define ULK_TCF_MAX_OCTETS 1024
 #define ULK_TCF_MAX_SCID 1023u
 #define ULK_TCF_MAX_VCID 63u
 #define ULK_TCF_MAX_MAP_ID 63u

@@ -139,7 +139,10 @@ def main():
                            "--delay", 0.05, "--seed", 11)
         check(rc == 0, "impair complex", err)
         # the noise the impairment claims: total variance sigma^2 = P_d f_s / (R_b E_b/N_0),
-        # P_d = 2 J1(0.9)^2 J0(0.9)^2 cos(0.4)^2 (section 2, from scipy.special)
+        # (complex samples: two-sided density N_0 over f_s, so sigma^2 = N_0 f_s; common practice,
+        # docs/spec/carrier.md section 3),
+        # P_d = 2 J1(0.9)^2 J0(0.9)^2 cos(0.4)^2 (section 2, from scipy.special; power split from the
+        # Jacobi-Anger expansion, Abramowitz and Stegun 9.1.41 to 9.1.45, from memory)
         pd = 2 * jv(1, 0.9) ** 2 * jv(0, 0.9) ** 2 * np.cos(0.4) ** 2
         want = pd * FS / (1000 * 10 ** 1.2)
         v = np.fromfile(noisy, dtype="<f4")
