@@ -9,6 +9,7 @@
  * encoder is checked on non-zero codeblocks against the polynomial-division encoder of
  * tests/py/test_ccsds_bch.py, which runs it as `test_ccsds --print-codeblocks`.
  */
+#include <math.h>
 #include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
@@ -897,6 +898,86 @@ static void test_cltu_sec_corrects_one_error_per_codeblock(void **state)
     }
 }
 
+/* P(X <= k) for X ~ binomial(n, p), summed with log-gamma terms. */
+static double binom_cdf(int k, int n, double p)
+{
+    double c = 0;
+    for (int i = 0; i <= k && i <= n; i++)
+        c += exp(lgamma(n + 1.0) - lgamma(i + 1.0) - lgamma(n - i + 1.0) + i * log(p) + (n - i) * log1p(-p));
+    return c;
+}
+
+/* Smallest k with P(X <= k) >= conf. */
+static int binom_quantile(int n, double p, double conf)
+{
+    double c = 0;
+    for (int k = 0; k <= n; k++) {
+        c += exp(lgamma(n + 1.0) - lgamma(k + 1.0) - lgamma(n - k + 1.0) + k * log(p) + (n - k) * log1p(-p));
+        if (c >= conf) return k;
+    }
+    return n;
+}
+
+/* CLTU acceptance on a binary symmetric channel against the binomial model. Bits of the start
+ * sequence and of the codeblocks are flipped independently with probability q (fixed seed;
+ * acquisition, tail and idle left clean so that only the model's terms act). A CLTU is
+ * accepted exactly when the start sequence has at most start_errors errors (binomial over 16
+ * bits) and every codeblock decodes: SEC, at most one error among its 63 code bits; TED, none
+ * (the filler bit is outside the code; CCSDS 231.0-B-4 section 3, from memory). A codeblock
+ * with more errors is rejected or miscorrected, and a miscorrected one fails the FECF (a wrong
+ * frame passes with probability about 2^-16, below what 3000 trials can see). So
+ *     P(accept) = B(start_errors; 16, q) * [ (1-q)^63 + (SEC ? 63 q (1-q)^62 : 0) ]^n_cb
+ * and the number accepted in N trials lies within the 0.05 % and 99.95 % binomial quantiles
+ * of that P (99.9 % two-sided). Every accepted CLTU carries the frame that was sent. */
+static void cltu_bsc_case(ulk_bch_mode mode, int start_errors, double q, int trials)
+{
+    ulk_ccsds_tc tc;
+    ulk_ccsds_tc_default(&tc);
+    tc.correction = mode;
+    tc.start_errors = start_errors;
+    static uint8_t cltu[ULK_CLTU_MAX_OCTETS], sent[ULK_TCF_MAX_OCTETS];
+    size_t n_cltu, n_sent;
+    size_t at = make_stream(&tc, 20, cltu, &n_cltu);
+    const int n_cb = (int)(n_cltu - 10) / 8;
+    assert_int_equal(ulk_cltu_decode(&tc, g_st.bits, g_st.n, 0, &g_res), ULK_OK);
+    if (g_res.verdict != ULK_CLTU_ACCEPTED) fail_msg("the clean CLTU is not accepted: %s", g_res.reason);
+    n_sent = g_res.n_frame;
+    memcpy(sent, g_res.frame, n_sent);
+    static uint8_t clean[8 * (16 * 8 + ULK_CLTU_MAX_OCTETS + 8)];
+    const size_t n_bits = g_st.n;
+    memcpy(clean, g_st.bits, n_bits);
+    const uint32_t thr = (uint32_t)(q * 2147483648.0); /* rnd() gives 31 bits */
+    int accepted = 0;
+    for (int t = 0; t < trials; t++) {
+        memcpy(g_st.bits, clean, n_bits);
+        for (size_t b = at; b < at + 16 + 64 * (size_t)n_cb; b++)
+            if (rnd() < thr) g_st.bits[b] ^= 1;
+        assert_int_equal(ulk_cltu_decode(&tc, g_st.bits, n_bits, 0, &g_res), ULK_OK);
+        if (g_res.verdict == ULK_CLTU_ACCEPTED) {
+            if (g_res.n_frame != n_sent || memcmp(g_res.frame, sent, n_sent))
+                fail_msg("trial %d: an accepted CLTU carries a frame that was not sent", t);
+            accepted++;
+        }
+    }
+    double q_eff = (double)thr / 2147483648.0;
+    double pc = pow(1 - q_eff, 63) + (mode == ULK_BCH_SEC ? 63 * q_eff * pow(1 - q_eff, 62) : 0);
+    double p = binom_cdf(start_errors, 16, q_eff) * pow(pc, n_cb);
+    int lo = binom_quantile(trials, p, 0.0005), hi = binom_quantile(trials, p, 0.9995);
+    fprintf(stderr, "CLTU on a BSC, %s, start_errors %d, q %g, %d codeblocks: %d of %d accepted, model %.1f, bounds [%d, %d]\n",
+            mode == ULK_BCH_SEC ? "sec" : "ted", start_errors, q, n_cb, accepted, trials, p * trials, lo, hi);
+    if (accepted < lo || accepted > hi)
+        fail_msg("%s, q %g: %d of %d CLTUs accepted, outside the binomial bounds [%d, %d] of P = %.4f",
+                 mode == ULK_BCH_SEC ? "sec" : "ted", q, accepted, trials, lo, hi, p);
+}
+
+static void test_cltu_acceptance_binomial(void **state)
+{
+    (void)state;
+    cltu_bsc_case(ULK_BCH_SEC, 1, 0.01, 3000);
+    cltu_bsc_case(ULK_BCH_SEC, 0, 0.004, 3000);
+    cltu_bsc_case(ULK_BCH_TED, 0, 0.003, 3000);
+}
+
 static void test_cltu_rejections(void **state)
 {
     (void)state;
@@ -1241,6 +1322,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_idle_and_start_sequence),
         cmocka_unit_test(test_cltu_round_trip_every_option),
         cmocka_unit_test(test_cltu_sec_corrects_one_error_per_codeblock),
+        cmocka_unit_test(test_cltu_acceptance_binomial),
         cmocka_unit_test(test_cltu_rejections),
         cmocka_unit_test(test_cltu_bad_frames),
         cmocka_unit_test(test_cltu_stream_of_three),
