@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""The voice channel's audio from a WAV file (composite-carrier.md section 1: the voice is
+"""The voice channel's audio from a WAV file (docs/spec/carrier.md section 1: the voice is
 sin(2 pi f_v t + 2 pi Delta integral_0^t a(u) du), a(t) of peak 1; docs/carrier.md).
 
 A 16-bit mono WAV tone (f_a = 1234.5 Hz, amplitude 0.4, 11025 Hz: a rate that does not divide
@@ -10,7 +10,8 @@ mode added.
      computation of the formula: a(t) = samples / peak, linear interpolation at i * f_in / fs
      (exact integer positions), silence after the end, scipy.integrate.cumulative_trapezoid;
      max |phase difference| < 5e-6 rad (measured 1.13e-06; over the file and the silent tail).
- (b) `ulk decode --voice` of the full mode (data, voice, ranging) recovers f_a within 1 Hz.
+ (b) `ulk decode --voice` of the full mode (data, voice, ranging) recovers f_a within 2e-3 Hz
+     (measured 4.2e-04).
  (c) --voice-audio overrides the section (a stereo WAV: refused without --voice-channel,
      with --voice-channel 1 equal to the mono capture); a silent WAV is refused, nothing
      written.
@@ -35,6 +36,8 @@ FA = 1234.5
 FV, DEV, M_V = 28500, 4000, 0.9
 failed = 0
 
+
+TONE_TOL_HZ = 2e-3  # decoded voice tone frequency; measured error 4.2e-04 Hz
 
 def check(ok, what, detail=""):
     global failed
@@ -135,7 +138,8 @@ def main():
         check(rc == 0, "decode --voice exit 0", err)
         if rc == 0:
             f, amp = tone_of(vw, 0.2, 0.95)
-            check(abs(f - FA) < 1.0, "decoded voice tone %.3f Hz, sent %.1f Hz (limit 1 Hz)" % (f, FA))
+            check(abs(f - FA) < TONE_TOL_HZ, "decoded voice tone %.5f Hz, sent %.1f Hz, error %.2g Hz (limit %g Hz)"
+                  % (f, FA, f - FA, TONE_TOL_HZ))
             # the file's 0.4 normalised to 1, times the linear interpolator's response at f_a,
             # sinc^2(f_a / f_in) (the interpolator is a triangle kernel; common practice)
             want = np.sinc(FA / FIN) ** 2
