@@ -3,7 +3,7 @@
  *
  * Why a second generator beside src/mod.c: the tests need a transmitter whose clock is off
  * by an exact amount (ppm), a start anywhere inside the file and white noise of a stated
- * E_b/N_0, and a generator written straight from subbit-profile.md sections 3-5 is also an
+ * E_b/N_0, and a generator written straight from docs/spec/subbit.md sections 3-5 is also an
  * independent check of the decoder against the contract (not against our own modulator).
  *
  * The stream is I^P W_1 I^G ... W_N I^T (section 3); sample i of the capture is taken at the

@@ -1,4 +1,4 @@
-/* tests/test_carrier.c - composite carrier (shared/design/composite-carrier.md): Bessel
+/* tests/test_carrier.c - composite carrier (docs/spec/carrier.md): Bessel
  * functions against handbook tables and an independent integral, power division against the
  * Jacobi-Anger expansion summed term by term, ranging m-sequences against tables of
  * primitive polynomials and the shift-register properties, the baseband generator against
@@ -288,7 +288,7 @@ static long sine_data(void *u, float *out, size_t n)
 static void test_generator_mean_is_product(void **st)
 {
     (void)st;
-    /* Incommensurate frequencies (composite-carrier.md s.2): f_sc 10007.3 Hz, f_v 31234.5 Hz,
+    /* Incommensurate frequencies (docs/spec/carrier.md s.2): f_sc 10007.3 Hz, f_v 31234.5 Hz,
      * f_a 1013.7 Hz, chip rate 2046 (N = 1023: a 0.5 s period), f_s 1 MHz, 2 s. */
     ulk_carrier c;
     int e[] = {10, 3, 0};

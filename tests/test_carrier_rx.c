@@ -2,7 +2,7 @@
  * (ulk_vdemod_*): pull-in of the coarse FFT plus the second-order loop at carrier offsets up
  * to +-5 kHz with noise, the recovered composite phase against the phase that was sent, and
  * the FM discriminator's audio against the tone that was sent.
- * The signals are built here from composite-carrier.md section 1 (x = exp(j (sum m_k c_k(t)
+ * The signals are built here from docs/spec/carrier.md section 1 (x = exp(j (sum m_k c_k(t)
  * + 2 pi f_o t))), independently of the library's generator. */
 #include <setjmp.h>
 #include <stdarg.h>

@@ -1,5 +1,5 @@
 /* tests/test_dict_ccsds.c - dictionaries of the CCSDS telecommand profile (`profile:
- * ccsds-tc`, ccsds-tc-profile.md section 1): the tc section in the model, its defaults,
+ * ccsds-tc`, docs/spec/ccsds-tc.md section 1): the tc section in the model, its defaults,
  * the validation rules and warnings with their file:line:col, the frame-size limit at its
  * exact boundary, the canonical form, allocation failures and the demo pair.
  *
@@ -242,7 +242,7 @@ static void test_model_yaml_json(void **st)
     ulk_dict_destroy(j);
 }
 
-/* Omitted keys take ccsds-tc-profile.md section 1's defaults. */
+/* Omitted keys take docs/spec/ccsds-tc.md section 1's defaults. */
 static void test_defaults(void **st)
 {
     (void)st;

@@ -12,7 +12,7 @@ fail=0
 so=$(ls "$BIN"/libulk.so.* 2>/dev/null | head -1)
 [ -n "$so" ] || { echo "FAIL: no libulk.so in $BIN"; exit 1; }
 nm -D --defined-only "$so" | awk '$2 ~ /^[TDBRWV]$/ {print $3}' | sed 's/@.*//' | sort -u >"$T/exported"
-cat "$SRC"/include/ulk/*.h | sed 's|/\*.*\*/||' | grep -o '\bulk_[A-Za-z0-9_]*[[:space:]]*(' | tr -d ' (' | sort -u >"$T/declared"
+cat "$SRC/include/ulk/"*.h | sed 's|/\*.*\*/||' | grep -o '\bulk_[A-Za-z0-9_]*[[:space:]]*(' | tr -d ' (' | sort -u >"$T/declared"
 extra=$(comm -23 "$T/exported" "$T/declared")
 if [ -n "$extra" ]; then echo "FAIL: exported but not declared in include/ulk/*.h:"; echo "$extra"; fail=1; fi
 n=$(wc -l <"$T/exported")

@@ -9,7 +9,7 @@
 # and a file-size limit, so a row that would write without end fails instead of filling the
 # disk.
 #
-# A row marked `xfail BUG-ID` is a known, reported bug (/work/notes/bugs-*.md while the team
+# A row marked `xfail BUG-ID` is a known, reported bug (in the team's bug list while the team
 # works; see the row's comment): it is counted apart and turns into a failure ("XPASS") the
 # day it starts passing, so that the mark gets removed. Rows for a command this build does not
 # have (--needs CMD) fail: no row is skipped.

@@ -2,7 +2,7 @@
 """gen_capture - impaired captures for the decoder's tests, made independently of the C tool.
 
 The clean signal comes from the Python reference (ref_subbit.py), regenerated from the
-contract (subbit-profile.md section 4) rather than interpolated, so every impairment is
+contract (docs/spec/subbit.md section 4) rather than interpolated, so every impairment is
 exact and known:
 
   clock error  contract time advances as tau_i = (i - i0) / (f_s (1 + ppm 1e-6)): the

@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """ref_subbit - an independent Python reference of the sub-bit word contract.
 
-Written from shared/design/subbit-profile.md and interfaces.md alone; it shares no code
+Written from docs/spec/subbit.md and docs/spec/dictionary.md and docs/spec/command-list.md alone; it shares no code
 with the C library, so the C tool's words, timing tables and samples can be compared
 against it (differential tests). Exact arithmetic is used wherever the contract asks for
 it: rates, calibrations, the values an operator writes and the float32 rounding are
@@ -452,7 +452,7 @@ def validate_tree(tree):
 
 
 # --------------------------------------------------------------------------------------
-# Command list (interfaces.md)
+# Command list (docs/spec/command-list.md)
 
 class Command:
     """A command line: .cdef (CommandDef), .values {name: raw int (masked)}, .line."""

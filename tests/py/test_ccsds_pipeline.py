@@ -13,13 +13,13 @@ with ulk):
     first 40 bits FF 39 9E 5A 68 (checked below before use).
   - BCH(63,56): CCSDS 231.0-B-4 section 3 (from memory), g(x) = x^7+x^6+x^2+1, parity bits complemented, filler bit
     0; start sequence EB90, tail C5C5C5C5C5C5C579, fill octets 0x55.
-  - The profile's choices: ccsds-tc-profile.md sections 2 and 3 (command data field =
+  - The profile's choices: docs/spec/ccsds-tc.md sections 2 and 3 (command data field =
     opcode octet + arguments MSB first padded with zeros; per-APID counts from 0; N(S) =
     first_sequence + k; fill not randomized; acquisition and idle alternating bits starting
     with 0 on every run; waits as max(8 * idle_octets, ceil(t * R))).
 
 The argument raw values are taken from the upload (their conversion from the operator's
-values is the shared rule of subbit-profile.md section 2, checked elsewhere); everything
+values is the shared rule of docs/spec/subbit.md section 2, checked elsewhere); everything
 from the raw values on is rebuilt here and compared bit for bit with the upload's frame
 and CLTU and with the timing table, for the demo list under every combination of
 randomizer, FECF, segment header and service. Then tampered uploads (digest recomputed)
@@ -313,7 +313,7 @@ def main():
             ("idle", '"idles_before": 128', '"idles_before": 127', "below the acquisition sequence"),
         ]
         # A frame and CLTU rebuilt here with another count: each command is consistent in
-        # itself, but the counts no longer run per APID from 0 (ccsds-tc-profile.md s.2).
+        # itself, but the counts no longer run per APID from 0 (docs/spec/ccsds-tc.md s.2).
         tc = up["link"]["tc"]
         arg_bits = []
         for a in c0["args"]:

@@ -1,6 +1,6 @@
 #!/usr/bin/python3
 """test_mod_vs_numpy - `ulk modulate` against an independent numpy implementation of the
-sub-bit profile contract (shared/design/subbit-profile.md sections 2, 3, 4 and 6).
+sub-bit profile contract (docs/spec/subbit.md sections 2, 3, 4 and 6).
 
 Everything the comparison needs is computed here from the contract alone, sharing no code
 with the C library: the words (fields + parity-even check, section 2), the sub-bit stream
