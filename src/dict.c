@@ -590,7 +590,7 @@ static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
     sa.enabled = 1;
     int64_t v;
     ulk_node *n;
-    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1, from memory). */
+    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1 section 3.2.2, from memory). */
     if ((n = ulk_node_get(sn, "spi")) && get_int(c, n, 1, 65534, &v, "spi (Security Parameter Index, 1..65534)"))
         sa.spi = (uint16_t)v;
     const char *kn = NULL;

@@ -156,7 +156,7 @@ static const row rows[] = {
     {"first_sequence_with_expedited_warns", 0, "service: sequence-controlled", "service: expedited", 0, 0, W,
      "first_sequence 255 has no effect with service expedited", 11, 21, 1},
 
-    /* ---- link.tc.security (CCSDS 355.0-B-1 SPI 16 bits, 0 and 65535 reserved from memory;
+    /* ---- link.tc.security (CCSDS 355.0-B-1 section 3.2.2 SPI 16 bits, 0 and 65535 reserved from memory;
      * AES-256-GCM tags of 96..128 bits, NIST SP 800-38D from memory) */
     {"security_ok", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", 0, 0, W, "", 0, 0, 2},
     {"security_spi_zero", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "spi: 7", "spi: 0", E,

@@ -7,7 +7,7 @@
  *     independent public test suites quoting that appendix, which agree with each other (the
  *     document itself was not at hand); tests/py/test_sdls_frames.py checks the same six with
  *     python3-cryptography, a second implementation.
- *   - frame layout: CCSDS 355.0-B-1 (security header after the primary and segment headers,
+ *   - frame layout: CCSDS 355.0-B-1 sections 3.2 and 3.3 (security header after the primary and segment headers,
  *     trailer before the FECF; section numbers from memory) and CCSDS 232.0-B-4 section 4.1.4 (FECF, from memory).
  */
 #include <setjmp.h>
@@ -251,7 +251,7 @@ static void test_frame_layout_and_verdicts(void **state)
         memcpy(plain, f, n);
         char why[160];
         if (ulk_sdls_protect(&tc, &sa, k, 5, f, n, why, sizeof why)) fail_msg("protect: %s", why);
-        /* layout (CCSDS 355.0-B-1): SPI after the segment header, IV = 4 zero octets + counter */
+        /* layout (CCSDS 355.0-B-1 section 3.2, from memory): SPI after the segment header, IV = 4 zero octets + counter */
         static const uint8_t hdr[14] = {0x01, 0x07, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 5};
         if (memcmp(f + 6, hdr, 14)) fail_msg("service %d: security header is not SPI 0x0107, IV counter 5", svc);
         if (memcmp(f, plain, 6)) fail_msg("service %d: the primary and segment headers changed", svc);

@@ -12,7 +12,7 @@ With the secured demo (dictionaries/demo-ccsds-sec.yaml) and a demo key:
   - without --keys: secured, not authenticated (the commands shown for authentication,
     nothing readable under authenticated-encryption);
   - verify with the key: exit 0; after the bit flip: exit 1.
-Frame layout: CCSDS 355.0-B-1 (from memory of its figure); FECF CCSDS 232.0-B-4 section 4.1.4 (from memory; crcmod).
+Frame layout: CCSDS 355.0-B-1 sections 3.2 and 3.3 (from memory of its figure); FECF CCSDS 232.0-B-4 section 4.1.4 (from memory; crcmod).
 """
 import json
 import os

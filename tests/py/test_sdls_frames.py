@@ -7,7 +7,7 @@ Outside references:
     cases 13-18 of McGrew & Viega, "The Galois/Counter Mode of Operation (GCM)", Appendix B
     (the values as quoted by several public test suites, which agree; the document itself was
     not at hand) is checked first, so a wrong reference cannot pass the frames.
-  - frame layout: CCSDS 355.0-B-1 (security header SPI 2 octets + IV after the primary header
+  - frame layout: CCSDS 355.0-B-1 section 3.2, from memory (security header SPI 2 octets + IV after the primary header
     and segment header, MAC before the FECF; from memory of the standard's figure), CCSDS
     232.0-B (header fields, FECF = CRC-16/CCITT-FALSE via python3-crcmod).
 
