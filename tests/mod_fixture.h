@@ -1,5 +1,5 @@
 /* tests/mod_fixture.h - uploads built in C for the modulator and sample I/O tests, and a slow
- * obvious reference of subbit-profile.md sections 3 and 4 to compare the fast code with.
+ * obvious reference of docs/spec/subbit.md sections 3 and 4 to compare the fast code with.
  *
  * The reference takes every decision in __int128 arithmetic straight from the contract's
  * formulas (j = floor(i R_s / f_s), frac(f t_i) from i f / f_s) and calls sin() per sample;

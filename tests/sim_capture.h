@@ -3,7 +3,7 @@
  *
  * Why a second generator beside src/mod.c: the tests need a transmitter whose clock is off
  * by an exact amount (ppm), a start anywhere inside the file and white noise of a stated
- * E_b/N_0, and a generator written straight from subbit-profile.md sections 3-5 is also an
+ * E_b/N_0, and a generator written straight from docs/spec/subbit.md sections 3-5 is also an
  * independent check of the decoder against the contract (not against our own modulator).
  *
  * The stream is I^P W_1 I^G ... W_N I^T (section 3); sample i of the capture is taken at the
@@ -125,6 +125,9 @@ static inline float *sim_capture(const ulk_link *l, const uint8_t *sb, size_t L,
         else lvl[j] = sb[j] ? 1 : -1;
     }
     double pd = l->waveform == ULK_WAVE_SQUARE ? A * A : A * A / 2;
+    /* E_b/N_0 = P_d f_s / (2 sigma^2 R_b): common practice: real samples at rate f_s carry a two-sided density N_0/2 over f_s, so
+     * sigma^2 = N_0 f_s / 2 and E_b = P_d / R_b (e.g. Proakis, Digital Communications, 4th ed.,
+     * chapter 5, from memory; docs/spec/subbit.md section 5) */
     double sigma = c->no_noise ? 0 : sqrt(pd * c->fs_hz / (2 * rb * pow(10, c->ebn0_db / 10)));
     sim_rng r;
     sim_seed(&r, c->seed);

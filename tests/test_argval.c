@@ -1,4 +1,4 @@
-/* tests/test_argval.c - engineering text -> raw field, the rules of subbit-profile.md
+/* tests/test_argval.c - engineering text -> raw field, the rules of docs/spec/subbit.md
  * section 2: range first, nearest calibrated raw with ties to the smaller raw, refusal
  * beyond half a raw step (exactly half accepted), two's complement, float32 rounded once to
  * nearest-even (IEEE 754 binary32), -0 kept, values beyond the largest finite refused.

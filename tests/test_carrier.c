@@ -1,4 +1,4 @@
-/* tests/test_carrier.c - composite carrier (shared/design/composite-carrier.md): Bessel
+/* tests/test_carrier.c - composite carrier (docs/spec/carrier.md): Bessel
  * functions against handbook tables and an independent integral, power division against the
  * Jacobi-Anger expansion summed term by term, ranging m-sequences against tables of
  * primitive polynomials and the shift-register properties, the baseband generator against
@@ -100,7 +100,8 @@ static void test_bessel_grid_vs_integral_and_libm(void **st)
 
 /* ---------------------------------------------------------------- power division */
 
-/* Intermodulation summed line by line (Jacobi-Anger: exp(j m sin t) = sum_n J_n(m) e^{jnt};
+/* Intermodulation summed line by line (Jacobi-Anger: exp(j m sin t) = sum_n J_n(m) e^{jnt},
+ * Abramowitz and Stegun, Handbook of Mathematical Functions, 1964, 9.1.41 to 9.1.45, from memory;
  * a binary channel is cos m + j c sin m): every line of the product that is not the carrier
  * or a channel's own first-order line. Independent of the 1 - ... definition. */
 static double intermod_by_lines(const ulk_chan_term *t, int n)
@@ -287,7 +288,7 @@ static long sine_data(void *u, float *out, size_t n)
 static void test_generator_mean_is_product(void **st)
 {
     (void)st;
-    /* Incommensurate frequencies (composite-carrier.md s.2): f_sc 10007.3 Hz, f_v 31234.5 Hz,
+    /* Incommensurate frequencies (docs/spec/carrier.md s.2): f_sc 10007.3 Hz, f_v 31234.5 Hz,
      * f_a 1013.7 Hz, chip rate 2046 (N = 1023: a 0.5 s period), f_s 1 MHz, 2 s. */
     ulk_carrier c;
     int e[] = {10, 3, 0};

@@ -1,7 +1,7 @@
 /* tests/test_carrier_ranging.c - the ranging correlator (ulk_rcorr_*) on captures made by the
  * composite-carrier generator: code phase of delayed captures within 0.1 chip, with an
  * unknown carrier phase, noise, a carrier offset and a sample rate that is not a whole
- * number of samples per chip (composite-carrier.md section 3: a capture delayed by D chips
+ * number of samples per chip (docs/spec/carrier.md section 3: a capture delayed by D chips
  * has chip index floor(t * chip_rate - D) mod N; a capture that starts k0 samples into the
  * signal is delayed by D = -k0 * chip_rate / f_s mod N). The generator's chips themselves are
  * checked against an independent shift register in tests/py/test_carrier_iq.py. */

@@ -2,7 +2,7 @@
  * (ulk_vdemod_*): pull-in of the coarse FFT plus the second-order loop at carrier offsets up
  * to +-5 kHz with noise, the recovered composite phase against the phase that was sent, and
  * the FM discriminator's audio against the tone that was sent.
- * The signals are built here from composite-carrier.md section 1 (x = exp(j (sum m_k c_k(t)
+ * The signals are built here from docs/spec/carrier.md section 1 (x = exp(j (sum m_k c_k(t)
  * + 2 pi f_o t))), independently of the library's generator. */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -98,7 +98,10 @@ static void test_pull_in(void **state)
         assert_true(fabs(coarse - offs[k]) < 0.37);
         /* locked: the loop's mean frequency over the second half within 0.05 Hz */
         assert_true(fabs(f - offs[k]) < 0.05);
-        /* phase noise of 10 dB SNR is sigma^2/2 = 0.05 rad^2 per sample (0.22 rad rms);
+        /* phase noise of 10 dB SNR is sigma^2/2 = 0.05 rad^2 per sample (0.22 rad rms): the
+         * small-noise approximation, only the quadrature noise component moves the phase, variance
+         * 1/(2 SNR) rad^2 (common practice; e.g. Viterbi, Principles of Coherent Communication,
+         * 1966, chapter 2, from memory);
          * a slip or an unlocked loop would give errors of order 1 rad */
         assert_true(rms < 0.3);
     }

@@ -1,11 +1,15 @@
 /* tests/test_ccsds.c - the CCSDS telecommand bit layer against the standards.
  *
- * Outside sources, named beside each check: CCSDS 231.0-B (randomizer, BCH code, start and
- * tail sequences), CCSDS 232.0-B and 133.0-B (header layouts, rebuilt here field by field
+ * Outside sources, named beside each check: CCSDS 231.0-B-4 (randomizer section 6, BCH code section 3, start
+ * and tail sequences section 5), CCSDS 232.0-B-4 section 4.1.2 and 133.0-B-2 section 4.1.3
+ * (header layouts; all these section numbers from memory, rebuilt here field by field
  * with a slow bit writer), the published CRC catalogue (CRC-16/IBM-3740 check value).
  * The FECF is also cross-checked with python3-crcmod by tests/py/test_ccsds_crcmod.py,
- * which runs this program as `test_ccsds --print-frames` to get frames to check.
+ * which runs this program as `test_ccsds --print-frames` to get frames to check; the BCH
+ * encoder is checked on non-zero codeblocks against the polynomial-division encoder of
+ * tests/py/test_ccsds_bch.py, which runs it as `test_ccsds --print-codeblocks`.
  */
+#include <math.h>
 #include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
@@ -67,10 +71,14 @@ static int poly_is_zero(const uint8_t *a, int n)
     return 1;
 }
 
-/* g(x) from the library's constant as a coefficient array. */
+/* g(x) = x^7 + x^6 + x^2 + 1 written out from the standard (CCSDS 231.0-B-4 section 3.2,
+ * section from memory; the same polynomial verified in CCSDS 201.0-B-3 section 3.3.2), not
+ * taken from the library, so the slow encoder below shares nothing with src/. Coefficients of
+ * x^0 .. x^7. */
 static void generator_coeffs(uint8_t g[8])
 {
-    for (int k = 0; k < 8; k++) g[k] = (uint8_t)(ULK_BCH_GENERATOR >> k & 1);
+    static const uint8_t std_g[8] = {1, 0, 1, 0, 0, 0, 1, 1};
+    memcpy(g, std_g, 8);
 }
 
 static void flip(uint8_t *p, int bit) { p[bit / 8] ^= (uint8_t)(0x80u >> (bit % 8)); }
@@ -99,7 +107,7 @@ static void slow_lfsr(const int *coeff_degrees, int n_terms, uint8_t *out, int n
 static void test_randomizer_first_40_bits(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: the first 40 bits of the TC pseudo-random sequence. */
+    /* CCSDS 231.0-B-4 section 6 (from memory): the first 40 bits of the TC pseudo-random sequence. */
     const uint8_t expect[5] = {0xFF, 0x39, 0x9E, 0x5A, 0x68};
     uint8_t seq[5];
     ulk_tc_random_sequence(seq, 5);
@@ -113,7 +121,7 @@ static void test_randomizer_first_40_bits(void **state)
 static void test_randomizer_polynomial(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, all-ones start. */
+    /* CCSDS 231.0-B-4 section 6 (from memory): h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, all-ones start. */
     assert_int_equal(ULK_TC_RANDOMIZER_POLY, (1u << 8) | (1u << 6) | (1u << 4) | (1u << 3) |
                                                  (1u << 2) | (1u << 1) | 1u);
     static const int tc_poly[] = {8, 6, 4, 3, 2, 1, 0};
@@ -131,7 +139,7 @@ static void test_randomizer_polynomial(void **state)
         for (int i = 0; i + divisors[d] < 512; i++) same &= bits[i] == bits[i + divisors[d]];
         assert_false(same);
     }
-    /* The polynomial x^8+x^7+x^5+x^3+1 is the TM randomizer (CCSDS 131.0-B; its sequence
+    /* The polynomial x^8+x^7+x^5+x^3+1 is the TM randomizer (CCSDS 131.0-B-2 section 9; its sequence
      * FF 48 0E C0 9A from memory): the same generic LFSR gives that, not the TC sequence. */
     static const int tm_poly[] = {8, 7, 5, 3, 0};
     uint8_t tm[5];
@@ -159,11 +167,12 @@ static void test_randomize_is_its_inverse(void **state)
 static void test_bch_generator_divides_x63_minus_1(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: g(x) = x^7 + x^6 + x^2 + 1. */
+    /* The library's constant is the standard's g(x) (generator_coeffs above). */
     uint8_t g[8];
     generator_coeffs(g);
-    const uint8_t expect[8] = {1, 0, 1, 0, 0, 0, 1, 1}; /* x^0 .. x^7 */
-    assert_memory_equal(g, expect, 8);
+    for (int k = 0; k < 8; k++)
+        if ((ULK_BCH_GENERATOR >> k & 1) != g[k])
+            fail_msg("ULK_BCH_GENERATOR 0x%02x differs from g(x) = x^7+x^6+x^2+1 at x^%d", ULK_BCH_GENERATOR, k);
     /* x^63 - 1 = x^63 + 1 over GF(2) is a multiple of g: the code is cyclic of length 63 ... */
     uint8_t a[64];
     memset(a, 0, sizeof a);
@@ -216,7 +225,8 @@ static void test_bch_encode_matches_slow_encoder(void **state)
         assert_true(poly_is_zero(a, 7));
         assert_int_equal(ulk_bch_syndrome(cb), 0);
     }
-    /* All-zero information: parity 0000000 sent complemented (CCSDS 231.0-B). */
+    /* All-zero information: parity 0000000 sent complemented (CCSDS 231.0-B-4 section 3,
+     * from memory; CCSDS 201.0-B-3 page 3-1, verified). */
     uint8_t z[7] = {0}, cb[8];
     ulk_bch_encode(z, cb);
     assert_int_equal(cb[7], 0xFE);
@@ -329,7 +339,7 @@ static void test_bch_ted_detects_every_one_two_three_bit_error(void **state)
 static void test_tail_sequence_is_not_correctable(void **state)
 {
     (void)state;
-    /* CCSDS 231.0-B: tail sequence C5C5C5C5C5C5C579. */
+    /* CCSDS 231.0-B-4 section 5 (from memory): tail sequence C5C5C5C5C5C5C579. */
     const uint8_t tail[8] = {0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0x79};
     uint8_t out[7];
     assert_int_equal(ulk_bch_decode(ULK_BCH_SEC, tail, out, NULL), ULK_CB_REJECTED);
@@ -365,7 +375,7 @@ typedef struct {
 static void test_spp_header_layout(void **state)
 {
     (void)state;
-    /* CCSDS 133.0-B: version 3, type 1, secondary header flag 1, APID 11, sequence flags 2,
+    /* CCSDS 133.0-B-2 section 4.1.3 (from memory): version 3, type 1, secondary header flag 1, APID 11, sequence flags 2,
      * sequence count 14, data length 16 bits. */
     static const spp_row rows[] = {
         {"typical", {0, 1, 0, 0x155, 3, 0x002A, 0x0001}},
@@ -409,7 +419,7 @@ typedef struct {
 static void test_tcf_header_layout(void **state)
 {
     (void)state;
-    /* CCSDS 232.0-B: version 2, bypass 1, control command 1, spare 2, SCID 10, VCID 6,
+    /* CCSDS 232.0-B-4 section 4.1.2 (from memory): version 2, bypass 1, control command 1, spare 2, SCID 10, VCID 6,
      * frame length 10, frame sequence number 8 bits. */
     static const tcf_row rows[] = {
         {"typical", {0, 1, 0, 0, 0x2A7, 0x15, 0x01F, 0x00}},
@@ -570,6 +580,7 @@ static void test_spp_parse_verdicts(void **state)
     }
     uint8_t d[2] = {1, 2}, o[16];
     size_t n;
+    /* 0x7FF is the idle packets' APID (CCSDS 133.0-B-2 section 4.1.3.3.4, from memory). */
     assert_int_equal(ulk_spp_build(0x7FF, 0, d, 2, o, sizeof o, &n), ULK_EINVAL);
     assert_int_equal(ulk_spp_build(0x7FE, 0x3FFF, d, 2, o, sizeof o, &n), ULK_OK);
     assert_int_equal(ulk_spp_build(1, 0x4000, d, 2, o, sizeof o, &n), ULK_EINVAL);
@@ -645,7 +656,8 @@ static void test_tcf_parse_verdicts(void **state)
         ulk_tcf_parse(&tc, c, n, &fr);
         if (fr.verdict != rows[i].verdict) fail_msg("row %s: %s", rows[i].name, ulk_tcf_verdict_str(fr.verdict));
     }
-    /* Size limit: 1024 octets at most. */
+    /* Size limit: 1024 octets at most (CCSDS 232.0-B-4 section 4.1.2, from memory; CCSDS
+     * 202.0-B-2 section 4.2.1, verified). */
     static uint8_t big[1100], out[1100];
     size_t max_data = 1024 - 5 - 1 - 2;
     assert_int_equal(ulk_tcf_build(&tc, 0, big, max_data, out, sizeof out, &n), ULK_OK);
@@ -704,7 +716,7 @@ static void test_cltu_layout(void **state)
         size_t n_cb = (n_frame + 6) / 7;
         assert_int_equal(n, 2 + 8 * n_cb + 8);
         assert_int_equal(n, ulk_cltu_octets(n_frame));
-        /* CCSDS 231.0-B: start sequence EB90, tail sequence C5C5C5C5C5C5C579. */
+        /* CCSDS 231.0-B-4 section 5 (from memory): start sequence EB90, tail sequence C5C5C5C5C5C5C579. */
         const uint8_t start[2] = {0xEB, 0x90};
         const uint8_t tail[8] = {0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0xC5, 0x79};
         assert_memory_equal(cltu, start, 2);
@@ -884,6 +896,86 @@ static void test_cltu_sec_corrects_one_error_per_codeblock(void **state)
         assert_int_equal(g_res.n_corrected, n_coded_errors);
         assert_int_equal(g_res.n_codeblocks, n_cb);
     }
+}
+
+/* P(X <= k) for X ~ binomial(n, p), summed with log-gamma terms. */
+static double binom_cdf(int k, int n, double p)
+{
+    double c = 0;
+    for (int i = 0; i <= k && i <= n; i++)
+        c += exp(lgamma(n + 1.0) - lgamma(i + 1.0) - lgamma(n - i + 1.0) + i * log(p) + (n - i) * log1p(-p));
+    return c;
+}
+
+/* Smallest k with P(X <= k) >= conf. */
+static int binom_quantile(int n, double p, double conf)
+{
+    double c = 0;
+    for (int k = 0; k <= n; k++) {
+        c += exp(lgamma(n + 1.0) - lgamma(k + 1.0) - lgamma(n - k + 1.0) + k * log(p) + (n - k) * log1p(-p));
+        if (c >= conf) return k;
+    }
+    return n;
+}
+
+/* CLTU acceptance on a binary symmetric channel against the binomial model. Bits of the start
+ * sequence and of the codeblocks are flipped independently with probability q (fixed seed;
+ * acquisition, tail and idle left clean so that only the model's terms act). A CLTU is
+ * accepted exactly when the start sequence has at most start_errors errors (binomial over 16
+ * bits) and every codeblock decodes: SEC, at most one error among its 63 code bits; TED, none
+ * (the filler bit is outside the code; CCSDS 231.0-B-4 section 3, from memory). A codeblock
+ * with more errors is rejected or miscorrected, and a miscorrected one fails the FECF (a wrong
+ * frame passes with probability about 2^-16, below what 3000 trials can see). So
+ *     P(accept) = B(start_errors; 16, q) * [ (1-q)^63 + (SEC ? 63 q (1-q)^62 : 0) ]^n_cb
+ * and the number accepted in N trials lies within the 0.05 % and 99.95 % binomial quantiles
+ * of that P (99.9 % two-sided). Every accepted CLTU carries the frame that was sent. */
+static void cltu_bsc_case(ulk_bch_mode mode, int start_errors, double q, int trials)
+{
+    ulk_ccsds_tc tc;
+    ulk_ccsds_tc_default(&tc);
+    tc.correction = mode;
+    tc.start_errors = start_errors;
+    static uint8_t cltu[ULK_CLTU_MAX_OCTETS], sent[ULK_TCF_MAX_OCTETS];
+    size_t n_cltu, n_sent;
+    size_t at = make_stream(&tc, 20, cltu, &n_cltu);
+    const int n_cb = (int)(n_cltu - 10) / 8;
+    assert_int_equal(ulk_cltu_decode(&tc, g_st.bits, g_st.n, 0, &g_res), ULK_OK);
+    if (g_res.verdict != ULK_CLTU_ACCEPTED) fail_msg("the clean CLTU is not accepted: %s", g_res.reason);
+    n_sent = g_res.n_frame;
+    memcpy(sent, g_res.frame, n_sent);
+    static uint8_t clean[8 * (16 * 8 + ULK_CLTU_MAX_OCTETS + 8)];
+    const size_t n_bits = g_st.n;
+    memcpy(clean, g_st.bits, n_bits);
+    const uint32_t thr = (uint32_t)(q * 2147483648.0); /* rnd() gives 31 bits */
+    int accepted = 0;
+    for (int t = 0; t < trials; t++) {
+        memcpy(g_st.bits, clean, n_bits);
+        for (size_t b = at; b < at + 16 + 64 * (size_t)n_cb; b++)
+            if (rnd() < thr) g_st.bits[b] ^= 1;
+        assert_int_equal(ulk_cltu_decode(&tc, g_st.bits, n_bits, 0, &g_res), ULK_OK);
+        if (g_res.verdict == ULK_CLTU_ACCEPTED) {
+            if (g_res.n_frame != n_sent || memcmp(g_res.frame, sent, n_sent))
+                fail_msg("trial %d: an accepted CLTU carries a frame that was not sent", t);
+            accepted++;
+        }
+    }
+    double q_eff = (double)thr / 2147483648.0;
+    double pc = pow(1 - q_eff, 63) + (mode == ULK_BCH_SEC ? 63 * q_eff * pow(1 - q_eff, 62) : 0);
+    double p = binom_cdf(start_errors, 16, q_eff) * pow(pc, n_cb);
+    int lo = binom_quantile(trials, p, 0.0005), hi = binom_quantile(trials, p, 0.9995);
+    fprintf(stderr, "CLTU on a BSC, %s, start_errors %d, q %g, %d codeblocks: %d of %d accepted, model %.1f, bounds [%d, %d]\n",
+            mode == ULK_BCH_SEC ? "sec" : "ted", start_errors, q, n_cb, accepted, trials, p * trials, lo, hi);
+    if (accepted < lo || accepted > hi)
+        fail_msg("%s, q %g: %d of %d CLTUs accepted, outside the binomial bounds [%d, %d] of P = %.4f",
+                 mode == ULK_BCH_SEC ? "sec" : "ted", q, accepted, trials, lo, hi, p);
+}
+
+static void test_cltu_acceptance_binomial(void **state)
+{
+    (void)state;
+    cltu_bsc_case(ULK_BCH_SEC, 1, 0.01, 3000);
+    cltu_bsc_case(ULK_BCH_SEC, 0, 0.004, 3000);
+    cltu_bsc_case(ULK_BCH_TED, 0, 0.003, 3000);
 }
 
 static void test_cltu_rejections(void **state)
@@ -1150,6 +1242,27 @@ static void test_cltu_decode_hostile_streams(void **state)
 
 /* ---- frames for the python3-crcmod cross-check ---- */
 
+/* For tests/py/test_ccsds_bch.py: ULK_PRINT_CODEBLOCKS codeblocks from the library's encoder,
+ * "cb <7 information octets> <8 codeblock octets>" in hex: the all-zero and all-one words,
+ * each single information bit set (56), then random words. */
+#define ULK_PRINT_CODEBLOCKS 200
+static int print_codeblocks(void)
+{
+    for (int i = 0; i < ULK_PRINT_CODEBLOCKS; i++) {
+        uint8_t info[ULK_CB_INFO_OCTETS], cb[ULK_CB_OCTETS];
+        memset(info, i == 1 ? 0xFF : 0, sizeof info);
+        if (i >= 2 && i < 58) flip(info, i - 2);
+        if (i >= 58) rnd_fill(info, sizeof info);
+        ulk_bch_encode(info, cb);
+        printf("cb ");
+        for (int k = 0; k < ULK_CB_INFO_OCTETS; k++) printf("%02x", info[k]);
+        printf(" ");
+        for (int k = 0; k < ULK_CB_OCTETS; k++) printf("%02x", cb[k]);
+        printf("\n");
+    }
+    return 0;
+}
+
 static int print_frames(void)
 {
     for (int i = 0; i < 40; i++) {
@@ -1186,6 +1299,7 @@ static int print_frames(void)
 int main(int argc, char **argv)
 {
     if (argc > 1 && strcmp(argv[1], "--print-frames") == 0) return print_frames();
+    if (argc > 1 && strcmp(argv[1], "--print-codeblocks") == 0) return print_codeblocks();
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_randomizer_first_40_bits),
         cmocka_unit_test(test_randomizer_polynomial),
@@ -1208,6 +1322,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_idle_and_start_sequence),
         cmocka_unit_test(test_cltu_round_trip_every_option),
         cmocka_unit_test(test_cltu_sec_corrects_one_error_per_codeblock),
+        cmocka_unit_test(test_cltu_acceptance_binomial),
         cmocka_unit_test(test_cltu_rejections),
         cmocka_unit_test(test_cltu_bad_frames),
         cmocka_unit_test(test_cltu_stream_of_three),

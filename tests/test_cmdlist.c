@@ -1,5 +1,5 @@
 /* tests/test_cmdlist.c - command-list parsing and compiling: words for every argument type
- * (worked out by hand from bit strings), exact idle counts (subbit-profile.md section 3),
+ * (worked out by hand from bit strings), exact idle counts (docs/spec/subbit.md section 3),
  * and broken lists, each with the expected line:col and message fragment.
  */
 #include <setjmp.h>

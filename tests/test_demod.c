@@ -1,5 +1,5 @@
 /* tests/test_demod.c - blind demodulator: round trips through the analytic generator of
- * tests/sim_capture.h (written from subbit-profile.md sections 3-5) at several E_b/N_0,
+ * tests/sim_capture.h (written from docs/spec/subbit.md sections 3-5) at several E_b/N_0,
  * clock errors up to +-500 ppm, sample rates, levels down to -40 dBFS, DC, inversion,
  * nrz-m, square subcarrier and pilot; hostile input (garbage, silence, truncation).
  */

@@ -3,7 +3,7 @@
  * the last word (postamble 0). (Signal detection on noise alone: tests/py/test_decode_ext.py.)
  *
  * Captures come from the analytic generator of tests/sim_capture.h (written from
- * subbit-profile.md sections 3-5, not from our modulator).
+ * docs/spec/subbit.md sections 3-5, not from our modulator).
  */
 #include <setjmp.h>
 #include <stdarg.h>

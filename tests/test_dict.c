@@ -121,7 +121,7 @@ static const row rows[] = {
     {"yaml_syntax_error", 0, "idle: \"0101\"}", "idle: \"0101\"", 0, 0, E, "YAML syntax error: did not find expected ',' or '}' while parsing a flow mapping (started at line 5, column 12)", 6, 3, 0},
     {"mnemonic_not_a_name", 0, "mnemonic: AUX_PING", "mnemonic: AUX PING", 0, 0, E,
      "mnemonic 'AUX PING' is not a valid name", 28, 15, 0},
-    /* ---- link profile rules (subbit-profile.md section 1) */
+    /* ---- link profile rules (docs/spec/subbit.md section 1) */
     {"patterns_equal", 0, "one: \"1100\"", "one: \"0011\"", 0, 0, E, "patterns 'zero' and 'one' are equal", 5, 32, 0},
     {"pattern_lengths_differ", 0, "idle: \"0101\"", "idle: \"010\"", 0, 0, E,
      "pattern 'idle' has 3 sub-bits but 'zero' has 4", 5, 46, 0},

@@ -1,13 +1,13 @@
 /* tests/test_dict_ccsds.c - dictionaries of the CCSDS telecommand profile (`profile:
- * ccsds-tc`, ccsds-tc-profile.md section 1): the tc section in the model, its defaults,
+ * ccsds-tc`, docs/spec/ccsds-tc.md section 1): the tc section in the model, its defaults,
  * the validation rules and warnings with their file:line:col, the frame-size limit at its
  * exact boundary, the canonical form, allocation failures and the demo pair.
  *
  * The broken dictionaries are rows, as in test_dict.c: each takes the small valid
  * dictionary below (YAML or JSON), replaces literal text, and names the finding expected.
- * Field widths come from the standards (CCSDS 232.0-B: SCID 10 bits, VCID 6 bits, MAP ID 6
- * bits, N(S) 8 bits, frame at most 1024 octets, 5-octet header, 2-octet FECF, 1-octet
- * segment header; CCSDS 133.0-B: APID 11 bits, 0x7FF idle, 6-octet primary header), not
+ * Field widths come from the standards (CCSDS 232.0-B-4 section 4.1.2, from memory: SCID 10 bits, VCID 6 bits, MAP ID 6
+ * bits, N(S) 8 bits, frame at most 1024 octets (also CCSDS 202.0-B-2 section 4.2.1, verified), 5-octet header, 2-octet FECF, 1-octet
+ * segment header; CCSDS 133.0-B-2 section 4.1.3, from memory: APID 11 bits, 0x7FF idle, 6-octet primary header), not
  * from the library's constants.
  */
 #include <setjmp.h>
@@ -89,7 +89,7 @@ static const char BASE_JSON[] =
 #include "dict_rows.h"
 
 static const row rows[] = {
-    /* ---- identifiers in range (CCSDS 232.0-B field widths) */
+    /* ---- identifiers in range (CCSDS 232.0-B-4 section 4.1.2 field widths, from memory) */
     {"scid_over_10_bits", 0, "spacecraft_id: 0x3FF", "spacecraft_id: 0x400", 0, 0, E,
      "spacecraft_id (SCID, 10 bits) must be 0..1023, not 0x400", 8, 20, 0},
     {"vcid_over_6_bits", 0, "virtual_channel: 63", "virtual_channel: 64", 0, 0, E,
@@ -118,7 +118,8 @@ static const row rows[] = {
     {"acquisition_limit", 0, "acquisition_octets: 20", "acquisition_octets: 100000001", 0, 0, E,
      "acquisition_octets must be 0..100000000", 15, 25, 0},
 
-    /* ---- APIDs (CCSDS 133.0-B: 11 bits, 0x7FF is the idle packets') */
+    /* ---- APIDs (CCSDS 133.0-B-2 section 4.1.3.3.4, from memory: 11 bits, 0x7FF is the idle
+     * packets') */
     {"apid_idle", 0, "address: 0x7FE", "address: 0x7FF", 0, 0, E, "APID 0x7FF is reserved for idle packets", 20, 26, 0},
     {"apid_over_11_bits", 0, "address: 0x7FE", "address: 0x800", 0, 0, E, "APID 2048 does not fit in 11 bits", 20, 26, 0},
     {"apid_duplicate", 0, "{name: ALT, address: 1}", "{name: ALT, address: 0}", 0, 0, E,
@@ -155,7 +156,7 @@ static const row rows[] = {
     {"first_sequence_with_expedited_warns", 0, "service: sequence-controlled", "service: expedited", 0, 0, W,
      "first_sequence 255 has no effect with service expedited", 11, 21, 1},
 
-    /* ---- link.tc.security (CCSDS 355.0-B-1 SPI 16 bits, 0 and 65535 reserved from memory;
+    /* ---- link.tc.security (CCSDS 355.0-B-1 section 3.2.2 SPI 16 bits, 0 and 65535 reserved from memory;
      * AES-256-GCM tags of 96..128 bits, NIST SP 800-38D from memory) */
     {"security_ok", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", 0, 0, W, "", 0, 0, 2},
     {"security_spi_zero", 0, "    correction: ted\n", "    correction: ted\n    security: {spi: 7, key: ops, service: authentication}\n", "spi: 7", "spi: 0", E,
@@ -241,7 +242,7 @@ static void test_model_yaml_json(void **st)
     ulk_dict_destroy(j);
 }
 
-/* Omitted keys take ccsds-tc-profile.md section 1's defaults. */
+/* Omitted keys take docs/spec/ccsds-tc.md section 1's defaults. */
 static void test_defaults(void **st)
 {
     (void)st;
@@ -312,7 +313,8 @@ static void test_canonical_segment_header(void **st)
     ulk_dict_destroy(d);
 }
 
-/* The frame limit at its exact boundary. Largest data field (CCSDS 232.0-B / 133.0-B sizes):
+/* The frame limit at its exact boundary. Largest data field (CCSDS 232.0-B-4 section
+ * 4.1.2 / 133.0-B-2 section 4.1.3 sizes, from memory):
  * 1024 - 5 (frame header) - seg - 6 (packet header) - fecf octets; the opcode takes one
  * octet of it, the arguments (padded to octets) the rest. */
 static char *big_dict(int seg, int fecf, int arg_bits)

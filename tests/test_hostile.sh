@@ -9,7 +9,7 @@
 # and a file-size limit, so a row that would write without end fails instead of filling the
 # disk.
 #
-# A row marked `xfail BUG-ID` is a known bug, named by its ID in the row (while the team
+# A row marked `xfail BUG-ID` is a known, reported bug (in the team's bug list while the team
 # works; see the row's comment): it is counted apart and turns into a failure ("XPASS") the
 # day it starts passing, so that the mark gets removed. Rows for a command this build does not
 # have (--needs CMD) fail: no row is skipped.
@@ -84,6 +84,10 @@ row() {
     esac
   done
   shift
+  # an empty fragment would match any message (grep -F ''): the row would prove nothing
+  if [ -z "$frag" ]; then
+    failed=$((failed + 1)); echo "FAIL  $name: the row names no expected message fragment"; return
+  fi
   # a row never skips: a command missing from the build is a failure (the row cannot prove
   # what it claims), and so is a root run that cannot drop to another user
   if [ -n "$needs" ] && ! have "$needs"; then

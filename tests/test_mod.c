@@ -1,4 +1,4 @@
-/* tests/test_mod.c - the modulator and the timing table against subbit-profile.md sections 4
+/* tests/test_mod.c - the modulator and the timing table against docs/spec/subbit.md sections 4
  * and 6: a slow obvious reference (tests/mod_fixture.h), hand-computed values at samples that
  * fall exactly on sub-bit starts and square edges, line codes, sample counts, refusals, and
  * the whole path into sample files (devices that fill up, read-only folders, read-back).

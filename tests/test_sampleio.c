@@ -171,7 +171,7 @@ static void test_round_trip(void **st)
     clean();
 }
 
-/* 16-bit: round(32767 x), halves away from zero (subbit-profile.md section 4). In [-1, 1]
+/* 16-bit: round(32767 x), halves away from zero (docs/spec/subbit.md section 4). In [-1, 1]
  * only x = +-0.5 lands exactly on a half (32767 is odd); truncation would give 16383. */
 static void test_s16_rounding(void **st)
 {

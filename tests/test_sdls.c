@@ -7,8 +7,8 @@
  *     independent public test suites quoting that appendix, which agree with each other (the
  *     document itself was not at hand); tests/py/test_sdls_frames.py checks the same six with
  *     python3-cryptography, a second implementation.
- *   - frame layout: CCSDS 355.0-B-1 (security header after the primary and segment headers,
- *     trailer before the FECF; section numbers from memory) and CCSDS 232.0-B (FECF).
+ *   - frame layout: CCSDS 355.0-B-1 sections 3.2 and 3.3 (security header after the primary and segment headers,
+ *     trailer before the FECF; section numbers from memory) and CCSDS 232.0-B-4 section 4.1.4 (FECF, from memory).
  */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -251,14 +251,14 @@ static void test_frame_layout_and_verdicts(void **state)
         memcpy(plain, f, n);
         char why[160];
         if (ulk_sdls_protect(&tc, &sa, k, 5, f, n, why, sizeof why)) fail_msg("protect: %s", why);
-        /* layout (CCSDS 355.0-B-1): SPI after the segment header, IV = 4 zero octets + counter */
+        /* layout (CCSDS 355.0-B-1 section 3.2, from memory): SPI after the segment header, IV = 4 zero octets + counter */
         static const uint8_t hdr[14] = {0x01, 0x07, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 5};
         if (memcmp(f + 6, hdr, 14)) fail_msg("service %d: security header is not SPI 0x0107, IV counter 5", svc);
         if (memcmp(f, plain, 6)) fail_msg("service %d: the primary and segment headers changed", svc);
         int same = !memcmp(f + 20, plain + 20, 9);
         if (svc == 0 && !same) fail_msg("authentication: the data field must stay in clear");
         if (svc == 1 && same) fail_msg("authenticated-encryption: the data field must be encrypted");
-        /* FECF (CCSDS 232.0-B) over the whole secured frame */
+        /* FECF (CCSDS 232.0-B-4 section 4.1.4, from memory) over the whole secured frame */
         assert_int_equal(ulk_tcf_crc16(f, n - 2), (uint16_t)(f[n - 2] << 8 | f[n - 1]));
         ulk_tcf_frame pf;
         ulk_tcf_parse(&tc, f, n, &pf);

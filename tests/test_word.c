@@ -1,4 +1,4 @@
-/* tests/test_word.c - command words and check codes (subbit-profile.md section 2).
+/* tests/test_word.c - command words and check codes (docs/spec/subbit.md section 2).
  *
  * Sources of the expected values, named at each table:
  *  - CRC check values: the published catalogue of parametrised CRC algorithms (reveng):

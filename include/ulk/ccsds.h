@@ -1,7 +1,7 @@
 /* ulk/ccsds.h - the bit layer of the CCSDS telecommand profile (`profile: ccsds-tc`).
  *
- * Why: the second link profile sends each command as one Space Packet (CCSDS 133.0-B) in
- * one TC Transfer Frame (CCSDS 232.0-B) in one CLTU (CCSDS 231.0-B: pseudo-randomizer,
+ * Why: the second link profile sends each command as one Space Packet (CCSDS 133.0-B-2) in
+ * one TC Transfer Frame (CCSDS 232.0-B-4) in one CLTU (CCSDS 231.0-B-4: pseudo-randomizer,
  * BCH(63,56) codeblocks, start and tail sequences). This module builds and parses every
  * one of those layers on octet buffers and decodes CLTUs from a hard bit stream; the
  * choices the standards leave open are fixed by shared/design/ccsds-tc-profile.md and
@@ -36,40 +36,45 @@ extern "C" {
 
 /* ---- sizes and fixed values ---- */
 
-#define ULK_SPP_HDR_OCTETS 6        /* Space Packet primary header (CCSDS 133.0-B) */
-#define ULK_SPP_APID_IDLE 0x7FFu    /* idle packets' APID: never a command's */
+#define ULK_SPP_HDR_OCTETS 6        /* Space Packet primary header (CCSDS 133.0-B-2 section 4.1.3, from memory) */
+/* Idle packets' APID, all ones: never a command's (CCSDS 133.0-B-2 section 4.1.3.3.4, from
+ * memory). */
+#define ULK_SPP_APID_IDLE 0x7FFu
 #define ULK_SPP_MAX_APID 0x7FEu
 #define ULK_SPP_MAX_SEQ_COUNT 0x3FFFu
 #define ULK_SPP_SEQ_UNSEGMENTED 3u  /* sequence flags '11' */
 #define ULK_SPP_TYPE_TC 1u
 
-#define ULK_TCF_HDR_OCTETS 5        /* TC Transfer Frame primary header (CCSDS 232.0-B) */
+#define ULK_TCF_HDR_OCTETS 5        /* TC Transfer Frame primary header (CCSDS 232.0-B-4 section 4.1.2, from memory) */
 #define ULK_TCF_SEG_OCTETS 1        /* optional segment header */
 #define ULK_TCF_FECF_OCTETS 2       /* optional frame error control field */
-#define ULK_TCF_MAX_OCTETS 1024     /* largest TC Transfer Frame (10-bit length field) */
+/* Largest TC Transfer Frame, 1024 octets (the 10-bit frame length field holds length - 1):
+ * CCSDS 232.0-B-4 section 4.1.2, from memory; CCSDS 202.0-B-2 section 4.2.1, verified. */
+#define ULK_TCF_MAX_OCTETS 1024
 #define ULK_TCF_MAX_SCID 1023u
 #define ULK_TCF_MAX_VCID 63u
 #define ULK_TCF_MAX_MAP_ID 63u
 
-/* CCSDS 231.0-B codeblock: 56 information bits, 7 complemented parity bits, 1 filler bit. */
+/* CCSDS 231.0-B-4 section 3 (from memory) codeblock: 56 information bits, 7 complemented parity bits, 1 filler bit. */
 #define ULK_CB_INFO_OCTETS 7
 #define ULK_CB_OCTETS 8
 #define ULK_CB_BITS 64
-/* g(x) = x^7 + x^6 + x^2 + 1, bit k = coefficient of x^k (CCSDS 231.0-B). */
+/* g(x) = x^7 + x^6 + x^2 + 1, bit k = coefficient of x^k (CCSDS 231.0-B-4 section 3,
+ * from memory; verified in CCSDS 201.0-B-3 section 3.3.2). */
 #define ULK_BCH_GENERATOR 0xC5u
 /* Largest number of codeblocks of one CLTU: a 1024-octet frame needs ceil(1024/7). */
 #define ULK_CLTU_MAX_CODEBLOCKS ((ULK_TCF_MAX_OCTETS + ULK_CB_INFO_OCTETS - 1) / ULK_CB_INFO_OCTETS)
 
-#define ULK_CLTU_START_SEQ 0xEB90u                 /* 16 bits, CCSDS 231.0-B */
+#define ULK_CLTU_START_SEQ 0xEB90u                 /* 16 bits, CCSDS 231.0-B-4 section 5, from memory */
 #define ULK_CLTU_START_BITS 16
-#define ULK_CLTU_TAIL_SEQ 0xC5C5C5C5C5C5C579ull    /* 64 bits, CCSDS 231.0-B */
+#define ULK_CLTU_TAIL_SEQ 0xC5C5C5C5C5C5C579ull    /* 64 bits, CCSDS 231.0-B-4 section 5, from memory */
 #define ULK_CLTU_TAIL_BITS 64
 #define ULK_CLTU_FILL_OCTET 0x55u   /* fill of the last codeblock; also acquisition and idle */
 #define ULK_CLTU_MAX_OCTETS (2 + ULK_CB_OCTETS * ULK_CLTU_MAX_CODEBLOCKS + 8)
 
-/* TC pseudo-randomizer (CCSDS 231.0-B): h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, bit k =
+/* TC pseudo-randomizer (CCSDS 231.0-B-4 section 6, from memory): h(x) = x^8 + x^6 + x^4 + x^3 + x^2 + x + 1, bit k =
  * coefficient of x^k, register all ones at the start of each CLTU. Its sequence begins
- * FF 39 9E 5A 68. (x^8 + x^7 + x^5 + x^3 + 1 is the TM randomizer of CCSDS 131.0-B, whose
+ * FF 39 9E 5A 68. (x^8 + x^7 + x^5 + x^3 + 1 is the TM randomizer of CCSDS 131.0-B-2 section 9, whose
  * sequence begins FF 48 0E C0 9A: a different thing.) */
 #define ULK_TC_RANDOMIZER_POLY 0x15Fu
 
@@ -89,7 +94,7 @@ int ulk_ccsds_tc_check(const ulk_ccsds_tc *tc, char *err, size_t errlen);
  * valid. */
 size_t ulk_ccsds_max_data_octets(const ulk_ccsds_tc *tc);
 
-/* ---- Space Packet (CCSDS 133.0-B) ---- */
+/* ---- Space Packet (CCSDS 133.0-B-2 section 4.1.3, from memory) ---- */
 
 /* Every field of the primary header, right-aligned in its width. */
 typedef struct {
@@ -147,7 +152,7 @@ const char *ulk_spp_verdict_str(ulk_spp_verdict v);
 int ulk_ccsds_command_data(uint32_t opcode, const uint8_t *arg_bits, size_t n_arg_bits,
                            uint8_t *out, size_t cap, size_t *n_out);
 
-/* ---- TC Transfer Frame (CCSDS 232.0-B) ---- */
+/* ---- TC Transfer Frame (CCSDS 232.0-B-4 sections 4.1.2 to 4.1.4, from memory) ---- */
 
 typedef struct {
     uint8_t version;       /* 2 bits, '00' */
@@ -167,7 +172,7 @@ void ulk_tcf_hdr_unpack(const uint8_t in[ULK_TCF_HDR_OCTETS], ulk_tcf_hdr *h);
 /* FECF: CRC-16/IBM-3740 (a.k.a. CRC-16/CCITT-FALSE) over n octets:
  *   width 16, poly 0x1021, init 0xFFFF, refin false, refout false, xorout 0x0000,
  *   check ("123456789") 0x29B1.
- * Source of the parameters: CCSDS 232.0-B (FECF); of the check value: the published
+ * Source of the parameters: CCSDS 232.0-B-4 section 4.1.4 (FECF, from memory); of the check value: the published
  * catalogue of parametrised CRC algorithms. p may be NULL when n is 0. */
 uint16_t ulk_tcf_crc16(const uint8_t *p, size_t n);
 
@@ -214,7 +219,7 @@ typedef struct {
 int ulk_tcf_parse(const ulk_ccsds_tc *tc, const uint8_t *f, size_t n, ulk_tcf_frame *out);
 const char *ulk_tcf_verdict_str(ulk_tcf_verdict v);
 
-/* ---- TC Synchronization and Channel Coding (CCSDS 231.0-B) ---- */
+/* ---- TC Synchronization and Channel Coding (CCSDS 231.0-B-4 sections 3, 5, 6, from memory) ---- */
 
 /* Writes the first n octets of the TC pseudo-random sequence (register all ones). */
 void ulk_tc_random_sequence(uint8_t *out, size_t n);

@@ -1,5 +1,6 @@
 /* ulk/sdls.h - authenticated telecommand frames on the CCSDS profile: the Space Data Link
- * Security protocol (CCSDS 355.0-B-1, September 2015) with AES-256-GCM (CCSDS 352.0-B).
+ * Security protocol (CCSDS 355.0-B-1, September 2015, section 3; from memory) with AES-256-GCM (CCSDS 352.0-B-2,
+ * August 2019; its GCM section, 5, from memory).
  *
  * Why a stage of its own: an uplink that accepts any well-formed frame obeys whoever can
  * radiate one. Every TC frame of a secured link carries a security header (SPI and IV) after

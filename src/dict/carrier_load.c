@@ -324,7 +324,7 @@ static void load_data(lctx *x, ulk_node *dn, const ulk_link *link)
     c->pilot_amp = link->has_pilot ? link->pilot_amplitude : 0.0;
     if (link->profile == ULK_PROFILE_CCSDS_TC) {
         /* R_b = 56/64 of the channel rate: a BCH codeblock carries 56 information bits in 64
-         * (CCSDS 231.0-B); start sequence, tail and idle are left out. */
+         * (CCSDS 231.0-B-4 section 3, from memory); start sequence, tail and idle are left out. */
         c->data_symbol_rate = link->bit_rate;
         if (ulk_ratio_mul_int(link->bit_rate, 7, &c->data_rb) ||
             ulk_ratio_div(c->data_rb, ulk_ratio_make(8, 1), &c->data_rb))

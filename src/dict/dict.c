@@ -592,7 +592,7 @@ static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
     sa.enabled = 1;
     int64_t v;
     ulk_node *n;
-    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1, from memory). */
+    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1 section 3.2.2, from memory). */
     if ((n = ulk_node_get(sn, "spi")) && get_int(c, n, 1, 65534, &v, "spi (Security Parameter Index, 1..65534)"))
         sa.spi = (uint16_t)v;
     const char *kn = NULL;
@@ -633,7 +633,7 @@ static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
 
 /* The link section of `profile: ccsds-tc` (ccsds-tc-profile.md section 1): channel bit rate
  * R, line code, subcarrier (f_sc / R whole >= 1) and the tc section. Values outside the
- * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B,
+ * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B (Issue 25, section 2.2),
  * so they never refuse a dictionary. */
 static void build_link_tc(bctx *c, ulk_node *ln)
 {
@@ -968,7 +968,8 @@ static void build_systems(bctx *c, ulk_node *sn)
         ulk_node *an = ulk_node_get(s, "address");
         int64_t v;
         if (an && c->ccsds) {
-            /* The address is the APID: 11 bits, 0x7FF being the idle packets' (CCSDS 133.0-B). */
+            /* The address is the APID: 11 bits, 0x7FF being the idle packets'
+             * (CCSDS 133.0-B-2 section 4.1.3.3.4, from memory). */
             if (get_int(c, an, 0, INT64_MAX, &v, "system address (APID)")) {
                 if (v == ULK_SPP_APID_IDLE)
                     err(c, an, "APID 0x7FF is reserved for idle packets: a system cannot have it");

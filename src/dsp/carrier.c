@@ -102,6 +102,10 @@ double ulk_bessel_j1(double x)
 
 /* ------------------------------------------------------------------ power division */
 
+/* Residual and first-order fractions of one channel (docs/spec/carrier.md section 2). Sinusoidal:
+ * exp(j m sin t) = sum_n J_n(m) exp(j n t), the Jacobi-Anger expansion (Abramowitz and Stegun,
+ * Handbook of Mathematical Functions, 1964, 9.1.41 to 9.1.45, from memory): carrier J0(m)^2, the
+ * two first-order lines 2 J1(m)^2. Binary (c = +-1): exp(j m c) = cos m + j c sin m exactly. */
 void ulk_chan_fractions(ulk_chan_kind kind, double m, double *f0, double *f1)
 {
     double a, b;

@@ -89,6 +89,9 @@ int ulk_impair_create(const ulk_impair_config *cfg, ulk_impair_sink sink, void *
     p->gain = (cfg->amplitude > 0 ? cfg->amplitude : 1.0) * (cfg->invert ? -1.0 : 1.0);
     if (cfg->add_noise) {
         double pd_out = cfg->pd * p->gain * p->gain;
+        /* E_b/N_0 = P_d f_s / (2 sigma^2 R_b): common practice: real samples at rate f_s carry a two-sided density N_0/2 over f_s, so
+         * sigma^2 = N_0 f_s / 2 and E_b = P_d / R_b (e.g. Proakis, Digital Communications, 4th ed.,
+         * chapter 5, from memory; docs/spec/subbit.md section 5) */
         p->sigma = sqrt(pd_out * cfg->fs_hz / (2 * cfg->bit_rate * pow(10, cfg->ebn0_db / 10)));
     }
     p->rng = cfg->seed * 0xD1B54A32D192ED03ULL + 1;

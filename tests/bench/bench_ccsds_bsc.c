@@ -1,5 +1,5 @@
 /* tests/bench/bench_ccsds_bsc.c - CLTU acceptance on a binary symmetric channel against the
- * ideal reference of ccsds-tc-profile.md section 4, and decoder throughput.
+ * ideal reference of docs/spec/ccsds-tc.md section 4, and decoder throughput.
  *
  * Each channel bit of (acquisition, CLTU, idle) is flipped with probability p. The ideal
  * reference accepts a CLTU when its start sequence has at most start_errors errors and every

@@ -1,7 +1,7 @@
 /* tests/bench/bench_decode.c - figures of the blind decoder on the demo profile.
  *
  * Prints: Monte Carlo word error rate against E_b/N_0 beside the ideal coherent curve of
- * subbit-profile.md section 5 (p = Q(sqrt(2 (E_b/N_0) d / n)), WER = 1 - (1 - p)^W), the
+ * docs/spec/subbit.md section 5 (p = Q(sqrt(2 (E_b/N_0) d / n)), WER = 1 - (1 - p)^W), the
  * implementation loss in dB at WER 1e-2, acquisition failures, false acceptances (a word
  * whose check passes but which was not sent) including noise-only captures, and the
  * decoding throughput at 192 kHz as a multiple of real time (one core).

@@ -17,7 +17,7 @@
  *             process; the capture is generated and decoded in chunks, never held whole).
  *
  * Captures are synthesised in chunks by the analytic generator below (the waveform of
- * subbit-profile.md section 4 evaluated at t (1 + ppm 1e-6), white Gaussian noise of the stated
+ * docs/spec/subbit.md section 4 evaluated at t (1 + ppm 1e-6), white Gaussian noise of the stated
  * E_b/N_0 = P_d f_s / (2 sigma^2 R_b), a noise-only lead-in); the composite cell passes that
  * data signal through the library's complex generator (ulk_cgen, mode "command", data only, so
  * that the lowest rate 2 (f_sc + R_s) holds for it) with a +1234.5 Hz carrier offset and complex

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""bench_mod_ref - a vectorised numpy reference of the modulator (subbit-profile.md section 4),
+"""bench_mod_ref - a vectorised numpy reference of the modulator (docs/spec/subbit.md section 4),
 timed, for tests/bench/bench_mod.c (which runs it and prints the ratio).
 
     bench_mod_ref.py --subbits FILE --rs R_S --fs F_S --fsc F_SC --wave sine|square --amp A

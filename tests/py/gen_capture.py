@@ -2,7 +2,7 @@
 """gen_capture - impaired captures for the decoder's tests, made independently of the C tool.
 
 The clean signal comes from the Python reference (ref_subbit.py), regenerated from the
-contract (subbit-profile.md section 4) rather than interpolated, so every impairment is
+contract (docs/spec/subbit.md section 4) rather than interpolated, so every impairment is
 exact and known:
 
   clock error  contract time advances as tau_i = (i - i0) / (f_s (1 + ppm 1e-6)): the
@@ -68,6 +68,9 @@ def data_power(link, scale=1.0):
 
 def sigma_for_ebn0(link, fs, ebn0_db, scale=1.0):
     """Per-sample noise sigma giving E_b/N_0 = ebn0_db at sample rate fs (section 5)."""
+    # E_b/N_0 = P_d f_s / (2 sigma^2 R_b): common practice: real samples at rate f_s carry a two-sided density N_0/2 over f_s, so
+    # sigma^2 = N_0 f_s / 2 and E_b = P_d / R_b (e.g. Proakis, Digital Communications, 4th ed.,
+    # chapter 5, from memory; docs/spec/subbit.md section 5)
     ebn0 = 10.0 ** (ebn0_db / 10.0)
     return math.sqrt(data_power(link, scale) * float(fs) / (2.0 * ebn0 * float(link.bit_rate)))
 

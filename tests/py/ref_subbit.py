@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """ref_subbit - an independent Python reference of the sub-bit word contract.
 
-Written from shared/design/subbit-profile.md and interfaces.md alone; it shares no code
+Written from docs/spec/subbit.md and docs/spec/dictionary.md and docs/spec/command-list.md alone; it shares no code
 with the C library, so the C tool's words, timing tables and samples can be compared
 against it (differential tests). Exact arithmetic is used wherever the contract asks for
 it: rates, calibrations, the values an operator writes and the float32 rounding are
@@ -452,7 +452,7 @@ def validate_tree(tree):
 
 
 # --------------------------------------------------------------------------------------
-# Command list (interfaces.md)
+# Command list (docs/spec/command-list.md)
 
 class Command:
     """A command line: .cdef (CommandDef), .values {name: raw int (masked)}, .line."""
@@ -514,7 +514,8 @@ def float32_bits(value, negative=False):
         fl += 1
     exact = fl * q                                               # representable
     bits = struct.unpack("<I", struct.pack("<f", float(exact)))[0]
-    assert Fraction(struct.unpack("<f", struct.pack("<I", bits))[0]) == exact
+    assert Fraction(struct.unpack("<f", struct.pack("<I", bits))[0]) == exact, \
+        "float32 rounding: %s is not representable as bits 0x%08x" % (exact, bits)
     return bits | (sign << 31)
 
 
@@ -778,7 +779,7 @@ def encode_command(d, cmd):
         used += a.bits
     _put(bits, 0, L.argument_bits - used)
     _put(bits, check_bits(L.check, bits), L.check_bits)
-    assert len(bits) == L.word_bits
+    assert len(bits) == L.word_bits, "%s: word of %d bits, the link has %d" % (cmd.cdef.mnemonic, len(bits), L.word_bits)
     return Word(cmd.cdef.mnemonic, bits, cmd.line, dict(cmd.values))
 
 

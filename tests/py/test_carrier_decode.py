@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Decoding complex captures of the composite carrier (shared/design/composite-carrier.md
+"""Decoding complex captures of the composite carrier (docs/spec/carrier.md
 section 3): `ulk decode` / `ulk verify` with carrier recovery, `--voice`, `--ranging`, and
 `ulk impair` on complex captures. Checked with Debian's python3-numpy and python3-scipy.
 
@@ -7,9 +7,10 @@ section 3): `ulk decode` / `ulk verify` with carrier recovery, `--voice`, `--ran
    voice and ranging on), `ulk impair` with complex noise at E_b/N_0 12 dB (P_d = the data
    channel's P_k/P_T), a +3.2 kHz carrier offset and a 0.05 s lead-in; decode must accept
    every word and verify must match, the ranging code phase must be the lead-in times the
-   chip rate within 0.1 chip, the voice WAV's tone 1000 Hz within 1 Hz.
-2. An independent capture made here from composite-carrier.md alone: data channel = the
-   sub-bit reference tests/py/ref_subbit.py (written from subbit-profile.md) divided by
+   chip rate within 0.02 chip (measured 0.005), the carrier offset within 0.05 Hz, the voice
+   WAV's tone 1000 Hz within 2e-4 Hz (measured 4.6e-05).
+2. An independent capture made here from docs/spec/carrier.md alone: data channel = the
+   sub-bit reference tests/py/ref_subbit.py (written from docs/spec/subbit.md) divided by
    A + A_p, an FM voice subcarrier with a test tone of our choosing (1234.5 Hz, not the
    dictionary's), the ranging m-sequence from a shift register written here (x^10 + x^3 + 1)
    delayed by D = 300.37 chips (chip index floor(t chip_rate - D) mod N), exp(j phi), a
@@ -45,6 +46,8 @@ N_CHIPS = 1023
 CHIP_RATE = 2000
 failed = 0
 
+
+TONE_TOL_HZ = 2e-4  # voice tone frequency; measured errors 4.6e-05 (ulk chain) and 2.4e-05 Hz (numpy capture)
 
 def check(ok, what, detail=""):
     global failed
@@ -88,18 +91,22 @@ def decode_checks(tag, cap, extra, n_words, d_chips, tone_hz, offset_hz, up, tmp
     check(len(acc) == n_words and len(j["words"]) == n_words,
           "%s: %d words, all accepted" % (tag, n_words), "got %d of %d" % (len(acc), len(j["words"])))
     # the data channel (quadrature) carries the planner's P_d, so the decoder's E_b/N_0
-    # estimate (subbit-profile.md s.5 on that channel) is the 12 dB the noise was made for
+    # estimate (docs/spec/subbit.md s.5 on that channel) is the 12 dB the noise was made for
     eb = j["estimates"]["ebn0_db"]
     check(abs(eb - 12) < 0.7, "%s: decoder's E_b/N_0 estimate %.2f dB for 12 dB" % (tag, eb))
     off = j["carrier"]["offset_hz"]
-    check(abs(off - offset_hz) < 0.5, "%s: carrier offset %.3f Hz (sent %.1f)" % (tag, off, offset_hz))
+    # measured errors: < 0.0005 Hz (ulk chain), 0.015 Hz (numpy capture); limit ~3x the larger
+    check(abs(off - offset_hz) < 0.05, "%s: carrier offset %.4f Hz (sent %.1f), error %+.4f Hz (limit 0.05)"
+          % (tag, off, offset_hz, off - offset_hz))
     ph = j["ranging"]["code_phase_chips"]
     e = chip_err(ph, d_chips)
-    check(abs(e) < 0.1, "%s: code phase %.4f chips, sent %.4f, error %+.4f chip (limit 0.1)" % (tag, ph, d_chips, e))
+    # measured errors: -0.0050 chip (ulk chain), +0.0014 chip (numpy capture); limit 4x the larger
+    check(abs(e) < 0.02, "%s: code phase %.4f chips, sent %.4f, error %+.4f chip (limit 0.02)" % (tag, ph, d_chips, e))
     check(abs(j["ranging"]["delay_s"] - ph / CHIP_RATE) < 1e-7, tag + ": delay_s = code phase / chip rate")
     check(j["ranging"]["peak_to_mean"] > 20, tag + ": ranging peak-to-mean %.1f > 20" % j["ranging"]["peak_to_mean"])
     f, amp, rate = tone_of(vw)
-    check(abs(f - tone_hz) < 1.0, "%s: voice tone %.3f Hz, sent %.1f Hz (limit 1 Hz)" % (tag, f, tone_hz))
+    check(abs(f - tone_hz) < TONE_TOL_HZ, "%s: voice tone %.5f Hz, sent %.1f Hz, error %.2g Hz (limit %g Hz)"
+          % (tag, f, tone_hz, f - tone_hz, TONE_TOL_HZ))
     # at E_b/N_0 12 dB the voice channel's P/N_0 is ~42 dB-Hz: ~4 dB in Carson's band, below
     # the FM threshold (~10 dB, common practice), so clicks lower the tone; its level is
     # checked on the clean capture below
@@ -139,7 +146,10 @@ def main():
                            "--delay", 0.05, "--seed", 11)
         check(rc == 0, "impair complex", err)
         # the noise the impairment claims: total variance sigma^2 = P_d f_s / (R_b E_b/N_0),
-        # P_d = 2 J1(0.9)^2 J0(0.9)^2 cos(0.4)^2 (section 2, from scipy.special)
+        # (complex samples: two-sided density N_0 over f_s, so sigma^2 = N_0 f_s; common practice,
+        # docs/spec/carrier.md section 3),
+        # P_d = 2 J1(0.9)^2 J0(0.9)^2 cos(0.4)^2 (section 2, from scipy.special; power split from the
+        # Jacobi-Anger expansion, Abramowitz and Stegun 9.1.41 to 9.1.45, from memory)
         pd = 2 * jv(1, 0.9) ** 2 * jv(0, 0.9) ** 2 * np.cos(0.4) ** 2
         want = pd * FS / (1000 * 10 ** 1.2)
         v = np.fromfile(noisy, dtype="<f4")
@@ -210,8 +220,9 @@ def main():
         check(rc == 0, "ccsds-tc: impair", err)
         rc, out, err = run("decode", "--dict", tcd, tcn, "--json")
         j = json.loads(out) if rc == 0 else {"words": [None]}
-        check(rc == 0 and len(j["words"]) > 0 and all(w["status"] == "accepted" for w in j["words"]),
-              "ccsds-tc: %d CLTUs, all accepted" % len(j["words"]), err)
+        # demo-ccsds.cmd compiles to 18 commands, one CLTU each: every one decoded and accepted
+        check(rc == 0 and len(j["words"]) == 18 and all(w["status"] == "accepted" for w in j["words"]),
+              "ccsds-tc: %d CLTUs (18 sent), all accepted" % len(j["words"]), err)
         rc, out, err = run("verify", "--dict", tcd, "--upload", tcu, tcn)
         check(rc == 0, "ccsds-tc: verify exit 0", out + err)
     print("%d check(s) failed" % failed if failed else "all checks passed")

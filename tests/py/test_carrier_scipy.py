@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """The composite-carrier planner (`ulk plan --json`) against a computation written here with
 numpy and scipy.special (Debian's python3-numpy and python3-scipy), per
-shared/design/composite-carrier.md section 2; and the library's Bessel J0/J1 (printed by
+docs/spec/carrier.md section 2; and the library's Bessel J0/J1 (printed by
 `test_carrier --print-bessel`) against scipy.special.j0/j1.
 
 Cases: the demo carrier file (data from the demo dictionary, voice, ranging), a whole

@@ -3,23 +3,23 @@
 against an independent construction written here from the standards (it shares no code
 with ulk):
 
-  - Space Packet primary header: CCSDS 133.0-B (version 000, type 1, secondary header
+  - Space Packet primary header: CCSDS 133.0-B-2 section 4.1.3, from memory (version 000, type 1, secondary header
     flag 0, APID 11 bits, sequence flags 11, count 14 bits, data length = octets - 1).
-  - TC Transfer Frame: CCSDS 232.0-B (version 00, bypass, control command flag, spare,
+  - TC Transfer Frame: CCSDS 232.0-B-4 sections 4.1.2 to 4.1.4, from memory (version 00, bypass, control command flag, spare,
     SCID 10 bits, VCID 6 bits, length 10 bits, N(S) 8 bits; segment header 11 + MAP ID;
     FECF CRC-16 computed with python3-crcmod's catalogued 'crc-ccitt-false', i.e.
     CRC-16/IBM-3740, whose published check value for "123456789" is 0x29B1).
-  - Pseudo-randomizer: CCSDS 231.0-B, h(x) = x^8+x^6+x^4+x^3+x^2+x+1, register all ones,
+  - Pseudo-randomizer: CCSDS 231.0-B-4 section 6 (from memory), h(x) = x^8+x^6+x^4+x^3+x^2+x+1, register all ones,
     first 40 bits FF 39 9E 5A 68 (checked below before use).
-  - BCH(63,56): CCSDS 231.0-B, g(x) = x^7+x^6+x^2+1, parity bits complemented, filler bit
+  - BCH(63,56): CCSDS 231.0-B-4 section 3 (from memory), g(x) = x^7+x^6+x^2+1, parity bits complemented, filler bit
     0; start sequence EB90, tail C5C5C5C5C5C5C579, fill octets 0x55.
-  - The profile's choices: ccsds-tc-profile.md sections 2 and 3 (command data field =
+  - The profile's choices: docs/spec/ccsds-tc.md sections 2 and 3 (command data field =
     opcode octet + arguments MSB first padded with zeros; per-APID counts from 0; N(S) =
     first_sequence + k; fill not randomized; acquisition and idle alternating bits starting
     with 0 on every run; waits as max(8 * idle_octets, ceil(t * R))).
 
 The argument raw values are taken from the upload (their conversion from the operator's
-values is the shared rule of subbit-profile.md section 2, checked elsewhere); everything
+values is the shared rule of docs/spec/subbit.md section 2, checked elsewhere); everything
 from the raw values on is rebuilt here and compared bit for bit with the upload's frame
 and CLTU and with the timing table, for the demo list under every combination of
 randomizer, FECF, segment header and service. Then tampered uploads (digest recomputed)
@@ -61,7 +61,7 @@ crc16 = crcmod.predefined.mkCrcFun("crc-ccitt-false")
 
 
 def randomizer_sequence(n):
-    """CCSDS 231.0-B TC randomizer: x^8+x^6+x^4+x^3+x^2+x+1, all ones at start; output is
+    """CCSDS 231.0-B-4 section 6 (from memory) TC randomizer: x^8+x^6+x^4+x^3+x^2+x+1, all ones at start; output is
     the register's last stage, the feedback the XOR of the taps of h(x)."""
     reg = [1] * 8  # reg[0] is the stage that is output next
     out = []
@@ -80,7 +80,7 @@ def randomizer_sequence(n):
 
 
 def bch_codeblock(info):
-    """7 information octets -> 8-octet codeblock (CCSDS 231.0-B)."""
+    """7 information octets -> 8-octet codeblock (CCSDS 231.0-B-4 section 3, from memory)."""
     bits = []
     for o in info:
         bits += [(o >> (7 - k)) & 1 for k in range(8)]
@@ -200,7 +200,7 @@ def main():
         print("ULK is not set")
         return 1
     # The reference's own anchors, before it is trusted.
-    check(randomizer_sequence(5) == bytes.fromhex("FF399E5A68"), "randomizer starts FF 39 9E 5A 68 (CCSDS 231.0-B)")
+    check(randomizer_sequence(5) == bytes.fromhex("FF399E5A68"), "randomizer starts FF 39 9E 5A 68 (CCSDS 231.0-B-4 section 6)")
     check(crc16(b"123456789") == 0x29B1, "CRC-16/IBM-3740 check value 0x29B1")
     check(bch_codeblock(bytes(7)) == bytes(7) + b"\xFE", "all-zero codeblock: parity complemented to ones, filler 0")
 
@@ -313,7 +313,7 @@ def main():
             ("idle", '"idles_before": 128', '"idles_before": 127', "below the acquisition sequence"),
         ]
         # A frame and CLTU rebuilt here with another count: each command is consistent in
-        # itself, but the counts no longer run per APID from 0 (ccsds-tc-profile.md s.2).
+        # itself, but the counts no longer run per APID from 0 (docs/spec/ccsds-tc.md s.2).
         tc = up["link"]["tc"]
         arg_bits = []
         for a in c0["args"]:

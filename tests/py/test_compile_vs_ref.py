@@ -135,7 +135,8 @@ def compare(dict_path, list_path, tmp):
         assert a["mnemonic"] == b["mnemonic"], (k, a["mnemonic"], b["mnemonic"])
         assert a["hex"] == b["hex"], "%s word %d (%s, line %d): ulk %s, reference %s" % (
             os.path.basename(dict_path), k + 1, a["mnemonic"], a["line"], a["hex"], b["hex"])
-        assert len(a["hex"]) == (mine["link"]["word_bits"] + 3) // 4
+        assert len(a["hex"]) == (mine["link"]["word_bits"] + 3) // 4, "word %d: %d hex digits for %d bits" % (
+            k + 1, len(a["hex"]), mine["link"]["word_bits"])
     # the whole stream, section 3
     d = ref.load_dictionary(dict_path)
     with open(list_path) as f:
@@ -145,7 +146,8 @@ def compare(dict_path, list_path, tmp):
     got = stream_from_inspect(mine)
     assert got == want, "%s: sub-bit streams differ (ulk %d, reference %d sub-bits)" % (
         os.path.basename(dict_path), len(got), len(want))
-    assert mine["totals"]["subbits"] == len(want)
+    assert mine["totals"]["subbits"] == len(want), "%s: totals.subbits %d, reference stream %d" % (
+        os.path.basename(dict_path), mine["totals"]["subbits"], len(want))
     return len(theirs)
 
 

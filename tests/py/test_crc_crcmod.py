@@ -64,8 +64,9 @@ LIST = "".join("LOAD a=%d\nMIX s=%d f=%s g=%d\n" % ((k * 7919) % 65536, (k * 37)
 
 def main():
     # the catalogue check values, to be sure which algorithms crcmod gives us
-    assert CRC["crc8"][0](b"123456789") == 0xF4
-    assert CRC["crc16"][0](b"123456789") == 0x29B1
+    # (CRC catalogue check values for "123456789": CRC-8 0xF4, CRC-16/IBM-3740 0x29B1)
+    assert CRC["crc8"][0](b"123456789") == 0xF4, "crcmod's crc-8 does not give the catalogue check value 0xF4"
+    assert CRC["crc16"][0](b"123456789") == 0x29B1, "crcmod's crc-16 does not give the catalogue check value 0x29B1"
     n = 0
     with tempfile.TemporaryDirectory() as tmp:
         lp = os.path.join(tmp, "l.cmd")
@@ -87,13 +88,16 @@ def main():
                 for w in words:
                     bits = w["binary"]
                     body = bits[:-c]
-                    assert len(body) % 8 == 0
+                    assert len(body) % 8 == 0, "%s: %d bits before the check field, not whole octets" % (w["hex"], len(body))
                     data = int(body, 2).to_bytes(len(body) // 8, "big")
                     want = fn(data)
                     got = int(bits[-c:], 2)
                     assert got == want, "%s A_v=%d %s: ulk 0x%X, crcmod 0x%X" % (check, av, w["hex"], got, want)
-                    assert int(w["check"]["value"], 16) == want and w["check"]["ok"]
+                    assert int(w["check"]["value"], 16) == want and w["check"]["ok"], \
+                        "%s: inspect reports check %s ok=%s, crcmod 0x%X" % (w["hex"], w["check"]["value"], w["check"]["ok"], want)
                     n += 1
+    # 2 check kinds x 2 dictionaries x the list's 80 commands (40 LOAD, 40 MIX), one word each
+    assert n == 2 * 2 * 80, "compared %d check fields, expected exactly 320" % n
     print("crcmod: %d check fields equal" % n)
     return 0
 

@@ -15,7 +15,7 @@ Ideal receivers (written here independently of tests/ideal_rx.h):
     d the Hamming distance of Z and O, n sub-bits per bit, W bits per word);
   CCSDS CLTUs (nrz-l): q = Q(sqrt(2 E_c/N_0)) per channel bit; accepted when the start
     sequence has at most start_errors errors and each codeblock at most one among its 63 code
-    bits (SEC; CCSDS 231.0-B decoding, the filler bit outside the code); the CLTUs differ in
+    bits (SEC; CCSDS 231.0-B-4 section 3 decoding, from memory; the filler bit outside the code); the CLTUs differ in
     length, so the number rejected is Poisson-binomial, computed exactly by convolution.
 
 Rows (within the decoder's present limits; the lowest rates and +-1000 ppm are in

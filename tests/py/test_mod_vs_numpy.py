@@ -1,6 +1,6 @@
 #!/usr/bin/python3
 """test_mod_vs_numpy - `ulk modulate` against an independent numpy implementation of the
-sub-bit profile contract (shared/design/subbit-profile.md sections 2, 3, 4 and 6).
+sub-bit profile contract (docs/spec/subbit.md sections 2, 3, 4 and 6).
 
 Everything the comparison needs is computed here from the contract alone, sharing no code
 with the C library: the words (fields + parity-even check, section 2), the sub-bit stream
@@ -10,7 +10,7 @@ timing table (section 6). The dictionaries and command lists are written by this
 compiled with `ulk compile`; the words of the upload file are only cross-checked against
 the ones computed here.
 
-Checks: max |diff| <= 1e-5 for f32 and <= 1 LSB for s16, for sine and square subcarriers,
+Checks: max |diff| <= 2e-7 for f32 (measured 6.98e-08) and <= 1 LSB for s16, for sine and square subcarriers,
 nrz-l and nrz-m, with and without a pilot, at rates where f_s / R_s is whole and where it is
 not (and one whose phase period is too long for a table); raw + SigMF and WAV (read back with
 scipy.io.wavfile, a Debian reference library); the timing table row by row, with start_s
@@ -26,6 +26,8 @@ from fractions import Fraction
 
 import numpy as np
 import scipy.io.wavfile
+
+F32_TOL = 2e-7  # max |diff| of f32 samples; measured 6.98e-08 (case c, nrz-m + pilot)
 
 ULK = os.environ.get("ULK", "ulk")
 
@@ -138,7 +140,8 @@ def reference(case, fs):
     i = np.arange(n, dtype=np.int64)
     q = rs / fs                                  # j = floor(i q), exactly
     j = (i * q.numerator) // q.denominator
-    assert j[-1] == L - 1 and math.floor(Fraction(n) * q) >= L - 1
+    assert j[-1] == L - 1 and math.floor(Fraction(n) * q) >= L - 1, \
+        "sample-to-sub-bit index: last sample on sub-bit %d of %d" % (j[-1], L)
 
     def phase(f):                                # i f / f_s mod 1 as (numerator r, denominator den)
         p = frac_of(f) / fs
@@ -226,9 +229,11 @@ def check_case(tmp, case, failures):
                 failures.append(f"{name} {out}: max |diff| {diff} LSB > 1")
         else:
             diff = np.max(np.abs(x.astype(np.float64) - ref))
-            if diff > 1e-5:
+            # measured: at most 6.98e-08 (case c; float32 rounding of values up to ~1.x is
+            # half an ULP, 5.96e-08, plus the float32 phase arithmetic); limit ~3x that
+            if diff > F32_TOL:
                 k = int(np.argmax(np.abs(x.astype(np.float64) - ref)))
-                failures.append(f"{name} {out}: max |diff| {diff:.3g} > 1e-5 at sample {k}")
+                failures.append(f"{name} {out}: max |diff| {diff:.3g} > {F32_TOL:g} at sample {k}")
         print(f"  {name:45s} {out:12s} {len(x):7d} samples  max|diff| {diff:.3g}{' LSB' if x.dtype == np.int16 else ''}")
     check_timing(case, fs, os.path.join(tmp, "timing.csv"), failures)
     # the table alone, without samples, is the same table

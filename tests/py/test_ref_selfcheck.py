@@ -2,7 +2,7 @@
 """Checks the Python reference (tests/py/ref_subbit.py) against sources outside it:
 the CRC catalogue check values, python3-crcmod, glibc's strtof (via ctypes), a naive
 polynomial-division CRC, hand-worked words, and a slow per-sample evaluation of the
-waveform formula of subbit-profile.md section 4 in exact arithmetic.
+waveform formula of docs/spec/subbit.md section 4 in exact arithmetic.
 
 Run: /usr/bin/python3 tests/py/test_ref_selfcheck.py   (exit 0 when everything passed)
 """

@@ -7,8 +7,8 @@ set of broken dictionaries written below must each be rejected, at the tree path
 in the case (so a case cannot pass by failing for an unrelated reason).
 
 YAML is read with python3-yaml, with the implicit types reduced to the YAML 1.2 core
-schema (subbit-profile.md section 7: `on` is a string, `010` is ten), plus 0b binary
-integers (interfaces.md).
+schema (docs/spec/subbit.md section 7: `on` is a string, `010` is ten), plus 0b binary
+integers (docs/spec/dictionary.md).
 
 Run: /usr/bin/python3 tests/py/test_schema.py   (exit 0 when everything passed)
 """

@@ -7,12 +7,12 @@ With the secured demo (dictionaries/demo-ccsds-sec.yaml) and a demo key:
   - with another key: every frame rejected, "authentication failed", exit 1;
   - a second time with the receive state of the first: every frame "replayed", exit 1;
   - a capture of an upload with one bit of one frame's MAC flipped (the CLTU rebuilt with the
-    independent CCSDS 231.0-B construction of test_ccsds_pipeline.py, so the frame reaches the
+    independent CCSDS 231.0-B-4 (sections 3, 5, 6, from memory) construction of test_ccsds_pipeline.py, so the frame reaches the
     MAC check): that frame alone "authentication failed";
   - without --keys: secured, not authenticated (the commands shown for authentication,
     nothing readable under authenticated-encryption);
   - verify with the key: exit 0; after the bit flip: exit 1.
-Frame layout: CCSDS 355.0-B-1 (from memory of its figure); FECF CCSDS 232.0-B (crcmod).
+Frame layout: CCSDS 355.0-B-1 sections 3.2 and 3.3 (from memory of its figure); FECF CCSDS 232.0-B-4 section 4.1.4 (from memory; crcmod).
 """
 import json
 import os

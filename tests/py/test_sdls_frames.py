@@ -7,7 +7,7 @@ Outside references:
     cases 13-18 of McGrew & Viega, "The Galois/Counter Mode of Operation (GCM)", Appendix B
     (the values as quoted by several public test suites, which agree; the document itself was
     not at hand) is checked first, so a wrong reference cannot pass the frames.
-  - frame layout: CCSDS 355.0-B-1 (security header SPI 2 octets + IV after the primary header
+  - frame layout: CCSDS 355.0-B-1 section 3.2, from memory (security header SPI 2 octets + IV after the primary header
     and segment header, MAC before the FECF; from memory of the standard's figure), CCSDS
     232.0-B (header fields, FECF = CRC-16/CCITT-FALSE via python3-crcmod).
 
@@ -38,7 +38,7 @@ SRC = os.environ.get("ULK_SOURCE_DIR") or os.path.normpath(
 failures = []
 checks = 0
 
-crc16 = crcmod.predefined.mkCrcFun("crc-ccitt-false")  # CCSDS 232.0-B FECF
+crc16 = crcmod.predefined.mkCrcFun("crc-ccitt-false")  # CCSDS 232.0-B-4 section 4.1.4 FECF (from memory)
 
 KEY_HEX = "4f72726568617272696b636b2d64656d6f2d6b65792d6e6f742d7265616c2121"
 OTHER_HEX = "00" * 31 + "01"

@@ -103,7 +103,8 @@ def main():
                 big = pr > 1e-9 * pr.max()
                 rel = np.max(np.abs(p[big] - pr[big]) / pr[big])
                 print("   real: worst relative difference to scipy.signal.welch %.2e" % rel)
-                check(rel < 1e-3, "real: power matches scipy.signal.welch within 1e-3")
+                # measured 1.06e-05 (float32 input and FFT rounding); limit ~5x
+                check(rel < 5e-5, "real: power matches scipy.signal.welch within 5e-5 (%.2e)" % rel)
             with open(png, "rb") as fh:
                 check(fh.read(8) == b"\x89PNG\r\n\x1a\n", "the plot is a PNG")
 
@@ -134,7 +135,8 @@ def main():
                 big = pr > 1e-9 * pr.max()
                 rel = np.max(np.abs(p[big] - pr[big]) / pr[big])
                 print("   complex: worst relative difference to scipy.signal.welch %.2e" % rel)
-                check(rel < 1e-3, "complex: power matches scipy.signal.welch within 1e-3")
+                # measured 9.24e-05 (float32 input and FFT rounding, deep bins); limit ~3x
+                check(rel < 3e-4, "complex: power matches scipy.signal.welch within 3e-4 (%.2e)" % rel)
 
         # --- NaN and infinite samples: counted, taken as 0, the rest of the spectrum kept ---
         xn = (0.5 * np.sin(2 * np.pi * 2500.0 * np.arange(20000) / 8000)).astype(np.float32)

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""The voice channel's audio from a WAV file (composite-carrier.md section 1: the voice is
+"""The voice channel's audio from a WAV file (docs/spec/carrier.md section 1: the voice is
 sin(2 pi f_v t + 2 pi Delta integral_0^t a(u) du), a(t) of peak 1; docs/carrier.md).
 
 A 16-bit mono WAV tone (f_a = 1234.5 Hz, amplitude 0.4, 11025 Hz: a rate that does not divide
@@ -9,8 +9,9 @@ mode added.
  (a) `ulk modulate --carrier` of the voice-only mode against an independent numpy/scipy
      computation of the formula: a(t) = samples / peak, linear interpolation at i * f_in / fs
      (exact integer positions), silence after the end, scipy.integrate.cumulative_trapezoid;
-     max |phase difference| < 1e-3 rad (over the file and the silent tail).
- (b) `ulk decode --voice` of the full mode (data, voice, ranging) recovers f_a within 1 Hz.
+     max |phase difference| < 5e-6 rad (measured 1.13e-06; over the file and the silent tail).
+ (b) `ulk decode --voice` of the full mode (data, voice, ranging) recovers f_a within 2e-3 Hz
+     (measured 4.2e-04).
  (c) --voice-audio overrides the section (a stereo WAV: refused without --voice-channel,
      with --voice-channel 1 equal to the mono capture); a silent WAV is refused, nothing
      written.
@@ -35,6 +36,8 @@ FA = 1234.5
 FV, DEV, M_V = 28500, 4000, 0.9
 failed = 0
 
+
+TONE_TOL_HZ = 2e-3  # decoded voice tone frequency; measured error 4.2e-04 Hz
 
 def check(ok, what, detail=""):
     global failed
@@ -89,7 +92,8 @@ def main():
     with tempfile.TemporaryDirectory(dir=TMPROOT) as tmp:
         with open(os.path.join(SRC, "dictionaries", "demo-subbit.yaml"), encoding="utf-8") as f:
             t = f.read()
-        assert "    tone_hz: 1000" in t and "    full: {" in t
+        assert "    tone_hz: 1000" in t and "    full: {" in t, \
+            "demo-subbit.yaml no longer has the tone_hz and full: lines this test edits"
         t = t.replace("    tone_hz: 1000", "    audio: tone.wav")
         t = t.replace("    full: {", "    speech: {voice: %g}\n    full: {" % M_V)
         dct = os.path.join(tmp, "d.yaml")
@@ -117,7 +121,8 @@ def main():
         check(abs(np.max(np.abs(a)) - 1) < 1e-3, "reference audio peak %.5f ~ 1" % np.max(np.abs(a)))
         d = np.abs(np.angle(x * np.conj(ref)))
         end = int(np.ceil(n_in * FS / FIN)) + 1
-        check(np.max(d) < 1e-3, "phase vs numpy formula: max |diff| %.3g rad (limit 1e-3), over the audio %.3g, "
+        # measured 1.13e-06 rad (float32 samples, phase accumulated in double); limit ~4x that
+        check(np.max(d) < 5e-6, "phase vs numpy formula: max |diff| %.3g rad (limit 5e-6), over the audio %.3g, "
               "after its end %.3g" % (np.max(d), np.max(d[:end]), np.max(d[end:])))
         # the same check would fail for a rectangular-rule integral or an unnormalised audio
         alt = np.exp(1j * M_V * np.sin(2 * np.pi * ((np.arange(n) * FV) % FS) / FS +
@@ -133,7 +138,8 @@ def main():
         check(rc == 0, "decode --voice exit 0", err)
         if rc == 0:
             f, amp = tone_of(vw, 0.2, 0.95)
-            check(abs(f - FA) < 1.0, "decoded voice tone %.3f Hz, sent %.1f Hz (limit 1 Hz)" % (f, FA))
+            check(abs(f - FA) < TONE_TOL_HZ, "decoded voice tone %.5f Hz, sent %.1f Hz, error %.2g Hz (limit %g Hz)"
+                  % (f, FA, f - FA, TONE_TOL_HZ))
             # the file's 0.4 normalised to 1, times the linear interpolator's response at f_a,
             # sinc^2(f_a / f_in) (the interpolator is a triangle kernel; common practice)
             want = np.sinc(FA / FIN) ** 2

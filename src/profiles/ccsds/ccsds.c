@@ -1,6 +1,7 @@
 /* src/ccsds.c - the bit layer of the CCSDS telecommand profile: Space Packets (CCSDS
- * 133.0-B), TC Transfer Frames (CCSDS 232.0-B), and the TC synchronization and channel
- * coding of CCSDS 231.0-B (pseudo-randomizer, BCH(63,56) codeblocks, CLTUs).
+ * 133.0-B-2 section 4.1.3), TC Transfer Frames (CCSDS 232.0-B-4 sections 4.1.2 to 4.1.4), and the TC
+ * synchronization and channel coding of CCSDS 231.0-B-4 (pseudo-randomizer section 6, BCH(63,56)
+ * codeblocks section 3, CLTUs section 5); section numbers from memory (docs/spec/ccsds-tc.md section 5).
  *
  * Bit order everywhere: the first bit sent is the most significant bit of the first octet.
  * For the BCH code a 63-bit word is held in a uint64_t with the first bit sent at bit 62,

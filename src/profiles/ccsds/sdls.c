@@ -1,5 +1,5 @@
-/* src/sdls.c - Space Data Link Security on TC frames (CCSDS 355.0-B-1) with AES-256-GCM
- * (CCSDS 352.0-B) through OpenSSL's EVP interface; key file, anti-replay state file,
+/* src/sdls.c - Space Data Link Security on TC frames (CCSDS 355.0-B-1 section 3) with AES-256-GCM
+ * (CCSDS 352.0-B-2 section 5, from memory) through OpenSSL's EVP interface; key file, anti-replay state file,
  * sending and receiving side. See ulk/sdls.h for the layout and docs/sdls.md for the rules.
  */
 #define _GNU_SOURCE
@@ -54,7 +54,7 @@ int ulk_sdls_sa_check(const ulk_sdls_sa *sa, char *err, size_t errlen)
     if (err && errlen) err[0] = 0;
     if (!sa) return sa_fail(err, errlen, "no security association");
     if (!sa->enabled) return ULK_OK;
-    /* SPI 0 and 0xFFFF are reserved (CCSDS 355.0-B-1, from memory of its SPI rules). */
+    /* SPI 0 and 0xFFFF are reserved (CCSDS 355.0-B-1 section 3.2.2, from memory). */
     if (sa->spi < 1 || sa->spi > 65534) return sa_fail(err, errlen, "spi must be 1..65534");
     if (!ulk_sdls_key_name_ok(sa->key))
         return sa_fail(err, errlen, "key must be a key name of 1..47 letters, digits, '_', '.' or '-'");
@@ -876,7 +876,7 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
         return 0;
     }
     uint64_t c = res->counter;
-    /* Anti-replay (CCSDS 355.0-B-1, from memory of its sequence-number window): above the last
+    /* Anti-replay (CCSDS 355.0-B-1 section 4, from memory of its sequence-number window): above the last
      * accepted, at most window above it. Without a state the first authentic frame opens it. */
     if (rx->have_last && c <= rx->last) {
         OPENSSL_cleanse(res->data, L.n_data);
