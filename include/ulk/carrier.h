@@ -1,6 +1,6 @@
 /* ulk/carrier.h - the composite carrier: data, voice and ranging channels phase-modulating
  * one carrier, its power division, the modulation-index planner and the baseband generator
- * (shared/design/composite-carrier.md).
+ * (docs/spec/carrier.md).
  *
  * Why: with several channels on one phase-modulated carrier, every index taken from one
  * channel's power is paid for by the residual carrier and the others, and the cross-products
@@ -42,7 +42,7 @@ extern "C" {
 double ulk_bessel_j0(double x);
 double ulk_bessel_j1(double x);
 
-/* ---- power division (composite-carrier.md section 2) ---- */
+/* ---- power division (docs/spec/carrier.md section 2) ---- */
 
 typedef enum { ULK_CHAN_SINE = 0, ULK_CHAN_BINARY = 1 } ulk_chan_kind;
 
@@ -288,7 +288,7 @@ const char *ulk_vaudio_error(const ulk_vaudio *v);
 /* Frees v; NULL does nothing. */
 void ulk_vaudio_destroy(ulk_vaudio *v);
 
-/* ---- ranging correlation (composite-carrier.md section 3) ----
+/* ---- ranging correlation (docs/spec/carrier.md section 3) ----
  * The received chip index of a capture delayed by D chips is floor(t * chip_rate - D) mod N.
  * The correlator folds the complex capture onto one code period -- sample i adds to bin
  * floor(K * ((i * chip_rate / fs) mod N)), K = ULK_RCORR_BINS_PER_CHIP, taken exactly on the
@@ -322,7 +322,7 @@ int ulk_rcorr_result(ulk_rcorr *r, ulk_ranging_result *out);
 /* Frees r; NULL does nothing. */
 void ulk_rcorr_destroy(ulk_rcorr *r);
 
-/* ---- carrier recovery (composite-carrier.md section 3) ----
+/* ---- carrier recovery (docs/spec/carrier.md section 3) ----
  * Finds the residual carrier of a complex capture and tracks it, so that the phase of the
  * de-rotated signal is the composite phase phi(t) = sum_k m_k c_k(t).
  *

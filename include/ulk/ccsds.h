@@ -4,7 +4,7 @@
  * one TC Transfer Frame (CCSDS 232.0-B-4) in one CLTU (CCSDS 231.0-B-4: pseudo-randomizer,
  * BCH(63,56) codeblocks, start and tail sequences). This module builds and parses every
  * one of those layers on octet buffers and decodes CLTUs from a hard bit stream; the
- * choices the standards leave open are fixed by shared/design/ccsds-tc-profile.md and
+ * choices the standards leave open are fixed by docs/spec/ccsds-tc.md and
  * documented in docs/ccsds-tc.md.
  *
  * Nothing here allocates: every function writes into a buffer the caller provides (its
@@ -78,7 +78,7 @@ extern "C" {
  * sequence begins FF 48 0E C0 9A: a different thing.) */
 #define ULK_TC_RANDOMIZER_POLY 0x15Fu
 
-/* ---- the profile's tc section (ccsds-tc-profile.md section 1) ---- */
+/* ---- the profile's tc section (docs/spec/ccsds-tc.md section 1) ---- */
 
 /* ulk_bch_mode, ulk_tc_service and ulk_ccsds_tc, the parameter block, are declared in
  * ulk/link.h: the link model carries them, so the link header includes no profile header. */
@@ -144,7 +144,7 @@ typedef struct {
 int ulk_spp_parse(const uint8_t *p, size_t n, ulk_spp_packet *out);
 const char *ulk_spp_verdict_str(ulk_spp_verdict v);
 
-/* Packet data field of a command (ccsds-tc-profile.md section 2.1): the opcode as one
+/* Packet data field of a command (docs/spec/ccsds-tc.md section 2.1): the opcode as one
  * octet, then the argument bits (values 0/1, MSB first, already encoded by the caller),
  * then zero bits to a whole octet. Returns 0 with *n_out = 1 + ceil(n_arg_bits / 8);
  * ULK_EINVAL when opcode > 255 or a pointer is NULL (arg_bits may be NULL when
@@ -280,7 +280,7 @@ typedef struct {
 int ulk_ccsds_command_cltu(const ulk_ccsds_tc *tc, const ulk_tc_command *c, uint8_t *out,
                            size_t cap, size_t *n_out);
 
-/* ---- decoding CLTUs from a hard bit stream (ccsds-tc-profile.md section 4) ---- */
+/* ---- decoding CLTUs from a hard bit stream (docs/spec/ccsds-tc.md section 4) ---- */
 
 typedef enum {
     ULK_CLTU_ACCEPTED = 0,

@@ -4,7 +4,7 @@
  * knows the dictionary. Both keep going after an error so that one run lists every problem
  * of a list, each as `file:line:col: error: ...` with a did-you-mean where one fits.
  *
- * Syntax (shared/design/interfaces.md, "Command list"):
+ * Syntax (docs/spec/command-list.md):
  *
  *     # comment to end of line
  *     MNEMONIC name=value name=value      # a value may carry its unit: delay=250ms
@@ -76,7 +76,7 @@ int ulk_cmdlist_load(const char *path, ulk_cmdlist **out, ulk_diag *diag);
 /* Frees l; NULL does nothing. */
 void ulk_cmdlist_destroy(ulk_cmdlist *l);
 
-/* Compiles l against d (subbit-profile.md sections 2 and 3): resolves mnemonics and
+/* Compiles l against d (docs/spec/subbit.md sections 2 and 3): resolves mnemonics and
  * arguments (by name, any order; missing ones take their default), converts values,
  * refuses critical commands without 'confirm', packs and checks each word, and counts the
  * idle patterns (waits exact: max(G, ceil(t * R_b))). Every error goes to diag with its

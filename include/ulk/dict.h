@@ -121,7 +121,7 @@ const ulk_arg *ulk_command_find_arg(const ulk_command *c, const char *name);
  * d is NULL. */
 int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len);
 
-/* ---- argument values: engineering <-> raw, the rules of subbit-profile.md section 2 ---- */
+/* ---- argument values: engineering <-> raw, the rules of docs/spec/subbit.md section 2 ---- */
 
 /* A value of one argument: the raw field (bits right-aligned, two's complement masked to
  * the width for signed) and its engineering value. For enums eng is the code; for float32

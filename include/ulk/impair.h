@@ -2,7 +2,7 @@
  * offset, inversion and white Gaussian noise at a stated E_b/N_0, applied to samples in
  * chunks (memory stays flat), seeded and deterministic.
  *
- * Noise follows subbit-profile.md section 5: per-sample variance sigma^2 with
+ * Noise follows docs/spec/subbit.md section 5: per-sample variance sigma^2 with
  * E_b/N_0 = P_d f_s / (2 sigma^2 R_b), P_d being the data power as it leaves the simulator
  * (the given P_d times amplitude^2).
  *

@@ -86,7 +86,7 @@ typedef struct {
     uint32_t window;                   /* receiving side's anti-replay window, 1..2^20, default 64 */
 } ulk_sdls_sa;
 
-/* The `tc` section of the CCSDS telecommand profile (ccsds-tc-profile.md section 1). The
+/* The `tc` section of the CCSDS telecommand profile (docs/spec/ccsds-tc.md section 1). The
  * frame, coding and decoder choices are the bit layer's own configuration (ulk/ccsds.h);
  * the rest says how the channel stream is laid out (section 3). */
 typedef struct {
@@ -99,9 +99,9 @@ typedef struct {
                                     When on, frame.sec_*_octets hold its layout. */
 } ulk_tc_params;
 
-/* The parameters of a link: the sub-bit profile of shared/design/subbit-profile.md section 1,
+/* The parameters of a link: the sub-bit profile of docs/spec/subbit.md section 1,
  * or (profile == ULK_PROFILE_CCSDS_TC) the CCSDS telecommand profile of
- * ccsds-tc-profile.md. A ccsds-tc link uses bit_rate (R, the channel bit rate), line_code,
+ * docs/spec/ccsds-tc.md. A ccsds-tc link uses bit_rate (R, the channel bit rate), line_code,
  * the subcarrier fields and tc; it has n_subbits 1 with zero {0} and one {1} (one channel
  * symbol per bit, R_s = R) and leaves idle, pilot, framing and word fields 0. */
 typedef struct {

@@ -1,4 +1,4 @@
-/* ulk/mod.h - the modulator (subbit-profile.md section 4) and the timing table (section 6).
+/* ulk/mod.h - the modulator (docs/spec/subbit.md section 4) and the timing table (section 6).
  *
  * Why exact: a sample that falls exactly on a sub-bit start must belong to the new sub-bit,
  * and one exactly on a square-wave edge must take the new half, on every machine. So the

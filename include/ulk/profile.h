@@ -1,7 +1,7 @@
 /* ulk/profile.h - a link profile behind one small interface, so that compile, the upload
  * file, the symbol stream (modulator, timing table) and decode are written once and the
- * sub-bit profile (subbit-profile.md) and the CCSDS telecommand profile
- * (ccsds-tc-profile.md) are two tables of functions.
+ * sub-bit profile (docs/spec/subbit.md) and the CCSDS telecommand profile
+ * (docs/spec/ccsds-tc.md) are two tables of functions.
  *
  * Why this split: the two profiles differ in three places only.
  *   1. What one command becomes: a W-bit word, or a CLTU (packet -> frame -> randomizer ->

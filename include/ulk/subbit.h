@@ -1,4 +1,4 @@
-/* ulk/subbit.h - the sub-bit stream of subbit-profile.md section 3, produced in chunks.
+/* ulk/subbit.h - the sub-bit stream of docs/spec/subbit.md section 3, produced in chunks.
  *
  * Why chunks: an upload of any length expands to I^P W_1 I^G ... W_N I^T, which can be far
  * larger than memory should hold; the modulator and the timing table pull it piece by

@@ -1,4 +1,4 @@
-/* ulk/tc_decode.h - decoding the CCSDS telecommand profile (ccsds-tc-profile.md section 4)
+/* ulk/tc_decode.h - decoding the CCSDS telecommand profile (docs/spec/ccsds-tc.md section 4)
  * from the shared demodulator front end's soft channel symbols to commands.
  *
  * Why a stage of its own: the blind front end (subcarrier, clock, matched filter; ulk/demod.h)

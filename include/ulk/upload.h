@@ -144,7 +144,7 @@ uint64_t ulk_upload_unit_bits(const ulk_upload *u, size_t i);
 /* Bit b (0 = first sent, b < ulk_upload_unit_bits) of command i's unit, either form. */
 int ulk_upload_unit_bit(const ulk_upload *u, size_t i, uint64_t b);
 
-/* Prints u back as a command list (interfaces.md syntax): waits, each command with its
+/* Prints u back as a command list (docs/spec/command-list.md syntax): waits, each command with its
  * arguments in engineering form, 'confirm' on critical ones. Each command stays on its
  * source line (blank or comment lines fill the gaps), so compiling the output under the
  * same file name gives an identical upload. Returns 0 or ULK_EIO. */

@@ -1,4 +1,4 @@
-/* ulk/word.h - command words (subbit-profile.md section 2) and check codes.
+/* ulk/word.h - command words (docs/spec/subbit.md section 2) and check codes.
  *
  * A word is at most ULK_MAX_WORD_BITS bits, kept one bit per byte, most significant
  * (first sent) first, so that any field of any width can be read and written without

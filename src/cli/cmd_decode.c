@@ -156,7 +156,7 @@ static cJSON *security_json(const ulk_rx_event *ev)
     return ok ? sj : NULL;
 }
 
-/* One unit as a JSON object (interfaces.md; ccsds-tc adds the packet's identity). */
+/* One unit as a JSON object (docs/spec/cli.md; ccsds-tc adds the packet's identity). */
 static cJSON *unit_json(const ulk_rx_event *ev)
 {
     const ulk_decoded *d = ev->dec;

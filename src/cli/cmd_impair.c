@@ -59,7 +59,7 @@ static void usage(FILE *out)
             "complex IN (.cf32/.ci16 with SigMF, or a two-channel WAV with --iq; OUT .cf32, .ci16\n"
             "or .wav): complex noise of total variance sigma^2, half in I and half in Q, with\n"
             "N_0 = sigma^2 / f_s and E_b/N_0 = P_d / (N_0 R_b), P_d = the data channel's useful\n"
-            "power P_k/P_T of the mode (the planner's, composite-carrier.md) times the full-scale\n"
+            "power P_k/P_T of the mode (the planner's, docs/spec/carrier.md) times the full-scale\n"
             "envelope 1 (and --amplitude^2); R_b the carrier section's information rate:\n"
             "  --iq               a two-channel IN is I (left) and Q (right)\n"
             "  --mode NAME        the carrier mode (default: from IN's SigMF metadata)\n"

@@ -1,5 +1,5 @@
 /* src/cli/cmd_modulate.c - `ulk modulate UPLOAD -o OUT --rate HZ [--format f32|s16]
- * [--timing TABLE.csv]`: samples of subbit-profile.md section 4 and the timing table of
+ * [--timing TABLE.csv]`: samples of docs/spec/subbit.md section 4 and the timing table of
  * section 6. Exit 0 written; 1 refused (rate too low, 16-bit output would clip, upload
  * refused); 2 usage or I/O error. Nothing is left behind on failure. */
 #include <cjson/cJSON.h>

@@ -1,6 +1,6 @@
 /* src/cli/cmd_modulate_carrier.c - `ulk modulate UPLOAD --carrier --mode NAME --dict DICT
  * -o OUT.cf32|.ci16|.wav --rate HZ [--offset HZ] [--format f32|s16]`: the complex baseband of
- * one mode of the dictionary's composite carrier (composite-carrier.md sections 1 and 3), the
+ * one mode of the dictionary's composite carrier (docs/spec/carrier.md sections 1 and 3), the
  * upload's samples as its data channel.
  *
  * Why a separate file: the real-output path (cmd_modulate.c) stays as it is; it hands every

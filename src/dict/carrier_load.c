@@ -1,5 +1,5 @@
 /* src/carrier_load.c - the `carrier:` section: from a document tree to the carrier model,
- * with the rules of composite-carrier.md section 1 (primitive ranging polynomial: error;
+ * with the rules of docs/spec/carrier.md section 1 (primitive ranging polynomial: error;
  * overlapping main lobes: warning). Keys: docs/carrier.md.
  */
 #include <math.h>
@@ -390,7 +390,7 @@ static void load_modes(lctx *x, ulk_node *mn)
     }
 }
 
-/* Overlap warnings of composite-carrier.md section 1, for channels that share a mode. */
+/* Overlap warnings of docs/spec/carrier.md section 1, for channels that share a mode. */
 static void check_overlap(lctx *x, ulk_node *carrier)
 {
     ulk_carrier *c = x->c;

@@ -1,5 +1,5 @@
 /* src/dict.c - the command dictionary: from the document tree to the model, with every rule
- * of subbit-profile.md section 1 and the dictionary tree of interfaces.md checked.
+ * of docs/spec/subbit.md section 1 and the dictionary tree of docs/spec/dictionary.md checked.
  *
  * Why one pass that keeps going: an operator fixing a dictionary wants every problem in one
  * run, each pointing at its line. So each section is read into the model as far as it can
@@ -631,7 +631,7 @@ static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
     ulk_sdls_layout(&sa, &T->frame);
 }
 
-/* The link section of `profile: ccsds-tc` (ccsds-tc-profile.md section 1): channel bit rate
+/* The link section of `profile: ccsds-tc` (docs/spec/ccsds-tc.md section 1): channel bit rate
  * R, line code, subcarrier (f_sc / R whole >= 1) and the tc section. Values outside the
  * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B (Issue 25, section 2.2),
  * so they never refuse a dictionary. */

@@ -1,5 +1,5 @@
 /* src/carrier.c - composite carrier: Bessel J0/J1, power division, ranging code, the index
- * planner and the complex-baseband generator (shared/design/composite-carrier.md).
+ * planner and the complex-baseband generator (docs/spec/carrier.md).
  *
  * The loader of the carrier section is in carrier_load.c; this file needs no parser.
  */

@@ -1,6 +1,6 @@
 /* src/carrier_ranging.c - the ranging correlator: code phase (delay) of a complex capture by
  * folding onto one code period and circular correlation with the code (contract in
- * include/ulk/carrier.h, composite-carrier.md section 3).
+ * include/ulk/carrier.h, docs/spec/carrier.md section 3).
  *
  * Why fold first: a capture of many periods costs one pass and N*K bins of memory, and the
  * single FFT at the end is of one period whatever the capture's length. Chip positions are

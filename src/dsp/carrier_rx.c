@@ -1,6 +1,6 @@
 /* src/carrier_rx.c - the receiving side of the composite carrier: carrier recovery (coarse FFT
  * of the residual carrier line, then a second-order phase-locked loop) and the voice FM
- * demodulator (include/ulk/carrier.h; composite-carrier.md section 3).
+ * demodulator (include/ulk/carrier.h; docs/spec/carrier.md section 3).
  *
  * Why atan2 as the phase detector: the residual carrier's amplitude is prod J0 prod cos of the
  * indices, so the usual Im(x e^-j theta) detector has a gain that changes with the mode (and

@@ -1,6 +1,6 @@
 /* src/carrier_voice.c - the voice channel's audio from a sound file: peak normalisation,
  * linear-interpolation resampling on exact sample-index arithmetic, trapezoidal integration
- * into the FM phase term Delta * integral a(u) du (composite-carrier.md section 1;
+ * into the FM phase term Delta * integral a(u) du (docs/spec/carrier.md section 1;
  * include/ulk/carrier.h, docs/carrier.md).
  *
  * Why two passes: the audio must have peak 1 before it is integrated, and the peak of a long

@@ -1,4 +1,4 @@
-/* src/mod.c - PSK on a subcarrier, sample-exact (subbit-profile.md section 4).
+/* src/mod.c - PSK on a subcarrier, sample-exact (docs/spec/subbit.md section 4).
  *
  *     s_i = A * d_j * c(t_i) + A_p * sin(2 pi f_p t_i),   t_i = i / f_s,  j = floor(t_i R_s)
  *

@@ -1,4 +1,4 @@
-/* src/timing.c - the timing table of subbit-profile.md section 6: one CSV row per sub-bit
+/* src/timing.c - the timing table of docs/spec/subbit.md section 6: one CSV row per sub-bit
  * for hardware encoders and for checking a recording by eye.
  *
  * Why exact: first_sample = ceil(j f_s / R_s) must agree with the modulator sample for

@@ -1,5 +1,5 @@
 /* src/compile.c - the command-list compiler: parsed list + dictionary -> upload
- * (subbit-profile.md sections 2 and 3).
+ * (docs/spec/subbit.md sections 2 and 3).
  *
  * Each command line becomes one word: mnemonic -> system address and opcode, arguments by
  * name -> raw fields (argval.c), packed in dictionary order, then the check. Waits become

@@ -1,9 +1,9 @@
 /* src/stream.c - expands an upload into its sub-bit stream, chunk by chunk
- * (subbit-profile.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern.
+ * (docs/spec/subbit.md section 3): I^P W_1 I^G ... W_N I^T, each bit as its n-sub-bit pattern.
  * Commands are read through the ulk_upload_* accessors, so a lean upload (ULK_UPLOAD_LEAN:
  * idles and packed unit octets only) streams exactly as a full one.
  * The link profile (ulk/profile.h) says what a unit's bits are (word or CLTU) and what its
- * filler is (the idle pattern, or ccsds-tc-profile.md section 3's alternating bits that
+ * filler is (the idle pattern, or docs/spec/ccsds-tc.md section 3's alternating bits that
  * restart at 0 on every run); the layout is the same for both. */
 #include <string.h>
 

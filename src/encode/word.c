@@ -1,4 +1,4 @@
-/* src/word.c - command words and their check codes (subbit-profile.md section 2).
+/* src/word.c - command words and their check codes (docs/spec/subbit.md section 2).
  *
  * A word is one bit per byte, first sent first: fields of any width at any offset are
  * plain loops, and the check codes are computed exactly as the contract states them, bit

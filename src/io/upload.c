@@ -1077,7 +1077,7 @@ static int take_cmd(build_t *b, const cJSON *cj)
     size_t octets = tc ? c->n_cltu : (size_t)(l->word_bits + 7) / 8;
     if (tc) {
         /* packet counts per APID from 0 and N(S) from first_sequence, as the compiler numbers
-         * them (ccsds-tc-profile.md section 2): a reordered or spliced upload is refused */
+         * them (docs/spec/ccsds-tc.md section 2): a reordered or spliced upload is refused */
         const ulk_tc_params *t = &l->tc;
         uint8_t ns = t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? (uint8_t)((t->first_sequence + idx) & 0xFF) : 0;
         if (c->seq_count != b->next_seq[c->system_addr])

@@ -1,6 +1,6 @@
 /* src/tc_decode.c - the ccsds-tc decoder: soft channel symbols from the shared front end ->
  * hard bits -> CLTUs (ccsds.c, both polarities) -> commands through the dictionary
- * (ccsds-tc-profile.md section 4).
+ * (docs/spec/ccsds-tc.md section 4).
  */
 #include <math.h>
 #include <stdarg.h>
