@@ -20,9 +20,16 @@ export PKG_CONFIG_PATH=$(dirname "$pc")
 [ "$(pkg-config --variable=libdir ulk)" -ef "$(dirname "$(dirname "$pc")")" ] ||
     fail "ulk.pc's libdir $(pkg-config --variable=libdir ulk) is not where it was installed"
 [ -f "$(pkg-config --variable=includedir ulk)/ulk/rx.h" ] || fail "ulk/rx.h not installed under the includedir"
-# a sanitizer build's library needs the sanitizer runtime in the program too
-if grep -q '^ULK_SANITIZE:BOOL=ON' "$BIN/CMakeCache.txt" 2>/dev/null; then
+# a sanitizer build's library needs the sanitizer runtime in the program too: the example is
+# built with the build's own compiler and, when they name a sanitizer, its C flags
+cache="$BIN/CMakeCache.txt"
+cc=$(sed -n 's/^CMAKE_C_COMPILER:[A-Z]*=//p' "$cache" 2>/dev/null)
+[ -n "$cc" ] && export CC="$cc"
+cflags=$(sed -n 's/^CMAKE_C_FLAGS:[A-Z]*=//p' "$cache" 2>/dev/null)
+if grep -q '^ULK_SANITIZE:BOOL=ON' "$cache" 2>/dev/null; then
     export CFLAGS="-O1 -g -fsanitize=address,undefined"
+elif [[ "$cflags" == *-fsanitize* ]]; then
+    export CFLAGS="-O1 -g $cflags"
 fi
 cp "$SRC/examples/rx_example.c" "$SRC/examples/Makefile" "$T/" || fail "copying the example"
 make -s -C "$T" all static >"$T/make.log" 2>&1 || { cat "$T/make.log"; fail "building the example with pkg-config"; }
