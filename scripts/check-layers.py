@@ -18,8 +18,8 @@ LAYERS = ["core", "dict", "encode", "io", "dsp", "profiles", "cli"]
 # public headers: the layer whose model each one declares
 PUBLIC = {
     "error.h": "core", "limits.h": "core",
-    "link.h": "dict", "dict.h": "dict", "carrier.h": "dict",
-    "cmdlist.h": "encode", "word.h": "encode", "upload.h": "encode", "profile.h": "encode",
+    "link.h": "dict", "dict.h": "dict", "carrier.h": "dict", "profile.h": "dict",
+    "cmdlist.h": "encode", "word.h": "encode", "upload.h": "encode",
     "subbit.h": "encode",
     "sampleio.h": "io", "plot.h": "io",
     "mod.h": "dsp", "demod.h": "dsp", "decode.h": "dsp", "impair.h": "dsp",

@@ -35,8 +35,14 @@
 #include <stdio.h>
 #include <stdint.h>
 
+#include "ulk/dict.h"
 #include "ulk/link.h"
-#include "ulk/upload.h"
+
+/* The interface sits in the dictionary layer (the lowest that uses it): the upload types of
+ * the layers above are named by their struct tags only, so this header includes nothing
+ * above it (scripts/check-layers.py), while the tables themselves live in src/profiles/. */
+struct ulk_upload;
+struct ulk_upload_cmd;
 
 #ifdef __cplusplus
 extern "C" {
@@ -75,9 +81,9 @@ typedef struct ulk_profile_ops {
 
     /* ---- units ---- */
     /* Channel bits of command c's unit: W, or 8 * c->n_cltu. */
-    uint64_t (*unit_bits)(const ulk_link *l, const ulk_upload_cmd *c);
+    uint64_t (*unit_bits)(const ulk_link *l, const struct ulk_upload_cmd *c);
     /* Bit i (0 = first sent) of command c's unit. i < unit_bits(l, c). */
-    int (*unit_bit)(const ulk_link *l, const ulk_upload_cmd *c, uint64_t i);
+    int (*unit_bit)(const ulk_link *l, const struct ulk_upload_cmd *c, uint64_t i);
 
     /* ---- encoder (state across one upload's commands) ---- */
     /* Returns 0 with *enc set (NULL is a valid state for a stateless profile), or
@@ -87,7 +93,7 @@ typedef struct ulk_profile_ops {
      * frame_seq, and the owned buffers cltu / frame, which ulk_upload_destroy frees).
      * Returns 0; ULK_ELIMIT or ULK_EINVAL with a one-line reason in err ("frame of 1031
      * octets exceeds 1024"); ULK_ENOMEM. */
-    int (*encode)(void *enc, const ulk_unit_request *req, ulk_upload_cmd *out, char *err, size_t errlen);
+    int (*encode)(void *enc, const ulk_unit_request *req, struct ulk_upload_cmd *out, char *err, size_t errlen);
     void (*encoder_destroy)(void *enc);  /* NULL does nothing */
     /* ---- words for messages and metadata ---- */
     const char *unit_noun;     /* what a command becomes, plural: "words", "CLTUs" */
@@ -99,24 +105,24 @@ typedef struct ulk_profile_ops {
     /* Channel symbols per second on the subcarrier: R_b * n, or R. */
     ulk_ratio (*symbol_rate)(const ulk_link *l);
     /* Octets command c's unit takes in memory and in the modulator: ceil(W / 8), or the CLTU. */
-    size_t (*unit_octets)(const ulk_link *l, const ulk_upload_cmd *c);
+    size_t (*unit_octets)(const ulk_link *l, const struct ulk_upload_cmd *c);
     /* The security association of a secured link (enabled), else NULL. */
     const ulk_sdls_sa *(*security)(const ulk_link *l);
     /* ---- reports ---- */
     /* The identity of command c as verify's report shows it: the word in hex, or the packet
      * data field (opcode and arguments) read from the frame, in hex. buf holds len chars. */
-    void (*unit_hex)(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len);
+    void (*unit_hex)(const ulk_link *l, const struct ulk_upload_cmd *c, char *buf, size_t len);
     /* The annotation of command c (k-th, 0-based) in a SigMF file: "word 1, line 3, 1A2B",
      * "CLTU 1, line 3, APID 0x155 count 0 N(S) 0". */
-    void (*unit_comment)(const ulk_link *l, const ulk_upload_cmd *c, size_t k, char *buf, size_t len);
+    void (*unit_comment)(const ulk_link *l, const struct ulk_upload_cmd *c, size_t k, char *buf, size_t len);
     /* The lines of compile's summary that describe the units of an upload with n_symbols
      * channel symbols (two lines, each "  <what>  <figures>\n"). Returns what fprintf returns
      * (negative on a write error). */
-    int (*print_units)(FILE *out, const ulk_upload *u, uint64_t n_symbols);
+    int (*print_units)(FILE *out, const struct ulk_upload *u, uint64_t n_symbols);
     /* `ulk inspect`: every unit of upload u with its fields named (path is the name shown),
      * or the same as one JSON document. Return 0, ULK_ENOMEM, or ULK_EIO when out failed. */
-    int (*inspect_text)(FILE *out, const char *path, const ulk_upload *u);
-    int (*inspect_json)(FILE *out, const ulk_upload *u);
+    int (*inspect_text)(FILE *out, const char *path, const struct ulk_upload *u);
+    int (*inspect_json)(FILE *out, const struct ulk_upload *u);
     /* `ulk validate`: the summary of dictionary d (its link profile's figures), as text, or
      * as a cJSON object (a cJSON *; NULL when out of memory) the caller owns. */
     void (*summary_text)(const ulk_dict *d, FILE *out);
@@ -125,17 +131,17 @@ typedef struct ulk_profile_ops {
      * (ulk_free), for breaking ties between equal alignments; NULL when out of memory or the
      * rates are unusable. The operation itself is NULL for a profile without a time preference
      * (ccsds-tc: CLTUs are aligned by content alone). */
-    double *(*unit_start_times)(const ulk_upload *u);
+    double *(*unit_start_times)(const struct ulk_upload *u);
     /* ---- upload writer ---- */
     /* The link object of an upload file (",\n  \"link\": {...},\n"), and the end of command
      * c's record after its arguments ("],\n ... }"), into the writer's text buffer (opaque
      * here; the library's internal src/io/upload_text.h). */
     void (*upload_write_link)(const ulk_link *l, struct ulk_jbuf *b);
-    void (*upload_write_unit)(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
+    void (*upload_write_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, struct ulk_jbuf *b);
     /* ---- upload reader ---- */
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */
-    int (*check_unit)(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen);
+    int (*check_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, char *err, size_t errlen);
 } ulk_profile_ops;
 
 /* The table of a profile; NULL for an unknown id. */
@@ -147,7 +153,7 @@ const ulk_profile_ops *ulk_profile_of(const ulk_link *l);
 /* Rebuilds what command c's unit must be from its fields (system address, opcode, argument
  * raw values, and for ccsds-tc the sequence count and N(S)) and compares: 0 when c's unit is
  * exactly that, else ULK_EPARSE with the first difference in err. For the upload reader. */
-int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen);
+int ulk_profile_check_unit(const ulk_link *l, const struct ulk_upload_cmd *c, char *err, size_t errlen);
 
 #ifdef __cplusplus
 }

@@ -27,7 +27,7 @@ typedef struct {
     char *units;       /* NULL when none */
 } ulk_upload_arg;
 
-typedef struct {
+typedef struct ulk_upload_cmd {
     int line;                 /* source line in the command list */
     char *mnemonic;
     int critical;

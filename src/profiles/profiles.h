@@ -8,6 +8,7 @@
 #include <cjson/cJSON.h>
 
 #include "ulk/profile.h"
+#include "ulk/upload.h"
 
 extern const ulk_profile_ops ulk_profile_subbit;   /* src/profiles/subbit/ */
 extern const ulk_profile_ops ulk_profile_ccsds_tc; /* src/profiles/ccsds/ */
