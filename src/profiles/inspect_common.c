@@ -35,3 +35,47 @@ cJSON *ulk_inspect_ratio_json(ulk_ratio r)
     ulk_ratio_format(r, b, sizeof b);
     return cJSON_CreateString(b);
 }
+
+void ulk_inspect_text_head(FILE *out, const char *path, const ulk_upload *u)
+{
+    fprintf(out, "upload     %s (compiled from %s)\n", path, u->source);
+    fprintf(out, "dictionary %s %s  sha256 %s\n", u->dict_name, u->dict_version, u->dict_sha256);
+}
+
+void ulk_inspect_text_tail(FILE *out, const ulk_upload *u, const char *label, const char *after_what,
+                           const char *units, const char *symbols)
+{
+    char wa[64];
+    ulk_ratio_format(u->wait_after, wa, sizeof wa);
+    fprintf(out, "\n%-10s %llu %s%s%s%s\n", label, (unsigned long long)u->idles_after, after_what,
+            u->wait_after.num ? " (wait " : "", u->wait_after.num ? wa : "", u->wait_after.num ? " s)" : "");
+    fprintf(out, "totals     %zu %s, %llu %s, %.9f s\n", u->n_cmds, units, (unsigned long long)ulk_upload_n_subbits(u),
+            symbols, ulk_upload_duration_s(u));
+}
+
+cJSON *ulk_inspect_json_head(const ulk_upload *u, cJSON **link)
+{
+    cJSON *root = cJSON_CreateObject();
+    cJSON *d = cJSON_AddObjectToObject(root, "dictionary");
+    cJSON_AddStringToObject(d, "name", u->dict_name);
+    cJSON_AddStringToObject(d, "version", u->dict_version);
+    cJSON_AddStringToObject(d, "sha256", u->dict_sha256);
+    cJSON_AddStringToObject(root, "source", u->source);
+    *link = cJSON_AddObjectToObject(root, "link");
+    if (!*link) {
+        cJSON_Delete(root);
+        return NULL;
+    }
+    return root;
+}
+
+void ulk_inspect_json_unit_head(cJSON *w, size_t k, const ulk_upload_cmd *c, double start_s)
+{
+    cJSON_AddNumberToObject(w, "index", (double)(k + 1));
+    cJSON_AddNumberToObject(w, "line", c->line);
+    cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
+    cJSON_AddBoolToObject(w, "critical", c->critical);
+    cJSON_AddNumberToObject(w, "start_s", start_s);
+    cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
+    cJSON_AddItemToObject(w, "wait_s", ulk_inspect_ratio_json(c->wait_before));
+}

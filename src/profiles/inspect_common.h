@@ -3,6 +3,7 @@
 #define ULK_INSPECT_COMMON_H
 
 #include <stddef.h>
+#include <stdio.h>
 #include <stdint.h>
 
 #include <cjson/cJSON.h>
@@ -16,5 +17,20 @@ const char *ulk_inspect_argval(const ulk_upload_arg *a, char *buf, size_t len);
 void ulk_inspect_hex_field(uint64_t v, int bits, char *buf, size_t len);
 /* An exact rate as its decimal text; NULL when out of memory. */
 cJSON *ulk_inspect_ratio_json(ulk_ratio r);
+
+/* The text's first two lines: the upload file (path as shown) and the dictionary it came from. */
+void ulk_inspect_text_head(FILE *out, const char *path, const ulk_upload *u);
+/* The text's closing lines: the filler after the last unit ("postamble  3 idle patterns",
+ * "idle       128 bits after the last CLTU", with the final wait if any) and the totals
+ * ("totals     5 words, 4096 sub-bits, 2.048000000 s"). label is the first column,
+ * after_what what the filler count counts, units and symbols the plural nouns. */
+void ulk_inspect_text_tail(FILE *out, const ulk_upload *u, const char *label, const char *after_what,
+                           const char *units, const char *symbols);
+/* The JSON document's root with its "dictionary" and "source" members and an empty "link"
+ * object (*link), for the profile to fill; NULL when out of memory. */
+cJSON *ulk_inspect_json_head(const ulk_upload *u, cJSON **link);
+/* The members every unit's JSON object starts with: index (1-based k + 1), line, mnemonic,
+ * critical, start_s (its scheduled start), idles_before, wait_s. */
+void ulk_inspect_json_unit_head(cJSON *w, size_t k, const ulk_upload_cmd *c, double start_s);
 
 #endif

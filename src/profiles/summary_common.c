@@ -38,3 +38,13 @@ cJSON *ulk_summary_json_head(const ulk_dict *d)
     cJSON_AddNumberToObject(s, "commands", d->n_commands);
     return s;
 }
+
+void ulk_summary_text_tail(const ulk_dict *d, FILE *out)
+{
+    fprintf(out, "  critical:      ");
+    int any = 0;
+    for (int i = 0; i < d->n_commands; i++)
+        if (d->commands[i].critical) { fprintf(out, " %s", d->commands[i].mnemonic); any = 1; }
+    fprintf(out, "%s\n", any ? "" : " (none)");
+    fprintf(out, "  sha256:         %s\n", d->sha256);
+}

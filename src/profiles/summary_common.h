@@ -3,6 +3,8 @@
 #ifndef ULK_SUMMARY_COMMON_H
 #define ULK_SUMMARY_COMMON_H
 
+#include <stdio.h>
+
 #include <cjson/cJSON.h>
 
 #include "ulk/dict.h"
@@ -21,5 +23,7 @@ int ulk_summary_n_critical(const ulk_dict *d);
 /* the JSON summary's first members (name, version, profile, systems, commands); NULL when out
  * of memory */
 cJSON *ulk_summary_json_head(const ulk_dict *d);
+/* the text summary's last lines: the critical commands by mnemonic, and the hash */
+void ulk_summary_text_tail(const ulk_dict *d, FILE *out);
 
 #endif

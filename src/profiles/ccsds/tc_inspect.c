@@ -60,8 +60,7 @@ int ulk_tc_inspect_text(FILE *out, const char *path, const ulk_upload *u)
     char rb[64], fs[64];
     ratio_str(l->bit_rate, rb, sizeof rb);
     ratio_str(l->fsc, fs, sizeof fs);
-    fprintf(out, "upload     %s (compiled from %s)\n", path, u->source);
-    fprintf(out, "dictionary %s %s  sha256 %s\n", u->dict_name, u->dict_version, u->dict_sha256);
+    ulk_inspect_text_head(out, path, u);
     fprintf(out, "link       ccsds-tc, %s bit/s (one channel bit per symbol), %s, %s Hz %s subcarrier\n", rb,
            ulk_line_code_name(l->line_code), fs, ulk_waveform_name(l->waveform));
     fprintf(out, "frames     SCID %u, VCID %u, %s, segment header %s, FECF %s, randomizer %s\n", t->frame.spacecraft_id,
@@ -134,25 +133,15 @@ int ulk_tc_inspect_text(FILE *out, const char *path, const ulk_upload *u)
     }
     free(sr);
     free(hx);
-    char wa[64];
-    ratio_str(u->wait_after, wa, sizeof wa);
-    fprintf(out, "\nidle       %llu bits after the last CLTU%s%s%s\n", (unsigned long long)u->idles_after,
-           u->wait_after.num ? " (wait " : "", u->wait_after.num ? wa : "", u->wait_after.num ? " s)" : "");
-    fprintf(out, "totals     %zu CLTUs, %llu channel bits, %.9f s\n", u->n_cmds, (unsigned long long)ulk_upload_n_subbits(u),
-           ulk_upload_duration_s(u));
+    ulk_inspect_text_tail(out, u, "idle", "bits after the last CLTU", "CLTUs", "channel bits");
     return 0;
 }
 
 int ulk_tc_inspect_json(FILE *out, const ulk_upload *u)
 {
     const ulk_link *l = &u->link;
-    cJSON *root = cJSON_CreateObject();
-    cJSON *d = cJSON_AddObjectToObject(root, "dictionary");
-    cJSON_AddStringToObject(d, "name", u->dict_name);
-    cJSON_AddStringToObject(d, "version", u->dict_version);
-    cJSON_AddStringToObject(d, "sha256", u->dict_sha256);
-    cJSON_AddStringToObject(root, "source", u->source);
-    cJSON *lj = cJSON_AddObjectToObject(root, "link");
+    cJSON *lj = NULL, *root = ulk_inspect_json_head(u, &lj);
+    if (!root) return ULK_ENOMEM;
     cJSON_AddStringToObject(lj, "profile", "ccsds-tc");
     cJSON_AddItemToObject(lj, "bit_rate", ulk_inspect_ratio_json(l->bit_rate));
     cJSON *units = cJSON_AddArrayToObject(root, "cltus");
@@ -165,13 +154,7 @@ int ulk_tc_inspect_json(FILE *out, const ulk_upload *u)
         ulk_spp_packet pk;
         cJSON *w = cJSON_CreateObject();
         cJSON_AddItemToArray(units, w);
-        cJSON_AddNumberToObject(w, "index", (double)(i + 1));
-        cJSON_AddNumberToObject(w, "line", c->line);
-        cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
-        cJSON_AddBoolToObject(w, "critical", c->critical);
-        cJSON_AddNumberToObject(w, "start_s", ulk_stream_start_next(u, &cur));
-        cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
-        cJSON_AddItemToObject(w, "wait_s", ulk_inspect_ratio_json(c->wait_before));
+        ulk_inspect_json_unit_head(w, i, c, ulk_stream_start_next(u, &cur));
         cJSON *s = cJSON_AddObjectToObject(w, "system");
         cJSON_AddStringToObject(s, "name", c->system_name);
         cJSON_AddNumberToObject(s, "address", c->system_addr);

@@ -65,12 +65,7 @@ void ulk_tc_summary_text(const ulk_dict *d, FILE *out)
             T->frame.correction == ULK_BCH_TED ? "ted (detection only)" : "sec (single error correction)");
     fprintf(out, "  bit rate:       R = R_s = %s bit/s (%s)\n", f.rb_txt, ulk_line_code_name(L->line_code));
     fprintf(out, "  subcarrier:     k = f_sc / R = %s (%s)\n", f.k_ok ? f.k_txt : "?", ulk_waveform_name(L->waveform));
-    fprintf(out, "  critical:      ");
-    int any = 0;
-    for (int i = 0; i < d->n_commands; i++)
-        if (d->commands[i].critical) { fprintf(out, " %s", d->commands[i].mnemonic); any = 1; }
-    fprintf(out, "%s\n", any ? "" : " (none)");
-    fprintf(out, "  sha256:         %s\n", d->sha256);
+    ulk_summary_text_tail(d, out);
 }
 
 cJSON *ulk_tc_summary_json(const ulk_dict *d)

@@ -38,8 +38,7 @@ int ulk_subbit_inspect_text(FILE *out, const char *path, const ulk_upload *u)
         pi[i] = (char)('0' + l->idle[i]);
     }
     pz[l->n_subbits] = po[l->n_subbits] = pi[l->n_subbits] = 0;
-    fprintf(out, "upload     %s (compiled from %s)\n", path, u->source);
-    fprintf(out, "dictionary %s %s  sha256 %s\n", u->dict_name, u->dict_version, u->dict_sha256);
+    ulk_inspect_text_head(out, path, u);
     fprintf(out, "link       %s bit/s, %d sub-bits per bit (0 -> %s, 1 -> %s, idle %s), %s\n", rb, l->n_subbits, pz, po,
            pi, ulk_line_code_name(l->line_code));
     fprintf(out, "word       W = %d bits: vehicle %d + system %d + opcode %d + arguments %d + check %d (%s)\n",
@@ -95,12 +94,7 @@ int ulk_subbit_inspect_text(FILE *out, const char *path, const ulk_upload *u)
         fprintf(out, "  sub-bits  %s\n", sub);
     }
     free(sub);
-    char wa[64];
-    ratio_str(u->wait_after, wa, sizeof wa);
-    fprintf(out, "\npostamble  %llu idle patterns%s%s%s\n", (unsigned long long)u->idles_after,
-           u->wait_after.num ? " (wait " : "", u->wait_after.num ? wa : "", u->wait_after.num ? " s)" : "");
-    fprintf(out, "totals     %zu words, %llu sub-bits, %.9f s\n", u->n_cmds, (unsigned long long)ulk_upload_n_subbits(u),
-           ulk_upload_duration_s(u));
+    ulk_inspect_text_tail(out, u, "postamble", "idle patterns", "words", "sub-bits");
     return 0;
 }
 
@@ -108,13 +102,8 @@ int ulk_subbit_inspect_json(FILE *out, const ulk_upload *u)
 {
     const ulk_link *l = &u->link;
     ulk_word_layout y = ulk_word_layout_of(l);
-    cJSON *root = cJSON_CreateObject();
-    cJSON *d = cJSON_AddObjectToObject(root, "dictionary");
-    cJSON_AddStringToObject(d, "name", u->dict_name);
-    cJSON_AddStringToObject(d, "version", u->dict_version);
-    cJSON_AddStringToObject(d, "sha256", u->dict_sha256);
-    cJSON_AddStringToObject(root, "source", u->source);
-    cJSON *lj = cJSON_AddObjectToObject(root, "link");
+    cJSON *lj = NULL, *root = ulk_inspect_json_head(u, &lj);
+    if (!root) return ULK_ENOMEM;
     cJSON_AddItemToObject(lj, "bit_rate", ulk_inspect_ratio_json(l->bit_rate));
     cJSON_AddNumberToObject(lj, "n_subbits", l->n_subbits);
     {
@@ -144,13 +133,7 @@ int ulk_subbit_inspect_json(FILE *out, const ulk_upload *u)
         pattern_of(l, &c->word, sub, 0);
         cJSON *w = cJSON_CreateObject();
         cJSON_AddItemToArray(words, w);
-        cJSON_AddNumberToObject(w, "index", (double)(i + 1));
-        cJSON_AddNumberToObject(w, "line", c->line);
-        cJSON_AddStringToObject(w, "mnemonic", c->mnemonic);
-        cJSON_AddBoolToObject(w, "critical", c->critical);
-        cJSON_AddNumberToObject(w, "start_s", ulk_stream_start_next(u, &cur));
-        cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
-        cJSON_AddItemToObject(w, "wait_s", ulk_inspect_ratio_json(c->wait_before));
+        ulk_inspect_json_unit_head(w, i, c, ulk_stream_start_next(u, &cur));
         cJSON_AddStringToObject(w, "hex", hex);
         cJSON_AddStringToObject(w, "binary", bin);
         cJSON_AddStringToObject(w, "subbits", sub);

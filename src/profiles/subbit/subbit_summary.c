@@ -21,12 +21,7 @@ void ulk_subbit_summary_text(const ulk_dict *d, FILE *out)
     fprintf(out, "  word duration:  %s s = W / R_b (R_b = %s bit/s)\n", f.word_txt, f.rb_txt);
     fprintf(out, "  sub-bit rate:   R_s = %s sub-bit/s (n = %d)\n", f.rs_txt, L->n_subbits);
     fprintf(out, "  subcarrier:     k = f_sc / R_s = %s\n", f.k_ok ? f.k_txt : "?");
-    fprintf(out, "  critical:      ");
-    int any = 0;
-    for (int i = 0; i < d->n_commands; i++)
-        if (d->commands[i].critical) { fprintf(out, " %s", d->commands[i].mnemonic); any = 1; }
-    fprintf(out, "%s\n", any ? "" : " (none)");
-    fprintf(out, "  sha256:         %s\n", d->sha256);
+    ulk_summary_text_tail(d, out);
 }
 
 cJSON *ulk_subbit_summary_json(const ulk_dict *d)
