@@ -64,3 +64,20 @@ int cli_capture_check(const char *cmd, const cli_capture_opts *o, const char *ca
     const char *what[] = {"capture", "dictionary", "key file", "upload"};
     return cli_refuse_overwrite(cmd, o->r.state_path, ins, what, 4);
 }
+
+int cli_capture_positional(const char *cmd, int argc, char **argv, int first, const char *missing,
+                           void (*usage)(FILE *), const char **capture)
+{
+    *capture = first < argc ? argv[first] : NULL;
+    if (argc - first > 1) {
+        fprintf(stderr, "ulk %s: one capture at a time ('%s' is extra)\n", cmd, argv[first + 1]);
+        return CLI_EXIT_USAGE_IO;
+    }
+    if (!missing && !*capture) missing = "no capture given";
+    if (missing) {
+        fprintf(stderr, "ulk %s: %s\n", cmd, missing);
+        usage(stderr);
+        return CLI_EXIT_USAGE_IO;
+    }
+    return -1;
+}

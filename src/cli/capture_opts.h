@@ -4,6 +4,8 @@
 #ifndef ULK_CLI_CAPTURE_OPTS_H
 #define ULK_CLI_CAPTURE_OPTS_H
 
+#include <stdio.h>
+
 #include "cli.h"
 #include "ulk/rx.h"
 
@@ -39,6 +41,13 @@ int cli_capture_option(const char *cmd, int val, const char *arg, cli_capture_op
 /* The checks after parsing: --format goes with --rate, --state with --keys, and the receive
  * state (read and written) names none of the inputs: the capture, the dictionary, the key
  * file, the upload (NULL ones are skipped). Returns 0 or the exit code (message printed). */
+/* The positional part of the command line of a command over one capture (decode, verify):
+ * exactly one capture, after the options. missing is the message for the first required option
+ * not given ("--dict DICT is required"), NULL when all were. Returns -1 to go on with *capture
+ * set, else the exit code after a message naming cmd (with the usage on stderr when something
+ * is missing). */
+int cli_capture_positional(const char *cmd, int argc, char **argv, int first, const char *missing,
+                           void (*usage)(FILE *), const char **capture);
 int cli_capture_check(const char *cmd, const cli_capture_opts *o, const char *capture, const char *dict,
                       const char *upload);
 

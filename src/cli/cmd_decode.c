@@ -437,16 +437,9 @@ static int parse_args(int argc, char **argv, dec_args *a)
     cli_capture_init(&a->o);
     int first, pr = cli_parse(&command, argc, argv, on_opt, a, &first);
     if (pr >= 0) return pr;
-    a->capture = first < argc ? argv[first] : NULL;
-    if (argc - first > 1) {
-        fprintf(stderr, "ulk decode: one capture at a time ('%s' is extra)\n", argv[first + 1]);
-        return CLI_EXIT_USAGE_IO;
-    }
-    if (!a->dict_path || !a->capture) {
-        fprintf(stderr, "ulk decode: %s\n", !a->dict_path ? "--dict DICT is required" : "no capture given");
-        usage(stderr);
-        return CLI_EXIT_USAGE_IO;
-    }
+    pr = cli_capture_positional("decode", argc, argv, first, !a->dict_path ? "--dict DICT is required" : NULL, usage,
+                                &a->capture);
+    if (pr >= 0) return pr;
     if ((pr = cli_capture_check("decode", &a->o, a->capture, a->dict_path, NULL))) return pr;
     if (!(a->capture = cli_input("decode", a->capture))) return CLI_EXIT_USAGE_IO; /* "-": a copy of stdin */
     const char *ins[] = {a->capture, a->dict_path}, *what[] = {"capture", "dictionary"};

@@ -325,18 +325,12 @@ static int parse_args(int argc, char **argv, ver_args *a)
     cli_capture_init(&a->o);
     int first, pr = cli_parse(&command, argc, argv, on_opt, a, &first);
     if (pr >= 0) return pr;
-    a->capture = first < argc ? argv[first] : NULL;
-    if (argc - first > 1) {
-        fprintf(stderr, "ulk verify: one capture at a time ('%s' is extra)\n", argv[first + 1]);
-        return CLI_EXIT_USAGE_IO;
-    }
-    if (!a->dict_path || !a->upload_path || !a->capture) {
-        fprintf(stderr, "ulk verify: %s\n", !a->dict_path     ? "--dict DICT is required"
-                                            : !a->upload_path ? "--upload UPLOAD is required"
-                                                              : "no capture given");
-        usage(stderr);
-        return CLI_EXIT_USAGE_IO;
-    }
+    pr = cli_capture_positional("verify", argc, argv, first,
+                                !a->dict_path     ? "--dict DICT is required"
+                                : !a->upload_path ? "--upload UPLOAD is required"
+                                                  : NULL,
+                                usage, &a->capture);
+    if (pr >= 0) return pr;
     if ((pr = cli_capture_check("verify", &a->o, a->capture, a->dict_path, a->upload_path))) return pr;
     if (cli_is_std(a->upload_path) && cli_is_std(a->capture)) {
         fprintf(stderr, "ulk verify: standard input ('-') can be only one of the inputs\n");
