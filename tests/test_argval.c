@@ -389,7 +389,8 @@ static void test_polynomial_exact_tie(void **st)
 
 /* ulk_fmt_double at the extremes that once went through an undefined conversion to long long
  * (UBSan's float-cast-overflow check runs this in CI). Expected texts: Python's repr() of the
- * same doubles, which is also the shortest round-trip form. */
+ * same doubles, which is also the shortest round-trip form; whole numbers below 2^53 as
+ * Python's json module writes an int (the canonical form uses the same formatter). */
 static void test_fmt_double_extremes(void **st)
 {
     (void)st;
@@ -402,7 +403,10 @@ static void test_fmt_double_extremes(void **st)
         {1e300, "1e+300"},
         {-1e300, "-1e+300"},
         {1.7976931348623157e308, "1.7976931348623157e+308"},
-        {1e15, "1e+15"},
+        {1e15, "1000000000000000"},                        /* whole below 2^53: digits, as json writes an int */
+        {9007199254740991.0, "9007199254740991"},           /* 2^53 - 1 */
+        {9007199254740992.0, "9007199254740992"},           /* 2^53: shortest %g, 16 digits */
+        {1e16, "1e+16"},
         {999999999999999.0, "999999999999999"},
         {-999999999999999.0, "-999999999999999"},
         {-10.0, "-10"},

@@ -296,10 +296,12 @@ int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, s
 
 void ulk_fmt_double(double v, char *buf, size_t len)
 {
-    /* Whole numbers of ordinary size print as integers (-10, not -1e+01). The range is checked
-     * before the conversion to long long: beyond its range (a uint64 of 2^63 or more, a float32
-     * near 3.4e38, a calibrated 1e300) the conversion is undefined behaviour. */
-    if (v > -1e15 && v < 1e15 && v == floor(v) && !(v == 0 && signbit(v))) {
+    /* Whole numbers below 2^53, where every integer is a double, print in plain digits (-10,
+     * not -1e+01; 1000000000000000, not 1e+15), as Python's json module writes an int. The
+     * range is checked before the conversion: beyond long long's range (a uint64 of 2^63 or
+     * more, a float32 near 3.4e38, a calibrated 1e300) it is undefined behaviour. -0 keeps its
+     * sign ("-0"); a caller that wants 0 passes 0. */
+    if (v > -9007199254740992.0 && v < 9007199254740992.0 && v == floor(v) && !(v == 0 && signbit(v))) {
         snprintf(buf, len, "%lld", (long long)v);
         return;
     }

@@ -58,7 +58,8 @@ void ulk_tmp_cleanup_on_signals(void);
 /* Reads a whole file (limit max_bytes) into a NUL-terminated buffer. ULK_EIO / ULK_ELIMIT. */
 int ulk_read_file(const char *path, size_t max_bytes, char **out, size_t *len, struct ulk_diag *diag);
 
-/* Formats a double in the shortest form that reads back to the same value ("%.17g" fallback). */
+/* The one number formatter of messages, JSON and the canonical form: a whole number below 2^53
+ * in plain digits, else the shortest "%.*g" that reads back to the same double. */
 void ulk_fmt_double(double v, char *buf, size_t len);
 
 #endif

@@ -102,22 +102,11 @@ ulk_carrier *ulk_dict_take_carrier(ulk_dict *d)
     return c;
 }
 
-/* A number as messages and the canonical form write it: a whole number below 2^53 in plain
- * digits ("-10", not "-1e+01"), else the shortest "%.*g" that reads back to the same
- * double. -0 is written as 0. This is also how Python's json module writes the same value
- * (int, or repr of a float), which the canonical-form test relies on. */
-static void fmt_num(double v, char *buf, size_t len)
-{
-    if (v == 0.0) v = 0.0;
-    if (v == floor(v) && fabs(v) < 9007199254740992.0) {
-        snprintf(buf, len, "%.0f", v);
-        return;
-    }
-    for (int p = 1; p <= 17; p++) {
-        snprintf(buf, len, "%.*g", p, v);
-        if (strtod(buf, NULL) == v) return;
-    }
-}
+/* A number as messages and the canonical form write it: the library's one formatter
+ * (ulk_fmt_double: whole numbers below 2^53 in plain digits, else the shortest round trip),
+ * with -0 written as 0. This is also how Python's json module writes the same value (int, or
+ * repr of a float), which the canonical-form test relies on. */
+static void fmt_num(double v, char *buf, size_t len) { ulk_fmt_double(v == 0.0 ? 0.0 : v, buf, len); }
 
 /* ---------------------------------------------------------------- build context */
 
