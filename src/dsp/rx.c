@@ -417,16 +417,17 @@ static int rx_setup_demod(ulk_rx *rx)
     dopt.on_word = on_word;
     dopt.on_soft = rx->o.on_soft ? on_soft : NULL;
     dopt.user = rx;
-    ulk_link front = rx->dict->link;
     if (rx->dict->link.profile == ULK_PROFILE_CCSDS_TC) {
         /* The shared front end gives soft symbols; the CLTU decoder does the rest. */
-        ulk_tc_front_end_link(&rx->dict->link, &front);
+        ulk_demod_symbols sym;
+        ulk_tc_symbols(&rx->dict->link, &sym);
         dopt.on_word = NULL;
         dopt.on_soft = on_tc_soft;
         int rc = ulk_tc_decoder_create(rx->dict, on_tc_unit, rx, &rx->tc, rx->diag);
         if (rc < 0) return rc;
+        return ulk_demod_create_symbols(&sym, rx->o.fs_hz, &dopt, &rx->demod, rx->diag);
     }
-    return ulk_demod_create(&front, rx->o.fs_hz, &dopt, &rx->demod, rx->diag);
+    return ulk_demod_create(&rx->dict->link, rx->o.fs_hz, &dopt, &rx->demod, rx->diag);
 }
 
 /* Keys, receive state and verifier of a secured ccsds-tc link (docs/sdls.md); the CLTU decoder
