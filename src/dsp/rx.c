@@ -9,8 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "ulk/limits.h"
 #include "rx_sink.h"
+#include "ulk/limits.h"
 #include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "ulk/sampleio.h"
