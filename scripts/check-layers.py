@@ -36,8 +36,6 @@ KNOWN = {
     ("src/dict/dict.c", "ulk/sdls.h"): "the link.tc.security map is parsed in dict.c",
     ("src/io/upload.c", "ulk/ccsds.h"): "the upload file's ccsds-tc records are written and read in upload.c",
     ("src/io/upload.c", "ulk/sdls.h"): "the upload file's security association is read in upload.c",
-    ("src/dsp/rx.c", "ulk/tc_decode.h"): "the receiver chooses the CLTU decoder by name",
-    ("include/ulk/rx.h", "ulk/sdls.h"): "receiver events carry the security verdict type",
 }
 
 INCLUDE = re.compile(r'^[ \t]*#[ \t]*include[ \t]+"([^"]+)"', re.M)

@@ -351,6 +351,136 @@ static void words_by_callback(void **state)
     free(sb);
 }
 
+/* ---------------------------------------------------------------- symbol front end */
+
+typedef struct {
+    double *t;
+    float *v;
+    size_t n, cap;
+    int words;
+} soft_rec;
+
+static void rec_soft(double t, float v, void *user)
+{
+    soft_rec *r = user;
+    if (r->n == r->cap) {
+        r->cap = r->cap ? 2 * r->cap : 4096;
+        r->t = realloc(r->t, r->cap * sizeof *r->t);
+        r->v = realloc(r->v, r->cap * sizeof *r->v);
+        assert_non_null(r->t);
+        assert_non_null(r->v);
+    }
+    r->t[r->n] = t;
+    r->v[r->n] = v;
+    r->n++;
+}
+
+static void rec_word(const ulk_demod_word *w, void *user)
+{
+    (void)w;
+    ((soft_rec *)user)->words++;
+}
+
+/* ulk_demod_create_symbols is the front end the CCSDS receiver ran before it had one: the
+ * sub-bit demodulator on a one-symbol link (Z "0", O "1", idle "0", one-bit words, no gap or
+ * preamble). Same capture, same soft symbols bit for bit, same estimates; and no words. A
+ * noisy start, a clock error near the search edge and both line codes and waveforms. */
+static void symbols_match_the_one_bit_link(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *rate, *fsc;
+        ulk_waveform wf;
+        ulk_line_code lc;
+        double fs, ppm, ebn0;
+    } cases[] = {
+        {"2000", "8000", ULK_WAVE_SINE, ULK_LINE_NRZL, 48000, 900, 9},
+        {"1000", "8000", ULK_WAVE_SQUARE, ULK_LINE_NRZM, 96000, -1100, 11},
+    };
+    for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+        ulk_link l;
+        sim_link(&l, cases[c].rate, "0", "1", "0", cases[c].fsc, cases[c].wf, cases[c].lc, 0, ULK_CHECK_NONE);
+        l.preamble = l.gap = l.postamble = 0;
+        l.vehicle_bits = l.system_bits = 0;
+        l.vehicle_value = 0;
+        l.opcode_bits = 1;
+        l.word_bits = 1;
+        sim_rng r;
+        sim_seed(&r, 40 + c);
+        size_t L = 3000;
+        uint8_t *sb = malloc(L);
+        assert_non_null(sb);
+        for (size_t i = 0; i < L; i++) sb[i] = i < 200 ? (uint8_t)(i & 1) : (uint8_t)(sim_next(&r) >> 63);
+        sim_cfg cfg = {.fs_hz = cases[c].fs, .ppm = cases[c].ppm, .delay_s = 0.07, .tail_s = 0.05,
+                       .ebn0_db = cases[c].ebn0, .seed = 90 + c};
+        size_t ns;
+        float *x = sim_capture(&l, sb, L, &cfg, &ns);
+        ulk_demod_symbols sym = {.symbol_rate = l.bit_rate, .fsc = l.fsc, .waveform = l.waveform,
+                                 .line_code = l.line_code, .amplitude = l.amplitude};
+        soft_rec a = {0}, b = {0};
+        ulk_demod_options oa = {rec_word, rec_soft, &a, 0, 0}, ob = {rec_word, rec_soft, &b, 0, 0};
+        ulk_demod *da = NULL, *db = NULL;
+        assert_int_equal(ulk_demod_create(&l, cases[c].fs, &oa, &da, NULL), 0);
+        assert_int_equal(ulk_demod_create_symbols(&sym, cases[c].fs, &ob, &db, NULL), 0);
+        for (size_t o = 0; o < ns; o += 4000) {
+            size_t m = ns - o < 4000 ? ns - o : 4000;
+            assert_int_equal(ulk_demod_push(da, x + o, m), 0);
+            assert_int_equal(ulk_demod_push(db, x + o, m), 0);
+        }
+        assert_int_equal(ulk_demod_finish(da), 0);
+        assert_int_equal(ulk_demod_finish(db), 0);
+        assert_true(a.n > L / 2); /* most symbols were found */
+        assert_int_equal(b.n, a.n);
+        assert_memory_equal(b.t, a.t, a.n * sizeof *a.t);
+        assert_memory_equal(b.v, a.v, a.n * sizeof *a.v);
+        ulk_demod_estimates ea, eb;
+        ulk_demod_get_estimates(da, &ea);
+        ulk_demod_get_estimates(db, &eb);
+        assert_true(ea.signal_found && eb.signal_found);
+        assert_memory_equal(&eb.ebn0_db, &ea.ebn0_db, sizeof ea.ebn0_db);
+        assert_memory_equal(&eb.rate_error_ppm, &ea.rate_error_ppm, sizeof ea.rate_error_ppm);
+        assert_memory_equal(&eb.amplitude, &ea.amplitude, sizeof ea.amplitude);
+        assert_int_equal(eb.n_subbits, ea.n_subbits);
+        assert_int_equal(eb.n_truncated, ea.n_truncated);
+        assert_int_equal(eb.n_ambiguous, ea.n_ambiguous);
+        assert_int_equal(eb.at_search_limit, ea.at_search_limit);
+        assert_true(a.words > 0); /* the one-bit link's word stage found "words" */
+        assert_int_equal(b.words, 0); /* the symbol front end hands none on */
+        assert_int_equal(ulk_demod_n_words(db), 0);
+        ulk_demod_destroy(da);
+        ulk_demod_destroy(db);
+        free(a.t), free(a.v), free(b.t), free(b.v);
+        free(x);
+        free(sb);
+    }
+}
+
+/* A link without words is refused by ulk_demod_create, which names the symbol front end; the
+ * symbol front end checks the rates as ulk_demod_create does. */
+static void symbols_refusals(void **state)
+{
+    (void)state;
+    ulk_diag *dg = ulk_diag_create();
+    ulk_demod *d = (ulk_demod *)1;
+    ulk_link l;
+    make_link(LK_DEMO, &l);
+    l.word_bits = 0;
+    assert_int_equal(ulk_demod_create(&l, 48000, NULL, &d, dg), ULK_EINVAL);
+    assert_null(d);
+    assert_non_null(strstr(ulk_diag_first_error(dg)->msg, "ulk_demod_create_symbols"));
+    ulk_demod_symbols sym = {.symbol_rate = ulk_ratio_make(2000, 1), .fsc = ulk_ratio_make(8000, 1)};
+    d = (ulk_demod *)1;
+    assert_int_equal(ulk_demod_create_symbols(NULL, 48000, NULL, &d, dg), ULK_EINVAL);
+    assert_null(d);
+    /* 2 (f_sc + R_s) = 20000 Hz */
+    assert_int_equal(ulk_demod_create_symbols(&sym, 19990, NULL, &d, dg), ULK_EINVAL);
+    assert_int_equal(ulk_demod_create_symbols(&sym, 20000, NULL, &d, dg), 0);
+    ulk_demod_destroy(d);
+    sym.fsc = ulk_ratio_make(8100, 1); /* not a whole multiple of R_s */
+    assert_int_equal(ulk_demod_create_symbols(&sym, 48000, NULL, &d, dg), ULK_EINVAL);
+    ulk_diag_destroy(dg);
+}
+
 /* ---------------------------------------------------------------- channel simulator */
 
 typedef struct {
@@ -484,6 +614,8 @@ int main(void)
         cmocka_unit_test(create_refuses_bad_setup),
         cmocka_unit_test(create_survives_allocation_failure),
         cmocka_unit_test(words_by_callback),
+        cmocka_unit_test(symbols_match_the_one_bit_link),
+        cmocka_unit_test(symbols_refusals),
         cmocka_unit_test(impair_resamples_a_tone),
         cmocka_unit_test(impair_noise_level_and_seed),
         cmocka_unit_test(impair_then_decode),

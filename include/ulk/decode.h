@@ -40,6 +40,19 @@ typedef enum {
     ULK_REJ_ALIGNMENT   /* the demodulator could not decide the word's sub-bit alignment */
 } ulk_reject_kind;
 
+/* The security check's verdict on a received secured frame (Space Data Link Security,
+ * ulk/sdls.h, docs/sdls.md): here, in the receive layer, because receiver events
+ * (ulk/rx.h) carry it; the check itself belongs to the profile that has it. */
+typedef enum {
+    ULK_SDLS_ACCEPTED = 0,    /* the MAC verifies and the counter is new and inside the window */
+    ULK_SDLS_UNCHECKED,       /* no keys given: secured, not authenticated */
+    ULK_SDLS_AUTH_FAILED,     /* the MAC does not verify (another key, a changed frame) */
+    ULK_SDLS_UNKNOWN_SPI,     /* not the link's SPI */
+    ULK_SDLS_REPLAYED,        /* authentic, but its counter is not above the last accepted */
+    ULK_SDLS_OUTSIDE_WINDOW,  /* authentic, but more than `window` above the last accepted */
+    ULK_SDLS_MALFORMED        /* too short for its security header and trailer */
+} ulk_sdls_verdict;
+
 #define ULK_DECODE_MAX_ARGS 64 /* D <= 64 bits, every argument at least one bit */
 
 typedef struct {

@@ -1,4 +1,5 @@
-/* ulk/demod.h - blind demodulator for the sub-bit profile (the profile's sections 3-5).
+/* ulk/demod.h - blind demodulator for the sub-bit profile (the profile's sections 3-5), and
+ * the same front end delivering soft channel symbols only (ulk_demod_create_symbols).
  *
  * Why blind: a captured uplink starts anywhere in the file, its sample clock and subcarrier
  * are off by up to +-1000 ppm (one clock drives both, since f_sc = k R_s), its level, DC
@@ -110,13 +111,39 @@ typedef struct {
 
 typedef struct ulk_demod ulk_demod;
 
-/* Creates a demodulator for link cfg at sample rate fs_hz. opt may be NULL (defaults).
- * Returns 0 with *out set; ULK_EINVAL (message in diag) when the link is not a sub-bit
- * profile or fs_hz < 2 (f_sc + R_s) (the data signal's main lobe must lie below Nyquist);
- * ULK_ENOMEM. The caller frees with
- * ulk_demod_destroy(). cfg is copied. */
+/* Creates a demodulator with its word stage for link cfg (n sub-bits per bit, the Z, O and
+ * I patterns, W-bit words, the framing's gap) at sample rate fs_hz. opt may be NULL
+ * (defaults). Returns 0 with *out set; ULK_EINVAL (message in diag) when the link has no
+ * words (W = 0: a link whose units are decoded elsewhere goes through
+ * ulk_demod_create_symbols), n or W out of range, or fs_hz < 2 (f_sc + R_s) (the data
+ * signal's main lobe must lie below Nyquist); ULK_ELIMIT (a sample rate beyond the limit);
+ * ULK_ENOMEM. The caller frees with ulk_demod_destroy(). cfg is copied. */
 int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
                      ulk_demod **out, ulk_diag *diag);
+
+/* The channel symbols of a link whose units another stage decodes from the soft symbols
+ * (one symbol per channel bit, as the CCSDS telecommand profile sends them): what the front
+ * end needs to know of the signal, nothing of words. */
+typedef struct {
+    ulk_ratio symbol_rate;     /* R_s, symbols per second, > 0 */
+    ulk_ratio fsc;             /* f_sc = k R_s with k whole, Hz */
+    ulk_waveform waveform;     /* sine or square subcarrier */
+    ulk_line_code line_code;   /* nrz-l or nrz-m: the soft symbols are the line levels,
+                                  before any nrz-m decoding */
+    int has_pilot;             /* a pilot tone to remove (f_p, A_p) */
+    ulk_ratio fp;
+    double pilot_amplitude;
+    double amplitude;          /* A, as transmitted (the blind front end measures its own) */
+} ulk_demod_symbols;
+
+/* Creates a demodulator without a word stage: the blind search, clock-error search and
+ * acquisition of ulk_demod_create, delivering every soft symbol through opt->on_soft (which
+ * should then be set) and no words (ulk_demod_n_words stays 0; opt->on_word is not called).
+ * The estimates are those of ulk_demod_create; n_subbits counts symbols. Returns 0 with
+ * *out set; ULK_EINVAL (rates, subcarrier, sample rate, as ulk_demod_create), ULK_ELIMIT,
+ * ULK_ENOMEM; message in diag. */
+int ulk_demod_create_symbols(const ulk_demod_symbols *sym, double fs_hz, const ulk_demod_options *opt,
+                             ulk_demod **out, ulk_diag *diag);
 /* Sets the false-alarm probability per block of the acquisition test (default 1e-6; p in
  * (0, 1)). Raising it finds weak signals a block sooner and locks on noise more often; such a
  * false lock is refused by a level test on the soft values. Returns 0, or ULK_EINVAL for a p

@@ -18,7 +18,8 @@
  * A profile never sees samples and never formats arguments: packed argument bits go in.
  * Besides encoding, the table holds what else differs between profiles: its words in
  * messages, its rates, its security association, its lines in the reports of compile,
- * inspect, validate and verify, and the upload reader's check of a unit (the rest is listed
+ * inspect, validate and verify, the upload reader's check of a unit, and its receiver (the
+ * unit decoder from samples to words or frames; the rest is listed
  * in DEVELOPERS.md, "How to add a link profile"). Each profile's table lives in its folder
  * under src/profiles/ and is registered in src/profiles/profile.c.
  *
@@ -58,6 +59,8 @@ typedef struct {
 
 /* The upload writer's text buffer: opaque here, see ulk_profile_ops.upload_write_link. */
 struct ulk_jbuf;
+/* What the receiver gives a profile's unit decoder: opaque here, see ulk_profile_ops.rx_create. */
+struct ulk_rx_sink;
 
 /* Which filler run a gap is. */
 typedef enum { ULK_GAP_FIRST = 0, ULK_GAP_BETWEEN = 1, ULK_GAP_LAST = 2 } ulk_gap;
@@ -142,6 +145,27 @@ typedef struct ulk_profile_ops {
     /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
      * unit itself (a sub-bit word is read field by field). */
     int (*check_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, char *err, size_t errlen);
+    /* ---- receiver ---- */
+    /* The unit decoder of the receiver (ulk/rx.h, src/dsp/rx.c): samples of the data channel
+     * in, words or frames out. It owns its blind front end (ulk/demod.h: the sub-bit
+     * demodulator with its word stage, or the symbol front end) and reports through sink
+     * (src/dsp/rx_sink.h, internal: the receiver's options, its estimates, and the callbacks
+     * that queue events). rx_create: for dictionary d at fs_hz; a secured link's keys and
+     * receive state are set up here (a receive state created is a notice). Returns 0 with
+     * *state, or a negative status with the reason in diag (ULK_EINVAL, ULK_ELIMIT: the
+     * sample rate; ULK_EIO, ULK_EPARSE: key or state file; ULK_ENOMEM); state and diag
+     * are kept until rx_destroy. */
+    int (*rx_create)(const ulk_dict *d, double fs_hz, const struct ulk_rx_sink *sink, void **state, ulk_diag *diag);
+    /* n samples (full scale 1.0). Returns 0 or the front end's sticky negative status. */
+    int (*rx_push)(void *state, const float *x, size_t n);
+    /* End of the samples: the last units reported, sink->est->demod filled. Returns 0 or a
+     * negative status. */
+    int (*rx_finish)(void *state);
+    /* The whole capture was decoded: what the profile keeps across captures is saved (the
+     * receive-side anti-replay window), sink->est->state_saved set. Returns 0 or a negative
+     * status (reason in diag). NULL for a profile that keeps nothing. */
+    int (*rx_commit)(void *state);
+    void (*rx_destroy)(void *state); /* NULL does nothing */
 } ulk_profile_ops;
 
 /* The table of a profile; NULL for an unknown id. */

@@ -46,7 +46,6 @@
 #include "ulk/dict.h"
 #include "ulk/error.h"
 #include "ulk/sampleio.h"
-#include "ulk/sdls.h"
 #include "ulk/spectrum.h"
 
 #ifdef __cplusplus

@@ -39,6 +39,7 @@
 #include <stdint.h>
 
 #include "ulk/ccsds.h"
+#include "ulk/decode.h"
 #include "ulk/error.h"
 
 #ifdef __cplusplus
@@ -113,15 +114,8 @@ void ulk_sdls_keys_destroy(ulk_sdls_keys *k);
 int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sdls_keys *keys, uint64_t counter,
                      uint8_t *frame, size_t n_frame, char *err, size_t errlen);
 
-typedef enum {
-    ULK_SDLS_ACCEPTED = 0,    /* the MAC verifies and the counter is new and inside the window */
-    ULK_SDLS_UNCHECKED,       /* no keys given: secured, not authenticated */
-    ULK_SDLS_AUTH_FAILED,     /* the MAC does not verify (another key, a changed frame) */
-    ULK_SDLS_UNKNOWN_SPI,     /* not the link's SPI */
-    ULK_SDLS_REPLAYED,        /* authentic, but its counter is not above the last accepted */
-    ULK_SDLS_OUTSIDE_WINDOW,  /* authentic, but more than `window` above the last accepted */
-    ULK_SDLS_MALFORMED        /* too short for its security header and trailer */
-} ulk_sdls_verdict;
+/* ulk_sdls_verdict, the verdict on a received secured frame, is declared in ulk/decode.h
+ * beside the other reasons a received unit is refused (receiver events carry it). */
 const char *ulk_sdls_verdict_str(ulk_sdls_verdict v); /* "accepted", "authentication failed", ... */
 
 typedef struct {

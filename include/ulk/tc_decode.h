@@ -108,15 +108,15 @@ size_t ulk_tc_decoder_n_accepted(const ulk_tc_decoder *t);
 size_t ulk_tc_decoder_n_ignored(const ulk_tc_decoder *t);
 void ulk_tc_decoder_destroy(ulk_tc_decoder *t); /* NULL does nothing */
 
-/* The blind front end (ulk/demod.h, run on the link as n = 1 symbols) and the decoder over
- * a whole capture given in memory. est (may be NULL) receives the front end's estimates.
+/* The blind front end (ulk/demod.h, ulk_demod_create_symbols on ulk_tc_symbols) and the
+ * decoder over a whole capture given in memory. est (may be NULL) receives the front end's estimates.
  * Returns 0, or the first failure's status (message in diag). */
 int ulk_tc_decode_samples(const ulk_dict *d, const float *x, size_t n, double fs_hz, ulk_tc_unit_fn on_unit,
                           void *user, ulk_demod_estimates *est, ulk_diag *diag);
 
-/* The sub-bit link that drives the shared front end for a ccsds-tc link: n = 1, Z = "0",
- * O = "1", the same rate, line code and subcarrier. (Its word stage is not used.) */
-void ulk_tc_front_end_link(const ulk_link *tc_link, ulk_link *out);
+/* The channel symbols of a ccsds-tc link for the shared front end (ulk_demod_create_symbols):
+ * one symbol per channel bit (R_s = R), its line code and subcarrier, no pilot. */
+void ulk_tc_symbols(const ulk_link *tc_link, ulk_demod_symbols *out);
 
 #ifdef __cplusplus
 }

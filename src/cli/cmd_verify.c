@@ -12,6 +12,7 @@
 
 #include "capture_opts.h"
 #include "cli.h"
+#include "ulk/ccsds.h" /* ULK_TCF_MAX_OCTETS: the longest unit identity in hex */
 #include "ulk/decode.h"
 #include "ulk/dict.h"
 #include "ulk/rx.h"

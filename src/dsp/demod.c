@@ -1,4 +1,5 @@
-/* src/demod.c - blind demodulator of the sub-bit profile: samples in, words out.
+/* src/demod.c - blind demodulator of the sub-bit profile: samples in, words out; or soft
+ * channel symbols out (ulk_demod_create_symbols).
  *
  * The stages (see include/ulk/demod.h and docs/decode.md):
  *   front end   DC blocker, samples kept in a ring of about 3 blocks;
@@ -53,6 +54,7 @@ struct ulk_demod {
     float tabcs[2 * TAB_N];   /* cos and sin of 2 pi i / TAB_N, side by side */
     int status;
     int finished;
+    int words_out;            /* 0: no word stage output (ulk_demod_create_symbols) */
 
     /* front end */
     double dc, dc_alpha;
@@ -203,6 +205,7 @@ static void set_status(ulk_demod *d, int st)
 
 static void emit_word(ulk_demod *d, const ulk_demod_word *w)
 {
+    if (!d->words_out) return; /* a symbol front end: its word stage only measures */
     if (d->opt.on_word) {
         d->opt.on_word(w, d->opt.user);
         return;
@@ -1449,18 +1452,11 @@ static int demod_alloc(ulk_demod *d)
     return 0;
 }
 
-int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
-                     ulk_demod **out, ulk_diag *diag)
+/* What ulk_demod_create and ulk_demod_create_symbols share: everything but the checks of
+ * the word fields. words: 1 when the word stage hands its words on. */
+static int demod_new(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt, int words, ulk_demod **out,
+                     ulk_diag *diag)
 {
-    if (!out) return ULK_EINVAL;
-    *out = NULL;
-    if (!cfg) return ulk_fail(diag, ULK_EINVAL, "demodulator: no link profile given");
-    if (cfg->profile != ULK_PROFILE_SUBBIT)
-        return ulk_fail(diag, ULK_EINVAL, "demodulator: the link is not a sub-bit profile");
-    if (cfg->n_subbits < 1 || cfg->n_subbits > ULK_MAX_SUBBITS || cfg->word_bits < 1 ||
-        cfg->word_bits > ULK_MAX_WORD_BITS)
-        return ulk_fail(diag, ULK_EINVAL, "demodulator: link has %d sub-bits per bit and %d-bit words (expected 1..16 and 1..128)",
-                        cfg->n_subbits, cfg->word_bits);
     double rb = ulk_ratio_to_double(cfg->bit_rate);
     double rs = rb * cfg->n_subbits;
     double fsc = ulk_ratio_to_double(cfg->fsc);
@@ -1487,6 +1483,7 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     ulk_demod *d = ulk_calloc(1, sizeof *d);
     if (!d) return ulk_fail(diag, ULK_ENOMEM, "demodulator: out of memory");
     d->l = *cfg;
+    d->words_out = words;
     d->fs_hz = fs_hz;
     d->rs_hz = rs;
     d->fsc_hz = fsc;
@@ -1562,6 +1559,52 @@ int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options 
     }
     *out = d;
     return 0;
+}
+
+int ulk_demod_create(const ulk_link *cfg, double fs_hz, const ulk_demod_options *opt,
+                     ulk_demod **out, ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!cfg) return ulk_fail(diag, ULK_EINVAL, "demodulator: no link profile given");
+    if (cfg->word_bits == 0)
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: the link has no words (its units are decoded from the soft "
+                                          "symbols: ulk_demod_create_symbols)");
+    if (cfg->n_subbits < 1 || cfg->n_subbits > ULK_MAX_SUBBITS || cfg->word_bits < 1 ||
+        cfg->word_bits > ULK_MAX_WORD_BITS)
+        return ulk_fail(diag, ULK_EINVAL, "demodulator: link has %d sub-bits per bit and %d-bit words (expected 1..16 and 1..128)",
+                        cfg->n_subbits, cfg->word_bits);
+    return demod_new(cfg, fs_hz, opt, 1, out, diag);
+}
+
+/* The symbol front end is the block stage of ulk_demod_create on n = 1. Its estimates keep
+ * what the word stage measured on such a link before there was a symbol path, so decode's
+ * figures stay the same: E_b/N_0 and the amplitude from the symbols of one-bit "words"
+ * (Z "0", O "1", idle "0", no gap, the line code as given), and the truncated and ambiguous
+ * counts of those words. These are decisions of the word stage on values that are not the
+ * link's; the words themselves are dropped. A symbol-level estimator would change the
+ * golden decode outputs, so it is a change of its own. */
+int ulk_demod_create_symbols(const ulk_demod_symbols *sym, double fs_hz, const ulk_demod_options *opt,
+                             ulk_demod **out, ulk_diag *diag)
+{
+    if (!out) return ULK_EINVAL;
+    *out = NULL;
+    if (!sym) return ulk_fail(diag, ULK_EINVAL, "demodulator: no symbol description given");
+    ulk_link l;
+    memset(&l, 0, sizeof l);
+    l.bit_rate = sym->symbol_rate;
+    l.n_subbits = 1;
+    l.one[0] = 1;
+    l.line_code = sym->line_code;
+    l.fsc = sym->fsc;
+    l.waveform = sym->waveform;
+    l.amplitude = sym->amplitude;
+    l.has_pilot = sym->has_pilot;
+    l.fp = sym->fp;
+    l.pilot_amplitude = sym->pilot_amplitude;
+    l.opcode_bits = 1;
+    l.word_bits = 1;
+    return demod_new(&l, fs_hz, opt, 0, out, diag);
 }
 
 static void close_u_window(ulk_demod *d)

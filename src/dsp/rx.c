@@ -1,6 +1,7 @@
-/* src/rx.c - the receiver (include/ulk/rx.h): carrier recovery for I/Q, the blind
- * demodulator, and the word interpretation or CLTU decoder, as one streaming object whose
- * results are queued as events and released as they are pulled. */
+/* src/rx.c - the receiver (include/ulk/rx.h): carrier recovery for I/Q, then the link
+ * profile's unit decoder (ulk_profile_ops, "receiver": blind front end and words or frames),
+ * as one streaming object whose results are queued as events and released as they are
+ * pulled. The profile reports through the sink of rx_sink.h. */
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdarg.h>
@@ -8,11 +9,11 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "rx_sink.h"
 #include "ulk/limits.h"
 #include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "ulk/sampleio.h"
-#include "ulk/tc_decode.h"
 #include "util.h"
 
 #ifndef M_PI
@@ -21,7 +22,6 @@
 
 #define CHUNK 65536    /* real samples read per block by ulk_rx_run_file */
 #define CX_CHUNK 32768 /* complex samples per block after acquisition */
-#define SOFT_BATCH 1024
 
 /* One queued event with the storage its pointers refer to. */
 typedef struct rx_node {
@@ -39,11 +39,9 @@ struct ulk_rx {
     ulk_diag *diag;
     int err;                  /* sticky failure status */
     int finished;
-    ulk_demod *demod;
-    ulk_tc_decoder *tc;       /* ccsds-tc: the CLTU decoder the soft symbols go to */
-    size_t nb;                /* soft symbols batched for tc */
-    double bt[SOFT_BATCH];
-    float bv[SOFT_BATCH];
+    const ulk_profile_ops *prof; /* the link profile: its unit decoder */
+    void *unit;               /* the unit decoder's state */
+    struct ulk_rx_sink sink;  /* what the unit decoder reports through */
     rx_node *head, *tail, *cur; /* queue; cur = the event last pulled (freed at the next pull) */
     ulk_rx_counts counts;
     ulk_rx_estimates est;
@@ -67,12 +65,6 @@ struct ulk_rx {
     size_t skip;              /* first outputs dropped: the filter's delay, K outputs */
     float *dbuf;              /* decimated samples of one push */
     double fs_in;             /* the capture's rate (o.fs_hz is the decimated one) */
-    /* ccsds-tc with link.tc.security: */
-    ulk_sdls_keys *keys;
-    ulk_sdls_state *state;    /* receive-side window, saved back at finish */
-    ulk_sdls_rx *srx;         /* the verifier the CLTU decoder calls */
-    int lock_fd;              /* the state's lock, held from create to destroy (-1: none) */
-    char *state_path;
 };
 
 /* ---- the event queue ---- */
@@ -129,87 +121,40 @@ static void rx_count(ulk_rx *rx, const ulk_decoded *d, int sec_refused)
     }
 }
 
-/* ---- the demodulator's and the CLTU decoder's callbacks ---- */
+/* ---- the sink: what the profile's unit decoder reports through ---- */
 
-static void on_word(const ulk_demod_word *w, void *user)
+static int sink_unit(void *user, const ulk_rx_event *ev, const ulk_decoded *dec, const char *hex, int sec_refused)
 {
     ulk_rx *rx = user;
-    if (rx->err) return;
-    rx_node *n = rx_node_new(rx, ULK_RX_WORD);
-    if (!n) return;
-    n->ev.dw = *w;
-    ulk_decode_demod_word(rx->dict, w, &n->dec); /* ambiguous alignment: rejected */
+    if (rx->err) return rx->err;
+    rx_node *n = rx_node_new(rx, ev->kind);
+    if (!n) return ULK_ENOMEM;
+    n->dec = *dec;
+    n->ev = *ev;
+    n->ev.dec = &n->dec;
     n->ev.hex = n->dec.hex;
-    rx_count(rx, &n->dec, 0);
+    if (hex) {
+        n->owned = ulk_strdup(hex);
+        if (!n->owned) return rx->err = ULK_ENOMEM;
+        n->ev.hex = n->owned;
+    }
+    rx_count(rx, &n->dec, sec_refused);
+    return 0;
 }
 
-static void on_tc_unit(const ulk_tc_unit *t, void *user)
+static int sink_notice(void *user, const char *line)
 {
     ulk_rx *rx = user;
-    if (rx->err) return;
-    rx_node *n = rx_node_new(rx, ULK_RX_CLTU);
-    if (!n) return;
-    n->owned = ulk_strdup(t->data_hex);
-    if (!n->owned) {
-        rx->err = ULK_ENOMEM;
-        return;
-    }
-    ulk_rx_event *e = &n->ev;
-    e->hex = n->owned;
-    e->dw.start_s = t->start_s;
-    e->dw.polarity = t->polarity;
-    e->dw.margin = t->n_codeblocks ? 1.0 - (double)t->n_corrected / t->n_codeblocks : 0;
-    e->seq_count = t->seq_count;
-    e->frame_seq = t->frame_seq;
-    e->n_corrected = t->n_corrected;
-    e->secured = t->secured;
-    e->sec_verdict = t->sec_verdict;
-    e->spi = t->spi;
-    e->iv_counter = t->iv_counter;
-    ulk_decoded *d = &n->dec;
-    d->status = t->status == ULK_TC_ACCEPTED ? ULK_WORD_ACCEPTED : ULK_WORD_REJECTED;
-    d->reject = t->reject;
-    snprintf(d->reason, sizeof d->reason, "%s", t->reason);
-    d->cmd = t->cmd;
-    d->system = t->apid;
-    d->opcode = t->opcode;
-    if (t->n_args > ULK_DECODE_MAX_ARGS && d->status == ULK_WORD_ACCEPTED) {
-        d->status = ULK_WORD_REJECTED;
-        d->reject = ULK_REJ_LENGTH;
-        snprintf(d->reason, sizeof d->reason, "more than %d arguments", ULK_DECODE_MAX_ARGS);
-    }
-    d->n_args = t->n_args < ULK_DECODE_MAX_ARGS ? t->n_args : ULK_DECODE_MAX_ARGS;
-    for (int k = 0; k < d->n_args; k++) {
-        d->args[k].arg = t->args[k].arg;
-        d->args[k].raw = t->args[k].raw;
-        d->args[k].eng = t->args[k].eng;
-        d->args[k].label = t->args[k].label;
-        memcpy(d->args[k].text, t->args[k].text, sizeof d->args[k].text);
-    }
-    snprintf(d->hex, sizeof d->hex, "%.32s", t->data_hex);
-    rx_count(rx, d, t->secured && t->sec_verdict != ULK_SDLS_ACCEPTED && t->sec_verdict != ULK_SDLS_UNCHECKED &&
-                        d->status != ULK_WORD_ACCEPTED);
+    rx_node *n = rx_node_new(rx, ULK_RX_NOTICE);
+    if (n && !(n->owned = ulk_strdup(line))) rx->err = ULK_ENOMEM;
+    if (n && n->owned) n->ev.text = n->owned;
+    return rx->err ? ULK_ENOMEM : 0;
 }
 
-static void tc_flush(ulk_rx *rx)
-{
-    if (rx->nb && ulk_tc_decoder_push(rx->tc, rx->bt, rx->bv, rx->nb) < 0 && !rx->err) rx->err = ULK_ENOMEM;
-    rx->nb = 0;
-}
-
-static void on_tc_soft(double t, float v, void *user)
+static void sink_fail(void *user, int status)
 {
     ulk_rx *rx = user;
-    if (rx->o.on_soft) rx->o.on_soft(t, v, rx->o.user);
-    rx->bt[rx->nb] = t;
-    rx->bv[rx->nb] = v;
-    if (++rx->nb == SOFT_BATCH) tc_flush(rx);
-}
-
-static void on_soft(double t, float v, void *user)
-{
-    ulk_rx *rx = user;
-    rx->o.on_soft(t, v, rx->o.user);
+    if (!rx->err) rx->err = status;
 }
 
 /* ---- complex captures: carrier recovery in front of the link decoder ---- */
@@ -409,67 +354,22 @@ static int cx_setup(ulk_rx *rx)
     return rx->o.voice_path ? cx_voice(rx, c) : 0;
 }
 
-/* The demodulator (and CLTU decoder) for the dictionary's link. */
-static int rx_setup_demod(ulk_rx *rx)
+/* The profile's unit decoder for the dictionary's link, at the rate of the data samples. */
+static int rx_setup_unit(ulk_rx *rx)
 {
-    ulk_demod_options dopt;
-    memset(&dopt, 0, sizeof dopt);
-    dopt.on_word = on_word;
-    dopt.on_soft = rx->o.on_soft ? on_soft : NULL;
-    dopt.user = rx;
-    ulk_link front = rx->dict->link;
-    if (rx->dict->link.profile == ULK_PROFILE_CCSDS_TC) {
-        /* The shared front end gives soft symbols; the CLTU decoder does the rest. */
-        ulk_tc_front_end_link(&rx->dict->link, &front);
-        dopt.on_word = NULL;
-        dopt.on_soft = on_tc_soft;
-        int rc = ulk_tc_decoder_create(rx->dict, on_tc_unit, rx, &rx->tc, rx->diag);
-        if (rc < 0) return rc;
-    }
-    return ulk_demod_create(&front, rx->o.fs_hz, &dopt, &rx->demod, rx->diag);
-}
-
-/* Keys, receive state and verifier of a secured ccsds-tc link (docs/sdls.md); the CLTU decoder
- * verifies every frame through ulk_tc_decoder_set_security. Without keys a secured frame is
- * reported secured, not authenticated. */
-static int rx_setup_security(ulk_rx *rx)
-{
-    const ulk_rx_options *o = &rx->o;
-    const ulk_link *l = &rx->dict->link;
-    int asked = o->keys_path || o->state_path;
-    const ulk_sdls_sa *sa = ulk_profile_of(l)->security(l);
-    if (!sa) {
-        if (!asked) return 0;
+    rx->prof = ulk_profile_of(&rx->dict->link);
+    rx->sink.opt = &rx->o;
+    rx->sink.est = &rx->est;
+    rx->sink.rx = rx;
+    rx->sink.unit = sink_unit;
+    rx->sink.notice = sink_notice;
+    rx->sink.fail = sink_fail;
+    int rc = rx->prof->rx_create(rx->dict, rx->o.fs_hz, &rx->sink, &rx->unit, rx->diag);
+    if (rc < 0) return rc;
+    /* keys and state on a link without a security association (the profile set up any) */
+    if ((rx->o.keys_path || rx->o.state_path) && !rx->prof->security(&rx->dict->link))
         return ulk_fail(rx->diag, ULK_EINVAL, "%s: the dictionary has no link.tc.security: --keys and --state have "
                                               "nothing to do", rx->name);
-    }
-    rx->est.secured = 1;
-    if (!o->keys_path) {
-        if (o->state_path)
-            return ulk_fail(rx->diag, ULK_EINVAL, "--state needs --keys (only authenticated frames move the window)");
-        return 0;
-    }
-    int created = 0, rc = ulk_sdls_keys_load(o->keys_path, &rx->keys, rx->diag);
-    if (rc >= 0 && o->state_path) {
-        rx->state_path = ulk_strdup(o->state_path);
-        if (!rx->state_path) return ulk_fail(rx->diag, ULK_ENOMEM, "out of memory");
-        /* held until destroy: two runs never read the same window */
-        if ((rx->lock_fd = ulk_sdls_state_lock(o->state_path, rx->diag)) < 0) return rx->lock_fd;
-        rc = ulk_sdls_state_load(o->state_path, ULK_SDLS_RECEIVE, &rx->state, &created, rx->diag);
-    }
-    if (rc >= 0) rc = ulk_sdls_rx_create(sa, rx->keys, rx->state, &rx->srx, rx->diag);
-    if (rc >= 0) rc = ulk_tc_decoder_set_security(rx->tc, rx->srx);
-    if (rc < 0) return rc;
-    rx->est.authenticated = 1;
-    if (created) {
-        rx_node *n = rx_node_new(rx, ULK_RX_NOTICE);
-        char line[600];
-        snprintf(line, sizeof line, "%s does not exist: a new receive-side state starts with no counter accepted for SPI %u",
-                 o->state_path, (unsigned)sa->spi);
-        if (n && !(n->owned = ulk_strdup(line))) rx->err = ULK_ENOMEM;
-        if (n && n->owned) n->ev.text = n->owned;
-        if (rx->err) return ulk_fail(rx->diag, rx->err, "out of memory");
-    }
     return 0;
 }
 
@@ -483,13 +383,11 @@ int ulk_rx_create(const ulk_dict *dict, const ulk_rx_options *opt, ulk_rx **out,
     rx->dict = dict;
     rx->o = *opt;
     rx->diag = diag;
-    rx->lock_fd = -1;
     snprintf(rx->name, sizeof rx->name, "%s", opt->name ? opt->name : "capture");
     rx->o.name = rx->name;
     rx->est.fs_hz = opt->fs_hz;
     int rc = opt->complex_ ? cx_setup(rx) : 0;
-    if (rc >= 0) rc = rx_setup_demod(rx);
-    if (rc >= 0) rc = rx_setup_security(rx);
+    if (rc >= 0) rc = rx_setup_unit(rx);
     if (rc < 0) {
         ulk_rx_destroy(rx);
         return rc;
@@ -508,7 +406,7 @@ static int rx_fail(ulk_rx *rx, int rc)
 
 static int rx_demod(ulk_rx *rx, const float *x, size_t n)
 {
-    int rc = ulk_demod_push(rx->demod, x, n);
+    int rc = rx->prof->rx_push(rx->unit, x, n);
     if (rc < 0 || rx->err) return rx_fail(rx, rc);
     return 0;
 }
@@ -665,13 +563,8 @@ int ulk_rx_finish(ulk_rx *rx)
         if (k < 0) return rx->err = ulk_fail(rx->diag, (int)k, "%s: carrier recovery failed", rx->name);
         if (k > 0 && (rc = cx_outputs(rx, (size_t)k)) < 0) return rc;
     }
-    rc = ulk_demod_finish(rx->demod);
-    if (rc >= 0 && rx->tc) {
-        tc_flush(rx);
-        if (ulk_tc_decoder_finish(rx->tc) < 0 && !rx->err) rx->err = ULK_ENOMEM;
-    }
+    rc = rx->prof->rx_finish(rx->unit); /* the last units; est.demod */
     if (rc < 0 || rx->err) return rx_fail(rx, rc);
-    ulk_demod_get_estimates(rx->demod, &rx->est.demod);
     const ulk_demod_estimates *de = &rx->est.demod;
     if (de->signal_found && de->at_search_limit)
         rx_warn(rx, "%s: clock error estimate reached the search limit of +-%g ppm (mean estimate %+.1f ppm): the "
@@ -679,9 +572,9 @@ int ulk_rx_finish(ulk_rx *rx)
                 de->search_limit_ppm, de->rate_error_ppm);
     rx->est.duration_s = (double)rx->est.n_samples / (rx->D > 1 ? rx->fs_in : rx->o.fs_hz);
     if (rx->o.complex_ && (rc = cx_finish(rx)) < 0) return rx->err = rc;
-    /* the receive window moves only when the whole capture was decoded */
-    if (rx->state && (rc = ulk_sdls_state_save(rx->state, rx->state_path, rx->diag)) < 0) return rx->err = rc;
-    rx->est.state_saved = rx->state != NULL;
+    /* what the profile keeps across captures (a receive window) moves only when the whole
+     * capture was decoded */
+    if (rx->prof->rx_commit && (rc = rx->prof->rx_commit(rx->unit)) < 0) return rx->err = rc;
     rx_node *n = rx_node_new(rx, ULK_RX_ESTIMATES);
     if (n) {
         n->est = rx->est;
@@ -721,13 +614,7 @@ void ulk_rx_destroy(ulk_rx *rx)
         rx->head = n->next;
         rx_node_free(n);
     }
-    ulk_demod_destroy(rx->demod);
-    ulk_tc_decoder_destroy(rx->tc);
-    ulk_sdls_rx_destroy(rx->srx);
-    ulk_sdls_state_destroy(rx->state);
-    ulk_sdls_keys_destroy(rx->keys);
-    ulk_sdls_state_unlock(rx->lock_fd);
-    ulk_free(rx->state_path);
+    if (rx->prof) rx->prof->rx_destroy(rx->unit);
     ulk_crec_destroy(rx->crec);
     ulk_rcorr_destroy(rx->rc);
     ulk_vdemod_destroy(rx->vd);

@@ -28,5 +28,15 @@ void ulk_subbit_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
 void ulk_subbit_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
 void ulk_tc_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
 void ulk_tc_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
+/* the receivers (ulk_profile_ops.rx_create ... rx_destroy; the profiles' *_rx.c) */
+int ulk_subbit_rx_create(const ulk_dict *d, double fs_hz, const struct ulk_rx_sink *sink, void **state, ulk_diag *diag);
+int ulk_subbit_rx_push(void *state, const float *x, size_t n);
+int ulk_subbit_rx_finish(void *state);
+void ulk_subbit_rx_destroy(void *state);
+int ulk_tc_rx_create(const ulk_dict *d, double fs_hz, const struct ulk_rx_sink *sink, void **state, ulk_diag *diag);
+int ulk_tc_rx_push(void *state, const float *x, size_t n);
+int ulk_tc_rx_finish(void *state);
+int ulk_tc_rx_commit(void *state);
+void ulk_tc_rx_destroy(void *state);
 
 #endif

@@ -286,13 +286,13 @@ static void run_capture(const profile *pr, double fs, double ppm, double lead_s,
     ulk_crec *crec = NULL;
     ulk_cgen *cg = NULL;
     ulk_diag *dg = ulk_diag_create();
-    ulk_link fl = *l;
+    ulk_demod_symbols sym;
     ulk_demod_options opt = {on_word, NULL, &m, 0, 0};
     if (pr->p == P_CCSDS) {
         sbat = calloc(1, sizeof *sbat);
         ulk_tc_decoder_create(pr->dict, on_cltu, &m, &tc, dg);
         sbat->tc = tc;
-        ulk_tc_front_end_link(&pr->dict->link, &fl);
+        ulk_tc_symbols(&pr->dict->link, &sym);
         opt.on_word = NULL;
         opt.on_soft = on_soft;
         opt.user = sbat;
@@ -300,7 +300,7 @@ static void run_capture(const profile *pr, double fs, double ppm, double lead_s,
     gen g;
     gen_init(&g, l, lvl, L, fs, ppm, lead_s, 0.3, ebn0_db, sim_next(&r), pr->p == P_COMPOSITE);
     double cpu = 0;
-    if (ulk_demod_create(&fl, fs, &opt, &dm, dg) < 0) {
+    if ((pr->p == P_CCSDS ? ulk_demod_create_symbols(&sym, fs, &opt, &dm, dg) : ulk_demod_create(l, fs, &opt, &dm, dg)) < 0) {
         res->refused++;
         snprintf(res->why, sizeof res->why, "%s", ulk_diag_first_error(dg) ? ulk_diag_first_error(dg)->msg : "refused");
         goto out;

@@ -36,23 +36,15 @@ struct ulk_tc_decoder {
     ulk_cltu_result plain;   /* a secured CLTU with its verified packet, for interpret() */
 };
 
-void ulk_tc_front_end_link(const ulk_link *tc_link, ulk_link *out)
+void ulk_tc_symbols(const ulk_link *tc_link, ulk_demod_symbols *out)
 {
-    *out = *tc_link;
-    out->profile = ULK_PROFILE_SUBBIT;
-    out->n_subbits = 1;
-    memset(out->zero, 0, sizeof out->zero);
-    memset(out->one, 0, sizeof out->one);
-    memset(out->idle, 0, sizeof out->idle);
-    out->one[0] = 1;
-    out->has_pilot = 0;
-    /* The front end needs a word length for its own word stage, which is not used here. */
-    out->argument_bits = 0;
-    out->vehicle_bits = out->system_bits = 0;
-    out->opcode_bits = 1;
-    out->check = ULK_CHECK_NONE;
-    out->check_bits = 0;
-    out->word_bits = 1;
+    memset(out, 0, sizeof *out);
+    out->symbol_rate = tc_link->bit_rate; /* one symbol per channel bit: R_s = R */
+    out->fsc = tc_link->fsc;
+    out->waveform = tc_link->waveform;
+    out->line_code = tc_link->line_code;
+    out->has_pilot = 0;                   /* the profile has no pilot */
+    out->amplitude = tc_link->amplitude;
 }
 
 int ulk_tc_decoder_create(const ulk_dict *d, ulk_tc_unit_fn on_unit, void *user, ulk_tc_decoder **out,
@@ -384,12 +376,6 @@ static void on_soft(double t_s, float soft, void *user)
     }
 }
 
-static void on_word_ignored(const ulk_demod_word *w, void *user)
-{
-    (void)w;
-    (void)user;
-}
-
 int ulk_tc_decode_samples(const ulk_dict *d, const float *x, size_t n, double fs_hz, ulk_tc_unit_fn on_unit,
                           void *user, ulk_demod_estimates *est, ulk_diag *diag)
 {
@@ -397,11 +383,11 @@ int ulk_tc_decode_samples(const ulk_dict *d, const float *x, size_t n, double fs
     soft_batch *b = ulk_calloc(1, sizeof *b);
     if (!b) return ulk_fail(diag, ULK_ENOMEM, "ccsds-tc decode: out of memory");
     int rc = ulk_tc_decoder_create(d, on_unit, user, &b->t, diag);
-    ulk_link fl;
-    ulk_tc_front_end_link(&d->link, &fl);
-    ulk_demod_options opt = {on_word_ignored, on_soft, b, 0, 0};
+    ulk_demod_symbols sym;
+    ulk_tc_symbols(&d->link, &sym);
+    ulk_demod_options opt = {NULL, on_soft, b, 0, 0};
     ulk_demod *dm = NULL;
-    if (!rc) rc = ulk_demod_create(&fl, fs_hz, &opt, &dm, diag);
+    if (!rc) rc = ulk_demod_create_symbols(&sym, fs_hz, &opt, &dm, diag);
     for (size_t i = 0; !rc && i < n; i += 65536) rc = ulk_demod_push(dm, x + i, n - i < 65536 ? n - i : 65536);
     if (!rc) rc = ulk_demod_finish(dm);
     if (!rc && b->n) rc = ulk_tc_decoder_push(b->t, b->ts, b->sv, b->n);

@@ -250,4 +250,9 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .print_units = tc_print_units,
     .unit_start_times = NULL,
     .check_unit = tc_check_unit,
+    .rx_create = ulk_tc_rx_create,
+    .rx_push = ulk_tc_rx_push,
+    .rx_finish = ulk_tc_rx_finish,
+    .rx_commit = ulk_tc_rx_commit,
+    .rx_destroy = ulk_tc_rx_destroy,
 };

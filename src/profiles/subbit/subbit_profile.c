@@ -150,4 +150,9 @@ const ulk_profile_ops ulk_profile_subbit = {
     .print_units = sb_print_units,
     .unit_start_times = sb_unit_start_times,
     .check_unit = NULL,
+    .rx_create = ulk_subbit_rx_create,
+    .rx_push = ulk_subbit_rx_push,
+    .rx_finish = ulk_subbit_rx_finish,
+    .rx_commit = NULL,
+    .rx_destroy = ulk_subbit_rx_destroy,
 };
