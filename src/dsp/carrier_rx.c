@@ -80,16 +80,31 @@ enum { CREC_FRESH = 0, CREC_LOCKED = 1, CREC_SEARCHING = 2 };
 /* input samples per piece of ulk_crec_push / ulk_crec_track (the work buffer) */
 #define CREC_PIECE 4096
 
-static inline float crec_atan2f(float y, float x)
+/* De-rotation and phase detector of n samples: y = o p* (p the NCO's phasor), e = arg y by
+ * the polynomial arctangent, without branches. gcc if-converts the selections (and so
+ * vectorises the loop) only without trapping math; no floating-point exception is ever
+ * looked at here, and the results are the same. */
+#if defined(__GNUC__) && !defined(__clang__)
+__attribute__((optimize("no-trapping-math")))
+#endif
+static void crec_derotate(const float *o, const float *pc, const float *ps, float *y, float *e, size_t n)
 {
-    float ax = fabsf(x), ay = fabsf(y);
-    int swap = ay > ax;
-    float mx = swap ? ay : ax, mn = swap ? ax : ay;
-    float z = mn / (mx > 0 ? mx : 1.0f), z2 = z * z; /* 0 when both are 0 */
-    float a = z * (0.9998660f + z2 * (-0.3302995f + z2 * (0.1801410f + z2 * (-0.0851330f + z2 * 0.0208351f))));
-    a = swap ? 1.57079632679489662f - a : a;
-    a = x < 0 ? 3.14159265358979324f - a : a;
-    return y < 0 ? -a : a;
+    for (size_t i = 0; i < n; i++) {
+        float xr = o[2 * i], xi = o[2 * i + 1];
+        float yr = xr * pc[i] + xi * ps[i], yi = xi * pc[i] - xr * ps[i]; /* x exp(-j theta) */
+        y[2 * i] = yr;
+        y[2 * i + 1] = yi;
+        float ax = fabsf(yr), ay = fabsf(yi);
+        int swap = ay > ax;
+        float mx = swap ? ay : ax, mn = swap ? ax : ay;
+        float z = mn / (mx > 0 ? mx : 1.0f), z2 = z * z; /* 0 when both are 0 */
+        float t = z * (0.9998660f + z2 * (-0.3302995f + z2 * (0.1801410f + z2 * (-0.0851330f + z2 * 0.0208351f))));
+        float u = 1.57079632679489662f - t;
+        t = swap ? u : t;
+        u = 3.14159265358979324f - t;
+        t = yr < 0 ? u : t;
+        e[i] = yi < 0 ? -t : t;
+    }
 }
 
 /* Monitor: the line's share of the de-rotated window, R = |sum y|^2 / sum |y|^2, is about
@@ -418,13 +433,7 @@ static void crec_block(ulk_crec *r, const float *o, size_t n, float *derot, floa
         s = c * ss + s * cs;
         c = c2;
     }
-    for (size_t i = 0; i < n; i++) {
-        float xr = o[2 * i], xi = o[2 * i + 1];
-        float yr = xr * pc[i] + xi * ps[i], yi = xi * pc[i] - xr * ps[i]; /* x exp(-j theta) */
-        y[2 * i] = yr;
-        y[2 * i + 1] = yi;
-        e[i] = crec_atan2f(yi, yr);
-    }
+    crec_derotate(o, pc, ps, y, e, n);
     double se = 0, swe = 0, se2 = 0, sr = 0, si = 0, sp = 0;
     for (size_t i = 0; i < n; i++) {
         double ei = e[i], yr = y[2 * i], yi = y[2 * i + 1];
