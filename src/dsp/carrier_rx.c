@@ -640,17 +640,31 @@ void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st)
 
 /* ---- voice ---- */
 
+/* The channel filter and the discriminator run at f_s / m (m a divisor of D, the rate at least
+ * 4 (Delta + f_a): the channel filter's stopband, from about 1.46 (Delta + f_a), folds no
+ * closer than 2.5 (Delta + f_a) to 0 Hz), the audio filter at that rate too; the mixer runs at
+ * f_s on every sample (the channel filter needs them all), by a phasor turned by recursion and
+ * set again from the exact phase every VD_RENORM samples. At 192 kHz: m = 6, the channel
+ * filter's 157 taps once per 6 samples, where they ran on every one (the voice demodulator
+ * was 60 % of a full-mode decode). */
+#define VD_RENORM 256
+typedef float vd_v4 __attribute__((vector_size(16)));
+
 struct ulk_vdemod {
     double fs, fv, dev;
     int rate_out, decim;
+    int m;                    /* channel filter and discriminator every m-th sample (m | decim) */
     double ph, dph;           /* mixer phase, cycles */
-    int nc, na;               /* channel and audio filter lengths */
-    double *hc, *ha;          /* taps */
-    double *zr, *zi;          /* channel filter input ring, doubled (2 nc) */
-    double *ar;               /* discriminator output ring, doubled (2 na) */
+    double mc, ms, sc, ss;    /* the mixer's phasor exp(-j 2 pi ph) and its step */
+    int nren;                 /* samples until the phasor is set from ph again */
+    int nc, na, ncp, nap;     /* channel and audio filter lengths; rounded up to 8 */
+    float *hc, *ha;           /* taps, zeros after nc / na (ncp / nap) */
+    float *zr, *zi;           /* channel filter input ring, doubled (2 nc + 8) */
+    float *ar;                /* discriminator output ring, doubled (2 na + 8) */
     int pc, pa;
     double pr, pi;            /* previous channel output */
     long cnt;                 /* samples until the next output */
+    long ccnt;                /* samples until the next discriminator output */
 };
 
 void ulk_vdemod_destroy(ulk_vdemod *v)
@@ -665,17 +679,38 @@ void ulk_vdemod_destroy(ulk_vdemod *v)
 }
 
 /* Blackman-windowed sinc low-pass of n (odd) taps, cutoff fc (fraction of fs), unit DC gain. */
-static void lowpass(double *h, int n, double fc)
+static void lowpass(float *h, int n, double fc)
 {
     double sum = 0;
     for (int i = 0; i < n; i++) {
         double m = i - (n - 1) / 2.0;
         double s = m == 0 ? 2 * fc : sin(2 * M_PI * fc * m) / (M_PI * m);
-        double w = 0.42 - 0.5 * cos(2 * M_PI * i / (n - 1)) + 0.08 * cos(4 * M_PI * i / (n - 1));
-        h[i] = s * w;
-        sum += h[i];
+        sum += s * (0.42 - 0.5 * cos(2 * M_PI * i / (n - 1)) + 0.08 * cos(4 * M_PI * i / (n - 1)));
     }
-    for (int i = 0; i < n; i++) h[i] /= sum;
+    for (int i = 0; i < n; i++) {
+        double m = i - (n - 1) / 2.0;
+        double s = m == 0 ? 2 * fc : sin(2 * M_PI * fc * m) / (M_PI * m);
+        h[i] = (float)(s * (0.42 - 0.5 * cos(2 * M_PI * i / (n - 1)) + 0.08 * cos(4 * M_PI * i / (n - 1))) / sum);
+    }
+}
+
+static inline vd_v4 vd_ld(const float *p)
+{
+    vd_v4 v;
+    memcpy(&v, p, sizeof v);
+    return v;
+}
+
+/* sum h[t] x[t], t < n (a multiple of 8) */
+static inline float vd_dot(const float *h, const float *x, int n)
+{
+    vd_v4 a0 = {0, 0, 0, 0}, a1 = a0;
+    for (int t = 0; t < n; t += 8) {
+        a0 += vd_ld(h + t) * vd_ld(x + t);
+        a1 += vd_ld(h + t + 4) * vd_ld(x + t + 4);
+    }
+    vd_v4 a = a0 + a1;
+    return (a[0] + a[2]) + (a[1] + a[3]);
 }
 
 static int odd_taps(double x)
@@ -708,21 +743,31 @@ int ulk_vdemod_create(double fs, double fv, double dev, double tone, ulk_vdemod 
         if (f % k == 0) d = k;
     v->decim = (int)d;
     v->rate_out = (int)(f / d);
+    v->m = 1;
+    for (int k = 1; k <= (int)d; k++)
+        if (d % k == 0 && fs / k >= 4 * cut) v->m = k;
+    double fm = fs / v->m; /* the discriminator's rate */
     v->dph = fv / fs;
     v->nc = odd_taps(6 * fs / cut);
-    v->na = odd_taps(6 * fs / (0.45 * v->rate_out));
-    v->hc = ulk_malloc((size_t)v->nc * sizeof *v->hc);
-    v->ha = ulk_malloc((size_t)v->na * sizeof *v->ha);
-    v->zr = ulk_calloc(2 * (size_t)v->nc, sizeof *v->zr);
-    v->zi = ulk_calloc(2 * (size_t)v->nc, sizeof *v->zi);
-    v->ar = ulk_calloc(2 * (size_t)v->na, sizeof *v->ar);
+    v->na = odd_taps(6 * fm / (0.45 * v->rate_out));
+    v->ncp = (v->nc + 7) / 8 * 8;
+    v->nap = (v->na + 7) / 8 * 8;
+    v->hc = ulk_calloc((size_t)v->ncp, sizeof *v->hc);
+    v->ha = ulk_calloc((size_t)v->nap, sizeof *v->ha);
+    v->zr = ulk_calloc(2 * (size_t)v->nc + 8, sizeof *v->zr);
+    v->zi = ulk_calloc(2 * (size_t)v->nc + 8, sizeof *v->zi);
+    v->ar = ulk_calloc(2 * (size_t)v->na + 8, sizeof *v->ar);
     if (!v->hc || !v->ha || !v->zr || !v->zi || !v->ar) {
         ulk_vdemod_destroy(v);
         return ulk_fail(diag, ULK_ENOMEM, "voice: out of memory");
     }
     lowpass(v->hc, v->nc, cut / fs);
-    lowpass(v->ha, v->na, v->decim > 1 ? 0.45 / v->decim : 0.45);
+    int da = v->decim / v->m; /* discriminator samples per audio sample */
+    lowpass(v->ha, v->na, da > 1 ? 0.45 / da : 0.45);
     v->cnt = v->decim;
+    v->ccnt = v->m;
+    v->sc = cos(2 * M_PI * v->dph);
+    v->ss = -sin(2 * M_PI * v->dph);
     *out = v;
     return 0;
 }
@@ -733,34 +778,36 @@ long ulk_vdemod_push(ulk_vdemod *v, const float *phi, size_t n, float *audio)
 {
     if (!v || ((!phi || !audio) && n)) return ULK_EINVAL;
     long k = 0;
-    const double scale = v->fs / (2 * M_PI * v->dev);
+    const double scale = v->fs / v->m / (2 * M_PI * v->dev);
     for (size_t i = 0; i < n; i++) {
-        double x = isfinite(phi[i]) ? phi[i] : 0;
-        double a = -2 * M_PI * v->ph; /* mix f_v down to 0 Hz */
+        float x = isfinite(phi[i]) ? phi[i] : 0;
+        if (v->nren-- == 0) {
+            /* mix f_v down to 0 Hz: exp(-j 2 pi ph), set from the exact phase now and then */
+            v->mc = cos(2 * M_PI * v->ph);
+            v->ms = -sin(2 * M_PI * v->ph);
+            v->nren = VD_RENORM - 1;
+        }
+        v->pc = v->pc == 0 ? v->nc - 1 : v->pc - 1;
+        v->zr[v->pc] = v->zr[v->pc + v->nc] = (float)(x * v->mc);
+        v->zi[v->pc] = v->zi[v->pc + v->nc] = (float)(x * v->ms);
+        double c = v->mc * v->sc - v->ms * v->ss;
+        v->ms = v->mc * v->ss + v->ms * v->sc;
+        v->mc = c;
         v->ph += v->dph;
         v->ph -= floor(v->ph);
-        v->pc = v->pc == 0 ? v->nc - 1 : v->pc - 1;
-        v->zr[v->pc] = v->zr[v->pc + v->nc] = x * cos(a);
-        v->zi[v->pc] = v->zi[v->pc + v->nc] = x * sin(a);
-        double yr = 0, yi = 0;
-        const double *r = v->zr + v->pc, *q = v->zi + v->pc;
-        for (int t = 0; t < v->nc; t++) {
-            yr += v->hc[t] * r[t];
-            yi += v->hc[t] * q[t];
-        }
+        if (--v->ccnt > 0) continue;
+        v->ccnt = v->m;
+        double yr = vd_dot(v->hc, v->zr + v->pc, v->ncp), yi = vd_dot(v->hc, v->zi + v->pc, v->ncp);
         /* discriminator: arg(z_n conj z_{n-1}) */
         double dr = yr * v->pr + yi * v->pi, di = yi * v->pr - yr * v->pi;
         double fm = (dr == 0 && di == 0) ? 0 : atan2(di, dr) * scale;
         v->pr = yr;
         v->pi = yi;
         v->pa = v->pa == 0 ? v->na - 1 : v->pa - 1;
-        v->ar[v->pa] = v->ar[v->pa + v->na] = fm;
-        if (--v->cnt == 0) {
+        v->ar[v->pa] = v->ar[v->pa + v->na] = (float)fm;
+        if ((v->cnt -= v->m) == 0) {
             v->cnt = v->decim;
-            double s = 0;
-            const double *b = v->ar + v->pa;
-            for (int t = 0; t < v->na; t++) s += v->ha[t] * b[t];
-            audio[k++] = (float)s;
+            audio[k++] = vd_dot(v->ha, v->ar + v->pa, v->nap);
         }
     }
     return k;
