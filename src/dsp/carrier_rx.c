@@ -55,6 +55,10 @@ struct ulk_crec {
     size_t pending;       /* delayed: decimated samples until a line seen is measured */   /* delayed: output samples before the assist starts (the search's
                              look-ahead: before it the output may be noise only) */
     float rc[CREC_B], rs[CREC_B]; /* exp(j n om_tab), n < CREC_B (crec_tabulate) */
+    size_t bm;            /* samples in the open block of the loop (crec_block), 0: none open */
+    double b_th, b_om;    /* the block's phase and frequency at its start */
+    double b_se, b_sme;   /* its sums of e and m e */
+    float b_c0, b_s0;     /* cos, sin of b_th */
     double om_tab;
     int have_tab;
     double az_r, az_i, pz_r, pz_i;
@@ -456,42 +460,66 @@ static inline crec_v4 crec_ld(const float *p)
 
 static inline double crec_hsum(crec_v4 a) { return (double)((a[0] + a[2]) + (a[1] + a[3])); }
 
+/* The loop update at the end of a block of L = bm samples (also at a point where the assist
+ * or the monitor acts): sum (L - m) e_m = L sum e - sum m e. */
+static void crec_close(ulk_crec *r)
+{
+    if (r->bm == 0) return;
+    double L = (double)r->bm, swe = L * r->b_se - r->b_sme;
+    double th = r->b_th + L * r->b_om + r->kp * r->b_se + r->ki * swe;
+    r->sum_omega += L * r->b_om + r->ki * swe;
+    r->omega = r->b_om + r->ki * r->b_se;
+    r->theta = th - 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+    r->bm = 0;
+}
+
+/* n output samples o continuing the open block (n <= CREC_B - bm; a block opens at the loop's
+ * phase and frequency then): de-rotated at the block's open-loop phase, their errors summed;
+ * the block closes when full. Blocks start at fixed output samples (every CREC_B since the
+ * last point where the assist or the monitor acted), whatever pieces the samples come in, so
+ * the outputs do not depend on how a capture is pushed. Sums of y, |y|^2 into acc[0..2]. */
 static void crec_block(ulk_crec *r, const float *o, size_t n, float *derot, float *phi, double *acc)
 {
-    float pc[CREC_B], ps[CREC_B], y[2 * CREC_B], e[CREC_B];
-    double th = r->theta, om = r->omega;
-    if (!r->have_tab || fabs(om - r->om_tab) * CREC_B > CREC_TAB_RAD) crec_tabulate(r, om);
-    float c0 = (float)cos(th), s0 = (float)sin(th);
-    for (int i = 0; i < CREC_B; i++) {
-        pc[i] = c0 * r->rc[i] - s0 * r->rs[i];
-        ps[i] = s0 * r->rc[i] + c0 * r->rs[i];
+    float pc[CREC_B] = {0}, ps[CREC_B] = {0}, y[2 * CREC_B], e[CREC_B];
+    if (r->bm == 0) {
+        r->b_th = r->theta;
+        r->b_om = r->omega;
+        r->b_se = r->b_sme = 0;
+        if (!r->have_tab || fabs(r->b_om - r->om_tab) * CREC_B > CREC_TAB_RAD) crec_tabulate(r, r->b_om);
+        r->b_c0 = (float)cos(r->b_th);
+        r->b_s0 = (float)sin(r->b_th);
+    }
+    const size_t m0 = r->bm;
+    const float c0 = r->b_c0, s0 = r->b_s0, *rc = r->rc + m0, *rs = r->rs + m0;
+    for (size_t i = 0; i < n; i++) {
+        pc[i] = c0 * rc[i] - s0 * rs[i];
+        ps[i] = s0 * rc[i] + c0 * rs[i];
     }
     crec_derotate(o, pc, ps, y, e, n);
     for (size_t i = n; i < CREC_B; i++) y[2 * i] = y[2 * i + 1] = e[i] = 0; /* the sums below run over all */
-    /* sums over the block in lanes of four: e, (n - i) e, e^2; y (lanes I, Q, I, Q), |y|^2 */
-    crec_v4 se = {0, 0, 0, 0}, swe = se, se2 = se, sy = se, sp = se, w = {0, -1, -2, -3};
-    w += (float)n;
+    /* sums in lanes of four: e, m e (m the index in the block), e^2; y (lanes I, Q, I, Q), |y|^2 */
+    crec_v4 se = {0, 0, 0, 0}, sme = se, se2 = se, sy = se, sp = se, w = {0, 1, 2, 3};
+    w += (float)m0;
     for (int i = 0; i < CREC_B; i += 4) {
         crec_v4 ev = crec_ld(e + i), ya = crec_ld(y + 2 * i), yb = crec_ld(y + 2 * i + 4);
         se += ev;
-        swe += w * ev;
+        sme += w * ev;
         se2 += ev * ev;
         sy += ya + yb;
         sp += ya * ya + yb * yb;
-        w -= 4;
+        w += 4;
     }
     if (derot) memcpy(derot, y, 2 * n * sizeof *y);
     if (phi) memcpy(phi, e, n * sizeof *e);
-    double Se = crec_hsum(se), Swe = crec_hsum(swe);
-    th += (double)n * om + r->kp * Se + r->ki * Swe;
-    r->sum_omega += (double)n * om + r->ki * Swe;
-    r->omega = om + r->ki * Se;
-    r->theta = th - 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+    r->b_se += crec_hsum(se);
+    r->b_sme += crec_hsum(sme);
+    r->bm += n;
     r->sum_e2 += crec_hsum(se2);
     r->n += n;
     acc[0] += (double)(sy[0] + sy[2]);
     acc[1] += (double)(sy[1] + sy[3]);
     acc[2] += crec_hsum(sp);
+    if (r->bm == CREC_B) crec_close(r);
 }
 
 /* n output samples o while a carrier is held, within one stretch of the frequency assist and
@@ -499,10 +527,14 @@ static void crec_block(ulk_crec *r, const float *o, size_t n, float *derot, floa
 static void crec_locked(ulk_crec *r, const float *o, size_t n, float *derot, float *phi)
 {
     double acc[3] = {0, 0, 0};
-    for (size_t i = 0; i < n; i += CREC_B) {
-        size_t b = n - i < CREC_B ? n - i : CREC_B;
+    for (size_t i = 0, b; i < n; i += b) {
+        b = n - i < CREC_B - r->bm ? n - i : CREC_B - r->bm;
         crec_block(r, o + 2 * i, b, derot ? derot + 2 * i : NULL, phi ? phi + i : NULL, acc);
     }
+    /* the assist and the monitor act on the loop as it is: close the block where they do */
+    size_t qa = r->ns * (size_t)r->dec / 4;
+    if ((r->assist_wait == 0 && r->assist > 0 && r->az_n + n == qa) || r->mon_n + n >= r->nl * (size_t)r->dec)
+        crec_close(r);
     if (r->assist_wait > 0) {
         r->assist_wait -= n;
     } else if (r->assist > 0) {
@@ -515,7 +547,6 @@ static void crec_locked(ulk_crec *r, const float *o, size_t n, float *derot, flo
         r->az_r += acc[0];
         r->az_i += acc[1];
         r->az_n += n;
-        size_t qa = r->ns * (size_t)r->dec / 4;
         if (r->az_n == qa) {
             if (r->pz_r != 0 || r->pz_i != 0) {
                 double dr = r->az_r * r->pz_r + r->az_i * r->pz_i, di = r->az_i * r->pz_r - r->az_r * r->pz_i;
