@@ -696,8 +696,12 @@ void ulk_crec_get_status(const ulk_crec *r, ulk_crec_status *st)
     memset(st, 0, sizeof *st);
     st->coarse_hz = r->coarse_hz;
     st->line_db = r->line_db;
-    st->freq_hz = r->omega * r->fs / (2 * M_PI);
-    st->mean_freq_hz = r->n ? r->sum_omega / (double)r->n * r->fs / (2 * M_PI) : st->freq_hz;
+    /* with a block open, what its closing would add (crec_close) */
+    double L = (double)r->bm, swe = L * r->b_se - r->b_sme;
+    double om = r->bm ? r->b_om + r->ki * r->b_se : r->omega;
+    double sum_om = r->sum_omega + (r->bm ? L * r->b_om + r->ki * swe : 0);
+    st->freq_hz = om * r->fs / (2 * M_PI);
+    st->mean_freq_hz = r->n ? sum_om / (double)r->n * r->fs / (2 * M_PI) : st->freq_hz;
     st->phase_rms_rad = r->n ? sqrt(r->sum_e2 / (double)r->n) : 0;
     st->n_tracked = r->n;
     st->n_acquired = r->n_acq;
