@@ -250,6 +250,35 @@ static void peak_search(const ulk_crec *r, double rate, const fftwf_complex *buf
 
 size_t ulk_crec_block(const ulk_crec *r) { return r ? r->block : 0; }
 
+/* The phase at sample 0 of a line at omega in the n samples iq: the Hann-weighted sum of
+ * x_i exp(-j omega (i - c)) has the line's phase at the window's middle c = (n - 1) / 2
+ * (unbiased by a small frequency error: the window is symmetric about c), taken back to
+ * sample 0. Without it the loop started at phase 0 whatever the carrier's: a carrier near half
+ * a cycle put the loop at the detector's unstable point, where it hung until noise pushed it
+ * off, and the first word went (192 kHz, phase pi: the word 0.032 s after the start lost). */
+static double acquire_phase(const float *iq, size_t n, double omega)
+{
+    double c = (double)(n - 1) / 2, zr = 0, zi = 0;
+    double pr = cos(omega * c), pi = sin(omega * c), sr = cos(omega), si = -sin(omega);
+    for (size_t i = 0; i < n; i++) {
+        if (i % 4096 == 0) {
+            /* exp(-j omega (i - c)) set afresh now and then: no drift of the recursion */
+            pr = cos(omega * (c - (double)i));
+            pi = sin(omega * (c - (double)i));
+        }
+        double w = 0.5 - 0.5 * cos(2 * M_PI * (double)i / (double)n);
+        double xr = iq[2 * i], xi = iq[2 * i + 1];
+        if (!isfinite(xr) || !isfinite(xi)) xr = xi = 0;
+        zr += w * (xr * pr - xi * pi);
+        zi += w * (xr * pi + xi * pr);
+        double t = pr * sr - pi * si;
+        pi = pr * si + pi * sr;
+        pr = t;
+    }
+    double th = atan2(zi, zr) - omega * c;
+    return th - 2 * M_PI * floor((th + M_PI) / (2 * M_PI));
+}
+
 int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
 {
     if (!r || !iq || n < 64) return ULK_EINVAL;
@@ -289,6 +318,7 @@ int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n)
      * as they are tracked, from the first one. */
     double thr = log((double)(2 * kmax + 1) / CREC_PFA);
     if (ratio >= thr) {
+        r->theta = acquire_phase(iq, n, r->omega);
         r->state = CREC_LOCKED;
         r->n_acq = 1;
         r->at_limit = edge;
