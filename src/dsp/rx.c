@@ -68,6 +68,7 @@ struct ulk_rx {
     size_t skip;              /* first outputs dropped: the filter's delay, K outputs */
     float *dbuf;              /* decimated samples of one push */
     double fs_in;             /* the capture's rate (o.fs_hz is the decimated one) */
+    ulk_ratio fs_q;           /* the carrier recovery's rate, exact (the capture's over D) */
     /* ccsds-tc with link.tc.security: */
     ulk_sdls_keys *keys;
     ulk_sdls_state *state;    /* receive-side window, saved back at finish */
@@ -311,13 +312,17 @@ static int cx_decim_plan(ulk_rx *rx)
 {
     rx->D = 1;
     const ulk_link *l = &rx->dict->link;
-    if (rx->o.ranging || rx->o.voice_path || l->waveform != ULK_WAVE_SINE || l->has_pilot) return 0;
+    const ulk_carrier *c = ulk_dict_carrier(rx->dict);
+    if (rx->o.voice_path || l->waveform != ULK_WAVE_SINE || l->has_pilot) return 0;
     double fs = rx->o.fs_hz;
     double rs = ulk_ratio_to_double(l->bit_rate) * (l->profile == ULK_PROFILE_CCSDS_TC ? 1 : l->n_subbits);
     double mo = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
-    double b = mo + ulk_ratio_to_double(l->fsc) + rs;
+    double edge = ulk_ratio_to_double(l->fsc) + rs;
+    if (rx->o.ranging) edge = fmax(edge, 8 * ulk_ratio_to_double(c->chip_rate));
+    double b = mo + edge;
     int d = (int)floor(fs / (2.5 * b));
     if (d > 8) d = 8;
+    if (rx->o.ranging && rx->fs_q.den > INT64_MAX / 8) d = 1; /* its exact rate, fs / D, must fit */
     if (d < 2) return 0;
     double dw = (fs / d - 2 * b) / fs;
     int k = (int)ceil(3.62 / (2.0 * d * dw));
@@ -424,8 +429,10 @@ static int cx_setup(ulk_rx *rx)
     const ulk_carrier_mode *mo = NULL;
     int rc = cx_mode(rx, c, &mo);
     if (rc < 0) return rc;
+    rx->fs_q = ratio_of_rate(&rx->o);
     rc = cx_decim_plan(rx);
     if (rc < 0) return rc;
+    if (rx->D > 1) rx->fs_q = ulk_ratio_make(rx->fs_q.num, rx->fs_q.den * rx->D);
     snprintf(rx->est.mode, sizeof rx->est.mode, "%s", mo->name);
     rx->est.complex_ = 1;
     rx->est.m_data = mo->on[ULK_CH_DATA] ? mo->m_rad[ULK_CH_DATA] : 0;
@@ -448,7 +455,7 @@ static int cx_setup(ulk_rx *rx)
     if (rx->o.ranging) {
         rx->rcar = *c;
         rx->rcar.offset_hz = ulk_ratio_make(0, 1);
-        rc = ulk_rcorr_create(&rx->rcar, ratio_of_rate(&rx->o), &rx->rc, rx->diag);
+        rc = ulk_rcorr_create(&rx->rcar, rx->fs_q, &rx->rc, rx->diag);
         if (rc < 0) return rc;
     }
     return rx->o.voice_path ? cx_voice(rx, c) : 0;
@@ -680,6 +687,7 @@ static int cx_finish(ulk_rx *rx)
                             rc == ULK_ELIMIT ? "the capture is shorter than one code period, so the code phase is ambiguous"
                                              : "out of memory");
         rx->est.has_ranging = 1;
+        if (rx->D > 1) rx->est.ranging.n_samples *= (uint64_t)rx->D; /* capture samples: one folded per D */
     }
     if (rx->vw) {
         int rc = ulk_writer_commit(rx->vw, rx->diag);
