@@ -286,6 +286,141 @@ static void test_delayed_outputs(void **state)
     free(der);
 }
 
+/* The outputs do not depend on how the capture is cut into pushes: the loop is updated once
+ * a block of samples, and a block that a push ends in the middle of goes on in the next one
+ * (blocks start at fixed samples). The same capture (0.4 s of noise, then 2 s of carrier at
+ * -2718.3 Hz, E_s/N_0 0 dB per sample at 96 kHz) pushed in pieces of 5000 and in pieces of
+ * 1, 7, 333, 4097 and 65536 samples in turn: every de-rotated output and every phase the same
+ * to 2e-6 (measured 7.2e-7: the sums the monitor and the assist use are added in other groups;
+ * when a push that ended a block early moved the loop as a full block would, the outputs
+ * differed by 0.037), the mean frequency to 1e-6 Hz (measured: equal). */
+static double push_all(const float *iq, size_t n, const size_t *pieces, int n_pieces, float *der, float *phi)
+{
+    ulk_crec_config cfg = {.fs_hz = 96000, .delayed = 1};
+    ulk_crec *r = NULL;
+    if (ulk_crec_create(&cfg, &r, NULL)) fail_msg("carrier recovery not created");
+    size_t got = 0;
+    for (size_t i = 0, q = 0; i < n; q++) {
+        size_t m = pieces[q % (size_t)n_pieces];
+        if (m > n - i) m = n - i;
+        long k = ulk_crec_push(r, iq + 2 * i, m, der + 2 * got, phi + got);
+        if (k < 0) fail_msg("push failed");
+        got += (size_t)k;
+        i += m;
+    }
+    long k = ulk_crec_drain(r, der + 2 * got, phi + got);
+    if (k < 0) fail_msg("drain failed");
+    got += (size_t)k;
+    if (got != n) fail_msg("%zu outputs for %zu samples", got, n);
+    ulk_crec_status st;
+    ulk_crec_get_status(r, &st);
+    if (st.n_acquired != 1) fail_msg("%d acquisitions, expected 1", st.n_acquired);
+    ulk_crec_destroy(r);
+    return st.mean_freq_hz;
+}
+
+static void test_push_pieces(void **state)
+{
+    (void)state;
+    const double fs = 96000, t0 = 0.4;
+    const size_t n = (size_t)(2.4 * fs);
+    float *iq = malloc(2 * n * sizeof *iq), *d1 = malloc(2 * n * sizeof *d1), *d2 = malloc(2 * n * sizeof *d2);
+    float *p1 = malloc(n * sizeof *p1), *p2 = malloc(n * sizeof *p2);
+    assert_non_null(iq);
+    assert_non_null(d1);
+    assert_non_null(d2);
+    assert_non_null(p1);
+    assert_non_null(p2);
+    for (size_t i = 0; i < n; i++) {
+        double t = (double)i / fs, re = sqrt(0.5) * gauss(), im = sqrt(0.5) * gauss();
+        if (t >= t0) {
+            double a = sent_phase(t, 0) - 2 * M_PI * 2718.3 * t + 1.1;
+            re += cos(a);
+            im += sin(a);
+        }
+        iq[2 * i] = (float)re;
+        iq[2 * i + 1] = (float)im;
+    }
+    const size_t even[] = {5000}, odd[] = {1, 7, 333, 4097, 65536};
+    double f1 = push_all(iq, n, even, 1, d1, p1), f2 = push_all(iq, n, odd, 5, d2, p2);
+    double worst = 0;
+    size_t at = 0;
+    for (size_t i = 0; i < n; i++) {
+        /* phases compared modulo 2 pi: one near +-pi may come out on either side */
+        double dp = fabs(remainder((double)p1[i] - (double)p2[i], 2 * M_PI));
+        double e = fmax(fabs(d1[2 * i] - d2[2 * i]), fmax(fabs(d1[2 * i + 1] - d2[2 * i + 1]), dp));
+        if (e > worst) { worst = e; at = i; }
+    }
+    printf("pieces: largest output difference %.3g (sample %zu), mean frequency %.6f / %.6f Hz\n", worst, at, f1, f2);
+    if (!(worst <= 2e-6)) fail_msg("outputs differ by %.3g at sample %zu (%.4f s) between two ways of pushing", worst, at,
+                                   (double)at / fs);
+    if (!(fabs(f1 - f2) <= 1e-6)) fail_msg("mean frequency %.6f Hz and %.6f Hz", f1, f2);
+    if (!(fabs(f1 + 2718.3) < 0.1)) fail_msg("mean frequency %.4f Hz, sent -2718.3 Hz", f1);
+    free(iq);
+    free(d1);
+    free(d2);
+    free(p1);
+    free(p2);
+}
+
+/* The frequency assist after a sliding-search acquisition: a carrier found after 0.05 s of
+ * noise, at the per-sample SNR of bench_envelope's composite cell at 192 kHz and its ideal
+ * E_b/N_0 (data alone at index 1.1 rad, 2000 symbols/s on a 10 kHz sine subcarrier; noise
+ * sigma 2.55 per component: P_c/N_0 about 39 dB-Hz), offset +1234.5 Hz. From 0.08 s after
+ * the acquisition on, the loop's frequency stays within 1.5 Hz of the line, for six noise
+ * seeds (measured 0.33-0.86 Hz). Before, the assist measured the phase advance against the
+ * loop's own de-rotation, took the loop's phase corrections for frequency error and drove it
+ * 2.8-8.2 Hz off (beyond 8 Hz the carrier slipped for half a second and the demodulator lost
+ * every word of a 300-word capture). */
+static double data_phase(double t)
+{
+    long sym = (long)floor(t * 2000);
+    double d = ((sym * 2654435761u) >> 7) & 1 ? 1 : -1;
+    return 1.1 * d * sin(2 * M_PI * 10000 * t);
+}
+
+static void test_assist(void **state)
+{
+    (void)state;
+    const double fs = 192000, t0 = 0.05, fo = 1234.5, sig = 2.55;
+    const size_t n = (size_t)fs;
+    float *iq = malloc(2 * n * sizeof *iq), *der = malloc(2 * 960 * sizeof *der);
+    assert_non_null(iq);
+    assert_non_null(der);
+    for (unsigned long long seed = 1; seed <= 6; seed++) {
+        seed_ = seed;
+        for (size_t i = 0; i < n; i++) {
+            double t = (double)i / fs, re = sig * gauss(), im = sig * gauss();
+            if (t >= t0) {
+                double a = data_phase(t) + 2 * M_PI * fo * t + 0.4;
+                re += cos(a);
+                im += sin(a);
+            }
+            iq[2 * i] = (float)re;
+            iq[2 * i + 1] = (float)im;
+        }
+        ulk_crec_config cfg = {.fs_hz = fs, .delayed = 1};
+        ulk_crec *r = NULL;
+        if (ulk_crec_create(&cfg, &r, NULL)) fail_msg("carrier recovery not created");
+        double worst = 0, acq = -1;
+        for (size_t i = 0; i < n; i += 960) {
+            if (ulk_crec_push(r, iq + 2 * i, 960, der, NULL) < 0) fail_msg("push failed");
+            ulk_crec_status st;
+            ulk_crec_get_status(r, &st);
+            if (st.n_acquired && acq < 0) acq = st.acquired_s;
+            double t = (double)(i + 960) / fs - (double)ulk_crec_delay(r) / fs; /* the output's time */
+            if (acq >= 0 && t > acq + 0.08 && fabs(st.freq_hz - fo) > worst) worst = fabs(st.freq_hz - fo);
+        }
+        ulk_crec_destroy(r);
+        printf("assist: seed %llu: acquired at %.4f s, loop frequency within %.2f Hz of the line after 0.08 s\n", seed, acq,
+               worst);
+        if (acq < 0) fail_msg("seed %llu: no acquisition", seed);
+        if (!(worst < 1.5)) fail_msg("seed %llu: the loop's frequency went %.2f Hz off the line", seed, worst);
+    }
+    free(iq);
+    free(der);
+}
+
 static void test_bad_config(void **state)
 {
     (void)state;
@@ -354,6 +489,8 @@ int main(void)
         cmocka_unit_test(test_noiseless_phase),
         cmocka_unit_test(test_transmissions_after_lead_in),
         cmocka_unit_test(test_delayed_outputs),
+        cmocka_unit_test(test_push_pieces),
+        cmocka_unit_test(test_assist),
         cmocka_unit_test(test_bad_config),
         cmocka_unit_test(test_voice),
     };

@@ -386,7 +386,8 @@ typedef struct ulk_crec ulk_crec;
  * ULK_ENOMEM. Reason in diag. Free with ulk_crec_destroy. */
 int ulk_crec_create(const ulk_crec_config *cfg, ulk_crec **out, ulk_diag *diag);
 /* Coarse acquisition on n complex samples (interleaved I, Q; uses at most the first
- * ulk_crec_block(r) of them, at least 64): sets the loop's frequency to the line found.
+ * ulk_crec_block(r) of them, at least 64): sets the loop's frequency to the line found and
+ * its phase to the line's at the first of the n samples (measured over them, Hann-weighted).
  * Returns 0; ULK_EINVAL (NULL, n < 64); ULK_EFORMAT (built without FFTW3); ULK_ENOMEM. */
 int ulk_crec_acquire(ulk_crec *r, const float *iq, size_t n);
 /* Samples the coarse step wants: the power of two >= 0.5 s, at most 2^20. */

@@ -10,9 +10,10 @@
  * keys and the receive-side anti-replay state given in the options.
  *
  * Complex captures: the carrier recovery runs with delayed outputs (a transmission found after
- * noise or a gap is de-rotated from its first sample); when only a sine data channel is
- * decoded (no ranging, no voice) the samples are low-passed and decimated before it, with
- * every time still on the capture's sample clock (docs/carrier.md). Warnings at finish: no
+ * noise or a gap is de-rotated from its first sample); for a sine data channel without pilot
+ * and no voice asked, the samples are low-passed and decimated before it (with ranging to a
+ * band that keeps 8 chip rates), with every time still on the capture's sample clock
+ * (docs/carrier.md). Warnings at finish: no
  * carrier line found anywhere, the carrier offset or the clock-error estimate at the edge of
  * its search range.
  *
