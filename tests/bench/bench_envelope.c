@@ -495,7 +495,10 @@ static double binom_log_cdf(size_t k, size_t n, double p)
 }
 
 /* Clopper-Pearson 95 % interval of a binomial proportion k / n (Clopper and Pearson,
- * Biometrika 26 (1934); the exact tail definition, solved by bisection in log p). */
+ * Biometrika 26 (1934); the exact tail definition, solved by bisection in log p). Checked
+ * against its beta-quantile form, python3-scipy's scipy.stats.beta.ppf(0.025, k, n - k + 1)
+ * and beta.ppf(0.975, k + 1, n - k), for k / n = 0/15000, 1/12000, 16/36072, 35/36072,
+ * 123/12000 and 203/15000: equal within 3e-7 relative. */
 static void clopper_pearson(size_t k, size_t n, double *lo, double *hi)
 {
     *lo = 0;
