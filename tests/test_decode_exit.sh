@@ -77,6 +77,21 @@ check "+1500 ppm: --json at_search_limit true, search_limit_ppm = the help's fig
 "$ULK" verify --dict demo-subbit.yaml --upload demo.upl p1500.wav >v15.out 2>v15.err
 grep -q "reached the search limit of +-$lim ppm" v15.err
 check "+1500 ppm: verify warns too" $? "stderr: $(cat v15.err)"
+"$ULK" verify --dict demo-subbit.yaml --upload demo.upl p1500.wav --json >v15.json 2>/dev/null
+LIM=$lim /usr/bin/python3 -c '
+import json, os, sys
+e = json.load(open("v15.json"))["estimates"]
+sys.exit(0 if e["at_search_limit"] is True and e["search_limit_ppm"] == float(os.environ["LIM"])
+         and 1000 < e["rate_error_ppm"] <= float(os.environ["LIM"]) else 1)'
+check "+1500 ppm: verify --json at_search_limit true, the estimate (a bound: beyond 1000, within the range), search_limit_ppm" $? "$(tail -8 v15.json)"
+"$ULK" verify --dict demo-subbit.yaml --upload demo.upl p1000.wav --json >v10.json 2>/dev/null
+/usr/bin/python3 -c '
+import json, sys
+d = json.load(open("v10.json"))
+e = d["estimates"]
+sys.exit(0 if d["match"] is True and e["at_search_limit"] is False and abs(e["rate_error_ppm"] - 1000) < 50
+         and "carrier" not in d else 1)'
+check "+1000 ppm: verify --json not at the limit, the estimate near 1000 ppm, no carrier member" $? "$(tail -8 v10.json)"
 "$ULK" decode --dict demo-subbit.yaml p1000.wav --json >p10.json 2>p10.err
 /usr/bin/python3 -c '
 import json, sys
@@ -95,4 +110,12 @@ PY
 "$ULK" decode --dict demo-subbit.yaml noise.cf32 --rate 48000 --format cf32 --mode command >nz.out 2>nz.err
 grep -q "no residual carrier line found anywhere in the capture" nz.err
 check "complex noise: warned that no carrier line was found" $? "stderr: $(cat nz.err)"
+"$ULK" verify --dict demo-subbit.yaml --upload demo.upl noise.cf32 --rate 48000 --format cf32 --mode command --json >nzv.json 2>/dev/null
+/usr/bin/python3 -c '
+import json, sys
+d = json.load(open("nzv.json"))
+k, e = d["carrier"], d["estimates"]
+sys.exit(0 if k["acquired"] is False and k["at_search_limit"] is False and k["search_limit_hz"] > 0
+         and e["signal_found"] is False and e["rate_error_ppm"] is None else 1)'
+check "complex noise: verify --json carries the carrier search limit, nothing acquired" $? "$(tail -14 nzv.json)"
 exit $fail

@@ -58,7 +58,8 @@ typedef struct ulk_verify ulk_verify;
  * the dictionary digests; both must outlive the object). Returns 0, or ULK_ENOMEM. */
 int ulk_verify_create(const ulk_dict *dict, const ulk_upload *u, ulk_verify **out, ulk_diag *diag);
 
-/* Adds a ULK_RX_WORD or ULK_RX_CLTU event (others are ignored). Returns 0 or ULK_ENOMEM. */
+/* Adds a ULK_RX_WORD or ULK_RX_CLTU event, or keeps a copy of the ULK_RX_ESTIMATES event's
+ * estimates (others are ignored). Returns 0 or ULK_ENOMEM. */
 int ulk_verify_add(ulk_verify *v, const ulk_rx_event *ev);
 
 /* Aligns the accepted units with the upload. Returns 0 or ULK_ENOMEM. Once, after the last add. */
@@ -71,6 +72,10 @@ const ulk_verify_unit *ulk_verify_rejected(const ulk_verify *v, size_t i);
 /* The edit script, in order (after compare). */
 size_t ulk_verify_n_ops(const ulk_verify *v);
 const ulk_verify_op *ulk_verify_op_at(const ulk_verify *v, size_t i);
+/* What the receiver measured (its ULK_RX_ESTIMATES event): the clock-error estimate and
+ * whether it reached its search limit, and for a complex capture the carrier's. NULL until
+ * that event was added. */
+const ulk_rx_estimates *ulk_verify_estimates(const ulk_verify *v);
 /* 1 when the script is all matches (the capture holds exactly the upload). */
 int ulk_verify_good(const ulk_verify *v);
 

@@ -18,6 +18,7 @@
 #include "ulk/rx.h"
 #include "ulk/upload.h"
 #include "ulk/verify.h"
+#include "util.h"
 
 static void usage(FILE *out)
 {
@@ -146,6 +147,36 @@ static cJSON *time_json(double t)
     return cJSON_CreateRaw(buf);
 }
 
+/* A rounded number, or null when there is no estimate (as in ulk decode --json). */
+static cJSON *num_or_null(int have, double v)
+{
+    if (!have || !isfinite(v)) return cJSON_CreateNull();
+    char buf[64];
+    ulk_fmt_double(v, buf, sizeof buf);
+    return cJSON_CreateRaw(buf);
+}
+
+/* The search-limit members, named and rounded as in ulk decode --json
+ * (docs/spec/decode-output.md section 3): the clock-error estimate and whether it reached the
+ * edge of the range searched; for a complex capture the carrier offset and its search range. */
+static void search_limits_json(cJSON *root, const ulk_rx_estimates *c)
+{
+    const ulk_demod_estimates *d = &c->demod;
+    int s = d->signal_found;
+    cJSON *e = cJSON_AddObjectToObject(root, "estimates");
+    cJSON_AddItemToObject(e, "rate_error_ppm", num_or_null(s, round(d->rate_error_ppm * 100) / 100));
+    cJSON_AddBoolToObject(e, "signal_found", s);
+    cJSON_AddBoolToObject(e, "at_search_limit", s && d->at_search_limit);
+    cJSON_AddNumberToObject(e, "search_limit_ppm", d->search_limit_ppm);
+    if (!c->complex_) return;
+    cJSON *k = cJSON_AddObjectToObject(root, "carrier");
+    int a = c->crec.n_acquired > 0;
+    cJSON_AddItemToObject(k, "offset_hz", num_or_null(1, round(c->crec.mean_freq_hz * 1000) / 1000));
+    cJSON_AddBoolToObject(k, "acquired", a);
+    cJSON_AddBoolToObject(k, "at_search_limit", a && c->crec.at_limit);
+    cJSON_AddNumberToObject(k, "search_limit_hz", c->max_offset_hz);
+}
+
 /* One entry of the JSON report for a missing, extra or changed command. */
 static cJSON *op_json(const ulk_dict *dict, const ulk_upload *u, const ulk_verify *v, const ulk_verify_op *p)
 {
@@ -219,6 +250,7 @@ static int print_json(const ulk_dict *dict, const ulk_upload *u, const ulk_verif
         if (w->hex[0]) cJSON_AddStringToObject(e, "hex", w->hex); /* none when nothing was recovered */
         cJSON_AddItemToArray(jr, e);
     }
+    if (ulk_verify_estimates(v)) search_limits_json(root, ulk_verify_estimates(v));
     char *txt = cJSON_Print(root);
     cJSON_Delete(root);
     if (!txt) { fprintf(stderr, "ulk verify: out of memory\n"); return -1; }

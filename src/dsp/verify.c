@@ -154,6 +154,8 @@ struct ulk_verify {
     ulk_verify_op *ops;
     size_t n_ops;
     int compared;
+    int have_est;
+    ulk_rx_estimates est;  /* a copy: the event's pointer dies with the next pull */
 };
 
 int ulk_verify_create(const ulk_dict *dict, const ulk_upload *u, ulk_verify **out, ulk_diag *diag)
@@ -181,6 +183,11 @@ static ulk_verify_unit *list_add(unit_list *l)
 
 int ulk_verify_add(ulk_verify *v, const ulk_rx_event *ev)
 {
+    if (ev->kind == ULK_RX_ESTIMATES && ev->est) {
+        v->est = *ev->est;
+        v->have_est = 1;
+        return 0;
+    }
     if (ev->kind != ULK_RX_WORD && ev->kind != ULK_RX_CLTU) return 0;
     const ulk_decoded *d = ev->dec;
     int acc = d->status == ULK_WORD_ACCEPTED;
@@ -224,6 +231,7 @@ const ulk_verify_unit *ulk_verify_accepted(const ulk_verify *v, size_t i) { retu
 size_t ulk_verify_n_rejected(const ulk_verify *v) { return v->rej.n; }
 const ulk_verify_unit *ulk_verify_rejected(const ulk_verify *v, size_t i) { return i < v->rej.n ? &v->rej.u[i] : NULL; }
 size_t ulk_verify_n_ops(const ulk_verify *v) { return v->n_ops; }
+const ulk_rx_estimates *ulk_verify_estimates(const ulk_verify *v) { return v->have_est ? &v->est : NULL; }
 const ulk_verify_op *ulk_verify_op_at(const ulk_verify *v, size_t i) { return i < v->n_ops ? &v->ops[i] : NULL; }
 
 int ulk_verify_good(const ulk_verify *v)
