@@ -260,7 +260,7 @@ static int cx_decim_plan(ulk_rx *rx)
     const ulk_carrier *c = ulk_dict_carrier(rx->dict);
     if (rx->o.voice_path || l->waveform != ULK_WAVE_SINE || l->has_pilot) return 0;
     double fs = rx->o.fs_hz;
-    double rs = ulk_ratio_to_double(l->bit_rate) * (l->profile == ULK_PROFILE_CCSDS_TC ? 1 : l->n_subbits);
+    double rs = ulk_ratio_to_double(ulk_profile_of(l)->symbol_rate(l)); /* R_s on the subcarrier */
     double mo = rx->o.max_offset_hz > 0 ? rx->o.max_offset_hz : ULK_CARRIER_DEFAULT_MAX_OFFSET_HZ;
     double edge = ulk_ratio_to_double(l->fsc) + rs;
     if (rx->o.ranging) edge = fmax(edge, 8 * ulk_ratio_to_double(c->chip_rate));
