@@ -1,5 +1,8 @@
 /* src/dict.c - the command dictionary: from the document tree to the model, with every rule
- * of docs/spec/subbit.md section 1 and the dictionary tree of docs/spec/dictionary.md checked.
+ * of the dictionary tree of docs/spec/dictionary.md checked. The link section and the rules
+ * that depend on its profile (addresses, opcodes, argument room, the link's canonical form)
+ * are the profile's dictionary operations (ulk/profile.h; src/profiles/<name>/<name>_dict.c), which
+ * work through this loader's helpers (dict_build.h).
  *
  * Why one pass that keeps going: an operator fixing a dictionary wants every problem in one
  * run, each pointing at its line. So each section is read into the model as far as it can

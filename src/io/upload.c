@@ -8,7 +8,9 @@
  * field and rebuilds each word's fields from the word bits and compares them, so a file
  * whose digest was recomputed by hand is still refused when it is inconsistent; the digest,
  * known at the end, decides first: a changed file is reported as changed and nothing read
- * from it is returned.
+ * from it is returned. Each profile reads its own link object and unit members back
+ * (ulk/profile.h "upload reader"; src/profiles/<name>/<name>_upload.c) through this reader's helpers
+ * (upload_read.h), as it writes them through upload_text.h.
  */
 #define _GNU_SOURCE /* memmem */
 #include <ctype.h>
