@@ -16,11 +16,12 @@
  * dictionary side of compiling (arguments by name -> raw fields -> packed bits).
  *
  * A profile never sees samples and never formats arguments: packed argument bits go in.
- * Besides encoding, the table holds what else differs between profiles: its words in
- * messages, its rates, its security association, its lines in the reports of compile,
- * inspect, validate and verify, the upload reader's check of a unit, and its receiver (the
- * unit decoder from samples to words or frames; the rest is listed
- * in DEVELOPERS.md, "How to add a link profile"). Each profile's table lives in its folder
+ * Besides encoding, the table holds what else differs between profiles: its dictionary
+ * section (parse, rules, canonical form), its words in messages, its rates, its security
+ * association, its lines in the reports of compile, inspect, validate and verify, its
+ * records in the upload file (write and read back), and its receiver (the unit decoder from
+ * samples to words or frames); DEVELOPERS.md, "How to add a link profile", lists them. Each
+ * profile's table lives in its folder
  * under src/profiles/ and is registered in src/profiles/profile.c.
  *
  * Usage (what ulk_compile does):
@@ -44,6 +45,16 @@
  * above it (scripts/check-layers.py), while the tables themselves live in src/profiles/. */
 struct ulk_upload;
 struct ulk_upload_cmd;
+struct ulk_upload_arg;
+/* The dictionary loader's and the upload reader's internals, named by struct tag only: the
+ * loader's build context and canonical text (src/dict/dict_build.h), a node of the document
+ * tree (src/core/doc.h), the upload reader and its JSON values (src/io/upload_read.h,
+ * cJSON). A profile's dictionary and reader operations work through those private headers. */
+struct ulk_dict_build;
+struct ulk_dict_text;
+struct ulk_node;
+struct ulk_rd;
+struct cJSON;
 
 #ifdef __cplusplus
 extern "C" {
@@ -68,6 +79,35 @@ typedef enum { ULK_GAP_FIRST = 0, ULK_GAP_BETWEEN = 1, ULK_GAP_LAST = 2 } ulk_ga
 typedef struct ulk_profile_ops {
     const char *name;          /* the dictionary's `profile:` value */
     ulk_profile id;
+
+    /* ---- dictionary section ---- */
+    /* The link section of a dictionary with this `profile:` (the first registered profile also
+     * reads a link section without one). The loader has checked that link is a mapping and set
+     * l->profile = id and l->amplitude = 1; link_parse fills the rest of the link through the
+     * loader's helpers, reporting each finding with its file:line:col, and keeps what its
+     * command checks below need in ulk_dict_build_state (zeroed before: nothing known). */
+    void (*link_parse)(struct ulk_dict_build *b, struct ulk_node *link);
+    /* A system's `address` node: read, checked and reported like the rest of the section;
+     * 1 with *out set when it is valid. */
+    int (*system_address)(struct ulk_dict_build *b, struct ulk_node *n, uint32_t *out);
+    /* What the loader calls a system's address in its duplicate message: "address",
+     * "address (APID)". */
+    const char *address_noun;
+    /* 1 when one bit error can turn a unit for one system into a unit for another (nothing
+     * covers the address: a word); the loader then warns of addresses one bit apart. */
+    int address_unprotected;
+    /* A command's opcode v (>= 0): 1 when the profile's unit has room for it, else reported
+     * at n and 0. */
+    int (*opcode_fits)(struct ulk_dict_build *b, struct ulk_node *n, int64_t v);
+    /* A command whose arguments all have a width: the packed width k->packed_bits against
+     * the unit's room (argument field D, or a frame), reported at args. */
+    void (*command_check)(struct ulk_dict_build *b, const ulk_command *k, struct ulk_node *args);
+    /* The link object of the canonical form (docs/spec/dictionary.md section 6): every
+     * member, keys in byte order, through the loader's canonical text. It decides the hash. */
+    void (*link_canonical)(struct ulk_dict_text *t, const ulk_link *l);
+    /* Information bits per second of the link, for the composite carrier's data channel:
+     * R_b, or R * 56/64 (what a BCH codeblock carries). */
+    ulk_ratio (*info_bit_rate)(const ulk_link *l);
 
     /* ---- stream layout ---- */
     /* Filler units of a gap before waits: P, G, T idle patterns; or 8 * acquisition_octets,
@@ -100,6 +140,7 @@ typedef struct ulk_profile_ops {
     void (*encoder_destroy)(void *enc);  /* NULL does nothing */
     /* ---- words for messages and metadata ---- */
     const char *unit_noun;     /* what a command becomes, plural: "words", "CLTUs" */
+    const char *unit_noun_one; /* the same, singular: "word", "CLTU" */
     const char *symbol_noun;   /* what the timing table counts: "sub-bits", "channel bits" */
     /* Writes where the packed arguments of one command go, for "its arguments do not fit %s":
      * "the 16-bit argument field", "a 1024-octet TC frame (8152 argument bits at most)". */
@@ -142,9 +183,46 @@ typedef struct ulk_profile_ops {
     void (*upload_write_link)(const ulk_link *l, struct ulk_jbuf *b);
     void (*upload_write_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, struct ulk_jbuf *b);
     /* ---- upload reader ---- */
-    /* What ulk_profile_check_unit does for this profile; NULL when the reader checks the
-     * unit itself (a sub-bit word is read field by field). */
-    int (*check_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, char *err, size_t errlen);
+    /* Through the reader's helpers (src/io/upload_read.h): each returns 0, or the status of
+     * the first failure it reported there with its tree path. */
+    /* The link object lj of an upload file of this profile (every member present: the
+     * dictionary's rules, the writer's spelling); l is zeroed. */
+    int (*upload_read_link)(struct ulk_rd *r, const struct cJSON *lj, ulk_link *l);
+    /* The members of the link object, in the writer's order: what the reader checks first
+     * when the first registered profile stands in for a missing or unknown profile name. */
+    const char *const *upload_link_members;
+    int n_upload_link_members;
+    /* The members of a command record, in the writer's order. */
+    const char *const *upload_cmd_members;
+    int n_upload_cmd_members;
+    /* The largest system address and opcode a record may carry. */
+    uint64_t (*upload_max_address)(const ulk_link *l);
+    uint64_t (*upload_max_opcode)(const ulk_link *l);
+    /* The filler runs by ulk_gap, in the reader's messages: "preamble", "gap", "postamble";
+     * or "acquisition sequence", "idle sequence", "idle sequence". */
+    const char *gap_names[3];
+    /* The unit members of record cj (path "commands[i]") into c: the word, or the counts,
+     * frame and CLTU (owned buffers). */
+    int (*upload_read_unit)(struct ulk_rd *r, const struct cJSON *cj, const char *path, const ulk_link *l,
+                            struct ulk_upload_cmd *c);
+    /* Argument a of c (path ap), after pos argument bits before it: it fits the unit, and
+     * (a word) its raw value is in the word. */
+    int (*upload_check_arg)(struct ulk_rd *r, const char *ap, const ulk_link *l, const struct ulk_upload_cmd *c,
+                            int pos, const struct ulk_upload_arg *a);
+    /* The whole unit of c after its n_arg_bits argument bits: exactly what its fields make. */
+    int (*upload_check_unit)(struct ulk_rd *r, const char *path, const ulk_link *l, const struct ulk_upload_cmd *c,
+                             int n_arg_bits);
+    /* The counts that run across records (packet count per APID, N(S)): state for one read
+     * (*st NULL is valid; 0 or ULK_ENOMEM), the check of record idx, and its end. */
+    int (*upload_counts_create)(const ulk_link *l, void **st);
+    int (*upload_counts_check)(void *st, struct ulk_rd *r, const char *path, const ulk_link *l,
+                               const struct ulk_upload_cmd *c, size_t idx);
+    void (*upload_counts_destroy)(void *st);
+    /* The lean reader: octets every unit takes when all take the same (ceil(W / 8)), else 0
+     * (the reader keeps an offset per unit); and unit_octets(l, c) octets of c's unit, the
+     * first channel bit in the high bit of dst[0]. */
+    size_t (*unit_stride)(const ulk_link *l);
+    void (*unit_pack)(const ulk_link *l, const struct ulk_upload_cmd *c, uint8_t *dst);
     /* ---- receiver ---- */
     /* The unit decoder of the receiver (ulk/rx.h, src/dsp/rx.c): samples of the data channel
      * in, words or frames out. It owns its blind front end (ulk/demod.h: the sub-bit
@@ -170,14 +248,13 @@ typedef struct ulk_profile_ops {
 
 /* The table of a profile; NULL for an unknown id. */
 const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id);
+/* The table whose name is the `profile:` value name; NULL when none is. */
+const ulk_profile_ops *ulk_profile_ops_by_name(const char *name);
+/* The i-th registered table (0 first), NULL past the last: for listing the names. */
+const ulk_profile_ops *ulk_profile_ops_at(size_t i);
 /* The table of l's profile, for a link the dictionary loader or upload reader made (its
  * profile is one of the registered ones). */
 const ulk_profile_ops *ulk_profile_of(const ulk_link *l);
-
-/* Rebuilds what command c's unit must be from its fields (system address, opcode, argument
- * raw values, and for ccsds-tc the sequence count and N(S)) and compares: 0 when c's unit is
- * exactly that, else ULK_EPARSE with the first difference in err. For the upload reader. */
-int ulk_profile_check_unit(const ulk_link *l, const struct ulk_upload_cmd *c, char *err, size_t errlen);
 
 #ifdef __cplusplus
 }

@@ -17,7 +17,7 @@
 extern "C" {
 #endif
 
-typedef struct {
+typedef struct ulk_upload_arg {
     char *name;
     uint64_t raw;      /* raw field */
     double eng;        /* engineering value */

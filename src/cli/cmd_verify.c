@@ -15,6 +15,7 @@
 #include "ulk/ccsds.h" /* ULK_TCF_MAX_OCTETS: the longest unit identity in hex */
 #include "ulk/decode.h"
 #include "ulk/dict.h"
+#include "ulk/profile.h"
 #include "ulk/rx.h"
 #include "ulk/upload.h"
 #include "ulk/verify.h"
@@ -263,7 +264,7 @@ static void print_op(const ulk_dict *dict, const ulk_upload *u, const ulk_verify
 {
     const ulk_upload_cmd *uc = p->kind != ULK_VERIFY_EXTRA ? &u->cmds[p->upload_index] : NULL;
     const ulk_verify_unit *w = p->kind != ULK_VERIFY_MISSING ? ulk_verify_accepted(v, p->accepted_index) : NULL;
-    const char *unit = u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTU" : "word";
+    const char *unit = ulk_profile_of(&u->link)->unit_noun_one;
     char txt[4096];
     if (p->kind == ULK_VERIFY_MISSING) {
         sent_text(dict, uc, txt, sizeof txt);
@@ -295,7 +296,7 @@ static void print_human(const char *capture, const char *upload_path, const ulk_
                         const ulk_verify *v)
 {
     size_t nrej = ulk_verify_n_rejected(v);
-    const char *unit = u->link.profile == ULK_PROFILE_CCSDS_TC ? "CLTU" : "word";
+    const char *unit = ulk_profile_of(&u->link)->unit_noun_one;
     printf("%s against %s: %zu upload %s%s, %zu accepted, %zu rejected in the capture\n", capture, upload_path,
            u->n_cmds, unit, plural(u->n_cmds), ulk_verify_n_accepted(v), nrej);
     for (size_t k = 0; k < ulk_verify_n_ops(v); k++) print_op(dict, u, v, ulk_verify_op_at(v, k));

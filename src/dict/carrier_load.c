@@ -12,6 +12,7 @@
 #include "doc.h"
 #include "ulk/carrier.h"
 #include "ulk/dict.h"
+#include "ulk/profile.h"
 #include "util.h"
 
 #ifndef M_PI
@@ -322,17 +323,10 @@ static void load_data(lctx *x, ulk_node *dn, const ulk_link *link)
     c->has_pilot = link->has_pilot;
     c->pilot_hz = link->fp;
     c->pilot_amp = link->has_pilot ? link->pilot_amplitude : 0.0;
-    if (link->profile == ULK_PROFILE_CCSDS_TC) {
-        /* R_b = 56/64 of the channel rate: a BCH codeblock carries 56 information bits in 64
-         * (CCSDS 231.0-B-4 section 3, from memory); start sequence, tail and idle are left out. */
-        c->data_symbol_rate = link->bit_rate;
-        if (ulk_ratio_mul_int(link->bit_rate, 7, &c->data_rb) ||
-            ulk_ratio_div(c->data_rb, ulk_ratio_make(8, 1), &c->data_rb))
-            c->data_rb = link->bit_rate;
-    } else {
-        c->data_rb = link->bit_rate;
-        c->data_symbol_rate = ulk_link_subbit_rate(link);
-    }
+    /* the link's own rates: information bits (R_b, or what the codeblocks carry) and symbols */
+    const ulk_profile_ops *prof = ulk_profile_of(link);
+    c->data_rb = prof->info_bit_rate(link);
+    c->data_symbol_rate = prof->symbol_rate(link);
     if ((n = ulk_node_get(dn, "info_rate"))) get_rate(x, n, &c->data_rb, 0);
     if ((n = ulk_node_get(dn, "required_ebn0_db")) && get_num(x, n, &c->data_ebn0_req_db))
         c->has_data_need = 1;

@@ -1,5 +1,8 @@
 /* src/dict.c - the command dictionary: from the document tree to the model, with every rule
- * of docs/spec/subbit.md section 1 and the dictionary tree of docs/spec/dictionary.md checked.
+ * of the dictionary tree of docs/spec/dictionary.md checked. The link section and the rules
+ * that depend on its profile (addresses, opcodes, argument room, the link's canonical form)
+ * are the profile's dictionary operations (ulk/profile.h; src/profiles/<name>/<name>_dict.c), which
+ * work through this loader's helpers (dict_build.h).
  *
  * Why one pass that keeps going: an operator fixing a dictionary wants every problem in one
  * run, each pointing at its line. So each section is read into the model as far as it can
@@ -24,9 +27,9 @@
 #include "carrier_load.h"
 #include "doc.h"
 #include "exact.h"
-#include "ulk/ccsds.h"
+#include "dict_build.h"
 #include "ulk/dict.h"
-#include "ulk/sdls.h"
+#include "ulk/profile.h"
 #include "util.h"
 
 /* ---------------------------------------------------------------- arena */
@@ -110,17 +113,18 @@ static void fmt_num(double v, char *buf, size_t len) { ulk_fmt_double(v == 0.0 ?
 
 /* ---------------------------------------------------------------- build context */
 
-typedef struct {
+typedef struct ulk_dict_build {
     dict_impl *di;
     ulk_dict *d;
     ulk_doc *doc;
     ulk_diag *diag;
     int oom;
-    /* Link fields known to be valid (-1 = broken or missing: dependent rules are skipped). */
-    int n_ok, patterns_ok, rb_ok, fsc_ok, amp_ok, vbits, sbits, obits, dbits, check_ok;
-    ulk_ratio amp_exact;
-    int ccsds;   /* link profile is ccsds-tc: APIDs, one-octet opcodes, the frame limit */
-    int tc_ok;   /* the tc section is complete and valid (the frame limit can be checked) */
+    /* The link's profile: the one its `profile:` names, else the first registered one (its
+     * rules for systems and commands apply to a dictionary whose link section is broken). */
+    const ulk_profile_ops *prof;
+    /* What the profile's link_parse found valid, for its checks of systems and commands
+     * (ulk_db_state; zero: nothing known, so dependent rules are skipped). */
+    max_align_t state[(ULK_DB_STATE_OCTETS + sizeof(max_align_t) - 1) / sizeof(max_align_t)];
 } bctx;
 
 static void vfinding(bctx *c, ulk_severity sev, ulk_node *n, const char *fmt, va_list ap)
@@ -371,145 +375,6 @@ static int get_choice(bctx *c, ulk_node *n, const char *const *names, size_t cou
 
 /* ---------------------------------------------------------------- link */
 
-static int get_pattern(bctx *c, ulk_node *n, uint8_t *out, int *len)
-{
-    if (n && n->kind == ULK_NODE_SCALAR && !n->quoted) {
-        err(c, n,
-            "sub-bit pattern '%s' must be a quoted string: unquoted, %s reads it as %s; write %s: \"%.20s\"",
-            key_name(n), c->doc->is_json ? "JSON" : "YAML", ulk_node_type_name(n), key_name(n), n->text);
-        return 0;
-    }
-    const char *s;
-    if (!get_str(c, n, &s)) return 0;
-    size_t l = strlen(s);
-    if (l < 1 || l > ULK_MAX_SUBBITS || strspn(s, "01") != l) {
-        err(c, n, "sub-bit pattern '%s' must be 1 to %d characters 0 or 1, not \"%.40s\"", key_name(n),
-            ULK_MAX_SUBBITS, s);
-        return 0;
-    }
-    for (size_t i = 0; i < l; i++) out[i] = (uint8_t)(s[i] - '0');
-    *len = (int)l;
-    return 1;
-}
-
-static void fmt_pattern(const uint8_t *p, int n, char *buf)
-{
-    for (int i = 0; i < n; i++) buf[i] = (char)('0' + p[i]);
-    buf[n] = 0;
-}
-
-static void build_subbits(bctx *c, ulk_node *sb)
-{
-    ulk_link *L = &c->d->link;
-    static const char *const keys[] = {"zero", "one", "idle", NULL};
-    if (!want_map(c, sb, "link.subbits")) return;
-    check_keys(c, sb, "link.subbits", keys, keys);
-    ulk_node *nz = ulk_node_get(sb, "zero"), *no = ulk_node_get(sb, "one"), *ni = ulk_node_get(sb, "idle");
-    int lz = 0, lo = 0, li = 0;
-    int okz = nz && get_pattern(c, nz, L->zero, &lz);
-    int oko = no && get_pattern(c, no, L->one, &lo);
-    int oki = ni && get_pattern(c, ni, L->idle, &li);
-    if (!okz || !oko || !oki) return;
-    if (lo != lz) { err(c, no, "pattern 'one' has %d sub-bits but 'zero' has %d: all patterns need the same length n", lo, lz); return; }
-    if (li != lz) { err(c, ni, "pattern 'idle' has %d sub-bits but 'zero' has %d: all patterns need the same length n", li, lz); return; }
-    int n = lz;
-    L->n_subbits = n;
-    c->n_ok = 1;
-    char bz[20], bo[20], bi[20], bc[20];
-    fmt_pattern(L->zero, n, bz);
-    fmt_pattern(L->one, n, bo);
-    fmt_pattern(L->idle, n, bi);
-    uint8_t comp[ULK_MAX_SUBBITS];
-    for (int i = 0; i < n; i++) comp[i] = (uint8_t)(1 - L->idle[i]);
-    fmt_pattern(comp, n, bc);
-    int bad = 0;
-    int d = 0;
-    for (int i = 0; i < n; i++) d += L->zero[i] != L->one[i];
-    if (d == 0) { err(c, no, "patterns 'zero' and 'one' are equal (\"%s\"): bits could not be told apart", bz); bad = 1; }
-    if (!memcmp(L->idle, L->zero, (size_t)n)) { err(c, ni, "idle pattern equals 'zero' (\"%s\")", bi); bad = 1; }
-    if (!memcmp(L->idle, L->one, (size_t)n)) { err(c, ni, "idle pattern equals 'one' (\"%s\")", bi); bad = 1; }
-    /* The decoder resolves the 180 degree ambiguity from the idle preamble: the inverted idle
-     * must not look like idle, a zero or a one. */
-    if (!memcmp(comp, L->idle, (size_t)n)) {
-        err(c, ni, "the complement of the idle pattern (\"%s\") equals the idle pattern: a 180 degree phase ambiguity could not be resolved", bc);
-        bad = 1;
-    }
-    if (!memcmp(comp, L->zero, (size_t)n)) {
-        err(c, ni, "the complement of the idle pattern (\"%s\") equals 'zero': a 180 degree phase ambiguity could not be resolved", bc);
-        bad = 1;
-    }
-    if (!memcmp(comp, L->one, (size_t)n)) {
-        err(c, ni, "the complement of the idle pattern (\"%s\") equals 'one': a 180 degree phase ambiguity could not be resolved", bc);
-        bad = 1;
-    }
-    if (d > 0 && d < n)
-        warn(c, no, "Hamming distance between 'zero' (\"%s\") and 'one' (\"%s\") is %d, below n = %d: sensitivity loss %.2f dB (10*log10(n/d))",
-             bz, bo, d, n, 10.0 * log10((double)n / d));
-    c->patterns_ok = !bad;
-}
-
-/* One-sub-bit slips (review of the decoder): a receiver finds where groups of n sub-bits
- * start from the stream itself. When the idle pattern is unchanged by a one-sub-bit rotation
- * (00 under nrz-m, 0000 under nrz-l) a long wait says nothing about that; when a rotated idle
- * or a one-sub-bit shift across two bit patterns gives 'zero' or 'one', a slipped reading
- * looks like bits (nrz-m 01/10: every bit flips and an even-length word keeps its parity).
- * Sub-bits are compared as sent: under nrz-m a 1 is a transition, which the receiver
- * sees wherever groups start, so the same comparison holds. Warnings, not errors: the
- * decoder tests each word against the shifts and rejects ambiguous ones, but such a
- * profile relies on that test alone. */
-static void shift_warnings(bctx *c, ulk_node *sb)
-{
-    const ulk_link *L = &c->d->link;
-    const int n = L->n_subbits;
-    if (n < 2) return;
-    ulk_node *ni = ulk_node_get(sb, "idle"), *nz = ulk_node_get(sb, "zero");
-    const uint8_t *pat[2] = {L->zero, L->one};
-    static const char *const pname[2] = {"zero", "one"};
-    const char *lc = L->line_code == ULK_LINE_NRZM ? "nrz-m" : "nrz-l";
-    uint8_t w[ULK_MAX_SUBBITS];
-    char bw[20], bi[20];
-    fmt_pattern(L->idle, n, bi);
-    for (int dir = 0; dir < 2; dir++) {
-        for (int i = 0; i < n; i++) w[i] = L->idle[(i + (dir ? n - 1 : 1)) % n];
-        if (!memcmp(w, L->idle, (size_t)n)) {
-            warn(c, ni, "the idle stream (\"%s\" repeated) is unchanged by a one-sub-bit shift: it carries no group "
-                        "alignment, so after a wait the decoder can place words only from their own sub-bits (%s); "
-                        "words it cannot place are rejected as ambiguous",
-                 bi, lc);
-            break;
-        }
-        for (int p = 0; p < 2; p++)
-            if (!memcmp(w, pat[p], (size_t)n)) {
-                fmt_pattern(w, n, bw);
-                warn(c, ni, "the idle stream (\"%s\" repeated) shifted by one sub-bit reads \"%s\", the '%s' pattern: "
-                            "a slipped receiver sees bits in the idle",
-                     bi, bw, pname[p]);
-                dir = 2;
-                break;
-            }
-    }
-    /* Across two bit patterns X Y, a group one sub-bit late is X[1..n) Y[0], one early
-     * X[n-1] Y[0..n-1). */
-    for (int x = 0; x < 2; x++)
-        for (int y = 0; y < 2; y++)
-            for (int dir = 0; dir < 2; dir++) {
-                if (dir == 0) { memcpy(w, pat[x] + 1, (size_t)n - 1); w[n - 1] = pat[y][0]; }
-                else { w[0] = pat[x][n - 1]; memcpy(w + 1, pat[y], (size_t)n - 1); }
-                for (int p = 0; p < 2; p++)
-                    if (!memcmp(w, pat[p], (size_t)n)) {
-                        char bx[20], by[20];
-                        fmt_pattern(pat[x], n, bx);
-                        fmt_pattern(pat[y], n, by);
-                        fmt_pattern(w, n, bw);
-                        warn(c, nz, "a one-sub-bit %s slip across '%s' then '%s' (\"%s%s\") reads \"%s\", the '%s' "
-                                    "pattern (%s): a slipped word can decode to other valid bits, and a check field "
-                                    "need not catch it; choose patterns whose one-sub-bit shifts match neither",
-                             dir ? "early" : "late", pname[x], pname[y], bx, by, bw, pname[p], lc);
-                        return;
-                    }
-            }
-}
-
 static int positive_ratio(bctx *c, ulk_node *n, ulk_ratio *out, const char *what)
 {
     if (!n || !get_ratio(c, n, out)) return 0;
@@ -531,19 +396,20 @@ static int get_amplitude(bctx *c, ulk_node *n, double *out, ulk_ratio *exact, co
     return 1;
 }
 
-/* ---------------------------------------------------------------- link: ccsds-tc */
+/* ---------------------------------------------------------------- link */
 
-/* The subcarrier mapping, shared by both profiles' link sections. Returns the frequency
- * node (NULL when absent). */
-static ulk_node *build_subcarrier(bctx *c, ulk_node *sc)
+/* The subcarrier mapping, shared by the profiles' link sections (ulk_db_subcarrier). */
+static ulk_node *build_subcarrier(bctx *c, ulk_node *sc, int *fsc_ok, int *amp_ok, ulk_ratio *amp_exact)
 {
     ulk_link *L = &c->d->link;
+    *fsc_ok = *amp_ok = 0;
+    *amp_exact = ulk_ratio_make(1, 1);
     if (!sc || !want_map(c, sc, "link.subcarrier")) return NULL;
     static const char *const sk[] = {"frequency", "waveform", "amplitude", NULL};
     static const char *const sr[] = {"frequency", NULL};
     check_keys(c, sc, "link.subcarrier", sk, sr);
     ulk_node *fsc_node = ulk_node_get(sc, "frequency");
-    c->fsc_ok = positive_ratio(c, fsc_node, &L->fsc, "subcarrier frequency");
+    *fsc_ok = positive_ratio(c, fsc_node, &L->fsc, "subcarrier frequency");
     ulk_node *wf = ulk_node_get(sc, "waveform");
     if (wf) {
         static const char *const w[] = {"sine", "square"};
@@ -551,358 +417,31 @@ static ulk_node *build_subcarrier(bctx *c, ulk_node *sc)
         if (k >= 0) L->waveform = (ulk_waveform)k;
     }
     ulk_node *am = ulk_node_get(sc, "amplitude");
-    c->amp_ok = am ? get_amplitude(c, am, &L->amplitude, &c->amp_exact, "subcarrier amplitude") : 1;
+    *amp_ok = am ? get_amplitude(c, am, &L->amplitude, amp_exact, "subcarrier amplitude") : 1;
     return fsc_node;
 }
 
-/* r == 4000 / 2^n for some n in 0..9 (4000 down to 7.8125 bit/s). */
-static int is_usual_tc_rate(ulk_ratio r)
-{
-    for (int n = 0; n <= 9; n++) {
-        ulk_ratio u = ulk_ratio_make(4000, (int64_t)1 << n);
-        if (u.num == r.num && u.den == r.den) return 1;
-    }
-    return 0;
-}
-
-/* link.tc.security: the Space Data Link Security association (ulk/sdls.h). Key names only:
- * key material lives in the key file given to compile and decode, never in a dictionary.
- * When the map is valid the frame layout gets room for the security header and trailer, so
- * the frame-size rules below count them. */
-static void build_security(bctx *c, ulk_node *sn, ulk_tc_params *T)
-{
-    if (!want_map(c, sn, "link.tc.security")) return;
-    static const char *const sk[] = {"spi", "key", "service", "algorithm", "iv_octets", "mac_octets", "window", NULL};
-    static const char *const sr[] = {"spi", "key", "service", NULL};
-    size_t errs = ulk_diag_errors(c->diag);
-    check_keys(c, sn, "link.tc.security", sk, sr);
-    ulk_sdls_sa sa;
-    ulk_sdls_sa_default(&sa);
-    sa.enabled = 1;
-    int64_t v;
-    ulk_node *n;
-    /* SPI 0 and 65535 are reserved (CCSDS 355.0-B-1 section 3.2.2, from memory). */
-    if ((n = ulk_node_get(sn, "spi")) && get_int(c, n, 1, 65534, &v, "spi (Security Parameter Index, 1..65534)"))
-        sa.spi = (uint16_t)v;
-    const char *kn = NULL;
-    if ((n = ulk_node_get(sn, "key")) && get_str(c, n, &kn)) {
-        if (!ulk_sdls_key_name_ok(kn))
-            err(c, n, "key must be the name of a key in the key file (1..47 letters, digits, '_', '.' or '-'), never key material");
-        else snprintf(sa.key, sizeof sa.key, "%s", kn);
-    }
-    if ((n = ulk_node_get(sn, "service"))) {
-        static const char *const sv[] = {"authentication", "authenticated-encryption"};
-        int k = get_choice(c, n, sv, 2, "security service");
-        if (k >= 0) sa.service = (ulk_sdls_service)k;
-    }
-    if ((n = ulk_node_get(sn, "algorithm"))) {
-        static const char *const al[] = {"aes-256-gcm"};
-        int k = get_choice(c, n, al, 1, "security algorithm");
-        if (k >= 0) sa.algorithm = (ulk_sdls_algorithm)k;
-    }
-    if ((n = ulk_node_get(sn, "iv_octets")) &&
-        get_int(c, n, ULK_SDLS_MIN_IV_OCTETS, ULK_SDLS_MAX_IV_OCTETS, &v, "iv_octets (the IV holds the 8-octet counter; 12..16)"))
-        sa.iv_octets = (int)v;
-    if ((n = ulk_node_get(sn, "mac_octets")) &&
-        get_int(c, n, ULK_SDLS_MIN_MAC_OCTETS, ULK_SDLS_MAX_MAC_OCTETS, &v, "mac_octets (GCM tag of 96..128 bits; 12..16)"))
-        sa.mac_octets = (int)v;
-    if ((n = ulk_node_get(sn, "window")) && get_int(c, n, 1, ULK_SDLS_MAX_WINDOW, &v, "window (anti-replay window, 1..1048576)"))
-        sa.window = (uint32_t)v;
-    if (ulk_diag_errors(c->diag) != errs || !ulk_node_get(sn, "spi") || !ulk_node_get(sn, "key") ||
-        !ulk_node_get(sn, "service"))
-        return;
-    char why[160];
-    if (ulk_sdls_sa_check(&sa, why, sizeof why)) {
-        err(c, sn, "security: %s", why);
-        return;
-    }
-    T->security = sa;
-    ulk_sdls_layout(&sa, &T->frame);
-}
-
-/* The link section of `profile: ccsds-tc` (docs/spec/ccsds-tc.md section 1): channel bit rate
- * R, line code, subcarrier (f_sc / R whole >= 1) and the tc section. Values outside the
- * usual telecommand practice warn; the practice figures are from memory of CCSDS 401.0-B (Issue 25, section 2.2),
- * so they never refuse a dictionary. */
-static void build_link_tc(bctx *c, ulk_node *ln)
-{
-    ulk_link *L = &c->d->link;
-    ulk_tc_params *T = &L->tc;
-    static const char *const keys[] = {"profile", "bit_rate", "line_code", "subcarrier", "tc", NULL};
-    static const char *const req[] = {"profile", "bit_rate", "subcarrier", "tc", NULL};
-    c->ccsds = 1;
-    L->profile = ULK_PROFILE_CCSDS_TC;
-    /* One channel symbol per bit: R_s = R (section 3). */
-    L->n_subbits = 1;
-    L->zero[0] = 0;
-    L->one[0] = 1;
-    check_keys(c, ln, "link (profile ccsds-tc)", keys, req);
-
-    ulk_node *rn = ulk_node_get(ln, "bit_rate");
-    c->rb_ok = positive_ratio(c, rn, &L->bit_rate, "bit_rate");
-    if (c->rb_ok && !is_usual_tc_rate(L->bit_rate))
-        warn(c, rn,
-             "bit rate %s bit/s is not one of the usual telecommand rates 4000/2^n bit/s (n = 0..9: 4000 ... 7.8125; from memory of CCSDS 401.0-B: a warning, not a rule)",
-             rn->text);
-    ulk_node *lc = ulk_node_get(ln, "line_code");
-    if (lc) {
-        static const char *const codes[] = {"nrz-l", "nrz-m"};
-        int k = get_choice(c, lc, codes, 2, "line code");
-        if (k >= 0) L->line_code = (ulk_line_code)k;
-    }
-    ulk_node *sc = ulk_node_get(ln, "subcarrier");
-    ulk_node *fsc_node = build_subcarrier(c, sc);
-    if (c->fsc_ok) {
-        ulk_ratio f8 = ulk_ratio_make(8000, 1), f16 = ulk_ratio_make(16000, 1);
-        int usual = (L->fsc.num == f8.num && L->fsc.den == f8.den) || (L->fsc.num == f16.num && L->fsc.den == f16.den);
-        if (L->waveform != ULK_WAVE_SINE)
-            warn(c, ulk_node_get(sc, "waveform"),
-                 "a square subcarrier is outside the usual telecommand practice of a sine subcarrier (from memory of CCSDS 401.0-B: a warning, not a rule)");
-        if (!usual)
-            warn(c, fsc_node,
-                 "subcarrier frequency %s Hz is outside the usual telecommand practice of 8 kHz or 16 kHz (from memory of CCSDS 401.0-B: a warning, not a rule)",
-                 fsc_node->text);
-    }
-    if (c->rb_ok && c->fsc_ok) {
-        ulk_ratio k;
-        char bf[64], br[64], bk[64];
-        if (ulk_ratio_div(L->fsc, L->bit_rate, &k)) {
-            err(c, fsc_node, "subcarrier frequency and bit rate are too large to relate exactly");
-        } else {
-            ulk_ratio_format(L->fsc, bf, sizeof bf);
-            ulk_ratio_format(L->bit_rate, br, sizeof br);
-            ulk_ratio_format(k, bk, sizeof bk);
-            if (k.den != 1 || k.num < 1)
-                err(c, fsc_node, "subcarrier frequency %s Hz is not a whole multiple of the bit rate R = %s bit/s (f_sc / R = %s; it must be a whole number >= 1)",
-                    bf, br, bk);
-            else if (k.num < 2)
-                warn(c, fsc_node, "subcarrier frequency %s Hz is below 2 * R = 2 * %s Hz: the data sidebands overlap the carrier", bf, br);
-        }
-    }
-
-    ulk_node *tn = ulk_node_get(ln, "tc");
-    if (!tn || !want_map(c, tn, "link.tc")) return;
-    static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence",
-                                     "segment_header", "fecf", "randomize", "acquisition_octets",
-                                     "idle_octets", "start_errors", "correction", "security", NULL};
-    static const char *const tr[] = {"spacecraft_id", "virtual_channel", "service", NULL};
-    check_keys(c, tn, "link.tc", tk, tr);
-    ulk_ccsds_tc_default(&T->frame);
-    T->acquisition_octets = 16;
-    T->idle_octets = 1;
-    size_t errs = ulk_diag_errors(c->diag);
-    int complete = ulk_node_get(tn, "spacecraft_id") && ulk_node_get(tn, "virtual_channel") && ulk_node_get(tn, "service");
-    int64_t v;
-    ulk_node *n;
-    if ((n = ulk_node_get(tn, "spacecraft_id")) && get_int(c, n, 0, ULK_TCF_MAX_SCID, &v, "spacecraft_id (SCID, 10 bits)"))
-        T->frame.spacecraft_id = (uint16_t)v;
-    if ((n = ulk_node_get(tn, "virtual_channel")) && get_int(c, n, 0, ULK_TCF_MAX_VCID, &v, "virtual_channel (VCID, 6 bits)"))
-        T->frame.virtual_channel = (uint8_t)v;
-    if ((n = ulk_node_get(tn, "service"))) {
-        static const char *const sv[] = {"expedited", "sequence-controlled"};
-        int k = get_choice(c, n, sv, 2, "service");
-        if (k >= 0) T->frame.service = (ulk_tc_service)k;
-    }
-    if ((n = ulk_node_get(tn, "first_sequence")) && get_int(c, n, 0, 255, &v, "first_sequence (N(S), 8 bits)")) {
-        T->first_sequence = (uint8_t)v;
-        if (v != 0 && T->frame.service == ULK_TC_EXPEDITED)
-            warn(c, n, "first_sequence %lld has no effect with service expedited (N(S) is 0 in Type-BD frames)",
-                 (long long)v);
-    }
-    if ((n = ulk_node_get(tn, "segment_header")) && want_map(c, n, "link.tc.segment_header")) {
-        static const char *const mk[] = {"map_id", NULL};
-        check_keys(c, n, "link.tc.segment_header", mk, mk);
-        ulk_node *mn = ulk_node_get(n, "map_id");
-        if (mn && get_int(c, mn, 0, ULK_TCF_MAX_MAP_ID, &v, "map_id (MAP ID, 6 bits)")) {
-            T->frame.segment_header = 1;
-            T->frame.map_id = (uint8_t)v;
-        }
-    }
-    if ((n = ulk_node_get(tn, "fecf"))) get_bool(c, n, &T->frame.fecf);
-    if ((n = ulk_node_get(tn, "randomize"))) get_bool(c, n, &T->frame.randomize);
-    /* 10^8 octets is over two days at 4 kbit/s: beyond it is a typing error. */
-    if ((n = ulk_node_get(tn, "acquisition_octets")) && get_int(c, n, 0, 100000000, &v, "acquisition_octets")) {
-        T->acquisition_octets = (uint32_t)v;
-        if (v < 16)
-            warn(c, n, "acquisition sequence of %lld octets is short (< 16): the decoder may not acquire the signal before the first CLTU",
-                 (long long)v);
-    }
-    if ((n = ulk_node_get(tn, "idle_octets")) && get_int(c, n, 0, 100000000, &v, "idle_octets"))
-        T->idle_octets = (uint32_t)v;
-    if ((n = ulk_node_get(tn, "start_errors")) && get_int(c, n, 0, 1, &v, "start_errors (start-sequence bit errors tolerated)"))
-        T->frame.start_errors = (int)v;
-    if ((n = ulk_node_get(tn, "correction"))) {
-        static const char *const cm[] = {"sec", "ted"};
-        int k = get_choice(c, n, cm, 2, "correction mode");
-        if (k >= 0) T->frame.correction = (ulk_bch_mode)k;
-    }
-    if ((n = ulk_node_get(tn, "security"))) build_security(c, n, T);
-    char why[160];
-    if (complete && ulk_diag_errors(c->diag) == errs) {
-        if (ulk_ccsds_tc_check(&T->frame, why, sizeof why) == 0) c->tc_ok = 1;
-        else err(c, tn, "tc section: %s", why);
-    }
-}
-
-/* link.framing: idle patterns before the first word, between words and after the last. */
-static void build_framing(bctx *c, ulk_node *fr)
-{
-    ulk_link *L = &c->d->link;
-    static const char *const fk[] = {"preamble", "gap", "postamble", NULL};
-    check_keys(c, fr, "link.framing", fk, fk);
-    int64_t v;
-    ulk_node *pn2 = ulk_node_get(fr, "preamble");
-    /* 10^8 idle patterns is over a day at 1 kbit/s: beyond it is a typing error. */
-    if (pn2 && get_int(c, pn2, 0, 100000000, &v, "preamble (idle patterns)")) {
-        L->preamble = (int)v;
-        if (v < 16)
-            warn(c, pn2, "preamble of %lld idle patterns is short (P < 16): the decoder may not acquire the signal before the first word",
-                 (long long)v);
-    }
-    ulk_node *gn = ulk_node_get(fr, "gap");
-    if (gn && get_int(c, gn, 0, 100000000, &v, "gap (idle patterns)")) L->gap = (int)v;
-    ulk_node *tn = ulk_node_get(fr, "postamble");
-    if (tn && get_int(c, tn, 0, 100000000, &v, "postamble (idle patterns)")) L->postamble = (int)v;
-}
-
+/* The link section: its `profile:` chooses the table whose link_parse reads the rest. Without
+ * a `profile:` the first registered profile reads it, and its key check reports the key
+ * missing. */
 static void build_link(bctx *c, ulk_node *ln)
 {
     ulk_link *L = &c->d->link;
-    static const char *const keys[] = {"profile", "bit_rate", "subbits", "line_code", "subcarrier",
-                                       "pilot", "framing", "word", NULL};
-    static const char *const req[] = {"profile", "bit_rate", "subbits", "subcarrier", "framing", "word", NULL};
     L->amplitude = 1.0;
-    c->amp_exact = ulk_ratio_make(1, 1);
-    c->vbits = c->sbits = c->obits = c->dbits = -1;
     if (!want_map(c, ln, "link")) return;
     ulk_node *pn = ulk_node_get(ln, "profile");
+    const ulk_profile_ops *p = ulk_profile_ops_at(0);
     if (pn) {
-        static const char *const prof[] = {"subbit", "ccsds-tc"};
-        int p = get_choice(c, pn, prof, 2, "link profile");
-        if (p == 1) {
-            build_link_tc(c, ln);
-            return;
-        }
-        if (p < 0) return;
+        const char *names[8];
+        size_t n = 0;
+        for (const ulk_profile_ops *q; n < sizeof names / sizeof names[0] && (q = ulk_profile_ops_at(n));) names[n++] = q->name;
+        int k = get_choice(c, pn, names, n, "link profile");
+        if (k < 0) return;
+        p = ulk_profile_ops_at((size_t)k);
     }
-    check_keys(c, ln, "link", keys, req);
-    L->profile = ULK_PROFILE_SUBBIT;
-
-    c->rb_ok = positive_ratio(c, ulk_node_get(ln, "bit_rate"), &L->bit_rate, "bit_rate");
-    ulk_node *sb = ulk_node_get(ln, "subbits");
-    if (sb) build_subbits(c, sb);
-
-    ulk_node *lc = ulk_node_get(ln, "line_code");
-    if (lc) {
-        static const char *const codes[] = {"nrz-l", "nrz-m"};
-        int k = get_choice(c, lc, codes, 2, "line code");
-        if (k >= 0) L->line_code = (ulk_line_code)k;
-    }
-    if (sb && c->n_ok && c->patterns_ok) shift_warnings(c, sb);
-
-    ulk_node *fsc_node = build_subcarrier(c, ulk_node_get(ln, "subcarrier"));
-
-    ulk_node *pl = ulk_node_get(ln, "pilot");
-    ulk_node *fp_node = NULL, *ap_node = NULL;
-    int fp_ok = 0, ap_ok = 0;
-    ulk_ratio ap_exact = {0, 1};
-    if (pl && want_map(c, pl, "link.pilot")) {
-        static const char *const pk[] = {"frequency", "amplitude", NULL};
-        check_keys(c, pl, "link.pilot", pk, pk);
-        L->has_pilot = 1;
-        fp_node = ulk_node_get(pl, "frequency");
-        ap_node = ulk_node_get(pl, "amplitude");
-        fp_ok = positive_ratio(c, fp_node, &L->fp, "pilot frequency");
-        ap_ok = ap_node && get_amplitude(c, ap_node, &L->pilot_amplitude, &ap_exact, "pilot amplitude");
-    }
-
-    ulk_node *fr = ulk_node_get(ln, "framing");
-    if (fr && want_map(c, fr, "link.framing")) build_framing(c, fr);
-
-    ulk_node *wn = ulk_node_get(ln, "word");
-    if (wn && want_map(c, wn, "link.word")) {
-        static const char *const wk[] = {"vehicle_address", "system_address_bits", "opcode_bits",
-                                         "argument_bits", "check", NULL};
-        check_keys(c, wn, "link.word", wk, wk);
-        int64_t v;
-        ulk_node *va = ulk_node_get(wn, "vehicle_address");
-        if (va && want_map(c, va, "link.word.vehicle_address")) {
-            static const char *const vk[] = {"bits", "value", NULL};
-            check_keys(c, va, "link.word.vehicle_address", vk, vk);
-            ulk_node *vb = ulk_node_get(va, "bits"), *vv = ulk_node_get(va, "value");
-            if (vb && get_int(c, vb, 0, 16, &v, "vehicle address width (bits)")) {
-                L->vehicle_bits = (int)v;
-                c->vbits = (int)v;
-            }
-            if (vv && get_int(c, vv, 0, INT64_MAX, &v, "vehicle address")) {
-                if (c->vbits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->vbits))
-                    err(c, vv, "vehicle address %lld does not fit in %d bits (must be below %llu)", (long long)v,
-                        c->vbits, (unsigned long long)1 << c->vbits);
-                else
-                    L->vehicle_value = (uint32_t)v;
-            }
-        }
-        ulk_node *n2;
-        if ((n2 = ulk_node_get(wn, "system_address_bits")) && get_int(c, n2, 0, 16, &v, "system_address_bits"))
-            c->sbits = L->system_bits = (int)v;
-        if ((n2 = ulk_node_get(wn, "opcode_bits")) && get_int(c, n2, 1, 16, &v, "opcode_bits"))
-            c->obits = L->opcode_bits = (int)v;
-        if ((n2 = ulk_node_get(wn, "argument_bits")) && get_int(c, n2, 0, 64, &v, "argument_bits"))
-            c->dbits = L->argument_bits = (int)v;
-        if ((n2 = ulk_node_get(wn, "check"))) {
-            static const char *const ck[] = {"none", "parity-even", "parity-odd", "crc8", "crc16"};
-            int k = get_choice(c, n2, ck, 5, "check");
-            if (k >= 0) {
-                L->check = (ulk_check_kind)k;
-                L->check_bits = ulk_check_bits(L->check);
-                c->check_ok = 1;
-            }
-        }
-        if (c->vbits >= 0 && c->sbits >= 0 && c->obits >= 0 && c->dbits >= 0 && c->check_ok) {
-            L->word_bits = L->vehicle_bits + L->system_bits + L->opcode_bits + L->argument_bits + L->check_bits;
-            if (L->word_bits > ULK_MAX_WORD_BITS)
-                err(c, wn, "word length W = %d bits exceeds %d", L->word_bits, ULK_MAX_WORD_BITS);
-        }
-    }
-
-    /* Rates: f_sc = k * R_s with k whole >= 1; f_sc < 2 R_s warns. */
-    if (c->rb_ok && c->n_ok && c->fsc_ok) {
-        ulk_ratio rs, k;
-        if (ulk_ratio_mul_int(L->bit_rate, L->n_subbits, &rs) || ulk_ratio_div(L->fsc, rs, &k)) {
-            err(c, fsc_node, "subcarrier frequency and sub-bit rate are too large to relate exactly");
-        } else {
-            char bf[64], brs[64], bk[64];
-            ulk_ratio_format(L->fsc, bf, sizeof bf);
-            ulk_ratio_format(rs, brs, sizeof brs);
-            ulk_ratio_format(k, bk, sizeof bk);
-            if (k.den != 1 || k.num < 1)
-                err(c, fsc_node, "subcarrier frequency %s Hz is not a whole multiple of the sub-bit rate R_s = n * R_b = %s Hz (f_sc / R_s = %s)",
-                    bf, brs, bk);
-            else if (k.num < 2)
-                warn(c, fsc_node, "subcarrier frequency %s Hz is below 2 * R_s = 2 * %s Hz: the data sidebands overlap the carrier",
-                     bf, brs);
-        }
-    }
-    if (L->has_pilot && fp_ok && c->rb_ok && c->n_ok) {
-        ulk_ratio rs, q1, q2;
-        if (ulk_ratio_mul_int(L->bit_rate, L->n_subbits, &rs) || ulk_ratio_div(L->fp, rs, &q1) ||
-            ulk_ratio_div(rs, L->fp, &q2)) {
-            err(c, fp_node, "pilot frequency and sub-bit rate are too large to relate exactly");
-        } else if (q1.den != 1 && q2.den != 1) {
-            char bf[64], brs[64];
-            ulk_ratio_format(L->fp, bf, sizeof bf);
-            ulk_ratio_format(rs, brs, sizeof brs);
-            err(c, fp_node, "pilot frequency %s Hz must be a whole multiple or a whole fraction of R_s = %s Hz", bf, brs);
-        }
-    }
-    if (L->has_pilot && ap_ok && c->amp_ok) {
-        /* A + A_p <= 1, exactly: a/b + c/d <= 1  <=>  a*d + c*b <= b*d. */
-        __int128 lhs = (__int128)c->amp_exact.num * ap_exact.den + (__int128)ap_exact.num * c->amp_exact.den;
-        __int128 rhs = (__int128)c->amp_exact.den * ap_exact.den;
-        if (lhs > rhs)
-            err(c, ap_node, "data amplitude %g plus pilot amplitude %g exceeds full scale 1 (A + A_p <= 1)",
-                L->amplitude, L->pilot_amplitude);
-    }
+    c->prof = p;
+    L->profile = p->id;
+    p->link_parse(c, ln);
 }
 
 /* ---------------------------------------------------------------- systems */
@@ -955,27 +494,8 @@ static void build_systems(bctx *c, ulk_node *sn)
             names[i] = nn;
         }
         ulk_node *an = ulk_node_get(s, "address");
-        int64_t v;
-        if (an && c->ccsds) {
-            /* The address is the APID: 11 bits, 0x7FF being the idle packets'
-             * (CCSDS 133.0-B-2 section 4.1.3.3.4, from memory). */
-            if (get_int(c, an, 0, INT64_MAX, &v, "system address (APID)")) {
-                if (v == ULK_SPP_APID_IDLE)
-                    err(c, an, "APID 0x7FF is reserved for idle packets: a system cannot have it");
-                else if (v > ULK_SPP_MAX_APID)
-                    err(c, an, "APID %lld does not fit in 11 bits (0..0x7FE)", (long long)v);
-                else
-                    y->address = (uint32_t)v;
-            }
-        } else if (an && get_int(c, an, 0, INT64_MAX, &v, "system address")) {
-            if (c->sbits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->sbits))
-                err(c, an, "system address %lld does not fit in system_address_bits = %d (must be below %llu)",
-                    (long long)v, c->sbits, (unsigned long long)1 << c->sbits);
-            else if (v > 0xFFFF)
-                err(c, an, "system address %lld is wider than 16 bits", (long long)v);
-            else
-                y->address = (uint32_t)v;
-        }
+        uint32_t a;
+        if (an && c->prof->system_address(c, an, &a)) y->address = a;
     }
     sortref *v = ulk_malloc((size_t)sn->n * sizeof *v);
     if (!v) { c->oom = 1; ulk_free(names); return; }
@@ -1000,13 +520,13 @@ static void build_systems(bctx *c, ulk_node *sn)
         if (a > 0xFFFF) continue;
         ulk_node *an = ulk_node_get(sn->items[i], "address");
         if (first[a] >= 0) {
-            err(c, an, "duplicate system %s %u: '%s' has it too (line %d)", c->ccsds ? "address (APID)" : "address", a,
+            err(c, an, "duplicate system %s %u: '%s' has it too (line %d)", c->prof->address_noun, a,
                 d->systems[first[a]].name ? d->systems[first[a]].name : "?", d->systems[first[a]].loc.line);
             continue;
         }
-        /* In ccsds-tc the APID travels under the FECF and BCH code: a single error never
-         * turns one system's packet into another's, so the warning does not apply. */
-        for (int b = 0; b < 16 && !c->ccsds; b++) {
+        /* Where a code covers the address (a CCSDS packet under the FECF and BCH code) a single
+         * error never turns one system's unit into another's, so the warning does not apply. */
+        for (int b = 0; b < 16 && c->prof->address_unprotected; b++) {
             uint32_t o = a ^ (1u << b);
             if (first[o] >= 0)
                 warn(c, an, "system addresses of '%s' (0x%X) and '%s' (0x%X) differ in one bit (Hamming distance 1): one bit error turns a word for one into a word for the other",
@@ -1535,15 +1055,11 @@ static void build_commands(bctx *c, ulk_node *cn)
         }
         int64_t v;
         if ((n = ulk_node_get(m, "opcode")) && get_int(c, n, 0, INT64_MAX, &v, "opcode")) {
-            if (c->ccsds && v > 255)
-                err(c, n, "opcode %lld does not fit in the one octet of a ccsds-tc packet (0..255)", (long long)v);
-            else if (c->obits >= 0 && (uint64_t)v >= ((uint64_t)1 << c->obits))
-                err(c, n, "opcode %lld does not fit in opcode_bits = %d (must be below %llu)", (long long)v, c->obits,
-                    (unsigned long long)1 << c->obits);
-            else if (v > 0xFFFF)
-                err(c, n, "opcode %lld is wider than 16 bits", (long long)v);
-            else
-                k->opcode = (uint32_t)v;
+            /* the profile's room first (reported there), then the 16 bits every profile has */
+            if (c->prof->opcode_fits(c, n, v)) {
+                if (v > 0xFFFF) err(c, n, "opcode %lld is wider than 16 bits", (long long)v);
+                else k->opcode = (uint32_t)v;
+            }
         }
         if ((n = ulk_node_get(m, "critical"))) get_bool(c, n, &k->critical);
         if ((n = ulk_node_get(m, "description")) && get_str(c, n, &s)) k->description = adup(c, s);
@@ -1572,19 +1088,7 @@ static void build_commands(bctx *c, ulk_node *cn)
                     }
                 }
             }
-            if (all_bits && c->dbits >= 0 && k->packed_bits > c->dbits)
-                err(c, args, "arguments take %d bits, more than argument_bits D = %d", k->packed_bits, c->dbits);
-            if (all_bits && c->tc_ok) {
-                /* One packet in one frame: opcode octet + arguments to whole octets. */
-                const ulk_ccsds_tc *tc = &d->link.tc.frame;
-                size_t data = 1 + ((size_t)k->packed_bits + 7) / 8;
-                if (data > ulk_ccsds_max_data_octets(tc))
-                    err(c, args,
-                        "arguments take %d bits: the packet data field would be %zu octets and the TC frame %zu octets%s, over the %d-octet limit of a frame (at most %zu data octets here)",
-                        k->packed_bits, data, ulk_tcf_octets(tc, ULK_SPP_HDR_OCTETS + data),
-                        tc->sec_header_octets ? " with its security header and trailer" : "", ULK_TCF_MAX_OCTETS,
-                        ulk_ccsds_max_data_octets(tc));
-            }
+            if (all_bits) c->prof->command_check(c, k, args);
         }
     }
     ulk_free(sys);
@@ -1704,7 +1208,7 @@ const ulk_arg *ulk_command_find_arg(const ulk_command *c, const char *name)
 
 /* ---------------------------------------------------------------- canonical form and hash */
 
-typedef struct {
+typedef struct ulk_dict_text {
     char *p;
     size_t n, cap;
     int oom;
@@ -1815,81 +1319,9 @@ static void sb_ratio(sbuf *b, ulk_ratio r)
     sb_str(b, t);
 }
 
-static void sb_pattern(sbuf *b, const uint8_t *p, int n)
-{
-    char t[20];
-    fmt_pattern(p, n, t);
-    sb_str(b, t);
-}
-
 static int enum_label_cmp(const void *x, const void *y)
 {
     return strcmp((*(const ulk_enum_value *const *)x)->label, (*(const ulk_enum_value *const *)y)->label);
-}
-
-/* The link object of the canonical form (docs/dictionary.md section 6), keys in byte order. */
-static void canonical_link_subbit(sbuf *b, const ulk_link *L)
-{
-    sb_puts(b, "{\"bit_rate\":");
-    sb_ratio(b, L->bit_rate);
-    sb_puts(b, ",\"framing\":{");
-    sb_printf(b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
-    sb_puts(b, ",\"line_code\":");
-    sb_str(b, ulk_line_code_name(L->line_code));
-    if (L->has_pilot) {
-        sb_puts(b, ",\"pilot\":{\"amplitude\":");
-        sb_double(b, L->pilot_amplitude);
-        sb_puts(b, ",\"frequency\":");
-        sb_ratio(b, L->fp);
-        sb_puts(b, "}");
-    }
-    sb_puts(b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
-    sb_pattern(b, L->idle, L->n_subbits);
-    sb_puts(b, ",\"one\":");
-    sb_pattern(b, L->one, L->n_subbits);
-    sb_puts(b, ",\"zero\":");
-    sb_pattern(b, L->zero, L->n_subbits);
-    sb_puts(b, "},\"subcarrier\":{\"amplitude\":");
-    sb_double(b, L->amplitude);
-    sb_puts(b, ",\"frequency\":");
-    sb_ratio(b, L->fsc);
-    sb_puts(b, ",\"waveform\":");
-    sb_str(b, ulk_waveform_name(L->waveform));
-    sb_puts(b, "},\"word\":{\"argument_bits\":");
-    sb_printf(b, "%d,\"check\":", L->argument_bits);
-    sb_str(b, ulk_check_name(L->check));
-    sb_printf(b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
-              L->opcode_bits, L->system_bits, L->vehicle_bits, L->vehicle_value);
-}
-
-static void canonical_link_tc(sbuf *b, const ulk_link *L)
-{
-    const ulk_tc_params *T = &L->tc;
-    sb_puts(b, "{\"bit_rate\":");
-    sb_ratio(b, L->bit_rate);
-    sb_puts(b, ",\"line_code\":");
-    sb_str(b, ulk_line_code_name(L->line_code));
-    sb_puts(b, ",\"profile\":\"ccsds-tc\",\"subcarrier\":{\"amplitude\":");
-    sb_double(b, L->amplitude);
-    sb_puts(b, ",\"frequency\":");
-    sb_ratio(b, L->fsc);
-    sb_puts(b, ",\"waveform\":");
-    sb_str(b, ulk_waveform_name(L->waveform));
-    sb_printf(b, "},\"tc\":{\"acquisition_octets\":%u,\"correction\":\"%s\",\"fecf\":%s,\"first_sequence\":%u",
-              T->acquisition_octets, T->frame.correction == ULK_BCH_TED ? "ted" : "sec",
-              T->frame.fecf ? "true" : "false", T->first_sequence);
-    sb_printf(b, ",\"idle_octets\":%u,\"randomize\":%s", T->idle_octets, T->frame.randomize ? "true" : "false");
-    if (T->frame.segment_header) sb_printf(b, ",\"segment_header\":{\"map_id\":%u}", T->frame.map_id);
-    if (T->security.enabled) {
-        const ulk_sdls_sa *sa = &T->security;
-        sb_printf(b, ",\"security\":{\"algorithm\":\"aes-256-gcm\",\"iv_octets\":%d,\"key\":", sa->iv_octets);
-        sb_str(b, sa->key);
-        sb_printf(b, ",\"mac_octets\":%d,\"service\":\"%s\",\"spi\":%u,\"window\":%u}", sa->mac_octets,
-                  ulk_sdls_service_name(sa->service), (unsigned)sa->spi, (unsigned)sa->window);
-    }
-    sb_printf(b, ",\"service\":\"%s\",\"spacecraft_id\":%u,\"start_errors\":%d,\"virtual_channel\":%u}}",
-              T->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited",
-              T->frame.spacecraft_id, T->frame.start_errors, T->frame.virtual_channel);
 }
 
 static void sb_bounds(sbuf *b, const ulk_carrier *c, int ch)
@@ -2087,8 +1519,8 @@ int ulk_dict_canonical(const ulk_dict *d, char **out, size_t *len)
     sb_puts(&b, ",\"version\":");
     sb_str(&b, d->version);
     sb_puts(&b, "},\"link\":");
-    if (L->profile == ULK_PROFILE_CCSDS_TC) canonical_link_tc(&b, L);
-    else canonical_link_subbit(&b, L);
+    const ulk_profile_ops *prof = ulk_profile_ops_for(L->profile);
+    (prof ? prof : ulk_profile_ops_at(0))->link_canonical(&b, L);
     sb_puts(&b, ",\"systems\":[");
     for (int i = 0; i < d->n_systems; i++) {
         sb_printf(&b, "%s{\"address\":%u,\"name\":", i ? "," : "", d->systems[i].address);
@@ -2117,6 +1549,74 @@ static int sha256_hex(const char *data, size_t n, char hex[65])
     for (int i = 0; i < 32; i++) snprintf(hex + 2 * i, 3, "%02x", md[i]);
     return 0;
 }
+
+/* ---------------------------------------------------------------- helpers for the profiles
+ * (src/dict/dict_build.h): the loader's own readers, under their shared names */
+
+ulk_link *ulk_db_link(ulk_dict_build *b) { return &b->d->link; }
+void *ulk_db_state(ulk_dict_build *b) { return b->state; }
+size_t ulk_db_errors(const ulk_dict_build *b) { return ulk_diag_errors(b->diag); }
+int ulk_db_is_json(const ulk_dict_build *b) { return b->doc->is_json; }
+
+void ulk_db_err(ulk_dict_build *b, ulk_node *n, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vfinding(b, ULK_SEV_ERROR, n, fmt, ap);
+    va_end(ap);
+}
+
+void ulk_db_warn(ulk_dict_build *b, ulk_node *n, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vfinding(b, ULK_SEV_WARNING, n, fmt, ap);
+    va_end(ap);
+}
+
+const char *ulk_db_key_name(ulk_node *n) { return key_name(n); }
+int ulk_db_want_map(ulk_dict_build *b, ulk_node *n, const char *what) { return want_map(b, n, what); }
+void ulk_db_check_keys(ulk_dict_build *b, ulk_node *map, const char *what, const char *const *allowed,
+                       const char *const *required)
+{
+    check_keys(b, map, what, allowed, required);
+}
+int ulk_db_int(ulk_dict_build *b, ulk_node *n, int64_t lo, int64_t hi, int64_t *out, const char *what)
+{
+    return get_int(b, n, lo, hi, out, what);
+}
+int ulk_db_positive_ratio(ulk_dict_build *b, ulk_node *n, ulk_ratio *out, const char *what)
+{
+    return positive_ratio(b, n, out, what);
+}
+int ulk_db_amplitude(ulk_dict_build *b, ulk_node *n, double *out, ulk_ratio *exact, const char *what)
+{
+    return get_amplitude(b, n, out, exact, what);
+}
+int ulk_db_bool(ulk_dict_build *b, ulk_node *n, int *out) { return get_bool(b, n, out); }
+int ulk_db_str(ulk_dict_build *b, ulk_node *n, const char **out) { return get_str(b, n, out); }
+int ulk_db_choice(ulk_dict_build *b, ulk_node *n, const char *const *names, size_t count, const char *what)
+{
+    return get_choice(b, n, names, count, what);
+}
+ulk_node *ulk_db_subcarrier(ulk_dict_build *b, ulk_node *sc, int *fsc_ok, int *amp_ok, ulk_ratio *amp_exact)
+{
+    return build_subcarrier(b, sc, fsc_ok, amp_ok, amp_exact);
+}
+
+void ulk_dt_puts(ulk_dict_text *t, const char *s) { sb_puts(t, s); }
+void ulk_dt_printf(ulk_dict_text *t, const char *fmt, ...)
+{
+    char tmp[128];
+    va_list ap;
+    va_start(ap, fmt);
+    int n = vsnprintf(tmp, sizeof tmp, fmt, ap);
+    va_end(ap);
+    if (n > 0) sb_put(t, tmp, (size_t)n < sizeof tmp ? (size_t)n : sizeof tmp - 1);
+}
+void ulk_dt_str(ulk_dict_text *t, const char *s) { sb_str(t, s); }
+void ulk_dt_double(ulk_dict_text *t, double v) { sb_double(t, v); }
+void ulk_dt_ratio(ulk_dict_text *t, ulk_ratio r) { sb_ratio(t, r); }
 
 /* ---------------------------------------------------------------- entry points */
 
@@ -2154,7 +1654,7 @@ int ulk_dict_load_mem(const char *name, const char *text, size_t len, int is_jso
     c.d = &di->pub;
     c.doc = doc;
     c.diag = diag;
-    c.vbits = c.sbits = c.obits = c.dbits = -1;
+    c.prof = ulk_profile_ops_at(0);
     c.d->file = adup(&c, name);
 
     ulk_node *root = doc->root;

@@ -8,7 +8,9 @@
  * field and rebuilds each word's fields from the word bits and compares them, so a file
  * whose digest was recomputed by hand is still refused when it is inconsistent; the digest,
  * known at the end, decides first: a changed file is reported as changed and nothing read
- * from it is returned.
+ * from it is returned. Each profile reads its own link object and unit members back
+ * (ulk/profile.h "upload reader"; src/profiles/<name>/<name>_upload.c) through this reader's helpers
+ * (upload_read.h), as it writes them through upload_text.h.
  */
 #define _GNU_SOURCE /* memmem */
 #include <ctype.h>
@@ -25,11 +27,10 @@
 #include <cjson/cJSON.h>
 #include <openssl/evp.h>
 
-#include "ulk/ccsds.h"
-#include "ulk/sdls.h"
 #include "ulk/profile.h"
 #include "ulk/upload.h"
 #include "ulk/word.h"
+#include "upload_read.h"
 #include "upload_text.h"
 #include "util.h"
 
@@ -344,7 +345,7 @@ int ulk_upload_write_hook(const ulk_upload *u, const char *path, ulk_upload_comm
 /* The first error is kept, not reported at once: the digest is only known at the end of the
  * file, and a changed file must be reported as changed (ULK_EINTEGRITY) rather than by the
  * parse error its change caused. rd_emit() reports it. */
-typedef struct {
+typedef struct ulk_rd {
     const char *name;
     ulk_diag *diag;
     int status;
@@ -474,6 +475,17 @@ static int get_bool(rd_t *r, const cJSON *o, const char *k, const char *path, in
     return 0;
 }
 
+/* The line code, shared by every profile's link object. */
+static int read_line_code(rd_t *r, const cJSON *lj, ulk_link *l)
+{
+    const char *lc = get_str(r, lj, "line_code", "link", 16);
+    if (!lc) return r->status;
+    if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
+    else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
+    else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
+    return 0;
+}
+
 /* The subcarrier object, shared by both profiles. */
 static int read_subcarrier(rd_t *r, const cJSON *sc, ulk_link *l)
 {
@@ -492,175 +504,24 @@ static int read_subcarrier(rd_t *r, const cJSON *sc, ulk_link *l)
     return 0;
 }
 
-/* The link object of a ccsds-tc upload (every field present; the dictionary's rules). */
-static int read_link_tc(rd_t *r, const cJSON *lj, ulk_link *l)
-{
-    static const char *const lk[] = {"profile", "bit_rate", "line_code", "subcarrier", "tc"};
-    if (want_keys(r, lj, "link", lk, 5)) return r->status;
-    l->profile = ULK_PROFILE_CCSDS_TC;
-    l->n_subbits = 1;
-    l->one[0] = 1;
-    if (get_ratio(r, lj, "bit_rate", "link", 0, &l->bit_rate)) return r->status;
-    const char *lc = get_str(r, lj, "line_code", "link", 16);
-    if (!lc) return r->status;
-    if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
-    else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
-    else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
-    if (read_subcarrier(r, member(lj, "subcarrier"), l)) return r->status;
-    const cJSON *tj = member(lj, "tc");
-    static const char *const tk[] = {"spacecraft_id", "virtual_channel", "service", "first_sequence", "segment_header",
-                                     "fecf", "randomize", "acquisition_octets", "idle_octets", "start_errors",
-                                     "correction", "security"};
-    /* every member but "security", which only a secured link has */
-    if (want_keys_p(r, tj, "link.tc", tk, 12, 1)) return r->status;
-    for (int i = 0; i < 11; i++)
-        if (!member(tj, tk[i])) return rfail(r, ULK_EPARSE, "link.tc", "missing member '%s'", tk[i]);
-    ulk_tc_params *t = &l->tc;
-    int64_t v;
-    if (get_int(r, tj, "spacecraft_id", "link.tc", 0, ULK_TCF_MAX_SCID, NULL, &v)) return r->status;
-    t->frame.spacecraft_id = (uint16_t)v;
-    if (get_int(r, tj, "virtual_channel", "link.tc", 0, ULK_TCF_MAX_VCID, NULL, &v)) return r->status;
-    t->frame.virtual_channel = (uint8_t)v;
-    const char *sv = get_str(r, tj, "service", "link.tc", 32);
-    if (!sv) return r->status;
-    if (!strcmp(sv, "expedited")) t->frame.service = ULK_TC_EXPEDITED;
-    else if (!strcmp(sv, "sequence-controlled")) t->frame.service = ULK_TC_SEQUENCE_CONTROLLED;
-    else return rfail(r, ULK_EPARSE, "link.tc.service", "expected expedited or sequence-controlled");
-    if (get_int(r, tj, "first_sequence", "link.tc", 0, 255, NULL, &v)) return r->status;
-    t->first_sequence = (uint8_t)v;
-    const cJSON *sh = member(tj, "segment_header");
-    if (!cJSON_IsNull(sh)) {
-        static const char *const mk[] = {"map_id"};
-        if (want_keys(r, sh, "link.tc.segment_header", mk, 1)) return r->status;
-        if (get_int(r, sh, "map_id", "link.tc.segment_header", 0, ULK_TCF_MAX_MAP_ID, NULL, &v)) return r->status;
-        t->frame.segment_header = 1;
-        t->frame.map_id = (uint8_t)v;
-    }
-    if (get_bool(r, tj, "fecf", "link.tc", &t->frame.fecf)) return r->status;
-    if (get_bool(r, tj, "randomize", "link.tc", &t->frame.randomize)) return r->status;
-    if (get_int(r, tj, "acquisition_octets", "link.tc", 0, 1e8, NULL, &v)) return r->status;
-    t->acquisition_octets = (uint32_t)v;
-    if (get_int(r, tj, "idle_octets", "link.tc", 0, 1e8, NULL, &v)) return r->status;
-    t->idle_octets = (uint32_t)v;
-    if (get_int(r, tj, "start_errors", "link.tc", 0, 1, NULL, &v)) return r->status;
-    t->frame.start_errors = (int)v;
-    const char *cm = get_str(r, tj, "correction", "link.tc", 8);
-    if (!cm) return r->status;
-    if (!strcmp(cm, "sec")) t->frame.correction = ULK_BCH_SEC;
-    else if (!strcmp(cm, "ted")) t->frame.correction = ULK_BCH_TED;
-    else return rfail(r, ULK_EPARSE, "link.tc.correction", "expected sec or ted");
-    const cJSON *sj = member(tj, "security");
-    if (sj) {
-        static const char *const sk[] = {"spi", "key", "service", "algorithm", "iv_octets", "mac_octets", "window"};
-        if (want_keys(r, sj, "link.tc.security", sk, 7)) return r->status;
-        ulk_sdls_sa *sa = &t->security;
-        ulk_sdls_sa_default(sa);
-        sa->enabled = 1;
-        if (get_int(r, sj, "spi", "link.tc.security", 1, 65534, NULL, &v)) return r->status;
-        sa->spi = (uint16_t)v;
-        const char *kn = get_str(r, sj, "key", "link.tc.security", ULK_SDLS_KEY_NAME_MAX - 1);
-        if (!kn) return r->status;
-        if (!ulk_sdls_key_name_ok(kn)) return rfail(r, ULK_EPARSE, "link.tc.security.key", "expected a key name");
-        snprintf(sa->key, sizeof sa->key, "%s", kn);
-        const char *se = get_str(r, sj, "service", "link.tc.security", 32);
-        if (!se) return r->status;
-        if (!strcmp(se, "authentication")) sa->service = ULK_SDLS_AUTHENTICATION;
-        else if (!strcmp(se, "authenticated-encryption")) sa->service = ULK_SDLS_AUTHENTICATED_ENCRYPTION;
-        else return rfail(r, ULK_EPARSE, "link.tc.security.service", "expected authentication or authenticated-encryption");
-        const char *al = get_str(r, sj, "algorithm", "link.tc.security", 16);
-        if (!al) return r->status;
-        if (strcmp(al, "aes-256-gcm")) return rfail(r, ULK_EPARSE, "link.tc.security.algorithm", "expected aes-256-gcm");
-        if (get_int(r, sj, "iv_octets", "link.tc.security", ULK_SDLS_MIN_IV_OCTETS, ULK_SDLS_MAX_IV_OCTETS, NULL, &v))
-            return r->status;
-        sa->iv_octets = (int)v;
-        if (get_int(r, sj, "mac_octets", "link.tc.security", ULK_SDLS_MIN_MAC_OCTETS, ULK_SDLS_MAX_MAC_OCTETS, NULL, &v))
-            return r->status;
-        sa->mac_octets = (int)v;
-        if (get_int(r, sj, "window", "link.tc.security", 1, ULK_SDLS_MAX_WINDOW, NULL, &v)) return r->status;
-        sa->window = (uint32_t)v;
-        ulk_sdls_layout(sa, &t->frame);
-    }
-    return 0;
-}
-
+/* The link object: its profile's reader (ulk_profile_ops.upload_read_link). A missing or
+ * unknown profile is checked against the first registered profile's members first, so that a
+ * stray member is what is reported, as before the profiles had tables. */
 static int read_link(rd_t *r, const cJSON *lj, ulk_link *l)
 {
-    static const char *const lk[] = {"profile", "bit_rate", "subbits", "line_code", "subcarrier", "pilot", "framing", "word"};
     memset(l, 0, sizeof *l);
     const char *prof = cJSON_IsObject(lj) ? get_str(r, lj, "profile", "link", 32) : NULL;
-    if (prof && !strcmp(prof, "ccsds-tc")) return read_link_tc(r, lj, l);
-    if (want_keys(r, lj, "link", lk, 8)) return r->status;
+    const ulk_profile_ops *p = ulk_profile_ops_by_name(prof);
+    if (p) return p->upload_read_link(r, lj, l);
+    const ulk_profile_ops *first = ulk_profile_ops_at(0);
+    if (want_keys(r, lj, "link", first->upload_link_members, first->n_upload_link_members)) return r->status;
     if (!prof) return r->status;
-    if (strcmp(prof, "subbit")) return rfail(r, ULK_EFORMAT, "link.profile", "profile '%.32s' is not supported (subbit or ccsds-tc)", prof);
-    l->profile = ULK_PROFILE_SUBBIT;
-    if (get_ratio(r, lj, "bit_rate", "link", 0, &l->bit_rate)) return r->status;
-    const cJSON *sb = member(lj, "subbits");
-    static const char *const sk[] = {"zero", "one", "idle"};
-    if (want_keys(r, sb, "link.subbits", sk, 3)) return r->status;
-    int n = get_pattern(r, sb, "zero", "link.subbits", 0, l->zero);
-    if (n < 0) return r->status;
-    l->n_subbits = n;
-    if (get_pattern(r, sb, "one", "link.subbits", n, l->one) < 0) return r->status;
-    if (get_pattern(r, sb, "idle", "link.subbits", n, l->idle) < 0) return r->status;
-    if (!memcmp(l->zero, l->one, (size_t)n)) return rfail(r, ULK_EPARSE, "link.subbits", "zero and one patterns are equal");
-    const char *lc = get_str(r, lj, "line_code", "link", 16);
-    if (!lc) return r->status;
-    if (!strcmp(lc, "nrz-l")) l->line_code = ULK_LINE_NRZL;
-    else if (!strcmp(lc, "nrz-m")) l->line_code = ULK_LINE_NRZM;
-    else return rfail(r, ULK_EPARSE, "link.line_code", "expected nrz-l or nrz-m");
-    if (read_subcarrier(r, member(lj, "subcarrier"), l)) return r->status;
-    const cJSON *pj = member(lj, "pilot");
-    if (!cJSON_IsNull(pj)) {
-        static const char *const pk[] = {"frequency", "amplitude"};
-        if (want_keys(r, pj, "link.pilot", pk, 2)) return r->status;
-        if (get_ratio(r, pj, "frequency", "link.pilot", 0, &l->fp)) return r->status;
-        const cJSON *pa = member(pj, "amplitude");
-        if (!cJSON_IsNumber(pa) || !(pa->valuedouble > 0 && pa->valuedouble + l->amplitude <= 1))
-            return rfail(r, ULK_EPARSE, "link.pilot.amplitude", "expected a number in (0, 1 - A]");
-        l->pilot_amplitude = pa->valuedouble;
-        l->has_pilot = 1;
-    }
-    const cJSON *fr = member(lj, "framing");
-    static const char *const fk[] = {"preamble", "gap", "postamble"};
-    if (want_keys(r, fr, "link.framing", fk, 3)) return r->status;
-    int64_t v;
-    if (get_int(r, fr, "preamble", "link.framing", 0, 1e6, NULL, &v)) return r->status;
-    l->preamble = (int)v;
-    if (get_int(r, fr, "gap", "link.framing", 0, 1e6, NULL, &v)) return r->status;
-    l->gap = (int)v;
-    if (get_int(r, fr, "postamble", "link.framing", 0, 1e6, NULL, &v)) return r->status;
-    l->postamble = (int)v;
-    const cJSON *wj = member(lj, "word");
-    static const char *const wk[] = {"vehicle_address", "system_address_bits", "opcode_bits", "argument_bits", "check", "word_bits"};
-    if (want_keys(r, wj, "link.word", wk, 6)) return r->status;
-    const cJSON *va = member(wj, "vehicle_address");
-    static const char *const vk[] = {"bits", "value"};
-    if (want_keys(r, va, "link.word.vehicle_address", vk, 2)) return r->status;
-    if (get_int(r, va, "bits", "link.word.vehicle_address", 0, 16, NULL, &v)) return r->status;
-    l->vehicle_bits = (int)v;
-    if (get_int(r, va, "value", "link.word.vehicle_address", 0, (double)((1u << l->vehicle_bits) - 1), NULL, &v))
-        return r->status;
-    l->vehicle_value = (uint32_t)v;
-    if (get_int(r, wj, "system_address_bits", "link.word", 0, 16, NULL, &v)) return r->status;
-    l->system_bits = (int)v;
-    if (get_int(r, wj, "opcode_bits", "link.word", 1, 16, NULL, &v)) return r->status;
-    l->opcode_bits = (int)v;
-    if (get_int(r, wj, "argument_bits", "link.word", 0, 64, NULL, &v)) return r->status;
-    l->argument_bits = (int)v;
-    const char *ck = get_str(r, wj, "check", "link.word", 16);
-    if (!ck) return r->status;
-    int k = -1;
-    for (int i = 0; i < 5; i++)
-        if (!strcmp(ck, ulk_check_name((ulk_check_kind)i))) k = i;
-    if (k < 0) return rfail(r, ULK_EPARSE, "link.word.check", "unknown check '%.20s'", ck);
-    l->check = (ulk_check_kind)k;
-    l->check_bits = ulk_check_bits(l->check);
-    if (get_int(r, wj, "word_bits", "link.word", 1, ULK_MAX_WORD_BITS, NULL, &v)) return r->status;
-    l->word_bits = (int)v;
-    if (l->word_bits != l->vehicle_bits + l->system_bits + l->opcode_bits + l->argument_bits + l->check_bits)
-        return rfail(r, ULK_EPARSE, "link.word.word_bits", "word_bits %d is not the sum of the field widths",
-                     l->word_bits);
-    return 0;
+    char names[160] = "";
+    size_t used = 0;
+    for (size_t i = 0; (p = ulk_profile_ops_at(i)) && used < sizeof names; i++)
+        used += (size_t)snprintf(names + used, sizeof names - used, "%s%s",
+                                 i == 0 ? "" : ulk_profile_ops_at(i + 1) ? ", " : " or ", p->name);
+    return rfail(r, ULK_EFORMAT, "link.profile", "profile '%.32s' is not supported (%s)", prof, names);
 }
 
 static const char *const type_names[] = {"unsigned", "signed", "boolean", "enum", "float32"};
@@ -679,47 +540,58 @@ static long hex_octets(const char *s, uint8_t *out, size_t cap)
     return (long)(n / 2);
 }
 
-/* The ccsds-tc members of a command: counts, frame and CLTU (checked against the fields
- * later, by ulk_profile_check_unit). */
-static int read_tc_unit(rd_t *r, const cJSON *cj, const char *path, ulk_upload_cmd *c)
+/* The helpers under their shared names, for the profiles' readers (src/io/upload_read.h). */
+int ulk_rd_fail(ulk_rd *r, int code, const char *path, const char *fmt, ...)
 {
-    int64_t v;
-    if (get_int(r, cj, "sequence_count", path, 0, ULK_SPP_MAX_SEQ_COUNT, NULL, &v)) return r->status;
-    c->seq_count = (uint16_t)v;
-    if (get_int(r, cj, "frame_sequence", path, 0, 255, NULL, &v)) return r->status;
-    c->frame_seq = (uint8_t)v;
-    const char *fh = get_str(r, cj, "frame", path, 2 * ULK_TCF_MAX_OCTETS);
-    const char *ch = fh ? get_str(r, cj, "cltu", path, 2 * ULK_CLTU_MAX_OCTETS) : NULL;
-    if (!ch) return r->status;
-    /* decoded on the stack, then kept in one allocation of the exact size */
-    uint8_t fb[ULK_TCF_MAX_OCTETS], cb[ULK_CLTU_MAX_OCTETS];
-    long nf = hex_octets(fh, fb, sizeof fb), nc = hex_octets(ch, cb, sizeof cb);
-    if (nf < 0) return rfail(r, ULK_EPARSE, path, "'frame' must be hex digits of 1 to %d octets", ULK_TCF_MAX_OCTETS);
-    if (nc < 0) return rfail(r, ULK_EPARSE, path, "'cltu' must be hex digits of 1 to %d octets", ULK_CLTU_MAX_OCTETS);
-    uint8_t *buf = ulk_malloc((size_t)nc + (size_t)nf);
-    if (!buf) return rfail(r, ULK_ENOMEM, path, "out of memory");
-    memcpy(buf, cb, (size_t)nc);
-    memcpy(buf + nc, fb, (size_t)nf);
-    c->cltu = buf;
-    c->frame = buf + nc;
-    c->n_frame = (size_t)nf;
-    c->n_cltu = (size_t)nc;
-    return 0;
+    if (!r->status) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(r->msg, sizeof r->msg, fmt, ap);
+        va_end(ap);
+        r->has_path = path != NULL;
+        snprintf(r->path, sizeof r->path, "%s", path ? path : "");
+        r->status = code;
+    }
+    return code;
 }
+int ulk_rd_status(const ulk_rd *r) { return r->status; }
+int ulk_rd_keys(ulk_rd *r, const cJSON *obj, const char *path, const char *const *keys, int n, int partial)
+{
+    return want_keys_p(r, obj, path, keys, n, partial);
+}
+const cJSON *ulk_rd_member(const cJSON *o, const char *k) { return member(o, k); }
+int ulk_rd_int(ulk_rd *r, const cJSON *o, const char *k, const char *path, double lo, double hi, uint64_t *out,
+               int64_t *sout)
+{
+    return get_int(r, o, k, path, lo, hi, out, sout);
+}
+const char *ulk_rd_str(ulk_rd *r, const cJSON *o, const char *k, const char *path, size_t maxlen)
+{
+    return get_str(r, o, k, path, maxlen);
+}
+int ulk_rd_ratio(ulk_rd *r, const cJSON *o, const char *k, const char *path, int allow_zero, ulk_ratio *out)
+{
+    return get_ratio(r, o, k, path, allow_zero, out);
+}
+int ulk_rd_pattern(ulk_rd *r, const cJSON *o, const char *k, const char *path, int n, uint8_t *out)
+{
+    return get_pattern(r, o, k, path, n, out);
+}
+int ulk_rd_bool(ulk_rd *r, const cJSON *o, const char *k, const char *path, int *out)
+{
+    return get_bool(r, o, k, path, out);
+}
+int ulk_rd_line_code(ulk_rd *r, const cJSON *lj, ulk_link *l) { return read_line_code(r, lj, l); }
+int ulk_rd_subcarrier(ulk_rd *r, const cJSON *sc, ulk_link *l) { return read_subcarrier(r, sc, l); }
+long ulk_rd_hex_octets(const char *s, uint8_t *out, size_t cap) { return hex_octets(s, out, cap); }
 
 /* prev_line: the previous command's line (unused for idx 0). */
 static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const ulk_link *l, ulk_upload_cmd *c)
 {
     char path[64];
     snprintf(path, sizeof path, "commands[%zu]", idx);
-    static const char *const ck[] = {"line", "mnemonic", "system", "system_address", "opcode", "critical",
-                                     "wait_s", "idles_before", "args", "word"};
-    static const char *const tk[] = {"line", "mnemonic", "system", "system_address", "opcode", "critical",
-                                     "wait_s", "idles_before", "args", "sequence_count", "frame_sequence",
-                                     "frame", "cltu"};
-    const int tc = l->profile == ULK_PROFILE_CCSDS_TC;
     const ulk_profile_ops *prof = ulk_profile_ops_for(l->profile);
-    if (tc ? want_keys(r, cj, path, tk, 13) : want_keys(r, cj, path, ck, 10)) return r->status;
+    if (want_keys(r, cj, path, prof->upload_cmd_members, prof->n_upload_cmd_members)) return r->status;
     int64_t v = 0; /* set by get_int on success; zero keeps gcc -O3 from warning */
     uint64_t uv = 0;
     if (get_int(r, cj, "line", path, 1, (double)(1 << 30), NULL, &v)) return r->status;
@@ -731,10 +603,9 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const u
     const char *sn = mn ? get_str(r, cj, "system", path, 256) : NULL;
     if (!mn || !sn) return r->status;
     if (!list_safe(mn)) return rfail(r, ULK_EPARSE, path, "mnemonic '%.60s' cannot appear in a command list", mn);
-    if (get_int(r, cj, "system_address", path, 0, tc ? ULK_SPP_MAX_APID : (double)((1u << l->system_bits) - 1), &uv, NULL))
-        return r->status;
+    if (get_int(r, cj, "system_address", path, 0, (double)prof->upload_max_address(l), &uv, NULL)) return r->status;
     c->system_addr = (uint32_t)uv;
-    if (get_int(r, cj, "opcode", path, 0, tc ? 255 : (double)((1u << l->opcode_bits) - 1), &uv, NULL)) return r->status;
+    if (get_int(r, cj, "opcode", path, 0, (double)prof->upload_max_opcode(l), &uv, NULL)) return r->status;
     c->opcode = (uint32_t)uv;
     const cJSON *cr = member(cj, "critical");
     if (!cJSON_IsBool(cr)) return rfail(r, ULK_EPARSE, path, "'critical' must be true or false");
@@ -744,25 +615,16 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const u
         return rfail(r, ULK_ELIMIT, path, "'wait_s' is beyond the limit of 86400 s");
     c->wait_before_s = ulk_ratio_to_double(c->wait_before);
     if (get_int(r, cj, "idles_before", path, 0, (double)ULK_UPLOAD_MAX_IDLES, &c->idles_before, NULL)) return r->status;
-    uint64_t base = prof->gap_units(l, idx == 0 ? ULK_GAP_FIRST : ULK_GAP_BETWEEN);
+    ulk_gap gap = idx == 0 ? ULK_GAP_FIRST : ULK_GAP_BETWEEN;
+    uint64_t base = prof->gap_units(l, gap);
     if (c->idles_before < base)
         return rfail(r, ULK_EPARSE, path, "'idles_before' %llu is below the %s of %llu", (unsigned long long)c->idles_before,
-                     idx == 0 ? (tc ? "acquisition sequence" : "preamble") : (tc ? "idle sequence" : "gap"),
-                     (unsigned long long)base);
+                     prof->gap_names[gap], (unsigned long long)base);
     const cJSON *aj = member(cj, "args");
     if (!cJSON_IsArray(aj)) return rfail(r, ULK_EPARSE, path, "'args' must be an array");
     int na = cJSON_GetArraySize(aj);
     if (na > 64) return rfail(r, ULK_ELIMIT, path, "more than 64 arguments");
-    if (tc) {
-        if (read_tc_unit(r, cj, path, c)) return r->status;
-    } else {
-        const char *wh = get_str(r, cj, "word", path, 40);
-        if (!wh) return r->status;
-        if (ulk_word_from_hex(wh, l->word_bits, &c->word) < 0)
-            return rfail(r, ULK_EPARSE, path, "'word' must be %d hex digits of a %d-bit value", (l->word_bits + 3) / 4,
-                         l->word_bits);
-        c->word.n_bits = l->word_bits;
-    }
+    if (prof->upload_read_unit(r, cj, path, l, c)) return r->status;
 
     /* one block: args, then strings */
     size_t need = (size_t)na * sizeof(ulk_upload_arg) + strlen(mn) + strlen(sn) + 2;
@@ -787,8 +649,7 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const u
     char *p = blk + (size_t)na * sizeof(ulk_upload_arg);
     c->mnemonic = p; p += strlen(mn) + 1; memcpy(c->mnemonic, mn, strlen(mn) + 1);
     c->system_name = p; p += strlen(sn) + 1; memcpy(c->system_name, sn, strlen(sn) + 1);
-    ulk_word_layout y = ulk_word_layout_of(l);
-    int pos = y.args_pos;
+    int pos = 0; /* argument bits so far */
     k = 0;
     cJSON_ArrayForEach(a, aj) {
         char ap[96];
@@ -822,36 +683,10 @@ static int read_cmd(rd_t *r, const cJSON *cj, size_t idx, int prev_line, const u
         const cJSON *en = member(a, "eng");
         if (!cJSON_IsNumber(en)) return rfail(r, ULK_EPARSE, ap, "'eng' must be a number");
         ua->eng = en->valuedouble;
-        if (tc) {
-            if ((size_t)pos + (size_t)ua->bits > prof->max_arg_bits(l))
-                return rfail(r, ULK_EPARSE, ap, "the arguments exceed what a TC frame holds");
-            pos += ua->bits;
-            continue;
-        }
-        if (pos + ua->bits > y.check_pos) return rfail(r, ULK_EPARSE, ap, "the arguments exceed the %d-bit argument field", l->argument_bits);
-        if (ulk_word_get(&c->word, pos, ua->bits) != ua->raw)
-            return rfail(r, ULK_EPARSE, ap, "'raw' does not match the word's argument field");
+        if (prof->upload_check_arg(r, ap, l, c, pos, ua)) return r->status;
         pos += ua->bits;
     }
-    if (tc) {
-        /* the frame and the CLTU must be what the fields make */
-        char why[200];
-        int rc = ulk_profile_check_unit(l, c, why, sizeof why);
-        if (rc == ULK_ENOMEM) return rfail(r, ULK_ENOMEM, path, "out of memory");
-        if (rc) return rfail(r, ULK_EPARSE, path, "%s", why);
-        return 0;
-    }
-    /* the word must say what its fields say */
-    if (ulk_word_get(&c->word, y.vehicle_pos, l->vehicle_bits) != l->vehicle_value)
-        return rfail(r, ULK_EPARSE, path, "the word's vehicle address is not the link's");
-    if (ulk_word_get(&c->word, y.system_pos, l->system_bits) != c->system_addr)
-        return rfail(r, ULK_EPARSE, path, "the word's system address is not 'system_address'");
-    if (ulk_word_get(&c->word, y.opcode_pos, l->opcode_bits) != c->opcode)
-        return rfail(r, ULK_EPARSE, path, "the word's opcode is not 'opcode'");
-    for (int i = pos; i < y.check_pos; i++)
-        if (c->word.bits[i]) return rfail(r, ULK_EPARSE, path, "the word's unused argument bits are not zero");
-    if (!ulk_word_check_ok(l, &c->word)) return rfail(r, ULK_EPARSE, path, "the word's check field is wrong");
-    return 0;
+    return prof->upload_check_unit(r, path, l, c, pos);
 }
 
 /* ------------------------------------------------------------------ streaming source
@@ -1009,7 +844,8 @@ typedef struct {
     size_t cap_full, cap_lean, cap_units, cap_octets;
     size_t unit_octets;          /* words or CLTUs so far */
     uint64_t patterns;           /* filler units + unit bits so far */
-    uint16_t *next_seq;          /* ccsds-tc: next packet count per APID */
+    const ulk_profile_ops *prof; /* the link's profile, once the link is read */
+    void *counts;                /* its counts across records (upload_counts_create) */
     int prev_line;
     int head_done;               /* format, version, dictionary, source and link checked */
     ulk_upload_cmd scratch;      /* lean: the command being read */
@@ -1033,7 +869,7 @@ static int take_cmd(build_t *b, const cJSON *cj)
     rd_t *r = b->r;
     ulk_upload *u = b->u;
     const ulk_link *l = &u->link;
-    const int tc = l->profile == ULK_PROFILE_CCSDS_TC;
+    const ulk_profile_ops *prof = b->prof;
     size_t idx = u->n_cmds;
     char path[64];
     snprintf(path, sizeof path, "commands[%zu]", idx);
@@ -1073,42 +909,30 @@ static int take_cmd(build_t *b, const cJSON *cj)
             c = &b->scratch;
         }
     }
-    uint64_t ub = ulk_profile_ops_for(l->profile)->unit_bits(l, c);
-    size_t octets = tc ? c->n_cltu : (size_t)(l->word_bits + 7) / 8;
-    if (tc) {
-        /* packet counts per APID from 0 and N(S) from first_sequence, as the compiler numbers
-         * them (docs/spec/ccsds-tc.md section 2): a reordered or spliced upload is refused */
-        const ulk_tc_params *t = &l->tc;
-        uint8_t ns = t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? (uint8_t)((t->first_sequence + idx) & 0xFF) : 0;
-        if (c->seq_count != b->next_seq[c->system_addr])
-            rc = rfail(r, ULK_EPARSE, path, "'sequence_count' %u is not %u, the next count of APID 0x%X", c->seq_count,
-                       b->next_seq[c->system_addr], c->system_addr);
-        else if (c->frame_seq != ns)
-            rc = rfail(r, ULK_EPARSE, path, "'frame_sequence' %u is not %u, the N(S) of frame %zu", c->frame_seq, ns, idx);
-        b->next_seq[c->system_addr] = (uint16_t)((b->next_seq[c->system_addr] + 1u) & ULK_SPP_MAX_SEQ_COUNT);
-    }
+    uint64_t ub = prof->unit_bits(l, c);
+    size_t octets = prof->unit_octets(l, c);
+    /* the counts that run across records (packet count per APID, N(S)), as the compiler
+     * numbers them: a reordered or spliced upload is refused */
+    rc = prof->upload_counts_check(b->counts, r, path, l, c, idx);
     if (!rc && b->unit_octets + octets > ULK_UPLOAD_MAX_UNIT_OCTETS)
         rc = rfail(r, ULK_ELIMIT, path,
                    "the %s of the upload exceed %zu octets (the limit that keeps ulk modulate under 64 MB)",
-                   tc ? "CLTUs" : "words", ULK_UPLOAD_MAX_UNIT_OCTETS);
+                   prof->unit_noun, ULK_UPLOAD_MAX_UNIT_OCTETS);
+    /* units of one length are found by stride, others by an offset each */
+    const int varies = z && z->unit_stride == 0;
     if (!rc && z) {
         if (grow((void **)&z->idles, &b->cap_lean, idx + 1, sizeof *z->idles) ||
-            (tc && grow((void **)&z->unit_off, &b->cap_units, idx + 2, sizeof *z->unit_off)) ||
+            (varies && grow((void **)&z->unit_off, &b->cap_units, idx + 2, sizeof *z->unit_off)) ||
             grow((void **)&z->units, &b->cap_octets, b->unit_octets + octets, 1))
             rc = rfail(r, ULK_ENOMEM, NULL, "out of memory");
     }
     if (!rc && z) {
         z->idles[idx] = c->idles_before;
-        uint8_t *dst = z->units + b->unit_octets;
-        if (tc) {
+        if (varies) {
             if (idx == 0) z->unit_off[0] = 0;
             z->unit_off[idx + 1] = (uint32_t)(b->unit_octets + octets);
-            memcpy(dst, c->cltu, octets);
-        } else {
-            memset(dst, 0, octets);
-            for (int i = 0; i < l->word_bits; i++)
-                if (c->word.bits[i]) dst[i >> 3] |= (uint8_t)(0x80u >> (i & 7));
         }
+        prof->unit_pack(l, c, z->units + b->unit_octets);
     }
     if (!rc) {
         b->unit_octets += octets;
@@ -1158,14 +982,12 @@ static int check_head(build_t *b, const cJSON *root, int final)
     const cJSON *lj = member(root, "link");
     if (!lj) return rfail(r, ULK_EPARSE, "", "'link' must come before 'commands'");
     if (read_link(r, lj, &u->link)) return r->status;
-    if (u->link.profile == ULK_PROFILE_CCSDS_TC) {
-        b->next_seq = ulk_calloc(ULK_SPP_MAX_APID + 1, sizeof *b->next_seq);
-        if (!b->next_seq) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
-    }
+    b->prof = ulk_profile_of(&u->link);
+    if (b->prof->upload_counts_create(&u->link, &b->counts)) return rfail(r, ULK_ENOMEM, "commands", "out of memory");
     if (b->flags & ULK_UPLOAD_LEAN) {
         ulk_upload_lean *z = u->lean = ulk_calloc(1, sizeof *z);
         if (!z) return rfail(r, ULK_ENOMEM, NULL, "out of memory");
-        z->unit_stride = (size_t)(u->link.word_bits + 7) / 8;
+        z->unit_stride = b->prof->unit_stride(&u->link);
         if (b->size_hint) {
             /* reserved once from the file size (a command takes more than 64 bytes of text,
              * a unit octet at least one): growing by copies would hold old and new arrays at
@@ -1175,7 +997,7 @@ static int check_head(build_t *b, const cJSON *root, int final)
             if (no > ULK_UPLOAD_MAX_UNIT_OCTETS) no = ULK_UPLOAD_MAX_UNIT_OCTETS;
             size_t nf = b->n_full_want < nc ? b->n_full_want : (size_t)nc;
             if (grow((void **)&z->idles, &b->cap_lean, (size_t)nc, sizeof *z->idles) ||
-                (u->link.profile == ULK_PROFILE_CCSDS_TC &&
+                (z->unit_stride == 0 &&
                  grow((void **)&z->unit_off, &b->cap_units, (size_t)nc, sizeof *z->unit_off)) ||
                 grow((void **)&z->units, &b->cap_octets, (size_t)no, 1) ||
                 (nf && grow((void **)&u->cmds, &b->cap_full, nf, sizeof *u->cmds)))
@@ -1314,7 +1136,7 @@ static int read_src(const char *name, src_t *s, unsigned flags, size_t n_full, u
     root = cJSON_CreateObject();
     if (!u || !root) rfail(&r, ULK_ENOMEM, NULL, "out of memory");
     else read_doc(&b, s, root);
-    ulk_free(b.next_seq);
+    if (b.prof) b.prof->upload_counts_destroy(b.counts);
     /* the rest of the file, to its digest line: a changed file is reported as changed */
     if (r.status != ULK_ENOMEM) {
         s->mark = s->pos = s->end;

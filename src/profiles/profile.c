@@ -4,6 +4,7 @@
  * ulk_profiles below (DEVELOPERS.md "How to add a link profile").
  */
 #include <stdio.h>
+#include <string.h>
 
 #include "profiles.h"
 
@@ -19,14 +20,16 @@ const ulk_profile_ops *ulk_profile_ops_for(ulk_profile id)
     return NULL;
 }
 
-const ulk_profile_ops *ulk_profile_of(const ulk_link *l) { return ulk_profile_ops_for(l->profile); }
-
-int ulk_profile_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
+const ulk_profile_ops *ulk_profile_ops_by_name(const char *name)
 {
-    const ulk_profile_ops *p = ulk_profile_of(l);
-    if (!p || !p->check_unit) {
-        snprintf(err, errlen, "%s units are not checked here", p ? p->name : "unknown");
-        return ULK_EINVAL;
-    }
-    return p->check_unit(l, c, err, errlen);
+    for (size_t i = 0; name && i < sizeof ulk_profiles / sizeof ulk_profiles[0]; i++)
+        if (!strcmp(ulk_profiles[i]->name, name)) return ulk_profiles[i];
+    return NULL;
 }
+
+const ulk_profile_ops *ulk_profile_ops_at(size_t i)
+{
+    return i < sizeof ulk_profiles / sizeof ulk_profiles[0] ? ulk_profiles[i] : NULL;
+}
+
+const ulk_profile_ops *ulk_profile_of(const ulk_link *l) { return ulk_profile_ops_for(l->profile); }

@@ -39,4 +39,51 @@ int ulk_tc_rx_finish(void *state);
 int ulk_tc_rx_commit(void *state);
 void ulk_tc_rx_destroy(void *state);
 
+/* the upload reader (ulk_profile_ops.upload_read_link ... unit_pack; *_upload.c) */
+extern const char *const ulk_subbit_upload_link_members[8];
+extern const char *const ulk_subbit_upload_cmd_members[10];
+int ulk_subbit_upload_read_link(struct ulk_rd *r, const struct cJSON *lj, ulk_link *l);
+uint64_t ulk_subbit_upload_max_address(const ulk_link *l);
+uint64_t ulk_subbit_upload_max_opcode(const ulk_link *l);
+int ulk_subbit_upload_read_unit(struct ulk_rd *r, const struct cJSON *cj, const char *path, const ulk_link *l, ulk_upload_cmd *c);
+int ulk_subbit_upload_check_arg(struct ulk_rd *r, const char *ap, const ulk_link *l, const ulk_upload_cmd *c, int pos,
+                           const ulk_upload_arg *a);
+int ulk_subbit_upload_check_unit(struct ulk_rd *r, const char *path, const ulk_link *l, const ulk_upload_cmd *c, int n_arg_bits);
+int ulk_subbit_upload_counts_create(const ulk_link *l, void **st);
+int ulk_subbit_upload_counts_check(void *st, struct ulk_rd *r, const char *path, const ulk_link *l, const ulk_upload_cmd *c,
+                              size_t idx);
+void ulk_subbit_upload_counts_destroy(void *st);
+size_t ulk_subbit_unit_stride(const ulk_link *l);
+void ulk_subbit_unit_pack(const ulk_link *l, const ulk_upload_cmd *c, uint8_t *dst);
+extern const char *const ulk_tc_upload_link_members[5];
+extern const char *const ulk_tc_upload_cmd_members[13];
+int ulk_tc_upload_read_link(struct ulk_rd *r, const struct cJSON *lj, ulk_link *l);
+uint64_t ulk_tc_upload_max_address(const ulk_link *l);
+uint64_t ulk_tc_upload_max_opcode(const ulk_link *l);
+int ulk_tc_upload_read_unit(struct ulk_rd *r, const struct cJSON *cj, const char *path, const ulk_link *l, ulk_upload_cmd *c);
+int ulk_tc_upload_check_arg(struct ulk_rd *r, const char *ap, const ulk_link *l, const ulk_upload_cmd *c, int pos,
+                           const ulk_upload_arg *a);
+int ulk_tc_upload_check_unit(struct ulk_rd *r, const char *path, const ulk_link *l, const ulk_upload_cmd *c, int n_arg_bits);
+int ulk_tc_upload_counts_create(const ulk_link *l, void **st);
+int ulk_tc_upload_counts_check(void *st, struct ulk_rd *r, const char *path, const ulk_link *l, const ulk_upload_cmd *c,
+                              size_t idx);
+void ulk_tc_upload_counts_destroy(void *st);
+size_t ulk_tc_unit_stride(const ulk_link *l);
+void ulk_tc_unit_pack(const ulk_link *l, const ulk_upload_cmd *c, uint8_t *dst);
+/* ccsds-tc: a record's frame and CLTU against what its fields make (tc_profile.c) */
+int ulk_tc_unit_check(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen);
+/* the dictionary section (ulk_profile_ops.link_parse ... info_bit_rate; subbit_dict.c, tc_dict.c) */
+void ulk_subbit_link_parse(struct ulk_dict_build *c, struct ulk_node *ln);
+int ulk_subbit_system_address(struct ulk_dict_build *c, struct ulk_node *an, uint32_t *out);
+int ulk_subbit_opcode_fits(struct ulk_dict_build *c, struct ulk_node *n, int64_t v);
+void ulk_subbit_command_check(struct ulk_dict_build *c, const ulk_command *k, struct ulk_node *args);
+void ulk_subbit_link_canonical(struct ulk_dict_text *b, const ulk_link *l);
+ulk_ratio ulk_subbit_info_bit_rate(const ulk_link *l);
+void ulk_tc_link_parse(struct ulk_dict_build *c, struct ulk_node *ln);
+int ulk_tc_system_address(struct ulk_dict_build *c, struct ulk_node *an, uint32_t *out);
+int ulk_tc_opcode_fits(struct ulk_dict_build *c, struct ulk_node *n, int64_t v);
+void ulk_tc_command_check(struct ulk_dict_build *c, const ulk_command *k, struct ulk_node *args);
+void ulk_tc_link_canonical(struct ulk_dict_text *b, const ulk_link *l);
+ulk_ratio ulk_tc_info_bit_rate(const ulk_link *l);
+
 #endif

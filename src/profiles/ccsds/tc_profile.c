@@ -150,7 +150,9 @@ static size_t pack_args(const ulk_upload_cmd *c, uint8_t *bits, size_t cap)
     return pos;
 }
 
-static int tc_check_unit(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
+/* Rebuilds what command c's unit must be from its fields (APID, opcode, argument raw values,
+ * counts) and compares: 0, or ULK_EPARSE with the first difference in err (ULK_ENOMEM). */
+int ulk_tc_unit_check(const ulk_link *l, const ulk_upload_cmd *c, char *err, size_t errlen)
 {
     uint8_t bits[8 * ULK_TCF_MAX_OCTETS];
     size_t n = pack_args(c, bits, sizeof bits);
@@ -224,6 +226,14 @@ static void *tc_summary_json(const ulk_dict *d) { return ulk_tc_summary_json(d);
 const ulk_profile_ops ulk_profile_ccsds_tc = {
     .name = "ccsds-tc",
     .id = ULK_PROFILE_CCSDS_TC,
+    .link_parse = ulk_tc_link_parse,
+    .system_address = ulk_tc_system_address,
+    .address_noun = "address (APID)",
+    .address_unprotected = 0,
+    .opcode_fits = ulk_tc_opcode_fits,
+    .command_check = ulk_tc_command_check,
+    .link_canonical = ulk_tc_link_canonical,
+    .info_bit_rate = ulk_tc_info_bit_rate,
     .gap_units = tc_gap_units,
     .filler_rate = tc_filler_rate,
     .filler_symbol = tc_filler_symbol,
@@ -234,6 +244,7 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .encode = tc_encode,
     .encoder_destroy = tc_encoder_destroy,
     .unit_noun = "CLTUs",
+    .unit_noun_one = "CLTU",
     .symbol_noun = "channel bits",
     .arg_room = tc_arg_room,
     .symbol_rate = tc_symbol_rate,
@@ -249,7 +260,22 @@ const ulk_profile_ops ulk_profile_ccsds_tc = {
     .upload_write_unit = ulk_tc_upload_write_unit,
     .print_units = tc_print_units,
     .unit_start_times = NULL,
-    .check_unit = tc_check_unit,
+    .upload_read_link = ulk_tc_upload_read_link,
+    .upload_link_members = ulk_tc_upload_link_members,
+    .n_upload_link_members = 5,
+    .upload_cmd_members = ulk_tc_upload_cmd_members,
+    .n_upload_cmd_members = 13,
+    .upload_max_address = ulk_tc_upload_max_address,
+    .upload_max_opcode = ulk_tc_upload_max_opcode,
+    .gap_names = {"acquisition sequence", "idle sequence", "idle sequence"},
+    .upload_read_unit = ulk_tc_upload_read_unit,
+    .upload_check_arg = ulk_tc_upload_check_arg,
+    .upload_check_unit = ulk_tc_upload_check_unit,
+    .upload_counts_create = ulk_tc_upload_counts_create,
+    .upload_counts_check = ulk_tc_upload_counts_check,
+    .upload_counts_destroy = ulk_tc_upload_counts_destroy,
+    .unit_stride = ulk_tc_unit_stride,
+    .unit_pack = ulk_tc_unit_pack,
     .rx_create = ulk_tc_rx_create,
     .rx_push = ulk_tc_rx_push,
     .rx_finish = ulk_tc_rx_finish,
