@@ -44,6 +44,9 @@
  * the layers above are named by their struct tags only, so this header includes nothing
  * above it (scripts/check-layers.py), while the tables themselves live in src/profiles/. */
 struct ulk_upload;
+/* The room unit_hex needs at most, with its NUL: a unit's identity of up to 1024 octets in hex
+ * (the longest any registered profile writes; each profile checks it fits at compile time). */
+#define ULK_UNIT_HEX_CHARS (2 * 1024 + 1)
 struct ulk_upload_cmd;
 struct ulk_upload_arg;
 /* The dictionary loader's and the upload reader's internals, named by struct tag only: the

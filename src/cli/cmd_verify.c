@@ -12,7 +12,6 @@
 
 #include "capture_opts.h"
 #include "cli.h"
-#include "ulk/ccsds.h" /* ULK_TCF_MAX_OCTETS: the longest unit identity in hex */
 #include "ulk/decode.h"
 #include "ulk/dict.h"
 #include "ulk/profile.h"
@@ -184,7 +183,7 @@ static cJSON *op_json(const ulk_dict *dict, const ulk_upload *u, const ulk_verif
     cJSON *e = cJSON_CreateObject();
     if (p->kind == ULK_VERIFY_MISSING || p->kind == ULK_VERIFY_CHANGED) {
         const ulk_upload_cmd *uc = &u->cmds[p->upload_index];
-        char hx[2 * ULK_TCF_MAX_OCTETS + 1], txt[4096];
+        char hx[ULK_UNIT_HEX_CHARS], txt[4096];
         ulk_verify_sent_hex(u, uc, hx, sizeof hx);
         sent_text(dict, uc, txt, sizeof txt);
         cJSON_AddNumberToObject(e, "index", (double)(p->upload_index + 1));
@@ -282,7 +281,7 @@ static void print_op(const ulk_dict *dict, const ulk_upload *u, const ulk_verify
         }
         shown += changed_fields(uc, w, NULL);
         if (!shown) { /* the same fields, other bits: show them */
-            char hx[2 * ULK_TCF_MAX_OCTETS + 1];
+            char hx[ULK_UNIT_HEX_CHARS];
             ulk_verify_sent_hex(u, uc, hx, sizeof hx);
             printf("           %s: sent %s, received %s\n", w->tc ? "packet data" : "bits", hx, w->hex);
         }

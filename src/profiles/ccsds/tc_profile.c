@@ -195,6 +195,8 @@ int ulk_tc_unit_check(const ulk_link *l, const ulk_upload_cmd *c, char *err, siz
 
 /* the packet data field, read from the frame: after the frame header, segment header and
  * packet header, before the FECF */
+_Static_assert(2 * ULK_TCF_MAX_OCTETS + 1 <= ULK_UNIT_HEX_CHARS, "a frame's data field in hex fits unit_hex's room");
+
 static void tc_unit_hex(const ulk_link *l, const ulk_upload_cmd *c, char *buf, size_t len)
 {
     const ulk_ccsds_tc *tc = &l->tc.frame;
