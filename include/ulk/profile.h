@@ -54,7 +54,7 @@ struct ulk_upload_arg;
  * tree (src/core/doc.h), the upload reader and its JSON values (src/io/upload_read.h,
  * cJSON). A profile's dictionary and reader operations work through those private headers. */
 struct ulk_dict_build;
-struct ulk_dict_text;
+struct ulk_text;
 struct ulk_node;
 struct ulk_rd;
 struct cJSON;
@@ -72,7 +72,7 @@ typedef struct {
 } ulk_unit_request;
 
 /* The upload writer's text buffer: opaque here, see ulk_profile_ops.upload_write_link. */
-struct ulk_jbuf;
+struct ulk_text;
 /* What the receiver gives a profile's unit decoder: opaque here, see ulk_profile_ops.rx_create. */
 struct ulk_rx_sink;
 
@@ -107,7 +107,7 @@ typedef struct ulk_profile_ops {
     void (*command_check)(struct ulk_dict_build *b, const ulk_command *k, struct ulk_node *args);
     /* The link object of the canonical form (docs/spec/dictionary.md section 6): every
      * member, keys in byte order, through the loader's canonical text. It decides the hash. */
-    void (*link_canonical)(struct ulk_dict_text *t, const ulk_link *l);
+    void (*link_canonical)(struct ulk_text *t, const ulk_link *l);
     /* Information bits per second of the link, for the composite carrier's data channel:
      * R_b, or R * 56/64 (what a BCH codeblock carries). */
     ulk_ratio (*info_bit_rate)(const ulk_link *l);
@@ -183,8 +183,8 @@ typedef struct ulk_profile_ops {
     /* The link object of an upload file (",\n  \"link\": {...},\n"), and the end of command
      * c's record after its arguments ("],\n ... }"), into the writer's text buffer (opaque
      * here; the library's internal src/io/upload_text.h). */
-    void (*upload_write_link)(const ulk_link *l, struct ulk_jbuf *b);
-    void (*upload_write_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, struct ulk_jbuf *b);
+    void (*upload_write_link)(const ulk_link *l, struct ulk_text *b);
+    void (*upload_write_unit)(const ulk_link *l, const struct ulk_upload_cmd *c, struct ulk_text *b);
     /* ---- upload reader ---- */
     /* Through the reader's helpers (src/io/upload_read.h): each returns 0, or the status of
      * the first failure it reported there with its tree path. */

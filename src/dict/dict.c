@@ -30,6 +30,7 @@
 #include "dict_build.h"
 #include "ulk/dict.h"
 #include "ulk/profile.h"
+#include "text.h"
 #include "util.h"
 
 /* ---------------------------------------------------------------- arena */
@@ -1208,53 +1209,13 @@ const ulk_arg *ulk_command_find_arg(const ulk_command *c, const char *name)
 
 /* ---------------------------------------------------------------- canonical form and hash */
 
-typedef struct ulk_dict_text {
-    char *p;
-    size_t n, cap;
-    int oom;
-} sbuf;
-
-static void sb_put(sbuf *b, const char *s, size_t n)
-{
-    if (b->oom) return;
-    if (b->n + n + 1 > b->cap) {
-        size_t nc = b->cap ? b->cap : 4096;
-        while (nc < b->n + n + 1) nc *= 2;
-        char *np = ulk_realloc(b->p, nc);
-        if (!np) { b->oom = 1; return; }
-        b->p = np;
-        b->cap = nc;
-    }
-    memcpy(b->p + b->n, s, n);
-    b->n += n;
-    b->p[b->n] = 0;
-}
-
-static void sb_puts(sbuf *b, const char *s) { sb_put(b, s, strlen(s)); }
-
-static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void sb_printf(sbuf *b, const char *fmt, ...)
-{
-    char tmp[128];
-    va_list ap;
-    va_start(ap, fmt);
-    int n = vsnprintf(tmp, sizeof tmp, fmt, ap);
-    va_end(ap);
-    if (n > 0) sb_put(b, tmp, (size_t)n < sizeof tmp ? (size_t)n : sizeof tmp - 1);
-}
-
-/* A JSON string: quote, backslash and control characters escaped (\uXXXX), bytes >= 0x80 as is. */
-static void sb_str(sbuf *b, const char *s)
-{
-    if (!s) { sb_puts(b, "null"); return; }
-    sb_puts(b, "\"");
-    for (const unsigned char *p = (const unsigned char *)s; *p; p++) {
-        if (*p == '"' || *p == '\\') { char e[2] = {'\\', (char)*p}; sb_put(b, e, 2); }
-        else if (*p < 0x20) sb_printf(b, "\\u%04x", *p);
-        else sb_put(b, (const char *)p, 1);
-    }
-    sb_puts(b, "\"");
-}
+/* The canonical text: the library's text buffer (src/core/text.h), whose JSON strings are the
+ * upload writer's too. */
+typedef ulk_text sbuf;
+#define sb_put ulk_text_put
+#define sb_puts ulk_text_puts
+#define sb_printf ulk_text_printf
+#define sb_str ulk_text_json_str
 
 static void sb_double(sbuf *b, double v)
 {
@@ -1607,12 +1568,10 @@ ulk_node *ulk_db_subcarrier(ulk_dict_build *b, ulk_node *sc, int *fsc_ok, int *a
 void ulk_dt_puts(ulk_dict_text *t, const char *s) { sb_puts(t, s); }
 void ulk_dt_printf(ulk_dict_text *t, const char *fmt, ...)
 {
-    char tmp[128];
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(tmp, sizeof tmp, fmt, ap);
+    ulk_text_vprintf(t, fmt, ap);
     va_end(ap);
-    if (n > 0) sb_put(t, tmp, (size_t)n < sizeof tmp ? (size_t)n : sizeof tmp - 1);
 }
 void ulk_dt_str(ulk_dict_text *t, const char *s) { sb_str(t, s); }
 void ulk_dt_double(ulk_dict_text *t, double v) { sb_double(t, v); }

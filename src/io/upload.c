@@ -32,6 +32,7 @@
 #include "ulk/word.h"
 #include "upload_read.h"
 #include "upload_text.h"
+#include "text.h"
 #include "util.h"
 
 /* ------------------------------------------------------------------ lifetime */
@@ -78,79 +79,12 @@ void ulk_upload_destroy(ulk_upload *u)
 
 /* ------------------------------------------------------------------ writer */
 
-struct ulk_jbuf {
-    char *p;
-    size_t n, cap;
-    int oom;
-};
-typedef struct ulk_jbuf sbuf;
-
-static void sb_grow(sbuf *b, size_t add)
-{
-    if (b->oom || b->n + add + 1 <= b->cap) return;
-    size_t nc = b->cap ? b->cap : 4096;
-    while (nc < b->n + add + 1) nc *= 2;
-    char *np = ulk_realloc(b->p, nc);
-    if (!np) { b->oom = 1; return; }
-    b->p = np;
-    b->cap = nc;
-}
-
-static void sb_put(sbuf *b, const char *s, size_t n)
-{
-    sb_grow(b, n);
-    if (b->oom) return;
-    memcpy(b->p + b->n, s, n);
-    b->n += n;
-    b->p[b->n] = 0;
-}
-
-static void sb_vprintf(sbuf *b, const char *fmt, va_list ap0)
-{
-    char tmp[512];
-    va_list ap;
-    va_copy(ap, ap0);
-    int k = vsnprintf(tmp, sizeof tmp, fmt, ap);
-    va_end(ap);
-    if (k < 0) return;
-    if ((size_t)k < sizeof tmp) { sb_put(b, tmp, (size_t)k); return; }
-    sb_grow(b, (size_t)k);
-    if (b->oom) return;
-    va_copy(ap, ap0);
-    vsnprintf(b->p + b->n, (size_t)k + 1, fmt, ap);
-    va_end(ap);
-    b->n += (size_t)k;
-}
-
-static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void sb_printf(sbuf *b, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    sb_vprintf(b, fmt, ap);
-    va_end(ap);
-}
-
-/* A JSON string: quotes, backslashes and control bytes escaped; other bytes as they are. */
-static void sb_str(sbuf *b, const char *s)
-{
-    if (!s) { sb_put(b, "null", 4); return; }
-    sb_put(b, "\"", 1);
-    const char *run = s;
-    for (; *s; s++) {
-        unsigned char c = (unsigned char)*s;
-        if (c == '"' || c == '\\' || c < 0x20) {
-            sb_put(b, run, (size_t)(s - run));
-            char e[8];
-            if (c == '"' || c == '\\') snprintf(e, sizeof e, "\\%c", c);
-            else snprintf(e, sizeof e, "\\u%04x", c);
-            sb_put(b, e, strlen(e));
-            run = s + 1;
-        }
-    }
-    sb_put(b, run, (size_t)(s - run));
-    sb_put(b, "\"", 1);
-}
+/* The writer's text: the library's text buffer (src/core/text.h). */
+typedef ulk_text sbuf;
+#define sb_put ulk_text_put
+#define sb_printf ulk_text_printf
+#define sb_str ulk_text_json_str
+#define sb_hex ulk_text_hex
 
 static void sb_ratio(sbuf *b, ulk_ratio r)
 {
@@ -185,18 +119,6 @@ static uint64_t total_patterns(const ulk_upload *u)
     return p;
 }
 
-static void sb_hex(sbuf *b, const uint8_t *p, size_t n)
-{
-    static const char hx[] = "0123456789ABCDEF";
-    sb_grow(b, 2 * n);
-    if (b->oom) return;
-    for (size_t i = 0; i < n; i++) {
-        b->p[b->n++] = hx[p[i] >> 4];
-        b->p[b->n++] = hx[p[i] & 15];
-    }
-    b->p[b->n] = 0;
-}
-
 /* ---- the writer's text buffer, for the profiles' parts of an upload (upload_text.h) */
 
 void ulk_jb_put(ulk_jbuf *b, const char *s) { sb_put(b, s, strlen(s)); }
@@ -204,7 +126,7 @@ void ulk_jb_printf(ulk_jbuf *b, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    sb_vprintf(b, fmt, ap);
+    ulk_text_vprintf(b, fmt, ap);
     va_end(ap);
 }
 void ulk_jb_str(ulk_jbuf *b, const char *s) { sb_str(b, s); }
@@ -212,10 +134,7 @@ void ulk_jb_ratio(ulk_jbuf *b, ulk_ratio r) { sb_ratio(b, r); }
 void ulk_jb_double(ulk_jbuf *b, double v) { sb_double(b, v); }
 void ulk_jb_hex(ulk_jbuf *b, const uint8_t *p, size_t n) { sb_hex(b, p, n); }
 int ulk_jb_oom(const ulk_jbuf *b) { return b->oom; }
-void ulk_jb_unput(ulk_jbuf *b, size_t n)
-{
-    if (!b->oom && n <= b->n) b->n -= n;
-}
+void ulk_jb_unput(ulk_jbuf *b, size_t n) { ulk_text_unput(b, n); }
 
 #define DIGEST_HEAD "  \"digest\": \"sha256:"
 #define DIGEST_TAIL "\"\n}\n"

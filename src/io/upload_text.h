@@ -10,7 +10,7 @@
 
 #include "ulk/link.h"
 
-typedef struct ulk_jbuf ulk_jbuf;
+typedef struct ulk_text ulk_jbuf; /* src/core/text.h */
 
 void ulk_jb_put(ulk_jbuf *b, const char *s);                      /* text as it is */
 void ulk_jb_printf(ulk_jbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));

@@ -24,10 +24,10 @@ cJSON *ulk_subbit_summary_json(const ulk_dict *d);
 void ulk_tc_summary_text(const ulk_dict *d, FILE *out);
 cJSON *ulk_tc_summary_json(const ulk_dict *d);
 /* the upload file's parts (ulk_profile_ops.upload_write_link / upload_write_unit) */
-void ulk_subbit_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
-void ulk_subbit_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
-void ulk_tc_upload_write_link(const ulk_link *l, struct ulk_jbuf *b);
-void ulk_tc_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_jbuf *b);
+void ulk_subbit_upload_write_link(const ulk_link *l, struct ulk_text *b);
+void ulk_subbit_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_text *b);
+void ulk_tc_upload_write_link(const ulk_link *l, struct ulk_text *b);
+void ulk_tc_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, struct ulk_text *b);
 /* the receivers (ulk_profile_ops.rx_create ... rx_destroy; the profiles' *_rx.c) */
 int ulk_subbit_rx_create(const ulk_dict *d, double fs_hz, const struct ulk_rx_sink *sink, void **state, ulk_diag *diag);
 int ulk_subbit_rx_push(void *state, const float *x, size_t n);
@@ -77,13 +77,13 @@ void ulk_subbit_link_parse(struct ulk_dict_build *c, struct ulk_node *ln);
 int ulk_subbit_system_address(struct ulk_dict_build *c, struct ulk_node *an, uint32_t *out);
 int ulk_subbit_opcode_fits(struct ulk_dict_build *c, struct ulk_node *n, int64_t v);
 void ulk_subbit_command_check(struct ulk_dict_build *c, const ulk_command *k, struct ulk_node *args);
-void ulk_subbit_link_canonical(struct ulk_dict_text *b, const ulk_link *l);
+void ulk_subbit_link_canonical(struct ulk_text *b, const ulk_link *l);
 ulk_ratio ulk_subbit_info_bit_rate(const ulk_link *l);
 void ulk_tc_link_parse(struct ulk_dict_build *c, struct ulk_node *ln);
 int ulk_tc_system_address(struct ulk_dict_build *c, struct ulk_node *an, uint32_t *out);
 int ulk_tc_opcode_fits(struct ulk_dict_build *c, struct ulk_node *n, int64_t v);
 void ulk_tc_command_check(struct ulk_dict_build *c, const ulk_command *k, struct ulk_node *args);
-void ulk_tc_link_canonical(struct ulk_dict_text *b, const ulk_link *l);
+void ulk_tc_link_canonical(struct ulk_text *b, const ulk_link *l);
 ulk_ratio ulk_tc_info_bit_rate(const ulk_link *l);
 
 #endif
