@@ -273,18 +273,26 @@ typedef struct ulk_rd {
     char msg[600];
 } rd_t;
 
-static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...) __attribute__((format(printf, 4, 5)));
-static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...)
+/* The reader's first failure: its status, message and tree path (NULL: none); later ones are
+ * dropped, so the message names where reading stopped. */
+static int rvfail(rd_t *r, int code, const char *path, const char *fmt, va_list ap)
 {
     if (!r->status) {
-        va_list ap;
-        va_start(ap, fmt);
         vsnprintf(r->msg, sizeof r->msg, fmt, ap);
-        va_end(ap);
         r->has_path = path != NULL;
         snprintf(r->path, sizeof r->path, "%s", path ? path : "");
         r->status = code;
     }
+    return code;
+}
+
+static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...) __attribute__((format(printf, 4, 5)));
+static int rfail(rd_t *r, int code, const char *path, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    rvfail(r, code, path, fmt, ap);
+    va_end(ap);
     return code;
 }
 
@@ -462,15 +470,10 @@ static long hex_octets(const char *s, uint8_t *out, size_t cap)
 /* The helpers under their shared names, for the profiles' readers (src/io/upload_read.h). */
 int ulk_rd_fail(ulk_rd *r, int code, const char *path, const char *fmt, ...)
 {
-    if (!r->status) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(r->msg, sizeof r->msg, fmt, ap);
-        va_end(ap);
-        r->has_path = path != NULL;
-        snprintf(r->path, sizeof r->path, "%s", path ? path : "");
-        r->status = code;
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    rvfail(r, code, path, fmt, ap);
+    va_end(ap);
     return code;
 }
 int ulk_rd_status(const ulk_rd *r) { return r->status; }
