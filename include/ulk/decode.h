@@ -52,6 +52,14 @@ typedef enum {
     ULK_SDLS_OUTSIDE_WINDOW,  /* authentic, but more than `window` above the last accepted */
     ULK_SDLS_MALFORMED        /* too short for its security header and trailer */
 } ulk_sdls_verdict;
+/* Short stable text of a verdict: "accepted", "secured, not authenticated", "authentication
+ * failed", "unknown SPI", "replayed", "outside the window", "malformed security fields"
+ * (ulk_sdls_verdict_str in ulk/sdls.h is the same). */
+const char *ulk_security_verdict_str(ulk_sdls_verdict v);
+/* What a report says of a received secured frame (decode's `security.verdict`):
+ * "authenticated" (accepted), "not authenticated" (no keys given), else why the check refused
+ * it (ulk_security_verdict_str). */
+const char *ulk_security_verdict_report(ulk_sdls_verdict v);
 
 #define ULK_DECODE_MAX_ARGS 64 /* D <= 64 bits, every argument at least one bit */
 

@@ -18,7 +18,8 @@
  * A profile never sees samples and never formats arguments: packed argument bits go in.
  * Besides encoding, the table holds what else differs between profiles: its dictionary
  * section (parse, rules, canonical form), its words in messages, its rates, its security
- * association, its lines in the reports of compile, inspect, validate and verify, its
+ * association and compile's session over it (keys, counters), its lines in the reports of
+ * compile, inspect, validate and verify, its
  * records in the upload file (write and read back), and its receiver (the unit decoder from
  * samples to words or frames); DEVELOPERS.md, "How to add a link profile", lists them. Each
  * profile's table lives in its folder
@@ -155,6 +156,49 @@ typedef struct ulk_profile_ops {
     size_t (*unit_octets)(const ulk_link *l, const struct ulk_upload_cmd *c);
     /* The security association of a secured link (enabled), else NULL. */
     const ulk_sdls_sa *(*security)(const ulk_link *l);
+    /* ---- security: compile's authenticated commanding ----
+     * (docs/sdls.md, "Counters: the rule"). All NULL for a profile without security (the
+     * sub-bit table). The caller owns its files and calls them at fixed points:
+     *     secure_describe   does the link secure its units? (before anything else is read)
+     *     secure_begin      key file loaded, state locked and read (before the list is compiled)
+     *     secure_upload     every unit secured with fresh counters, reserved for the upload
+     *     ulk_upload_write_hook(u, path, hook, ...), the hook calling secure_commit: the state is
+     *                       saved after the upload's temporary file is fsynced and before it is
+     *                       renamed into place (a crash between the two skips the counters,
+     *                       never reuses them; the next secure_begin names the skipped range)
+     *     secure_summary    compile's summary line, or secure_abandoned after a failed write
+     *     secure_end        the lock released, the keys wiped.
+     * Lines for the user go to msg, each starting with who ("ulk compile"). */
+    /* 1 when link l secures its units, with what secures them in buf for messages
+     * ("link.tc.security: SPI 257, key 'harrowick3-uplink'"); 0 (buf "") when it does not. */
+    int (*secure_describe)(const ulk_link *l, char *buf, size_t n);
+    /* For a link that secures its units: loads the key file keys_path, locks the send-side
+     * state state_path (the lock is held until secure_end) and loads it (a fresh state at
+     * counter 1 when absent). Returns 0 with *session, the notices printed (a state created;
+     * counters reserved for an upload that does not exist: skipped, never used again);
+     * ULK_EINVAL when the key file lacks the link's key (the line saying so printed, diag
+     * untouched); ULK_EIO, ULK_EPARSE, ULK_EMISMATCH, ULK_ENOMEM with the reason in diag.
+     * On failure *session is NULL and nothing is held. */
+    int (*secure_begin)(const ulk_link *l, const char *keys_path, const char *state_path, const char *who, FILE *msg,
+                        void **session, ulk_diag *diag);
+    /* Secures every unit of u in command order with the state's next counters and reserves
+     * them for the upload at out_path, in memory (secure_commit writes the state). An empty
+     * upload takes none. Returns 0, or ULK_EINVAL / ULK_ELIMIT (the counters would run out) /
+     * ULK_ENOMEM, the reason in diag where there is one: u must then not be written. */
+    int (*secure_upload)(void *session, struct ulk_upload *u, const char *out_path, ulk_diag *diag);
+    /* Saves the state with the reservation (atomically): the hook between "upload written and
+     * fsynced" and "upload renamed", called only when secure_upload took counters. Returns 0,
+     * or ULK_EIO / ULK_ENOMEM with the reason in diag (the state file unchanged). */
+    int (*secure_commit)(void *session, ulk_diag *diag);
+    /* Compile's summary line of the counters secure_upload took ("  security  SPI 257,
+     * authentication, IV counters 1..18 (next 19 in ops.state)\n") on out; returns what
+     * fprintf returns, 0 when no counters were taken (nothing printed). */
+    int (*secure_summary)(void *session, FILE *out);
+    /* After the upload failed to be written: what became of its counters, read back from the
+     * state file, as one line on msg (reserved and unused, or the state unchanged); nothing
+     * when no counters were taken. */
+    void (*secure_abandoned)(void *session);
+    void (*secure_end)(void *session); /* NULL does nothing */
     /* ---- reports ---- */
     /* The identity of command c as verify's report shows it: the word in hex, or the packet
      * data field (opcode and arguments) read from the frame, in hex. buf holds len chars. */

@@ -116,7 +116,8 @@ int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sd
 
 /* ulk_sdls_verdict, the verdict on a received secured frame, is declared in ulk/decode.h
  * beside the other reasons a received unit is refused (receiver events carry it). */
-const char *ulk_sdls_verdict_str(ulk_sdls_verdict v); /* "accepted", "authentication failed", ... */
+const char *ulk_sdls_verdict_str(ulk_sdls_verdict v); /* "accepted", "authentication failed", ...: the same as
+                                                       * ulk_security_verdict_str (ulk/decode.h) */
 
 typedef struct {
     ulk_sdls_verdict verdict;

@@ -2,16 +2,13 @@
  * (LIST "-": standard input; UPLOAD "-": standard output, not for a secured link).
  * Exit (docs/cli.md) 0 written; 1 the dictionary or the list has errors, or the IV counters
  * would run out (nothing written); 2 usage or I/O, a key or state file that cannot be used. */
-#include <inttypes.h>
 #include <stdio.h>
 #include <string.h>
-#include <sys/stat.h>
 
 #include "cli.h"
 #include "ulk/cmdlist.h"
 #include "ulk/dict.h"
 #include "ulk/profile.h"
-#include "ulk/sdls.h"
 #include "ulk/upload.h"
 
 static void usage(FILE *out)
@@ -94,82 +91,48 @@ static int parse_args(int argc, char **argv, args *a)
     return -1;
 }
 
-/* Keys and the send-side state of a secured link (docs/sdls.md, "counters"). */
+/* Compile's authenticated-commanding session on a secured link (docs/sdls.md, "counters"):
+ * the profile's security operations (ulk_profile_ops, "security: compile"); session NULL:
+ * the link has no security. */
 typedef struct {
-    const ulk_sdls_sa *sa;     /* NULL: the link has no security */
-    const char *keys_path, *state_path;
-    ulk_sdls_keys *keys;
-    ulk_sdls_state *state;
-    uint64_t first;            /* the first IV counter of this upload */
-    int lock_fd;               /* the state's lock, held for the whole run */
+    const ulk_profile_ops *p;
+    void *session;
 } sec_ctx;
 
-static void sec_close(sec_ctx *s)
+/* A secured link needs both --keys and --state, any other link neither; the profile locks the
+ * state before reading it. Returns 0 or the exit code (message printed, nothing written). */
+static int sec_open(sec_ctx *s, const ulk_dict *dict, const args *a, ulk_diag *diag)
 {
-    ulk_sdls_state_unlock(s->lock_fd);
-    ulk_sdls_keys_destroy(s->keys);
-    ulk_sdls_state_destroy(s->state);
-}
-
-/* Notices about the state: created, or counters reserved for an upload that never appeared. */
-static void sec_notices(const sec_ctx *s, int created)
-{
-    if (created)
-        fprintf(stderr, "ulk compile: notice: %s does not exist: a new send-side state starts at IV counter 1 for SPI %u\n",
-                s->state_path, (unsigned)s->sa->spi);
-    uint64_t ra, rb;
-    const char *rp;
-    struct stat st;
-    if (ulk_sdls_state_reservation(s->state, s->sa->spi, &ra, &rb, &rp) && stat(rp, &st) != 0)
+    char what[128];
+    s->p = ulk_profile_of(&dict->link);
+    int secured = s->p->secure_describe && s->p->secure_describe(&dict->link, what, sizeof what);
+    if (secured && (!a->keys_path || !a->state_path)) {
         fprintf(stderr,
-                "ulk compile: notice: IV counters %" PRIu64 "..%" PRIu64 " of SPI %u were reserved for %s, which does not "
-                "exist (that compile did not finish, or the file was moved): they are skipped, never used again\n",
-                ra, rb, (unsigned)s->sa->spi, rp);
-}
-
-/* A secured link needs both --keys and --state, any other link neither; the state is locked
- * before it is read. Returns 0 or the exit code (message printed, nothing written). */
-static int sec_open(sec_ctx *s, const ulk_dict *dict, const char *dict_path, ulk_diag *diag)
-{
-    const ulk_sdls_sa *sa = ulk_profile_of(&dict->link)->security(&dict->link);
-    s->sa = sa;
-    if (s->sa && (!s->keys_path || !s->state_path)) {
-        fprintf(stderr,
-                "ulk compile: dictionary %s secures every frame (link.tc.security: SPI %u, key '%s'): give the key file with "
+                "ulk compile: dictionary %s secures every frame (%s): give the key file with "
                 "--keys FILE and the anti-replay state with --state STATE; no upload written\n",
-                dict_path, (unsigned)sa->spi, sa->key);
+                a->dict_path, what);
         return CLI_EXIT_USAGE_IO;
     }
-    if (!s->sa && (s->keys_path || s->state_path)) {
+    if (!secured && (a->keys_path || a->state_path)) {
         fprintf(stderr, "ulk compile: dictionary %s has no link.tc.security: --keys and --state have nothing to do; no upload written\n",
-                dict_path);
+                a->dict_path);
         return CLI_EXIT_USAGE_IO;
     }
-    if (!s->sa) return 0;
-    int created = 0;
-    if (ulk_sdls_keys_load(s->keys_path, &s->keys, diag) < 0 || (s->lock_fd = ulk_sdls_state_lock(s->state_path, diag)) < 0 ||
-        ulk_sdls_state_load(s->state_path, ULK_SDLS_SEND, &s->state, &created, diag) < 0) {
+    if (!secured) return 0;
+    int rc = s->p->secure_begin(&dict->link, a->keys_path, a->state_path, "ulk compile", stderr, &s->session, diag);
+    if (rc < 0 && rc != ULK_EINVAL) { /* ULK_EINVAL: the missing key, already said */
         ulk_diag_print(diag, stderr);
         fprintf(stderr, "ulk compile: no upload written\n");
-        return CLI_EXIT_USAGE_IO;
     }
-    if (!ulk_sdls_keys_has(s->keys, sa->key)) {
-        fprintf(stderr, "ulk compile: key '%s' (SPI %u) is not in %s; no upload written\n", sa->key, (unsigned)sa->spi,
-                s->keys_path);
-        return CLI_EXIT_USAGE_IO;
-    }
-    sec_notices(s, created);
-    s->first = ulk_sdls_state_value(s->state, sa->spi);
-    return 0;
+    return rc < 0 ? CLI_EXIT_USAGE_IO : 0;
 }
 
-/* Secures every frame with counters first .. first + n - 1, reserved in the state (saved by
- * save_state before the rename). Returns 0 or the exit code. */
+/* Secures every frame with fresh counters, reserved in the state (saved by save_state before
+ * the rename). Returns 0 or the exit code. */
 static int sec_apply(sec_ctx *s, ulk_upload *up, const char *out_path, ulk_diag *diag)
 {
-    if (!s->sa || !up->n_cmds) return 0;
-    int rc = ulk_sdls_secure_upload(up, s->keys, s->first, diag);
-    if (!rc) rc = ulk_sdls_state_reserve(s->state, s->sa->spi, s->first, s->first + up->n_cmds - 1, out_path);
+    if (!s->session || !up->n_cmds) return 0;
+    int rc = s->p->secure_upload(s->session, up, out_path, diag);
     if (!rc) return 0;
     ulk_diag_print(diag, stderr);
     fprintf(stderr, "ulk compile: cannot secure the frames (%s); no upload written, the state is unchanged\n",
@@ -182,27 +145,7 @@ static int sec_apply(sec_ctx *s, ulk_upload *up, const char *out_path, ulk_diag 
 static int save_state(void *user, ulk_diag *diag)
 {
     const sec_ctx *s = user;
-    return ulk_sdls_state_save(s->state, s->state_path, diag);
-}
-
-/* After a failed write of a secured upload: whether its counters were reserved (and so stay
- * unused) or the state is as it was. */
-static void sec_write_failed(const sec_ctx *s, const ulk_upload *up)
-{
-    if (!s->sa || !up->n_cmds) return;
-    struct stat st;
-    int saved = 0;
-    ulk_sdls_state *now = NULL;
-    ulk_diag *d2 = ulk_diag_create();
-    if (ulk_sdls_state_load(s->state_path, ULK_SDLS_SEND, &now, NULL, d2) == 0 && stat(s->state_path, &st) == 0)
-        saved = ulk_sdls_state_value(now, s->sa->spi) == s->first + up->n_cmds;
-    ulk_sdls_state_destroy(now);
-    ulk_diag_destroy(d2);
-    if (saved)
-        fprintf(stderr, "ulk compile: IV counters %" PRIu64 "..%" PRIu64 " of SPI %u were reserved in %s and stay unused\n",
-                s->first, s->first + up->n_cmds - 1, (unsigned)s->sa->spi, s->state_path);
-    else
-        fprintf(stderr, "ulk compile: %s is unchanged\n", s->state_path);
+    return s->p->secure_commit(s->session, diag);
 }
 
 static void print_summary(FILE *say, const args *a, const ulk_dict *dict, const ulk_upload *up, const sec_ctx *s)
@@ -213,10 +156,7 @@ static void print_summary(FILE *say, const args *a, const ulk_dict *dict, const 
     fprintf(say, "compiled %s with %s %s -> %s\n", a->list_path, dict->name, dict->version, a->out_path);
     fprintf(say, "  commands  %zu\n", up->n_cmds);
     ulk_profile_of(&up->link)->print_units(say, up, n_sub);
-    if (s->sa && up->n_cmds)
-        fprintf(say, "  security  SPI %u, %s, IV counters %" PRIu64 "..%" PRIu64 " (next %" PRIu64 " in %s)\n",
-                (unsigned)s->sa->spi, ulk_sdls_service_name(s->sa->service), s->first, s->first + up->n_cmds - 1,
-                s->first + up->n_cmds, s->state_path);
+    if (s->session && up->n_cmds) s->p->secure_summary(s->session, say);
     fprintf(say, "  duration  %.6f s at %s bit/s\n", ulk_upload_duration_s(up), rb);
     size_t n_crit = 0;
     for (size_t i = 0; i < up->n_cmds; i++) n_crit += up->cmds[i].critical != 0;
@@ -258,25 +198,25 @@ int cmd_compile(int argc, char **argv)
     ulk_dict *dict = NULL;
     ulk_cmdlist *list = NULL;
     ulk_upload *up = NULL;
-    sec_ctx sec = {NULL, a.keys_path, a.state_path, NULL, NULL, 0, -1};
+    sec_ctx sec = {NULL, NULL};
 
     if ((exit_code = cli_load_dict("compile", a.dict_path, &dict))) {
         fprintf(stderr, "ulk compile: no upload written\n");
         goto done;
     }
-    if ((exit_code = sec_open(&sec, dict, a.dict_path, diag))) goto done;
+    if ((exit_code = sec_open(&sec, dict, &a, diag))) goto done;
     if ((exit_code = compile_list(&a, dict, &list, &up, diag))) goto done;
     if ((exit_code = sec_apply(&sec, up, a.out_path, diag))) goto done;
-    int rc = ulk_upload_write_hook(up, a.out_path, sec.sa && up->n_cmds ? save_state : NULL, &sec, diag);
+    int rc = ulk_upload_write_hook(up, a.out_path, sec.session && up->n_cmds ? save_state : NULL, &sec, diag);
     if (rc < 0) {
         ulk_diag_print(diag, stderr);
-        sec_write_failed(&sec, up);
+        if (sec.session && up->n_cmds) sec.p->secure_abandoned(sec.session);
         exit_code = cli_exit_for(rc);
         goto done;
     }
     if (!a.quiet) print_summary(say, &a, dict, up, &sec);
 done:
-    sec_close(&sec);
+    if (sec.session) sec.p->secure_end(sec.session);
     ulk_upload_destroy(up);
     ulk_cmdlist_destroy(list);
     ulk_dict_destroy(dict);

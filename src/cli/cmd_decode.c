@@ -19,7 +19,6 @@
 #include "ulk/limits.h"
 #include "ulk/plot.h"
 #include "ulk/rx.h"
-#include "ulk/sdls.h"
 #include "util.h"
 
 static void usage(FILE *out)
@@ -138,12 +137,6 @@ static cJSON *num_or_null(int have, double v)
     return cJSON_CreateRaw(buf);
 }
 
-/* "authenticated", "not authenticated" (no --keys), or why the security check refused it. */
-static const char *verdict_text(ulk_sdls_verdict v)
-{
-    return v == ULK_SDLS_ACCEPTED ? "authenticated" : v == ULK_SDLS_UNCHECKED ? "not authenticated" : ulk_sdls_verdict_str(v);
-}
-
 /* A secured CLTU's security member: SPI, IV counter, verdict. */
 static cJSON *security_json(const ulk_rx_event *ev)
 {
@@ -151,7 +144,7 @@ static cJSON *security_json(const ulk_rx_event *ev)
     int ok = sj != NULL;
     ok = ok && cJSON_AddNumberToObject(sj, "spi", ev->spi) != NULL;
     ok = ok && cJSON_AddNumberToObject(sj, "iv_counter", (double)ev->iv_counter) != NULL;
-    ok = ok && cJSON_AddStringToObject(sj, "verdict", verdict_text(ev->sec_verdict)) != NULL;
+    ok = ok && cJSON_AddStringToObject(sj, "verdict", ulk_security_verdict_report(ev->sec_verdict)) != NULL;
     if (!ok) cJSON_Delete(sj);
     return ok ? sj : NULL;
 }

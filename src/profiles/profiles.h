@@ -39,6 +39,16 @@ int ulk_tc_rx_finish(void *state);
 int ulk_tc_rx_commit(void *state);
 void ulk_tc_rx_destroy(void *state);
 
+/* compile's authenticated commanding (ulk_profile_ops.secure_describe ... secure_end; tc_secure.c) */
+int ulk_tc_secure_describe(const ulk_link *l, char *buf, size_t n);
+int ulk_tc_secure_begin(const ulk_link *l, const char *keys_path, const char *state_path, const char *who, FILE *msg,
+                        void **session, ulk_diag *diag);
+int ulk_tc_secure_upload(void *session, ulk_upload *u, const char *out_path, ulk_diag *diag);
+int ulk_tc_secure_commit(void *session, ulk_diag *diag);
+int ulk_tc_secure_summary(void *session, FILE *out);
+void ulk_tc_secure_abandoned(void *session);
+void ulk_tc_secure_end(void *session);
+
 /* the upload reader (ulk_profile_ops.upload_read_link ... unit_pack; *_upload.c) */
 extern const char *const ulk_subbit_upload_link_members[8];
 extern const char *const ulk_subbit_upload_cmd_members[10];

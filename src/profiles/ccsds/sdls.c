@@ -405,19 +405,8 @@ int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sd
     return 0;
 }
 
-const char *ulk_sdls_verdict_str(ulk_sdls_verdict v)
-{
-    switch (v) {
-    case ULK_SDLS_ACCEPTED: return "accepted";
-    case ULK_SDLS_UNCHECKED: return "secured, not authenticated";
-    case ULK_SDLS_AUTH_FAILED: return "authentication failed";
-    case ULK_SDLS_UNKNOWN_SPI: return "unknown SPI";
-    case ULK_SDLS_REPLAYED: return "replayed";
-    case ULK_SDLS_OUTSIDE_WINDOW: return "outside the window";
-    case ULK_SDLS_MALFORMED: return "malformed security fields";
-    }
-    return "unknown security verdict";
-}
+/* the text lives with the verdict in the receive layer (ulk/decode.h) */
+const char *ulk_sdls_verdict_str(ulk_sdls_verdict v) { return ulk_security_verdict_str(v); }
 
 static void rx_reason(ulk_sdls_rx_result *res, ulk_sdls_verdict v, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
