@@ -269,20 +269,20 @@ static void test_frame_layout_and_verdicts(void **state)
         assert_int_equal(ulk_sdls_rx_create(&sa, k, NULL, &rx, NULL), 0);
         ulk_sdls_rx_result *res = malloc(sizeof *res);
         assert_int_equal(ulk_sdls_rx_frame(rx, &tc, f, n, res), 0);
-        if (res->verdict != ULK_SDLS_ACCEPTED || res->n_data != 9 || memcmp(res->data, plain + 20, 9) ||
+        if (res->verdict != ULK_SEC_ACCEPTED || res->n_data != 9 || memcmp(res->data, plain + 20, 9) ||
             res->spi != 0x0107 || res->counter != 5)
             fail_msg("service %d: a good frame is not accepted with its data (%s)", svc, res->reason);
         ulk_sdls_rx_frame(rx, &tc, f, n, res);
-        if (res->verdict != ULK_SDLS_REPLAYED) fail_msg("service %d: the same frame again is not 'replayed' (%s)", svc, res->reason);
+        if (res->verdict != ULK_SEC_REPLAYED) fail_msg("service %d: the same frame again is not 'replayed' (%s)", svc, res->reason);
         /* window 4 above the last accepted 5: counter 11 is outside, 9 inside */
         memcpy(f, plain, n);
         ulk_sdls_protect(&tc, &sa, k, 11, f, n, why, sizeof why);
         ulk_sdls_rx_frame(rx, &tc, f, n, res);
-        if (res->verdict != ULK_SDLS_OUTSIDE_WINDOW) fail_msg("service %d: counter 11 after 5 (window 4) is not outside (%s)", svc, res->reason);
+        if (res->verdict != ULK_SEC_OUTSIDE_WINDOW) fail_msg("service %d: counter 11 after 5 (window 4) is not outside (%s)", svc, res->reason);
         memcpy(f, plain, n);
         ulk_sdls_protect(&tc, &sa, k, 9, f, n, why, sizeof why);
         ulk_sdls_rx_frame(rx, &tc, f, n, res);
-        if (res->verdict != ULK_SDLS_ACCEPTED) fail_msg("service %d: counter 9 after 5 (window 4) is refused (%s)", svc, res->reason);
+        if (res->verdict != ULK_SEC_ACCEPTED) fail_msg("service %d: counter 9 after 5 (window 4) is refused (%s)", svc, res->reason);
         /* every single-bit change of the protected octets fails authentication */
         for (size_t bit = 0; bit < 8 * (n - 2); bit++) {
             uint8_t g[ULK_TCF_MAX_OCTETS];
@@ -291,7 +291,7 @@ static void test_frame_layout_and_verdicts(void **state)
             g[bit / 8] ^= (uint8_t)(0x80u >> (bit % 8));
             ulk_sdls_rx_frame(rx, &tc, g, n, res);
             int spi_bit = bit / 8 == 6 || bit / 8 == 7;
-            ulk_sdls_verdict want = spi_bit ? ULK_SDLS_UNKNOWN_SPI : ULK_SDLS_AUTH_FAILED;
+            ulk_security_verdict want = spi_bit ? ULK_SEC_UNKNOWN_SPI : ULK_SEC_AUTH_FAILED;
             if (res->verdict != want)
                 fail_msg("service %d: bit %zu changed gives '%s', expected '%s'", svc, bit, ulk_sdls_verdict_str(res->verdict),
                          ulk_sdls_verdict_str(want));
@@ -300,11 +300,11 @@ static void test_frame_layout_and_verdicts(void **state)
         memcpy(f, plain, n);
         ulk_sdls_protect(&tc, &sa, other, 10, f, n, why, sizeof why);
         ulk_sdls_rx_frame(rx, &tc, f, n, res);
-        if (res->verdict != ULK_SDLS_AUTH_FAILED || res->n_data != 0)
+        if (res->verdict != ULK_SEC_AUTH_FAILED || res->n_data != 0)
             fail_msg("service %d: a frame of another key is not 'authentication failed'", svc);
         /* without keys: secured, not authenticated; the data only when it travels in clear */
         ulk_sdls_frame_read(&tc, &sa, f, n, res);
-        if (res->verdict != ULK_SDLS_UNCHECKED || res->counter != 10 || res->n_data != (svc == 0 ? 9u : 0u))
+        if (res->verdict != ULK_SEC_UNCHECKED || res->counter != 10 || res->n_data != (svc == 0 ? 9u : 0u))
             fail_msg("service %d: reading without a key", svc);
         /* a key that is not in the ring */
         ulk_sdls_sa sb = sa;
@@ -406,7 +406,7 @@ static void test_state_file(void **state)
 
 typedef struct {
     int n, accepted;
-    int verdicts[8]; /* per ulk_sdls_verdict */
+    int verdicts[8]; /* per ulk_security_verdict */
     uint64_t counters[32];
 } unit_log;
 
@@ -468,20 +468,20 @@ static void test_decoder_hook(void **state)
     unit_log g;
     memset(&g, 0, sizeof g);
     feed(d, u, rx, &g);
-    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SDLS_ACCEPTED] != 4 || g.counters[0] != 40 || g.counters[3] != 43)
+    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SEC_ACCEPTED] != 4 || g.counters[0] != 40 || g.counters[3] != 43)
         fail_msg("right key: %d units, %d accepted, first counter %llu", g.n, g.accepted, (unsigned long long)g.counters[0]);
     assert_int_equal(ulk_sdls_state_value(st, sa->spi), 43);
     /* the same frames again with that state: all replayed */
     memset(&g, 0, sizeof g);
     feed(d, u, rx, &g);
-    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_REPLAYED] != 4) fail_msg("again: %d of 4 replayed", g.verdicts[ULK_SDLS_REPLAYED]);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SEC_REPLAYED] != 4) fail_msg("again: %d of 4 replayed", g.verdicts[ULK_SEC_REPLAYED]);
     ulk_sdls_rx_destroy(rx);
     /* another key: all fail authentication */
     rx = NULL;
     assert_int_equal(ulk_sdls_rx_create(sa, other, NULL, &rx, NULL), 0);
     memset(&g, 0, sizeof g);
     feed(d, u, rx, &g);
-    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_AUTH_FAILED] != 4) fail_msg("another key: %d of 4 failed", g.verdicts[ULK_SDLS_AUTH_FAILED]);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SEC_AUTH_FAILED] != 4) fail_msg("another key: %d of 4 failed", g.verdicts[ULK_SEC_AUTH_FAILED]);
     ulk_sdls_rx_destroy(rx);
     /* a receiver whose window (4 here) above its last accepted counter 0 ends below 40 */
     ulk_sdls_sa narrow = *sa;
@@ -491,14 +491,14 @@ static void test_decoder_hook(void **state)
     assert_int_equal(ulk_sdls_rx_create(&narrow, k, st, &rx, NULL), 0);
     memset(&g, 0, sizeof g);
     feed(d, u, rx, &g);
-    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SDLS_OUTSIDE_WINDOW] != 4)
-        fail_msg("window 4 above 0: %d of 4 outside the window", g.verdicts[ULK_SDLS_OUTSIDE_WINDOW]);
+    if (g.n != 4 || g.accepted != 0 || g.verdicts[ULK_SEC_OUTSIDE_WINDOW] != 4)
+        fail_msg("window 4 above 0: %d of 4 outside the window", g.verdicts[ULK_SEC_OUTSIDE_WINDOW]);
     ulk_sdls_rx_destroy(rx);
     ulk_sdls_state_destroy(st);
     /* no verifier: secured, not authenticated, the commands shown (service authentication) */
     memset(&g, 0, sizeof g);
     feed(d, u, NULL, &g);
-    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SDLS_UNCHECKED] != 4) fail_msg("no keys: %d of 4 unchecked", g.verdicts[ULK_SDLS_UNCHECKED]);
+    if (g.n != 4 || g.accepted != 4 || g.verdicts[ULK_SEC_UNCHECKED] != 4) fail_msg("no keys: %d of 4 unchecked", g.verdicts[ULK_SEC_UNCHECKED]);
     ulk_sdls_keys_destroy(k);
     ulk_sdls_keys_destroy(other);
     ulk_upload_destroy(u);

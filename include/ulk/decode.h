@@ -41,25 +41,25 @@ typedef enum {
 } ulk_reject_kind;
 
 /* The security check's verdict on a received secured frame (Space Data Link Security,
- * ulk/sdls.h, docs/sdls.md): here, in the receive layer, because receiver events
+ * docs/sdls.md): here, in the receive layer, because receiver events
  * (ulk/rx.h) carry it; the check itself belongs to the profile that has it. */
 typedef enum {
-    ULK_SDLS_ACCEPTED = 0,    /* the MAC verifies and the counter is new and inside the window */
-    ULK_SDLS_UNCHECKED,       /* no keys given: secured, not authenticated */
-    ULK_SDLS_AUTH_FAILED,     /* the MAC does not verify (another key, a changed frame) */
-    ULK_SDLS_UNKNOWN_SPI,     /* not the link's SPI */
-    ULK_SDLS_REPLAYED,        /* authentic, but its counter is not above the last accepted */
-    ULK_SDLS_OUTSIDE_WINDOW,  /* authentic, but more than `window` above the last accepted */
-    ULK_SDLS_MALFORMED        /* too short for its security header and trailer */
-} ulk_sdls_verdict;
+    ULK_SEC_ACCEPTED = 0,    /* the MAC verifies and the counter is new and inside the window */
+    ULK_SEC_UNCHECKED,       /* no keys given: secured, not authenticated */
+    ULK_SEC_AUTH_FAILED,     /* the MAC does not verify (another key, a changed frame) */
+    ULK_SEC_UNKNOWN_SPI,     /* not the link's SPI */
+    ULK_SEC_REPLAYED,        /* authentic, but its counter is not above the last accepted */
+    ULK_SEC_OUTSIDE_WINDOW,  /* authentic, but more than `window` above the last accepted */
+    ULK_SEC_MALFORMED        /* too short for its security header and trailer */
+} ulk_security_verdict;
 /* Short stable text of a verdict: "accepted", "secured, not authenticated", "authentication
  * failed", "unknown SPI", "replayed", "outside the window", "malformed security fields"
- * (ulk_sdls_verdict_str in ulk/sdls.h is the same). */
-const char *ulk_security_verdict_str(ulk_sdls_verdict v);
+ */
+const char *ulk_security_verdict_str(ulk_security_verdict v);
 /* What a report says of a received secured frame (decode's `security.verdict`):
  * "authenticated" (accepted), "not authenticated" (no keys given), else why the check refused
  * it (ulk_security_verdict_str). */
-const char *ulk_security_verdict_report(ulk_sdls_verdict v);
+const char *ulk_security_verdict_report(ulk_security_verdict v);
 
 #define ULK_DECODE_MAX_ARGS 64 /* D <= 64 bits, every argument at least one bit */
 

@@ -4,10 +4,10 @@
  * (I/Q) samples of the composite carrier first carrier recovery (ulk/carrier.h: coarse
  * search, tracking loop, the data channel as the quadrature of the de-rotated signal divided
  * by the mode's data index, ranging correlation, voice demodulation), then the blind
- * demodulator (ulk/demod.h), then for the sub-bit profile the dictionary interpretation of
- * every word (ulk/decode.h), for the ccsds-tc profile the CLTU decoder (ulk/tc_decode.h),
- * which on a link with security (link.tc.security, ulk/sdls.h) verifies every frame with the
- * keys and the receive-side anti-replay state given in the options.
+ * front end (ulk/demod.h) and the link profile's unit decoder (its receiver operations in
+ * ulk/profile.h): words interpreted by the dictionary (ulk/decode.h), or frames, which on a
+ * link with security are verified with the keys and the receive-side anti-replay state given
+ * in the options.
  *
  * Complex captures: the carrier recovery runs with delayed outputs (a transmission found after
  * noise or a gap is de-rotated from its first sample); for a sine data channel without pilot
@@ -138,7 +138,7 @@ typedef struct {
     uint8_t frame_seq;         /* CLTU: N(S) */
     int n_corrected;           /* CLTU: codeblocks with one bit corrected */
     int secured;               /* CLTU: the frame carried a security header and trailer: */
-    ulk_sdls_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured,
+    ulk_security_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured,
                                   not authenticated), or why the security check refused it */
     uint16_t spi;              /* CLTU, secured: the security parameter index */
     uint64_t iv_counter;       /* CLTU, secured: the IV's counter */
@@ -155,7 +155,7 @@ typedef struct {
 /* Creates a receiver for dict's link (dict must outlive it). For opt->complex_ the mode is
  * checked (it exists, leaves a residual carrier, has the ranging / voice channel asked for)
  * and the voice WAV opened. With opt->keys_path the key file is read, and with
- * opt->state_path the state locked and read (ulk_sdls_state_lock, ulk_sdls_state_load).
+ * opt->state_path the state locked and read (by the profile's security, docs/sdls.md).
  * Returns 0 and *out, or ULK_EINVAL (options, mode, keys or state on a link without
  * security, the link's key missing from the key file), ULK_ELIMIT (a sample rate the
  * demodulator cannot use), ULK_EIO (voice file; key or state file unreadable, in use, or

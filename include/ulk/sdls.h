@@ -114,13 +114,13 @@ void ulk_sdls_keys_destroy(ulk_sdls_keys *k);
 int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sdls_keys *keys, uint64_t counter,
                      uint8_t *frame, size_t n_frame, char *err, size_t errlen);
 
-/* ulk_sdls_verdict, the verdict on a received secured frame, is declared in ulk/decode.h
+/* ulk_security_verdict, the verdict on a received secured frame, is declared in ulk/decode.h
  * beside the other reasons a received unit is refused (receiver events carry it). */
-const char *ulk_sdls_verdict_str(ulk_sdls_verdict v); /* "accepted", "authentication failed", ...: the same as
+const char *ulk_sdls_verdict_str(ulk_security_verdict v); /* "accepted", "authentication failed", ...: the same as
                                                        * ulk_security_verdict_str (ulk/decode.h) */
 
 typedef struct {
-    ulk_sdls_verdict verdict;
+    ulk_security_verdict verdict;
     char reason[160];         /* one line; "" when accepted */
     uint16_t spi;             /* from the security header */
     uint64_t counter;         /* the IV's counter (UINT64_MAX when its leading octets are not 0) */

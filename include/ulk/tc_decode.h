@@ -68,7 +68,7 @@ typedef struct {
     uint8_t frame_seq;        /* N(S) */
     /* Space Data Link Security (ulk/sdls.h), when the link has it: */
     int secured;              /* 1: the frame carries a security header and trailer */
-    ulk_sdls_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured, not
+    ulk_security_verdict sec_verdict; /* ACCEPTED (authenticated), UNCHECKED (no keys: secured, not
                                  authenticated), or why it was rejected */
     uint16_t spi;             /* from the security header */
     uint64_t iv_counter;      /* the IV's counter */

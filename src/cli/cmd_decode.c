@@ -296,7 +296,7 @@ static void human_unit(dec_ctx *x, const ulk_rx_event *ev)
             fprintf(f, "%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected, SPI %u IV %llu %s\n",
                     ev->dw.start_s, line, d->system, ev->seq_count, ev->frame_seq, ev->n_corrected, (unsigned)ev->spi,
                     (unsigned long long)ev->iv_counter,
-                    ev->sec_verdict == ULK_SDLS_ACCEPTED ? "authenticated" : "secured, NOT authenticated");
+                    ev->sec_verdict == ULK_SEC_ACCEPTED ? "authenticated" : "secured, NOT authenticated");
         else if (ev->kind == ULK_RX_CLTU)
             fprintf(f, "%12.6f s  %-48s # APID 0x%03X count %u N(S) %u, %d corrected\n", ev->dw.start_s, line,
                     d->system, ev->seq_count, ev->frame_seq, ev->n_corrected);

@@ -31,23 +31,23 @@ const char *ulk_reject_name(ulk_reject_kind k)
     return "?";
 }
 
-const char *ulk_security_verdict_str(ulk_sdls_verdict v)
+const char *ulk_security_verdict_str(ulk_security_verdict v)
 {
     switch (v) {
-    case ULK_SDLS_ACCEPTED: return "accepted";
-    case ULK_SDLS_UNCHECKED: return "secured, not authenticated";
-    case ULK_SDLS_AUTH_FAILED: return "authentication failed";
-    case ULK_SDLS_UNKNOWN_SPI: return "unknown SPI";
-    case ULK_SDLS_REPLAYED: return "replayed";
-    case ULK_SDLS_OUTSIDE_WINDOW: return "outside the window";
-    case ULK_SDLS_MALFORMED: return "malformed security fields";
+    case ULK_SEC_ACCEPTED: return "accepted";
+    case ULK_SEC_UNCHECKED: return "secured, not authenticated";
+    case ULK_SEC_AUTH_FAILED: return "authentication failed";
+    case ULK_SEC_UNKNOWN_SPI: return "unknown SPI";
+    case ULK_SEC_REPLAYED: return "replayed";
+    case ULK_SEC_OUTSIDE_WINDOW: return "outside the window";
+    case ULK_SEC_MALFORMED: return "malformed security fields";
     }
     return "unknown security verdict";
 }
 
-const char *ulk_security_verdict_report(ulk_sdls_verdict v)
+const char *ulk_security_verdict_report(ulk_security_verdict v)
 {
-    return v == ULK_SDLS_ACCEPTED ? "authenticated" : v == ULK_SDLS_UNCHECKED ? "not authenticated" : ulk_security_verdict_str(v);
+    return v == ULK_SEC_ACCEPTED ? "authenticated" : v == ULK_SEC_UNCHECKED ? "not authenticated" : ulk_security_verdict_str(v);
 }
 
 static uint64_t mask_of(int bits) { return bits >= 64 ? ~(uint64_t)0 : (((uint64_t)1 << bits) - 1); }

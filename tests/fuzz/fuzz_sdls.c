@@ -50,7 +50,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         ulk_sdls_layout(&sa, &tc);
         ulk_sdls_rx *rx = NULL;
         if (ulk_sdls_rx_create(&sa, k, NULL, &rx, NULL)) abort();
-        if (ulk_sdls_rx_frame(rx, &tc, p, n, &res) == 0 && res.verdict == ULK_SDLS_ACCEPTED) abort();
+        if (ulk_sdls_rx_frame(rx, &tc, p, n, &res) == 0 && res.verdict == ULK_SEC_ACCEPTED) abort();
         ulk_sdls_frame_read(&tc, &sa, p, n, &res);
         ulk_sdls_rx_destroy(rx);
     }

@@ -406,11 +406,11 @@ int ulk_sdls_protect(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const ulk_sd
 }
 
 /* the text lives with the verdict in the receive layer (ulk/decode.h) */
-const char *ulk_sdls_verdict_str(ulk_sdls_verdict v) { return ulk_security_verdict_str(v); }
+const char *ulk_sdls_verdict_str(ulk_security_verdict v) { return ulk_security_verdict_str(v); }
 
-static void rx_reason(ulk_sdls_rx_result *res, ulk_sdls_verdict v, const char *fmt, ...)
+static void rx_reason(ulk_sdls_rx_result *res, ulk_security_verdict v, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
-static void rx_reason(ulk_sdls_rx_result *res, ulk_sdls_verdict v, const char *fmt, ...)
+static void rx_reason(ulk_sdls_rx_result *res, ulk_security_verdict v, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
@@ -427,7 +427,7 @@ int ulk_sdls_frame_read(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const uin
     res->n_data = 0;
     layout L = {0};
     if (frame_layout(tc, sa, n_frame, &L)) {
-        rx_reason(res, ULK_SDLS_MALFORMED, "frame of %zu octets cannot hold its security header and trailer", n_frame);
+        rx_reason(res, ULK_SEC_MALFORMED, "frame of %zu octets cannot hold its security header and trailer", n_frame);
         return 0;
     }
     res->spi = (uint16_t)(frame[L.sec] << 8 | frame[L.sec + 1]);
@@ -436,7 +436,7 @@ int ulk_sdls_frame_read(const ulk_ccsds_tc *tc, const ulk_sdls_sa *sa, const uin
         memcpy(res->data, frame + L.data, L.n_data);
         res->n_data = L.n_data;
     }
-    rx_reason(res, ULK_SDLS_UNCHECKED, "secured (SPI %u, IV counter %" PRIu64 "), not authenticated: no keys given",
+    rx_reason(res, ULK_SEC_UNCHECKED, "secured (SPI %u, IV counter %" PRIu64 "), not authenticated: no keys given",
               (unsigned)res->spi, res->counter);
     return 0;
 }
@@ -841,11 +841,11 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
     const ulk_sdls_sa *sa = &rx->sa;
     ulk_sdls_frame_read(tc, sa, frame, n_frame, res);
     res->n_data = 0;
-    if (res->verdict == ULK_SDLS_MALFORMED) return 0;
+    if (res->verdict == ULK_SEC_MALFORMED) return 0;
     layout L = {0};
     frame_layout(tc, sa, n_frame, &L);
     if (res->spi != sa->spi) {
-        rx_reason(res, ULK_SDLS_UNKNOWN_SPI, "unknown SPI %u (the link's is %u)", (unsigned)res->spi, (unsigned)sa->spi);
+        rx_reason(res, ULK_SEC_UNKNOWN_SPI, "unknown SPI %u (the link's is %u)", (unsigned)res->spi, (unsigned)sa->spi);
         return 0;
     }
     /* MAC first: the counter of a frame that does not authenticate means nothing. */
@@ -860,7 +860,7 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
     }
     if (ok < 0) return ok;
     if (ok == 0) {
-        rx_reason(res, ULK_SDLS_AUTH_FAILED, "authentication failed (SPI %u, IV counter %" PRIu64 "): the MAC does not verify",
+        rx_reason(res, ULK_SEC_AUTH_FAILED, "authentication failed (SPI %u, IV counter %" PRIu64 "): the MAC does not verify",
                   (unsigned)res->spi, res->counter);
         return 0;
     }
@@ -869,13 +869,13 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
      * accepted, at most window above it. Without a state the first authentic frame opens it. */
     if (rx->have_last && c <= rx->last) {
         OPENSSL_cleanse(res->data, L.n_data);
-        rx_reason(res, ULK_SDLS_REPLAYED, "replayed: IV counter %" PRIu64 " is not above the last accepted %" PRIu64, c,
+        rx_reason(res, ULK_SEC_REPLAYED, "replayed: IV counter %" PRIu64 " is not above the last accepted %" PRIu64, c,
                   rx->last);
         return 0;
     }
     if (c == UINT64_MAX || (rx->have_last && c - rx->last > sa->window)) {
         OPENSSL_cleanse(res->data, L.n_data);
-        rx_reason(res, ULK_SDLS_OUTSIDE_WINDOW,
+        rx_reason(res, ULK_SEC_OUTSIDE_WINDOW,
                   "outside the window: IV counter %" PRIu64 " is more than %u above the last accepted %" PRIu64, c,
                   (unsigned)sa->window, rx->last);
         return 0;
@@ -887,7 +887,7 @@ int ulk_sdls_rx_frame(ulk_sdls_rx *rx, const ulk_ccsds_tc *tc, const uint8_t *fr
     rx->have_last = 1;
     rx->last = c;
     res->n_data = L.n_data;
-    res->verdict = ULK_SDLS_ACCEPTED;
+    res->verdict = ULK_SEC_ACCEPTED;
     res->reason[0] = 0;
     return 0;
 }

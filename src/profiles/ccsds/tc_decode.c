@@ -213,7 +213,7 @@ static const ulk_cltu_result *open_secured(ulk_tc_decoder *t, const ulk_cltu_res
     u->sec_verdict = sr->verdict;
     u->spi = sr->spi;
     u->iv_counter = sr->counter;
-    if (sr->verdict != ULK_SDLS_ACCEPTED && !(sr->verdict == ULK_SDLS_UNCHECKED && sr->n_data)) {
+    if (sr->verdict != ULK_SEC_ACCEPTED && !(sr->verdict == ULK_SEC_UNCHECKED && sr->n_data)) {
         reject(u, ULK_REJ_CHECK, "%s", sr->reason);
         return NULL;
     }

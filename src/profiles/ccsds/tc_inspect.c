@@ -47,7 +47,7 @@ static int sec_fields(const ulk_link *l, const ulk_upload_cmd *c, ulk_sdls_rx_re
 {
     if (!l->tc.security.enabled) return -1;
     ulk_sdls_frame_read(&l->tc.frame, &l->tc.security, c->frame, c->n_frame, r);
-    if (r->verdict == ULK_SDLS_MALFORMED) return -1;
+    if (r->verdict == ULK_SEC_MALFORMED) return -1;
     size_t m = (size_t)l->tc.security.mac_octets, at = c->n_frame - (l->tc.frame.fecf ? 2 : 0) - m;
     for (size_t i = 0; i < m; i++) snprintf(mac_hex + 2 * i, 3, "%02X", c->frame[at + i]);
     return 0;

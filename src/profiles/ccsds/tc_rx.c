@@ -73,7 +73,7 @@ static void on_tc_unit(const ulk_tc_unit *t, void *user)
         memcpy(d.args[k].text, t->args[k].text, sizeof d.args[k].text);
     }
     snprintf(d.hex, sizeof d.hex, "%.32s", t->data_hex);
-    int sec_refused = t->secured && t->sec_verdict != ULK_SDLS_ACCEPTED && t->sec_verdict != ULK_SDLS_UNCHECKED &&
+    int sec_refused = t->secured && t->sec_verdict != ULK_SEC_ACCEPTED && t->sec_verdict != ULK_SEC_UNCHECKED &&
                       d.status != ULK_WORD_ACCEPTED;
     s->sink->unit(s->sink->rx, &e, &d, t->data_hex, sec_refused);
 }
