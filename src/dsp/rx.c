@@ -324,6 +324,35 @@ static inline void cx_dot(const float *h, const float *xr, const float *xi, int 
     *yi = (b[0] + b[2]) + (b[1] + b[3]);
 }
 
+/* Four outputs of one channel, at x, x + d, x + 2 d, x + 3 d, into y[0], y[2], y[4], y[6]:
+ * each output's lanes summed exactly as cx_dot sums them (the same products in the same
+ * order, so the same floats), but the four final lane sums done at once on the transposed
+ * lanes: cx_dot's horizontal sums were a quarter of the decimator's time. */
+static inline void cx_dot4(const float *h, const float *x, int d, int nhp, float *y)
+{
+    cx_v4 a0 = {0, 0, 0, 0}, a1 = a0, b0 = a0, b1 = a0, c0 = a0, c1 = a0, e0 = a0, e1 = a0;
+    const float *xb = x + d, *xc = x + 2 * d, *xe = x + 3 * d;
+    for (int t = 0; t < nhp; t += 8) {
+        cx_v4 h0 = cx_ld(h + t), h1 = cx_ld(h + t + 4);
+        a0 += h0 * cx_ld(x + t);
+        a1 += h1 * cx_ld(x + t + 4);
+        b0 += h0 * cx_ld(xb + t);
+        b1 += h1 * cx_ld(xb + t + 4);
+        c0 += h0 * cx_ld(xc + t);
+        c1 += h1 * cx_ld(xc + t + 4);
+        e0 += h0 * cx_ld(xe + t);
+        e1 += h1 * cx_ld(xe + t + 4);
+    }
+    cx_v4 a = a0 + a1, b = b0 + b1, c = c0 + c1, e = e0 + e1;
+    cx_v4 l0 = {a[0], b[0], c[0], e[0]}, l1 = {a[1], b[1], c[1], e[1]};
+    cx_v4 l2 = {a[2], b[2], c[2], e[2]}, l3 = {a[3], b[3], c[3], e[3]};
+    cx_v4 r = (l0 + l2) + (l1 + l3);
+    y[0] = r[0];
+    y[2] = r[1];
+    y[4] = r[2];
+    y[6] = r[3];
+}
+
 /* 1 when x is finite (exponent not all ones), by its bits: no floating-point compare, so the
  * loop around it vectorises */
 static inline int cx_finite(float x)
@@ -349,15 +378,14 @@ static size_t cx_decimate(ulk_rx *rx, const float *iq, size_t n)
     }
     /* the next output comes at input d - 1 - ph of this push */
     size_t m = 0, i = (size_t)(d - 1 - rx->ph);
-    for (; i < n; i += (size_t)d) {
-        if (rx->skip) {
-            rx->skip--;
-            continue;
-        }
-        /* input i is the newest of the nh taps: they start nh - 1 before it */
-        cx_dot(rx->h, rx->zr + i, rx->zi + i, rx->nhp, &rx->dbuf[2 * m], &rx->dbuf[2 * m + 1]);
-        m++;
+    for (; i < n && rx->skip; i += (size_t)d) rx->skip--;
+    /* input i is the newest of the nh taps: they start nh - 1 before it */
+    for (; i + 3 * (size_t)d < n; i += 4 * (size_t)d, m += 4) {
+        cx_dot4(rx->h, rx->zr + i, d, rx->nhp, &rx->dbuf[2 * m]);
+        cx_dot4(rx->h, rx->zi + i, d, rx->nhp, &rx->dbuf[2 * m + 1]);
     }
+    for (; i < n; i += (size_t)d, m++)
+        cx_dot(rx->h, rx->zr + i, rx->zi + i, rx->nhp, &rx->dbuf[2 * m], &rx->dbuf[2 * m + 1]);
     rx->ph = (int)((size_t)rx->ph + n) % d; /* inputs since the last output */
     memmove(rx->zr, rx->zr + n, (size_t)(nh - 1) * sizeof *rx->zr);
     memmove(rx->zi, rx->zi + n, (size_t)(nh - 1) * sizeof *rx->zi);
