@@ -1747,7 +1747,36 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
                 double dcd = d->dc, csx = d->dc_sx;
                 float dc = (float)dcd;
                 int cn = d->dc_n;
-                for (size_t q = 0; q < ns; q++) {
+                size_t q = 0;
+                if (Lsi == 1) {
+                    /* Slots of one sample (a high subcarrier, or a decimated complex
+                     * capture): runs of slots up to the DC level's next move, without the
+                     * inner loop and the test after each slot. The same operations in the
+                     * same order as below (the sums start from +0 as there), so the same
+                     * values. */
+                    while (q < ns) {
+                        size_t run = cn < d->dc_every ? (size_t)(d->dc_every - cn) : 1;
+                        if (run > ns - q) run = ns - q;
+                        for (size_t e = 0; e < run; e++, t++) {
+                            float v = sane(x[t]), y = v - dc;
+                            const float *c = cs + 2 * (ph >> PH_SHIFT);
+                            ZR[w] = 0.0f + y * c[0];
+                            ZI[w] = 0.0f - y * c[1];
+                            if (++w == cap) w = 0;
+                            csx += 0.0f + v;
+                            ph += inc;
+                        }
+                        q += run;
+                        cn += (int)run;
+                        if (cn >= d->dc_every) {
+                            dcd += d->dc_step * (csx * d->dc_inv - dcd);
+                            dc = (float)dcd;
+                            csx = 0;
+                            cn = 0;
+                        }
+                    }
+                }
+                for (; q < ns; q++) {
                     float zr = 0, zi = 0, sx = 0;
                     for (int e = 0; e < Lsi; e++, t++) {
                         float v = sane(x[t]), y = v - dc;
