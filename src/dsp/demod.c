@@ -25,6 +25,7 @@
 
 #define ULK_DEMOD_MAX_FS_HZ 1e9
 #define ULK_DEMOD_MAX_SPS 200000
+#include "median.h"
 #include "util.h"
 
 #define TAB_BITS 12
@@ -708,73 +709,6 @@ static void run_close(ulk_demod *d)
     d->r_w = d->r_x = d->r_y = d->r_xx = d->r_xy = 0;
 }
 
-/* The k-th smallest of n values that are all >= +0 and not NaN (else 0 and nothing is written):
- * such doubles order as their bit patterns do, so it is selected on the patterns, 8 bits at a
- * time from the highest bit in which any two differ, keeping only the values whose digit is
- * the k-th's (in place in tmp, which holds the patterns). No data-dependent branch per value:
- * the quickselect below it, whose comparisons with the pivot the processor cannot predict, was
- * 5 % of a 192 kHz complex decode for one median of 768 values a block. The k-th smallest is
- * one value whatever finds it, so the result is the quickselect's, bit for bit. */
-static int select_nonneg(const double *a, double *tmp, int n, int k, double *out)
-{
-    uint64_t or_ = 0, and_ = ~(uint64_t)0, bad = 0;
-    for (int i = 0; i < n; i++) {
-        uint64_t u;
-        memcpy(&u, &a[i], sizeof u);
-        bad |= (u >> 63) | (uint64_t)(u > 0x7ff0000000000000u); /* negative, -0, or NaN */
-        or_ |= u;
-        and_ &= u;
-    }
-    if (bad || n < 1) return 0;
-    memcpy(tmp, a, (size_t)n * sizeof *tmp);
-    uint64_t diff = or_ ^ and_;
-    int m = n, shift = 56;
-    while (shift > 0 && !(diff >> shift)) shift -= 8; /* the top digit in which values differ */
-    for (; m > 1 && shift >= 0; shift -= 8) {
-        int cnt[256] = {0};
-        for (int i = 0; i < m; i++) {
-            uint64_t u;
-            memcpy(&u, &tmp[i], sizeof u);
-            cnt[(u >> shift) & 255]++;
-        }
-        int b = 0;
-        while (k >= cnt[b]) k -= cnt[b++];
-        int w = 0;
-        for (int i = 0; i < m; i++) {
-            uint64_t u;
-            memcpy(&u, &tmp[i], sizeof u);
-            tmp[w] = tmp[i];
-            w += (int)((u >> shift) & 255) == b;
-        }
-        m = w;
-    }
-    /* one value left, or several equal in every bit */
-    *out = tmp[0];
-    return 1;
-}
-
-/* Median of a[0..n) using tmp[0..n) as scratch (a is left unchanged): the (n/2)-th smallest. */
-static double median_inplace_copy(const double *a, double *tmp, int n)
-{
-    double med;
-    if (select_nonneg(a, tmp, n, n / 2, &med)) return med;
-    memcpy(tmp, a, (size_t)n * sizeof *tmp);
-    int lo = 0, hi = n - 1, k = n / 2;
-    while (lo < hi) {
-        double piv = tmp[(lo + hi) / 2];
-        int i = lo, j = hi;
-        while (i <= j) {
-            while (tmp[i] < piv) i++;
-            while (tmp[j] > piv) j--;
-            if (i <= j) { double t = tmp[i]; tmp[i] = tmp[j]; tmp[j] = t; i++; j--; }
-        }
-        if (k <= j) hi = j;
-        else if (k >= i) lo = i;
-        else break;
-    }
-    return tmp[k];
-}
-
 static void block_unlock(ulk_demod *d)
 {
     run_close(d);
@@ -830,7 +764,7 @@ static int blk_detect(ulk_demod *d, blk_state *st)
         double r = d->ure[(m_lo + (uint64_t)m) & (d->ucap - 1)], i = d->uim[(m_lo + (uint64_t)m) & (d->ucap - 1)];
         d->sre[m] = r * r + i * i;
     }
-    double med = median_inplace_copy(d->sre, d->sim, M);
+    double med = ulk_median_copy(d->sre, d->sim, M);
     double lim2 = 9.0 * med;
     double upow = 0;
     for (int m = 0; m < M; m++) {
