@@ -12,6 +12,7 @@
 
 #include <cmocka.h>
 
+#include "median.h"
 #include "sim_capture.h"
 #include "ulk/demod.h"
 #include "ulk/error.h"
@@ -597,6 +598,48 @@ static void impair_then_decode(void **state)
     free(b.x);
 }
 
+/* The block median (src/dsp/median.c) is the value a sort puts at n/2, bit for bit, on the
+ * kinds of value the demodulator gives it (|U|^2 >= 0: distinct, tied, zeros, subnormals, a
+ * wide exponent range, +inf) and on values it must hand to its fallback (a negative value,
+ * -0). The reference is qsort, not the code under test. */
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return x < y ? -1 : x > y ? 1 : 0;
+}
+
+typedef enum { MK_DISTINCT, MK_TIES, MK_WIDE, MK_TINY, MK_NEG } median_kind;
+
+static void median_matches_a_sort(void **st)
+{
+    (void)st;
+    static const char *kname[] = {"distinct", "ties", "wide", "tiny", "negative"};
+    double a[800], tmp[800], ref[800];
+    uint64_t r = 12345;
+    for (int it = 0; it < 5000; it++) {
+        median_kind kind = (median_kind)(it % 5);
+        int n = 1 + (int)(it * 7919 % 800);
+        for (int i = 0; i < n; i++) {
+            r = r * 6364136223846793005u + 1442695040888963407u; /* Knuth's MMIX LCG */
+            double u = (double)(r >> 11) * 0x1p-53;
+            switch (kind) {
+            case MK_DISTINCT: a[i] = u * u * 1e3; break;
+            case MK_TIES: a[i] = (double)(r >> 61); break;                       /* 0..7 */
+            case MK_WIDE: a[i] = ldexp(u, (int)(r >> 58) - 40); break;           /* 2^-40 .. 2^23 */
+            case MK_TINY: a[i] = (r >> 60) < 3 ? 0.0 : (r >> 60) < 5 ? INFINITY : u * 1e-310; break;
+            case MK_NEG: a[i] = i == n / 3 ? ((r >> 63) ? -0.0 : -u) : u; break;
+            }
+        }
+        memcpy(ref, a, (size_t)n * sizeof *ref);
+        qsort(ref, (size_t)n, sizeof *ref, cmp_double);
+        double keep0 = a[0];
+        double m = ulk_median_copy(a, tmp, n);
+        if (memcmp(&m, &ref[n / 2], sizeof m) != 0 && !(m == 0 && ref[n / 2] == 0))
+            fail_msg("median of %d %s values: %.17g, a sort gives %.17g", n, kname[kind], m, ref[n / 2]);
+        assert_true(memcmp(&keep0, &a[0], sizeof keep0) == 0); /* the input is left as it was */
+    }
+}
+
 int main(void)
 {
     struct CMUnitTest t[sizeof rt_cases / sizeof rt_cases[0]];
@@ -619,6 +662,7 @@ int main(void)
         cmocka_unit_test(impair_resamples_a_tone),
         cmocka_unit_test(impair_noise_level_and_seed),
         cmocka_unit_test(impair_then_decode),
+        cmocka_unit_test(median_matches_a_sort),
     };
     fails += cmocka_run_group_tests_name("demod_hostile", hostile, NULL, NULL);
     return fails;

@@ -94,6 +94,12 @@ int64_t ulk_reader_length(const ulk_reader *r);
  * status: ULK_EFORMAT when the file ends before its declared length, ULK_EIO on a read error
  * (reason from ulk_reader_error). Sticky. */
 long ulk_reader_read(ulk_reader *r, float *x, size_t n);
+/* Reads up to n frames of every channel, interleaved: n * info->channels floats into x (a
+ * complex capture's I, Q pairs; a two-channel WAV's left, right), whatever channel the reader
+ * was opened with: one pass over the file, where ulk_reader_read needs a reader a channel.
+ * Values (s16 as v / 32767), count (frames), end and errors as ulk_reader_read; both move the
+ * same position, by whole frames. */
+long ulk_reader_read_frames(ulk_reader *r, float *x, size_t n);
 /* The reason for the last failed ulk_reader_read ("" when none). Never NULL for non-NULL r. */
 const char *ulk_reader_error(const ulk_reader *r);
 /* Closes r; NULL does nothing. */

@@ -25,6 +25,7 @@
 
 #define ULK_DEMOD_MAX_FS_HZ 1e9
 #define ULK_DEMOD_MAX_SPS 200000
+#include "median.h"
 #include "util.h"
 
 #define TAB_BITS 12
@@ -708,26 +709,6 @@ static void run_close(ulk_demod *d)
     d->r_w = d->r_x = d->r_y = d->r_xx = d->r_xy = 0;
 }
 
-/* Median of a[0..n) using tmp[0..n) as scratch (a is left unchanged). */
-static double median_inplace_copy(const double *a, double *tmp, int n)
-{
-    memcpy(tmp, a, (size_t)n * sizeof *tmp);
-    int lo = 0, hi = n - 1, k = n / 2;
-    while (lo < hi) {
-        double piv = tmp[(lo + hi) / 2];
-        int i = lo, j = hi;
-        while (i <= j) {
-            while (tmp[i] < piv) i++;
-            while (tmp[j] > piv) j--;
-            if (i <= j) { double t = tmp[i]; tmp[i] = tmp[j]; tmp[j] = t; i++; j--; }
-        }
-        if (k <= j) hi = j;
-        else if (k >= i) lo = i;
-        else break;
-    }
-    return tmp[k];
-}
-
 static void block_unlock(ulk_demod *d)
 {
     run_close(d);
@@ -783,7 +764,7 @@ static int blk_detect(ulk_demod *d, blk_state *st)
         double r = d->ure[(m_lo + (uint64_t)m) & (d->ucap - 1)], i = d->uim[(m_lo + (uint64_t)m) & (d->ucap - 1)];
         d->sre[m] = r * r + i * i;
     }
-    double med = median_inplace_copy(d->sre, d->sim, M);
+    double med = ulk_median_copy(d->sre, d->sim, M);
     double lim2 = 9.0 * med;
     double upow = 0;
     for (int m = 0; m < M; m++) {
@@ -1700,7 +1681,36 @@ int ulk_demod_push(ulk_demod *d, const float *x, size_t n)
                 double dcd = d->dc, csx = d->dc_sx;
                 float dc = (float)dcd;
                 int cn = d->dc_n;
-                for (size_t q = 0; q < ns; q++) {
+                size_t q = 0;
+                if (Lsi == 1) {
+                    /* Slots of one sample (a high subcarrier, or a decimated complex
+                     * capture): runs of slots up to the DC level's next move, without the
+                     * inner loop and the test after each slot. The same operations in the
+                     * same order as below (the sums start from +0 as there), so the same
+                     * values. */
+                    while (q < ns) {
+                        size_t run = cn < d->dc_every ? (size_t)(d->dc_every - cn) : 1;
+                        if (run > ns - q) run = ns - q;
+                        for (size_t e = 0; e < run; e++, t++) {
+                            float v = sane(x[t]), y = v - dc;
+                            const float *c = cs + 2 * (ph >> PH_SHIFT);
+                            ZR[w] = 0.0f + y * c[0];
+                            ZI[w] = 0.0f - y * c[1];
+                            if (++w == cap) w = 0;
+                            csx += 0.0f + v;
+                            ph += inc;
+                        }
+                        q += run;
+                        cn += (int)run;
+                        if (cn >= d->dc_every) {
+                            dcd += d->dc_step * (csx * d->dc_inv - dcd);
+                            dc = (float)dcd;
+                            csx = 0;
+                            cn = 0;
+                        }
+                    }
+                }
+                for (; q < ns; q++) {
                     float zr = 0, zi = 0, sx = 0;
                     for (int e = 0; e < Lsi; e++, t++) {
                         float v = sane(x[t]), y = v - dc;

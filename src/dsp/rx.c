@@ -324,6 +324,35 @@ static inline void cx_dot(const float *h, const float *xr, const float *xi, int 
     *yi = (b[0] + b[2]) + (b[1] + b[3]);
 }
 
+/* Four outputs of one channel, at x, x + d, x + 2 d, x + 3 d, into y[0], y[2], y[4], y[6]:
+ * each output's lanes summed exactly as cx_dot sums them (the same products in the same
+ * order, so the same floats), but the four final lane sums done at once on the transposed
+ * lanes: cx_dot's horizontal sums were a quarter of the decimator's time. */
+static inline void cx_dot4(const float *h, const float *x, int d, int nhp, float *y)
+{
+    cx_v4 a0 = {0, 0, 0, 0}, a1 = a0, b0 = a0, b1 = a0, c0 = a0, c1 = a0, e0 = a0, e1 = a0;
+    const float *xb = x + d, *xc = x + 2 * d, *xe = x + 3 * d;
+    for (int t = 0; t < nhp; t += 8) {
+        cx_v4 h0 = cx_ld(h + t), h1 = cx_ld(h + t + 4);
+        a0 += h0 * cx_ld(x + t);
+        a1 += h1 * cx_ld(x + t + 4);
+        b0 += h0 * cx_ld(xb + t);
+        b1 += h1 * cx_ld(xb + t + 4);
+        c0 += h0 * cx_ld(xc + t);
+        c1 += h1 * cx_ld(xc + t + 4);
+        e0 += h0 * cx_ld(xe + t);
+        e1 += h1 * cx_ld(xe + t + 4);
+    }
+    cx_v4 a = a0 + a1, b = b0 + b1, c = c0 + c1, e = e0 + e1;
+    cx_v4 l0 = {a[0], b[0], c[0], e[0]}, l1 = {a[1], b[1], c[1], e[1]};
+    cx_v4 l2 = {a[2], b[2], c[2], e[2]}, l3 = {a[3], b[3], c[3], e[3]};
+    cx_v4 r = (l0 + l2) + (l1 + l3);
+    y[0] = r[0];
+    y[2] = r[1];
+    y[4] = r[2];
+    y[6] = r[3];
+}
+
 /* 1 when x is finite (exponent not all ones), by its bits: no floating-point compare, so the
  * loop around it vectorises */
 static inline int cx_finite(float x)
@@ -349,15 +378,14 @@ static size_t cx_decimate(ulk_rx *rx, const float *iq, size_t n)
     }
     /* the next output comes at input d - 1 - ph of this push */
     size_t m = 0, i = (size_t)(d - 1 - rx->ph);
-    for (; i < n; i += (size_t)d) {
-        if (rx->skip) {
-            rx->skip--;
-            continue;
-        }
-        /* input i is the newest of the nh taps: they start nh - 1 before it */
-        cx_dot(rx->h, rx->zr + i, rx->zi + i, rx->nhp, &rx->dbuf[2 * m], &rx->dbuf[2 * m + 1]);
-        m++;
+    for (; i < n && rx->skip; i += (size_t)d) rx->skip--;
+    /* input i is the newest of the nh taps: they start nh - 1 before it */
+    for (; i + 3 * (size_t)d < n; i += 4 * (size_t)d, m += 4) {
+        cx_dot4(rx->h, rx->zr + i, d, rx->nhp, &rx->dbuf[2 * m]);
+        cx_dot4(rx->h, rx->zi + i, d, rx->nhp, &rx->dbuf[2 * m + 1]);
     }
+    for (; i < n; i += (size_t)d, m++)
+        cx_dot(rx->h, rx->zr + i, rx->zi + i, rx->nhp, &rx->dbuf[2 * m], &rx->dbuf[2 * m + 1]);
     rx->ph = (int)((size_t)rx->ph + n) % d; /* inputs since the last output */
     memmove(rx->zr, rx->zr + n, (size_t)(nh - 1) * sizeof *rx->zr);
     memmove(rx->zi, rx->zi + n, (size_t)(nh - 1) * sizeof *rx->zi);
@@ -719,13 +747,13 @@ int ulk_rx_sniff_meta(const char *path, int *complex_, char *mode, size_t mode_l
 }
 
 typedef struct {
-    ulk_reader *ri, *rq;      /* I (or the only channel) and Q */
-    float *buf, *ib, *qb;
+    ulk_reader *ri;           /* the capture (a complex one: I and Q, read as frames) */
+    float *buf;
     int is_cx;
 } rf_src;
 
-/* Opens the reader(s): complex when no channel is picked and the file is complex raw, or a
- * two-channel file with fo->iq; channel 0 is then I and a second reader gives Q. */
+/* Opens the reader: complex when no channel is picked and the file is complex raw, or a
+ * two-channel file with fo->iq; its frames are then I, Q pairs, read in one pass. */
 static int rf_open(rf_src *s, const char *path, const ulk_rx_file_options *fo, int meta_cplx, ulk_diag *diag)
 {
     ulk_sample_info hint;
@@ -742,7 +770,7 @@ static int rf_open(rf_src *s, const char *path, const ulk_rx_file_options *fo, i
     const ulk_sample_info *info = ulk_reader_info(s->ri);
     if (fo->channel < 0 && info->channels == 2 && (meta_cplx || fo->iq || (fo->format >= 0 && fo->format_complex))) {
         s->is_cx = 1;
-        return ulk_reader_open(path, h, 1, &s->rq, diag);
+        return 0;
     }
     if (fo->channel < 0 && info->channels != 1) {
         ulk_reader_close(s->ri); /* not I/Q: the reader's refusal, with its message */
@@ -758,10 +786,7 @@ static int rf_open(rf_src *s, const char *path, const ulk_rx_file_options *fo, i
 static void rf_close(rf_src *s)
 {
     ulk_reader_close(s->ri);
-    ulk_reader_close(s->rq);
     ulk_free(s->buf);
-    ulk_free(s->ib);
-    ulk_free(s->qb);
 }
 
 static int rx_drain(ulk_rx *rx, ulk_rx_event_fn fn, void *user)
@@ -775,18 +800,13 @@ static int rx_drain(ulk_rx *rx, ulk_rx_event_fn fn, void *user)
     return r;
 }
 
-/* Reads up to n complex samples (I from s->ri, Q from s->rq) interleaved into s->buf. */
+/* Reads up to n complex samples, I and Q interleaved as the file holds them, into s->buf:
+ * one pass over the file (reading I and Q with a reader each read it twice: about 15 % of a
+ * 192 kHz decode). */
 static long rf_read_cx(rf_src *s, size_t n, const char *path, ulk_diag *diag)
 {
-    long a = ulk_reader_read(s->ri, s->ib, n);
-    long b = ulk_reader_read(s->rq, s->qb, n);
-    if (a < 0 || b < 0)
-        return ulk_fail(diag, a < 0 ? (int)a : (int)b, "%s: read error: %s", path, ulk_reader_error(a < 0 ? s->ri : s->rq));
-    if (a != b) return ulk_fail(diag, ULK_EFORMAT, "%s: the I and Q channels end at different lengths", path);
-    for (long k = 0; k < a; k++) {
-        s->buf[2 * k] = s->ib[k];
-        s->buf[2 * k + 1] = s->qb[k];
-    }
+    long a = ulk_reader_read_frames(s->ri, s->buf, n);
+    if (a < 0) return ulk_fail(diag, (int)a, "%s: read error: %s", path, ulk_reader_error(s->ri));
     return a;
 }
 
@@ -847,10 +867,8 @@ int ulk_rx_run_file(const ulk_dict *dict, const char *path, const ulk_rx_file_op
         rc = ulk_rx_create(dict, &o, &rx, diag);
     }
     if (rc >= 0) {
-        s.buf = ulk_malloc(2 * CHUNK * sizeof *s.buf);
-        s.ib = ulk_malloc(CX_CHUNK * sizeof *s.ib);
-        s.qb = ulk_malloc(CX_CHUNK * sizeof *s.qb);
-        rc = s.buf && s.ib && s.qb ? 0 : ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
+        s.buf = ulk_malloc(2 * (CHUNK > CX_CHUNK ? CHUNK : CX_CHUNK) * sizeof *s.buf);
+        rc = s.buf ? 0 : ulk_fail(diag, ULK_ENOMEM, "%s: out of memory", path);
     }
     if (rc >= 0) rc = rx_drain(rx, on_event, user); /* warnings from create */
     if (rc >= 0) rc = rf_loop(rx, &s, path, on_event, user, diag);

@@ -880,26 +880,34 @@ int ulk_reader_open(const char *path, const ulk_sample_info *hint, int channel, 
     return 0;
 }
 
-long ulk_reader_read(ulk_reader *r, float *x, size_t n)
+/* Frames as float into x: the reader's channel (all = 0, one value a frame) or every channel
+ * interleaved (all = 1, r->channels values a frame). */
+static long reader_read(ulk_reader *r, float *x, size_t n, int all)
 {
     if (!r || (!x && n)) return ULK_EINVAL;
     if (r->err) return r->err;
     size_t done = 0;
     const int nch = r->channels, ch = r->channel;
+    /* values a frame in x, and which channels: [c0, c0 + nv) */
+    const size_t nv = all ? (size_t)nch : 1;
+    const int c0 = all ? 0 : ch;
     while (done < n && r->left > 0) {
         size_t m = n - done < IO_CHUNK ? n - done : IO_CHUNK;
         if ((int64_t)m > r->left) m = (size_t)r->left;
         size_t got;
         if (r->sf) {
             sf_count_t g;
+            float *o = x + done * nv;
             if (r->sf_short) {
                 const short *v = r->buf;
                 g = sf_readf_short(r->sf, (short *)r->buf, (sf_count_t)m);
-                for (sf_count_t k = 0; k < g; k++) x[done + (size_t)k] = (float)(v[k * nch + ch] / 32767.0);
+                for (sf_count_t k = 0; k < g; k++)
+                    for (size_t c = 0; c < nv; c++) o[(size_t)k * nv + c] = (float)(v[k * nch + c0 + (int)c] / 32767.0);
             } else {
                 const float *v = r->buf;
                 g = sf_readf_float(r->sf, (float *)r->buf, (sf_count_t)m);
-                for (sf_count_t k = 0; k < g; k++) x[done + (size_t)k] = v[k * nch + ch];
+                for (sf_count_t k = 0; k < g; k++)
+                    for (size_t c = 0; c < nv; c++) o[(size_t)k * nv + c] = v[k * nch + c0 + (int)c];
             }
             got = g > 0 ? (size_t)g : 0;
             if (got < m) {
@@ -910,20 +918,28 @@ long ulk_reader_read(ulk_reader *r, float *x, size_t n)
             }
         } else {
             const size_t bps = (size_t)r->rt->bytes, frame = bps * (size_t)nch;
-            got = fread(r->buf, frame, m, r->fp);
+            float *o = x + done * nv;
+            /* every channel of little-endian f32 on a little-endian host: the file's bytes are
+             * the floats, read straight into x */
+            const int direct = nv == (size_t)nch && r->rt->fmt == ULK_FMT_F32 && host_is_le();
+            got = fread(direct ? (void *)o : r->buf, frame, m, r->fp);
             const uint8_t *b = r->buf;
-            if (r->rt->fmt == ULK_FMT_S16) {
-                for (size_t k = 0; k < got; k++) {
-                    const uint8_t *p = b + k * frame + (size_t)ch * 2;
-                    int16_t v = (int16_t)(uint16_t)(p[0] | (p[1] << 8));
-                    x[done + k] = (float)(v / 32767.0);
-                }
+            if (direct) {
+                /* nothing to convert */
+            } else if (r->rt->fmt == ULK_FMT_S16) {
+                for (size_t k = 0; k < got; k++)
+                    for (size_t c = 0; c < nv; c++) {
+                        const uint8_t *p = b + k * frame + (size_t)(c0 + (int)c) * 2;
+                        int16_t v = (int16_t)(uint16_t)(p[0] | (p[1] << 8));
+                        o[k * nv + c] = (float)(v / 32767.0);
+                    }
             } else {
-                for (size_t k = 0; k < got; k++) {
-                    const uint8_t *p = b + k * frame + (size_t)ch * 4;
-                    uint32_t u = (uint32_t)p[0] | (uint32_t)p[1] << 8 | (uint32_t)p[2] << 16 | (uint32_t)p[3] << 24;
-                    memcpy(&x[done + k], &u, 4);
-                }
+                for (size_t k = 0; k < got; k++)
+                    for (size_t c = 0; c < nv; c++) {
+                        const uint8_t *p = b + k * frame + (size_t)(c0 + (int)c) * 4;
+                        uint32_t u = (uint32_t)p[0] | (uint32_t)p[1] << 8 | (uint32_t)p[2] << 16 | (uint32_t)p[3] << 24;
+                        memcpy(&o[k * nv + c], &u, 4);
+                    }
             }
             if (got < m) {
                 if (ferror(r->fp)) {
@@ -944,3 +960,7 @@ long ulk_reader_read(ulk_reader *r, float *x, size_t n)
     }
     return (long)done;
 }
+
+long ulk_reader_read(ulk_reader *r, float *x, size_t n) { return reader_read(r, x, n, 0); }
+
+long ulk_reader_read_frames(ulk_reader *r, float *x, size_t n) { return reader_read(r, x, n, 1); }
