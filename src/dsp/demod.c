@@ -1012,8 +1012,35 @@ static int blk_dumps_slots(ulk_demod *d, const blk_state *st, uint64_t nh_need)
 }
 
 #define SQ_FIT_BINS 256     /* the edge fit's histogram over +-SQ_EDGE_FIT */
-#define SQ_FIT_SLOPES 21    /* trial slopes of the edge offset across the span */
+#define SQ_FIT_SLOPES 7     /* trial slopes of the edge offset across the span, coarse and fine */
 #define SQ_FIT_SLOPE_MAX 0.02 /* cycles from one end of the span to the other */
+
+/* One trial slope t1 of the edge fit (sq_refine_edges): the best offset for it, kept in *t0b
+ * and *t1b when its score beats *best. */
+static void sq_fit_slope(const sq_edge_smp *es, size_t ne, double t1, double ytot, double *best, double *t0b, double *t1b)
+{
+    double hist[SQ_FIT_BINS];
+    const double bw = 2.0 * SQ_EDGE_FIT / SQ_FIT_BINS, ibw = 1.0 / bw;
+    memset(hist, 0, sizeof hist);
+    for (size_t j = 0; j < ne; j++) {
+        int bi = (int)(((double)es[j].e - t1 * es[j].u + SQ_EDGE_FIT) * ibw);
+        if (bi < 0) bi = 0;
+        if (bi >= SQ_FIT_BINS) bi = SQ_FIT_BINS - 1;
+        hist[bi] += es[j].y;
+    }
+    /* split at the lower side of bin b: S = ytot - 2 (sum of the bins below b); on a plateau
+     * (empty bins) the edge goes to its middle */
+    double acc = 0;
+    int run_from = -1;
+    for (int c = 0; c < SQ_FIT_BINS / 8; c++) acc += hist[c];
+    for (int bi = SQ_FIT_BINS / 8; bi < SQ_FIT_BINS - SQ_FIT_BINS / 8; bi++) {
+        double S = ytot - 2 * acc;
+        if (S > *best) { *best = S; *t1b = t1; *t0b = bi * bw - SQ_EDGE_FIT; run_from = bi; }
+        else if (run_from >= 0 && S == *best && hist[bi - 1] == 0) *t0b = 0.5 * (run_from + bi) * bw - SQ_EDGE_FIT;
+        else run_from = -1;
+        acc += hist[bi];
+    }
+}
 
 /* Square subcarrier: places the template's edges where the block's samples put them. The
  * clock from the squared line (stage 2) is good to a few 1e-3 cycles, which costs a sine
@@ -1031,8 +1058,6 @@ static void sq_refine_edges(ulk_demod *d, size_t ne)
 {
     double *P = d->ph + 1, *C = d->ch + 1;
     sq_edge_smp *es = d->esm;
-    double hist[SQ_FIT_BINS];
-    const double bw = 2.0 * SQ_EDGE_FIT / SQ_FIT_BINS;
     double ytot = 0;
     for (size_t j = 0; j < ne; j++) {
         double D = P[es[j].rel - 1] + P[es[j].rel] - (double)es[j].x * (double)es[j].c;
@@ -1040,25 +1065,14 @@ static void sq_refine_edges(ulk_demod *d, size_t ne)
         ytot += es[j].y;
     }
     double best = -1e300, t0b = 0, t1b = 0;
-    for (int q = 0; q < SQ_FIT_SLOPES; q++) {
-        double t1 = SQ_FIT_SLOPE_MAX * (2.0 * q / (SQ_FIT_SLOPES - 1) - 1);
-        memset(hist, 0, sizeof hist);
-        for (size_t j = 0; j < ne; j++) {
-            int bi = (int)floor(((double)es[j].e - t1 * es[j].u + SQ_EDGE_FIT) / bw);
-            if (bi < 0) bi = 0;
-            if (bi >= SQ_FIT_BINS) bi = SQ_FIT_BINS - 1;
-            hist[bi] += es[j].y;
-        }
-        /* split at the lower side of bin b: S = ytot - 2 (sum of bins below b) */
-        double acc = 0;
-        int run_from = -1; /* the best split's plateau (empty bins) starts here: the edge goes to its middle */
-        for (int bi = SQ_FIT_BINS / 8; bi < SQ_FIT_BINS - SQ_FIT_BINS / 8; bi++) {
-            if (bi == SQ_FIT_BINS / 8) for (int c = 0; c < bi; c++) acc += hist[c];
-            double S = ytot - 2 * acc;
-            if (S > best) { best = S; t1b = t1; t0b = bi * bw - SQ_EDGE_FIT; run_from = bi; }
-            else if (run_from >= 0 && S == best && hist[bi - 1] == 0) t0b = 0.5 * (run_from + bi) * bw - SQ_EDGE_FIT;
-            else run_from = -1;
-            acc += hist[bi];
+    /* slopes: a coarse grid over +-SQ_FIT_SLOPE_MAX, then a finer one around the best */
+    const double step = 2.0 * SQ_FIT_SLOPE_MAX / (SQ_FIT_SLOPES - 1);
+    for (int pass = 0; pass < 2; pass++) {
+        double c1 = t1b;
+        for (int q = 0; q < SQ_FIT_SLOPES; q++) {
+            double t1 = pass == 0 ? -SQ_FIT_SLOPE_MAX + q * step : c1 + (q - (SQ_FIT_SLOPES - 1) / 2) * step / (SQ_FIT_SLOPES - 1);
+            if (pass == 1 && t1 == c1) continue;
+            sq_fit_slope(es, ne, t1, ytot, &best, &t0b, &t1b);
         }
     }
     const double w = SQ_EDGE_CYCLES;
@@ -1092,6 +1106,7 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
         const double spc = 1.0 / inc;           /* samples per subcarrier cycle */
         const double sq_w = SQ_EDGE_CYCLES * spc; /* the square template's ramp, samples */
         const double fit_w = SQ_EDGE_FIT * spc;   /* samples noted for the edge fit */
+        const double inv_span = 1.0 / (double)(i_hi - i_lo);
         for (uint64_t i = i_lo; i < i_hi; i++) {
             float x = d->xb[i % d->xcap];
             if (d->pilot_on) {
@@ -1119,7 +1134,7 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
                     int after = e0 < 0.25;                   /* past the last edge */
                     es->x = x;
                     es->c = c;
-                    es->u = (float)(((double)(i - i_lo) + 0.5) / (double)(i_hi - i_lo) - 0.5);
+                    es->u = (float)((double)(i - i_lo) * inv_span - 0.5);
                     es->e = (float)(after ? e0 : e0 - 0.5);
                     es->rel = after ? rel : rel + 1;
                     /* the half after the edge: the first of a cycle (+) or the second (-) */
