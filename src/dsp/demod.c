@@ -30,14 +30,25 @@
 
 #define TAB_BITS 12
 #define ACQ_MIN_SNR 0.8 /* a^2 / s^2 of the soft values to acquire (see process_block) */
-/* Square template: half-width of its ramp at an edge, in subcarrier cycles (0.22 rad): a few
- * times the block clock's phase error (0.03 to 0.07 rad measured at 9 dB). Measured on the
- * square set at 8.5 dB (2000 words): 16 kHz -1000 ppm WER 1.45e-2 with a quarter-sample ramp,
- * 8.0e-3 / 7.5e-3 / 7.0e-3 / 8.0e-3 at 0.01 / 0.02 / 0.035 / 0.05 cycles; 48 kHz +150 ppm
- * 2.05e-2 / 8.5e-3 / 5.0e-3 / 6.5e-3. */
-#define SQ_EDGE_CYCLES 0.035
+/* Square template: half-width of its ramp at an edge, in subcarrier cycles, once the edges are
+ * placed by the block's own samples (sq_refine_edges), and the span around each edge whose
+ * samples that fit reads. Square set at 8 dB, 6000-8000 words, +-200 ppm: ramp 0.005 / 0.01
+ * with the fit over 0.03 / 0.05: 48 kHz WER 1.21e-2 / 1.20e-2, 50 kHz 1.10e-2 / 1.12e-2,
+ * 192 kHz 9.7e-3 / 9.8e-3; a hard template (1e-4) 1.65e-2, 1.20e-2, 1.15e-2. Before the fit (the
+ * squared line's clock alone, ramp 0.035) 1.63e-2, 1.42e-2, 1.12e-2. */
+#define SQ_EDGE_CYCLES 0.005
+#define SQ_EDGE_FIT 0.03
 #define TAB_N (1 << TAB_BITS)
 #define MAX_SEGS_NOTE 0
+
+/* A sample near an edge of the square template: its value, its signed distance from the edge
+ * in cycles (positive: after it, where the template takes the sign o), the half-cycle after
+ * the edge and the template value the sample was first dumped with. */
+typedef struct {
+    float x, e, c, u, y;
+    int8_t o;
+    int64_t rel;
+} sq_edge_smp;
 
 struct ulk_demod {
     ulk_link l;
@@ -104,6 +115,8 @@ struct ulk_demod {
     double *ph, *ch;          /* half-cycle partials and template energies (+1 for prefix) */
     double *qh;               /* half-cycle partials with the quadrature template */
     uint64_t hcap;
+    sq_edge_smp *esm;         /* square: samples near the template's edges (block scratch) */
+    size_t ecap;
     float *yblk;              /* soft values of one block */
     double *tblk;
     uint64_t ycap;
@@ -979,6 +992,82 @@ static int blk_dumps_slots(ulk_demod *d, const blk_state *st, uint64_t nh_need)
     return 1;
 }
 
+#define SQ_FIT_BINS 256     /* the edge fit's histogram over +-SQ_EDGE_FIT */
+#define SQ_FIT_SLOPES 7     /* trial slopes of the edge offset across the span, coarse and fine */
+#define SQ_FIT_SLOPE_MAX 0.02 /* cycles from one end of the span to the other */
+
+/* One trial slope t1 of the edge fit (sq_refine_edges): the best offset for it, kept in *t0b
+ * and *t1b when its score beats *best. */
+static void sq_fit_slope(const sq_edge_smp *es, size_t ne, double t1, double ytot, double *best, double *t0b, double *t1b)
+{
+    double hist[SQ_FIT_BINS];
+    const double bw = 2.0 * SQ_EDGE_FIT / SQ_FIT_BINS, ibw = 1.0 / bw;
+    memset(hist, 0, sizeof hist);
+    for (size_t j = 0; j < ne; j++) {
+        int bi = (int)(((double)es[j].e - t1 * es[j].u + SQ_EDGE_FIT) * ibw);
+        if (bi < 0) bi = 0;
+        if (bi >= SQ_FIT_BINS) bi = SQ_FIT_BINS - 1;
+        hist[bi] += es[j].y;
+    }
+    /* split at the lower side of bin b: S = ytot - 2 (sum of the bins below b); on a plateau
+     * (empty bins) the edge goes to its middle */
+    double acc = 0;
+    int run_from = -1;
+    for (int c = 0; c < SQ_FIT_BINS / 8; c++) acc += hist[c];
+    for (int bi = SQ_FIT_BINS / 8; bi < SQ_FIT_BINS - SQ_FIT_BINS / 8; bi++) {
+        double S = ytot - 2 * acc;
+        if (S > *best) { *best = S; *t1b = t1; *t0b = bi * bw - SQ_EDGE_FIT; run_from = bi; }
+        else if (run_from >= 0 && S == *best && hist[bi - 1] == 0) *t0b = 0.5 * (run_from + bi) * bw - SQ_EDGE_FIT;
+        else run_from = -1;
+        acc += hist[bi];
+    }
+}
+
+/* Square subcarrier: places the template's edges where the block's samples put them. The
+ * clock from the squared line (stage 2) is good to a few 1e-3 cycles, which costs a sine
+ * template nothing but a square one a sample on the wrong side of an edge in every half-cycle
+ * for as long as one sits that close (measured with the true clock and a hard template: the
+ * square set at 8 dB loses 0.00 / 0.14 / 0.03 dB at 48 / 50 / 192 kHz; with the block clock and a ramp of 0.035 cycles 0.49 / 0.39 / 0.22 dB, docs/decode.md).
+ * Each sample within SQ_EDGE_FIT of an edge is weighed by the dumps of the two half-cycles
+ * beside it (its own value taken out): y = x o (P_before + P_after) is positive on average
+ * when the sample lies after the edge and negative before it (zero where the data change
+ * between the two). The edge offset t(u) = t0 + t1 u (u the sample's place in the span,
+ * -1/2..1/2) maximising sum_{e > t} y - sum_{e < t} y is where the block puts the edges
+ * (t1 tried on a grid, t0 from a histogram of e - t1 u); every noted sample is dumped again
+ * with the template at t. */
+static void sq_refine_edges(ulk_demod *d, size_t ne)
+{
+    double *P = d->ph + 1, *C = d->ch + 1;
+    sq_edge_smp *es = d->esm;
+    double ytot = 0;
+    for (size_t j = 0; j < ne; j++) {
+        double D = P[es[j].rel - 1] + P[es[j].rel] - (double)es[j].x * (double)es[j].c;
+        es[j].y = (float)((double)es[j].x * es[j].o * D);
+        ytot += es[j].y;
+    }
+    double best = -1e300, t0b = 0, t1b = 0;
+    /* slopes: a coarse grid over +-SQ_FIT_SLOPE_MAX, then a finer one around the best */
+    const double step = 2.0 * SQ_FIT_SLOPE_MAX / (SQ_FIT_SLOPES - 1);
+    for (int pass = 0; pass < 2; pass++) {
+        double c1 = t1b;
+        for (int q = 0; q < SQ_FIT_SLOPES; q++) {
+            double t1 = pass == 0 ? -SQ_FIT_SLOPE_MAX + q * step : c1 + (q - (SQ_FIT_SLOPES - 1) / 2) * step / (SQ_FIT_SLOPES - 1);
+            if (pass == 1 && t1 == c1) continue;
+            sq_fit_slope(es, ne, t1, ytot, &best, &t0b, &t1b);
+        }
+    }
+    const double w = SQ_EDGE_CYCLES;
+    for (size_t j = 0; j < ne; j++) {
+        double e = (double)es[j].e - t0b - t1b * es[j].u, a = fabs(e) < w ? fabs(e) / w : 1.0;
+        int64_t h1 = e > 0 ? es[j].rel : es[j].rel - 1, h0 = es[j].e > 0 ? es[j].rel : es[j].rel - 1;
+        double c1 = (e > 0 ? 1.0 : -1.0) * es[j].o * a, x = es[j].x, c0 = es[j].c;
+        P[h0] -= x * c0;
+        C[h0] -= c0 * c0;
+        P[h1] += x * c1;
+        C[h1] += c1 * c1;
+    }
+}
+
 /* Stage 4 from the samples: writes the prefix sums d->ph, qh, ch of half-cycles
  * H0 .. H0 + nh_need, the pilot subtracted; cyc0 and phs are the clock at i_lo. */
 static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_need, double cyc0, double phs)
@@ -989,6 +1078,7 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
     memset(d->ph, 0, (nh_need + 1) * sizeof *d->ph);
     memset(d->ch, 0, (nh_need + 1) * sizeof *d->ch);
     memset(d->qh, 0, (nh_need + 1) * sizeof *d->qh);
+    size_t ne = 0; /* samples noted near the square template's edges */
     {
         int64_t cyc = 0; /* cycles since cyc0 */
         double pp = d->pilot_on ? fmod(fpn * (double)i_lo, 1.0) : 0;
@@ -996,6 +1086,8 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
         int64_t hbase = 2 * (int64_t)cyc0 - H0; /* 0 or -1 */
         const double spc = 1.0 / inc;           /* samples per subcarrier cycle */
         const double sq_w = SQ_EDGE_CYCLES * spc; /* the square template's ramp, samples */
+        const double fit_w = SQ_EDGE_FIT * spc;   /* samples noted for the edge fit */
+        const double inv_span = 1.0 / (double)(i_hi - i_lo);
         for (uint64_t i = i_lo; i < i_hi; i++) {
             float x = d->xb[i % d->xcap];
             if (d->pilot_on) {
@@ -1007,13 +1099,9 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
             int64_t rel = hbase + 2 * cyc + half;
             float c, cq;
             if (d->square) {
-                /* The square's edges are where the sampled values jump; a sample within the
-                 * clock's uncertainty of an edge may lie on either side. When f_s / f_sc is
-                 * (nearly) whole, samples sit at the same place in every cycle, and a clock
-                 * that drifts brings one of them onto the edges of all cycles at once for
-                 * tens of sub-bits: a hard +-1 template then counts it against the signal in
-                 * every half-cycle (measured: 4 samples a half-cycle, +150 ppm, WER 3e-2 at
-                 * 9 dB, floor). The template ramps to 0 within SQ_EDGE_CYCLES of an edge. */
+                /* The square's edges are where the sampled values jump (see SQ_EDGE_CYCLES and
+                 * sq_refine_edges): the template ramps to 0 within sq_w of an edge, and a
+                 * sample within SQ_EDGE_FIT of one is noted for the edge fit. */
                 double e0 = phs < 0.5 ? phs : phs - 0.5;            /* from the last edge */
                 double dist = (e0 < 0.25 ? e0 : 0.5 - e0) * spc;   /* to the nearest, samples */
                 c = (float)((half ? -1.0 : 1.0) * (dist < sq_w ? dist / sq_w : 1.0));
@@ -1022,6 +1110,18 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
                 double f0 = pq < 0.5 ? pq : pq - 0.5;
                 double dq = (f0 < 0.25 ? f0 : 0.5 - f0) * spc;
                 cq = (float)((pq < 0.5 ? 1.0 : -1.0) * (dq < sq_w ? dq / sq_w : 1.0));
+                if (dist < fit_w && ne < d->ecap) {
+                    sq_edge_smp *es = &d->esm[ne];
+                    int after = e0 < 0.25;                   /* past the last edge */
+                    es->x = x;
+                    es->c = c;
+                    es->u = (float)((double)(i - i_lo) * inv_span - 0.5);
+                    es->e = (float)(after ? e0 : e0 - 0.5);
+                    es->rel = after ? rel : rel + 1;
+                    /* the half after the edge: the first of a cycle (+) or the second (-) */
+                    es->o = (int8_t)(((es->rel - hbase) & 1) ? -1 : 1);
+                    if (es->rel - 1 >= 0 && (uint64_t)es->rel < nh_need) ne++;
+                }
             } else {
                 c = tsin(d, phs);
                 cq = tcos(d, phs);
@@ -1035,6 +1135,7 @@ static void blk_dumps_samples(ulk_demod *d, const blk_state *st, uint64_t nh_nee
             if (phs >= 1) { phs -= 1; cyc++; }
         }
     }
+    if (d->square && ne > 0) sq_refine_edges(d, ne);
     /* prefix sums: ph[i] = sum of partials before half-cycle i */
     for (uint64_t i = 1; i <= nh_need; i++) {
         d->ph[i] += d->ph[i - 1];
@@ -1413,6 +1514,12 @@ static int demod_alloc(ulk_demod *d)
     d->dre = ulk_malloc((4 * (size_t)B + 64) * sizeof *d->dre); /* also the trim's scratch */
     d->dim = ulk_malloc(3 * (size_t)B * sizeof *d->dim + 64);
     d->ph = ulk_malloc((d->hcap + 1) * sizeof *d->ph);
+    if (d->square) {
+        /* a half-cycle has at most 2 SQ_EDGE_FIT spc + 2 samples within SQ_EDGE_FIT of its edges */
+        d->ecap = (size_t)d->hcap * ((size_t)ceil(2 * SQ_EDGE_FIT * d->fs_hz / d->fsc_hz) + 3) + 64;
+        d->esm = ulk_malloc(d->ecap * sizeof *d->esm);
+        if (!d->esm) return -1;
+    }
     d->ch = ulk_malloc((d->hcap + 1) * sizeof *d->ch);
     d->qh = ulk_malloc((d->hcap + 1) * sizeof *d->qh);
     d->yblk = ulk_malloc(d->ycap * sizeof *d->yblk);
@@ -1883,6 +1990,7 @@ void ulk_demod_destroy(ulk_demod *d)
     ulk_free(d->ph);
     ulk_free(d->ch);
     ulk_free(d->qh);
+    ulk_free(d->esm);
     ulk_free(d->yblk);
     ulk_free(d->tblk);
     ulk_free(d->qacc);
