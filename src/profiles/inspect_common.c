@@ -79,3 +79,19 @@ void ulk_inspect_json_unit_head(cJSON *w, size_t k, const ulk_upload_cmd *c, dou
     cJSON_AddNumberToObject(w, "idles_before", (double)c->idles_before);
     cJSON_AddItemToObject(w, "wait_s", ulk_inspect_ratio_json(c->wait_before));
 }
+
+int ulk_inspect_json_finish(FILE *out, cJSON *root, const ulk_upload *u, const char *units_key, const char *symbols_key)
+{
+    cJSON_AddNumberToObject(root, "idles_after", (double)u->idles_after);
+    cJSON_AddItemToObject(root, "wait_after_s", ulk_inspect_ratio_json(u->wait_after));
+    cJSON *t = cJSON_AddObjectToObject(root, "totals");
+    cJSON_AddNumberToObject(t, units_key, (double)u->n_cmds);
+    cJSON_AddNumberToObject(t, symbols_key, (double)ulk_upload_n_subbits(u));
+    cJSON_AddNumberToObject(t, "duration_s", ulk_upload_duration_s(u));
+    char *txt = cJSON_Print(root);
+    cJSON_Delete(root);
+    if (!txt) return ULK_ENOMEM;
+    int bad = fputs(txt, out) == EOF || fputc('\n', out) == EOF;
+    free(txt);
+    return bad ? ULK_EIO : 0;
+}

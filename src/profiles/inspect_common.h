@@ -29,6 +29,10 @@ void ulk_inspect_text_tail(FILE *out, const ulk_upload *u, const char *label, co
 /* The JSON document's root with its "dictionary" and "source" members and an empty "link"
  * object (*link), for the profile to fill; NULL when out of memory. */
 cJSON *ulk_inspect_json_head(const ulk_upload *u, cJSON **link);
+/* The document's closing members (idles_after, wait_after_s, totals with the unit and symbol
+ * counts under units_key and symbols_key, and duration_s), then root printed to out and
+ * deleted. Returns 0, ULK_ENOMEM, or ULK_EIO when out failed. */
+int ulk_inspect_json_finish(FILE *out, cJSON *root, const ulk_upload *u, const char *units_key, const char *symbols_key);
 /* The members every unit's JSON object starts with: index (1-based k + 1), line, mnemonic,
  * critical, start_s (its scheduled start), idles_before, wait_s. */
 void ulk_inspect_json_unit_head(cJSON *w, size_t k, const ulk_upload_cmd *c, double start_s);

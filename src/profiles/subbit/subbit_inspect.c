@@ -172,16 +172,5 @@ int ulk_subbit_inspect_json(FILE *out, const ulk_upload *u)
         cJSON_AddBoolToObject(ck, "ok", ulk_word_check_ok(l, &c->word));
     }
     free(sub);
-    cJSON_AddNumberToObject(root, "idles_after", (double)u->idles_after);
-    cJSON_AddItemToObject(root, "wait_after_s", ulk_inspect_ratio_json(u->wait_after));
-    cJSON *t = cJSON_AddObjectToObject(root, "totals");
-    cJSON_AddNumberToObject(t, "words", (double)u->n_cmds);
-    cJSON_AddNumberToObject(t, "subbits", (double)ulk_upload_n_subbits(u));
-    cJSON_AddNumberToObject(t, "duration_s", ulk_upload_duration_s(u));
-    char *txt = cJSON_Print(root);
-    cJSON_Delete(root);
-    if (!txt) return ULK_ENOMEM;
-    int bad = fputs(txt, out) == EOF || fputc('\n', out) == EOF;
-    free(txt);
-    return bad ? ULK_EIO : 0;
+    return ulk_inspect_json_finish(out, root, u, "words", "subbits");
 }
