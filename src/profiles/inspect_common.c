@@ -95,3 +95,16 @@ int ulk_inspect_json_finish(FILE *out, cJSON *root, const ulk_upload *u, const c
     free(txt);
     return bad ? ULK_EIO : 0;
 }
+
+void ulk_inspect_text_unit_head(FILE *out, const char *noun, size_t k, const ulk_upload_cmd *c, double start_s,
+                                const char *filler)
+{
+    fprintf(out, "\n%s %zu  line %d  %s%s\n", noun, k + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
+    fprintf(out, "  start     %.9f s  after %llu %s", start_s, (unsigned long long)c->idles_before, filler);
+    if (c->wait_before.num) {
+        char w[64];
+        ulk_ratio_format(c->wait_before, w, sizeof w);
+        fprintf(out, " (wait %s s)", w);
+    }
+    fprintf(out, "\n");
+}

@@ -20,6 +20,10 @@ cJSON *ulk_inspect_ratio_json(ulk_ratio r);
 
 /* The text's first two lines: the upload file (path as shown) and the dictionary it came from. */
 void ulk_inspect_text_head(FILE *out, const char *path, const ulk_upload *u);
+/* The first two lines of unit k (0-based): "CLTU 2  line 5  MNEMONIC  (critical)", and its
+ * scheduled start after its filler ("after 64 idle bits", with the wait if any). */
+void ulk_inspect_text_unit_head(FILE *out, const char *noun, size_t k, const ulk_upload_cmd *c, double start_s,
+                                const char *filler);
 /* The text's closing lines: the filler after the last unit ("postamble  3 idle patterns",
  * "idle       128 bits after the last CLTU", with the final wait if any) and the totals
  * ("totals     5 words, 4096 sub-bits, 2.048000000 s"). label is the first column,

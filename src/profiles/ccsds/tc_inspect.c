@@ -14,7 +14,6 @@
 #include "ulk/subbit.h"
 #include "util.h"
 
-static void ratio_str(ulk_ratio r, char *buf, int len) { ulk_ratio_format(r, buf, len); }
 
 static void hex_of(const uint8_t *p, size_t n, char *out)
 {
@@ -58,8 +57,8 @@ int ulk_tc_inspect_text(FILE *out, const char *path, const ulk_upload *u)
     const ulk_link *l = &u->link;
     const ulk_tc_params *t = &l->tc;
     char rb[64], fs[64];
-    ratio_str(l->bit_rate, rb, sizeof rb);
-    ratio_str(l->fsc, fs, sizeof fs);
+    ulk_ratio_format(l->bit_rate, rb, sizeof rb);
+    ulk_ratio_format(l->fsc, fs, sizeof fs);
     ulk_inspect_text_head(out, path, u);
     fprintf(out, "link       ccsds-tc, %s bit/s (one channel bit per symbol), %s, %s Hz %s subcarrier\n", rb,
            ulk_line_code_name(l->line_code), fs, ulk_waveform_name(l->waveform));
@@ -86,15 +85,7 @@ int ulk_tc_inspect_text(FILE *out, const char *path, const ulk_upload *u)
         ulk_tcf_frame fr;
         ulk_spp_packet pk;
         char v[600];
-        fprintf(out, "\nCLTU %zu  line %d  %s%s\n", i + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
-        fprintf(out, "  start     %.9f s  after %llu idle bits", ulk_stream_start_next(u, &cur),
-               (unsigned long long)c->idles_before);
-        if (c->wait_before.num) {
-            char w[64];
-            ratio_str(c->wait_before, w, sizeof w);
-            fprintf(out, " (wait %s s)", w);
-        }
-        fprintf(out, "\n");
+        ulk_inspect_text_unit_head(out, "CLTU", i, c, ulk_stream_start_next(u, &cur), "idle bits");
         if (parse_tc(l, c, &fr, &pk)) {
             fprintf(out, "  (frame does not parse)\n");
             continue;

@@ -24,14 +24,13 @@ static void pattern_of(const ulk_link *l, const ulk_word *w, char *buf, int spac
     buf[k] = 0;
 }
 
-static void ratio_str(ulk_ratio r, char *buf, int len) { ulk_ratio_format(r, buf, len); }
 
 int ulk_subbit_inspect_text(FILE *out, const char *path, const ulk_upload *u)
 {
     const ulk_link *l = &u->link;
     ulk_word_layout y = ulk_word_layout_of(l);
     char rb[64], pz[17], po[17], pi[17];
-    ratio_str(l->bit_rate, rb, sizeof rb);
+    ulk_ratio_format(l->bit_rate, rb, sizeof rb);
     for (int i = 0; i < l->n_subbits; i++) {
         pz[i] = (char)('0' + l->zero[i]);
         po[i] = (char)('0' + l->one[i]);
@@ -52,15 +51,7 @@ int ulk_subbit_inspect_text(FILE *out, const char *path, const ulk_upload *u)
         char hex[40], bin[ULK_MAX_WORD_BITS + 1], v[600];
         ulk_word_hex(&c->word, hex);
         ulk_word_bin(&c->word, bin);
-        fprintf(out, "\nword %zu  line %d  %s%s\n", i + 1, c->line, c->mnemonic, c->critical ? "  (critical)" : "");
-        fprintf(out, "  start     %.9f s  after %llu idle patterns", ulk_stream_start_next(u, &cur),
-               (unsigned long long)c->idles_before);
-        if (c->wait_before.num) {
-            char w[64];
-            ratio_str(c->wait_before, w, sizeof w);
-            fprintf(out, " (wait %s s)", w);
-        }
-        fprintf(out, "\n");
+        ulk_inspect_text_unit_head(out, "word", i, c, ulk_stream_start_next(u, &cur), "idle patterns");
         if (l->vehicle_bits)
             fprintf(out, "  vehicle   0x%llX  (bits %d-%d)\n", (unsigned long long)ulk_word_get(&c->word, y.vehicle_pos, l->vehicle_bits),
                    y.vehicle_pos, y.vehicle_pos + l->vehicle_bits - 1);
