@@ -1565,15 +1565,6 @@ ulk_node *ulk_db_subcarrier(ulk_dict_build *b, ulk_node *sc, int *fsc_ok, int *a
     return build_subcarrier(b, sc, fsc_ok, amp_ok, amp_exact);
 }
 
-void ulk_dt_puts(ulk_dict_text *t, const char *s) { sb_puts(t, s); }
-void ulk_dt_printf(ulk_dict_text *t, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    ulk_text_vprintf(t, fmt, ap);
-    va_end(ap);
-}
-void ulk_dt_str(ulk_dict_text *t, const char *s) { sb_str(t, s); }
 void ulk_dt_double(ulk_dict_text *t, double v) { sb_double(t, v); }
 void ulk_dt_ratio(ulk_dict_text *t, ulk_ratio r) { sb_ratio(t, r); }
 

@@ -14,11 +14,12 @@
 #include <stdint.h>
 
 #include "doc.h"
+#include "text.h"
 #include "ulk/dict.h"
 #include "ulk/link.h"
 
 typedef struct ulk_dict_build ulk_dict_build; /* one load: dictionary, document, findings */
-typedef struct ulk_text ulk_dict_text; /* src/core/text.h */   /* the canonical form being written */
+typedef struct ulk_text ulk_dict_text;        /* the canonical form being written (text.h) */
 
 /* The link being built (of the dictionary being loaded). */
 ulk_link *ulk_db_link(ulk_dict_build *b);
@@ -59,11 +60,9 @@ int ulk_db_choice(ulk_dict_build *b, ulk_node *n, const char *const *names, size
  * absent (and then *fsc_ok = *amp_ok = 0). */
 ulk_node *ulk_db_subcarrier(ulk_dict_build *b, ulk_node *sc, int *fsc_ok, int *amp_ok, ulk_ratio *amp_exact);
 
-/* The canonical form: text as it is, printf, a JSON
- * string, a number as the canonical form writes it, an exact rate as a quoted decimal. */
-void ulk_dt_puts(ulk_dict_text *t, const char *s);
-void ulk_dt_printf(ulk_dict_text *t, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-void ulk_dt_str(ulk_dict_text *t, const char *s);
+/* The canonical form is written into the library's text buffer (src/core/text.h: text, printf,
+ * JSON strings); its numbers are written as below: a number as the canonical form writes it,
+ * an exact rate as a quoted decimal. */
 void ulk_dt_double(ulk_dict_text *t, double v);
 void ulk_dt_ratio(ulk_dict_text *t, ulk_ratio r);
 

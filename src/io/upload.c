@@ -121,20 +121,9 @@ static uint64_t total_patterns(const ulk_upload *u)
 
 /* ---- the writer's text buffer, for the profiles' parts of an upload (upload_text.h) */
 
-void ulk_jb_put(ulk_jbuf *b, const char *s) { sb_put(b, s, strlen(s)); }
-void ulk_jb_printf(ulk_jbuf *b, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    ulk_text_vprintf(b, fmt, ap);
-    va_end(ap);
-}
-void ulk_jb_str(ulk_jbuf *b, const char *s) { sb_str(b, s); }
 void ulk_jb_ratio(ulk_jbuf *b, ulk_ratio r) { sb_ratio(b, r); }
 void ulk_jb_double(ulk_jbuf *b, double v) { sb_double(b, v); }
-void ulk_jb_hex(ulk_jbuf *b, const uint8_t *p, size_t n) { sb_hex(b, p, n); }
 int ulk_jb_oom(const ulk_jbuf *b) { return b->oom; }
-void ulk_jb_unput(ulk_jbuf *b, size_t n) { ulk_text_unput(b, n); }
 
 #define DIGEST_HEAD "  \"digest\": \"sha256:"
 #define DIGEST_TAIL "\"\n}\n"

@@ -10,15 +10,15 @@
 
 #include "ulk/link.h"
 
-typedef struct ulk_text ulk_jbuf; /* src/core/text.h */
+#include "text.h"
 
-void ulk_jb_put(ulk_jbuf *b, const char *s);                      /* text as it is */
-void ulk_jb_printf(ulk_jbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-void ulk_jb_str(ulk_jbuf *b, const char *s);                      /* a JSON string; NULL: null */
+/* The buffer is the library's text buffer: text, printf, JSON strings, hex and unput are
+ * ulk_text_puts, ulk_text_printf, ulk_text_json_str, ulk_text_hex and ulk_text_unput
+ * (src/core/text.h); what the upload file writes its own way is below. */
+typedef struct ulk_text ulk_jbuf;
+
 void ulk_jb_ratio(ulk_jbuf *b, ulk_ratio r);                      /* its exact decimal text, quoted */
 void ulk_jb_double(ulk_jbuf *b, double v);                        /* the shortest round trip; null if not finite */
-void ulk_jb_hex(ulk_jbuf *b, const uint8_t *p, size_t n);         /* octets in upper-case hex */
-void ulk_jb_unput(ulk_jbuf *b, size_t n);                         /* takes back the last n chars */
 int ulk_jb_oom(const ulk_jbuf *b);                                /* 1 once memory ran out */
 
 #endif

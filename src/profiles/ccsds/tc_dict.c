@@ -258,29 +258,29 @@ void ulk_tc_command_check(ulk_dict_build *c, const ulk_command *k, ulk_node *arg
 void ulk_tc_link_canonical(ulk_dict_text *b, const ulk_link *L)
 {
     const ulk_tc_params *T = &L->tc;
-    ulk_dt_puts(b, "{\"bit_rate\":");
+    ulk_text_puts(b, "{\"bit_rate\":");
     ulk_dt_ratio(b, L->bit_rate);
-    ulk_dt_puts(b, ",\"line_code\":");
-    ulk_dt_str(b, ulk_line_code_name(L->line_code));
-    ulk_dt_puts(b, ",\"profile\":\"ccsds-tc\",\"subcarrier\":{\"amplitude\":");
+    ulk_text_puts(b, ",\"line_code\":");
+    ulk_text_json_str(b, ulk_line_code_name(L->line_code));
+    ulk_text_puts(b, ",\"profile\":\"ccsds-tc\",\"subcarrier\":{\"amplitude\":");
     ulk_dt_double(b, L->amplitude);
-    ulk_dt_puts(b, ",\"frequency\":");
+    ulk_text_puts(b, ",\"frequency\":");
     ulk_dt_ratio(b, L->fsc);
-    ulk_dt_puts(b, ",\"waveform\":");
-    ulk_dt_str(b, ulk_waveform_name(L->waveform));
-    ulk_dt_printf(b, "},\"tc\":{\"acquisition_octets\":%u,\"correction\":\"%s\",\"fecf\":%s,\"first_sequence\":%u",
+    ulk_text_puts(b, ",\"waveform\":");
+    ulk_text_json_str(b, ulk_waveform_name(L->waveform));
+    ulk_text_printf(b, "},\"tc\":{\"acquisition_octets\":%u,\"correction\":\"%s\",\"fecf\":%s,\"first_sequence\":%u",
               T->acquisition_octets, T->frame.correction == ULK_BCH_TED ? "ted" : "sec",
               T->frame.fecf ? "true" : "false", T->first_sequence);
-    ulk_dt_printf(b, ",\"idle_octets\":%u,\"randomize\":%s", T->idle_octets, T->frame.randomize ? "true" : "false");
-    if (T->frame.segment_header) ulk_dt_printf(b, ",\"segment_header\":{\"map_id\":%u}", T->frame.map_id);
+    ulk_text_printf(b, ",\"idle_octets\":%u,\"randomize\":%s", T->idle_octets, T->frame.randomize ? "true" : "false");
+    if (T->frame.segment_header) ulk_text_printf(b, ",\"segment_header\":{\"map_id\":%u}", T->frame.map_id);
     if (T->security.enabled) {
         const ulk_sdls_sa *sa = &T->security;
-        ulk_dt_printf(b, ",\"security\":{\"algorithm\":\"aes-256-gcm\",\"iv_octets\":%d,\"key\":", sa->iv_octets);
-        ulk_dt_str(b, sa->key);
-        ulk_dt_printf(b, ",\"mac_octets\":%d,\"service\":\"%s\",\"spi\":%u,\"window\":%u}", sa->mac_octets,
+        ulk_text_printf(b, ",\"security\":{\"algorithm\":\"aes-256-gcm\",\"iv_octets\":%d,\"key\":", sa->iv_octets);
+        ulk_text_json_str(b, sa->key);
+        ulk_text_printf(b, ",\"mac_octets\":%d,\"service\":\"%s\",\"spi\":%u,\"window\":%u}", sa->mac_octets,
                   ulk_sdls_service_name(sa->service), (unsigned)sa->spi, (unsigned)sa->window);
     }
-    ulk_dt_printf(b, ",\"service\":\"%s\",\"spacecraft_id\":%u,\"start_errors\":%d,\"virtual_channel\":%u}}",
+    ulk_text_printf(b, ",\"service\":\"%s\",\"spacecraft_id\":%u,\"start_errors\":%d,\"virtual_channel\":%u}}",
               T->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited",
               T->frame.spacecraft_id, T->frame.start_errors, T->frame.virtual_channel);
 }

@@ -16,20 +16,20 @@ void ulk_tc_upload_write_link(const ulk_link *l, ulk_jbuf *b)
 {
     const ulk_tc_params *t = &l->tc;
     static const char head[] = ",\n  \"link\": {\n    \"profile\": \"ccsds-tc\",\n    \"bit_rate\": ";
-    ulk_jb_put(b, head);
+    ulk_text_puts(b, head);
     ulk_jb_ratio(b, l->bit_rate);
-    ulk_jb_printf(b, ",\n    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
+    ulk_text_printf(b, ",\n    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
     ulk_jb_ratio(b, l->fsc);
-    ulk_jb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
+    ulk_text_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
     ulk_jb_double(b, l->amplitude);
-    ulk_jb_printf(b,
+    ulk_text_printf(b,
               "},\n    \"tc\": {\"spacecraft_id\": %u, \"virtual_channel\": %u, \"service\": \"%s\", "
               "\"first_sequence\": %u, \"segment_header\": ",
               t->frame.spacecraft_id, t->frame.virtual_channel,
               t->frame.service == ULK_TC_SEQUENCE_CONTROLLED ? "sequence-controlled" : "expedited", t->first_sequence);
-    if (t->frame.segment_header) ulk_jb_printf(b, "{\"map_id\": %u}", t->frame.map_id);
-    else ulk_jb_put(b, "null");
-    ulk_jb_printf(b,
+    if (t->frame.segment_header) ulk_text_printf(b, "{\"map_id\": %u}", t->frame.map_id);
+    else ulk_text_puts(b, "null");
+    ulk_text_printf(b,
               ",\n           \"fecf\": %s, \"randomize\": %s, \"acquisition_octets\": %u, \"idle_octets\": %u, "
               "\"start_errors\": %d, \"correction\": \"%s\"}\n  },\n",
               t->frame.fecf ? "true" : "false", t->frame.randomize ? "true" : "false", t->acquisition_octets,
@@ -37,10 +37,10 @@ void ulk_tc_upload_write_link(const ulk_link *l, ulk_jbuf *b)
     if (t->security.enabled && !ulk_jb_oom(b)) {
         /* the security association by key name: key material never enters an upload */
         const ulk_sdls_sa *sa = &t->security;
-        ulk_jb_unput(b, strlen("}\n  },\n")); /* reopen the tc object written just above */
-        ulk_jb_printf(b, ",\n           \"security\": {\"spi\": %u, \"key\": ", (unsigned)sa->spi);
-        ulk_jb_str(b, sa->key);
-        ulk_jb_printf(b, ", \"service\": \"%s\", \"algorithm\": \"aes-256-gcm\", \"iv_octets\": %d, \"mac_octets\": %d, "
+        ulk_text_unput(b, strlen("}\n  },\n")); /* reopen the tc object written just above */
+        ulk_text_printf(b, ",\n           \"security\": {\"spi\": %u, \"key\": ", (unsigned)sa->spi);
+        ulk_text_json_str(b, sa->key);
+        ulk_text_printf(b, ", \"service\": \"%s\", \"algorithm\": \"aes-256-gcm\", \"iv_octets\": %d, \"mac_octets\": %d, "
                      "\"window\": %u}}\n  },\n",
                   ulk_sdls_service_name(sa->service), sa->iv_octets, sa->mac_octets, (unsigned)sa->window);
     }
@@ -50,13 +50,13 @@ void ulk_tc_upload_write_link(const ulk_link *l, ulk_jbuf *b)
 void ulk_tc_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, ulk_jbuf *b)
 {
     (void)l;
-    ulk_jb_printf(b, "],\n     \"sequence_count\": %u, \"frame_sequence\": %u,\n     \"frame\": \"", c->seq_count,
+    ulk_text_printf(b, "],\n     \"sequence_count\": %u, \"frame_sequence\": %u,\n     \"frame\": \"", c->seq_count,
                   c->frame_seq);
-    ulk_jb_hex(b, c->frame, c->n_frame);
+    ulk_text_hex(b, c->frame, c->n_frame);
     static const char mid[] = "\",\n     \"cltu\": \"";
-    ulk_jb_put(b, mid);
-    ulk_jb_hex(b, c->cltu, c->n_cltu);
-    ulk_jb_put(b, "\"}");
+    ulk_text_puts(b, mid);
+    ulk_text_hex(b, c->cltu, c->n_cltu);
+    ulk_text_puts(b, "\"}");
 }
 
 /* ---------------------------------------------------------------- reader */

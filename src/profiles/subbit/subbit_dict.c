@@ -372,41 +372,41 @@ static void put_pattern(ulk_dict_text *b, const uint8_t *p, int n)
 {
     char t[20];
     fmt_pattern(p, n, t);
-    ulk_dt_str(b, t);
+    ulk_text_json_str(b, t);
 }
 
 /* The link object of the canonical form (docs/dictionary.md section 6), keys in byte order. */
 void ulk_subbit_link_canonical(ulk_dict_text *b, const ulk_link *L)
 {
-    ulk_dt_puts(b, "{\"bit_rate\":");
+    ulk_text_puts(b, "{\"bit_rate\":");
     ulk_dt_ratio(b, L->bit_rate);
-    ulk_dt_puts(b, ",\"framing\":{");
-    ulk_dt_printf(b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
-    ulk_dt_puts(b, ",\"line_code\":");
-    ulk_dt_str(b, ulk_line_code_name(L->line_code));
+    ulk_text_puts(b, ",\"framing\":{");
+    ulk_text_printf(b, "\"gap\":%d,\"postamble\":%d,\"preamble\":%d}", L->gap, L->postamble, L->preamble);
+    ulk_text_puts(b, ",\"line_code\":");
+    ulk_text_json_str(b, ulk_line_code_name(L->line_code));
     if (L->has_pilot) {
-        ulk_dt_puts(b, ",\"pilot\":{\"amplitude\":");
+        ulk_text_puts(b, ",\"pilot\":{\"amplitude\":");
         ulk_dt_double(b, L->pilot_amplitude);
-        ulk_dt_puts(b, ",\"frequency\":");
+        ulk_text_puts(b, ",\"frequency\":");
         ulk_dt_ratio(b, L->fp);
-        ulk_dt_puts(b, "}");
+        ulk_text_puts(b, "}");
     }
-    ulk_dt_puts(b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
+    ulk_text_puts(b, ",\"profile\":\"subbit\",\"subbits\":{\"idle\":");
     put_pattern(b, L->idle, L->n_subbits);
-    ulk_dt_puts(b, ",\"one\":");
+    ulk_text_puts(b, ",\"one\":");
     put_pattern(b, L->one, L->n_subbits);
-    ulk_dt_puts(b, ",\"zero\":");
+    ulk_text_puts(b, ",\"zero\":");
     put_pattern(b, L->zero, L->n_subbits);
-    ulk_dt_puts(b, "},\"subcarrier\":{\"amplitude\":");
+    ulk_text_puts(b, "},\"subcarrier\":{\"amplitude\":");
     ulk_dt_double(b, L->amplitude);
-    ulk_dt_puts(b, ",\"frequency\":");
+    ulk_text_puts(b, ",\"frequency\":");
     ulk_dt_ratio(b, L->fsc);
-    ulk_dt_puts(b, ",\"waveform\":");
-    ulk_dt_str(b, ulk_waveform_name(L->waveform));
-    ulk_dt_puts(b, "},\"word\":{\"argument_bits\":");
-    ulk_dt_printf(b, "%d,\"check\":", L->argument_bits);
-    ulk_dt_str(b, ulk_check_name(L->check));
-    ulk_dt_printf(b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
+    ulk_text_puts(b, ",\"waveform\":");
+    ulk_text_json_str(b, ulk_waveform_name(L->waveform));
+    ulk_text_puts(b, "},\"word\":{\"argument_bits\":");
+    ulk_text_printf(b, "%d,\"check\":", L->argument_bits);
+    ulk_text_json_str(b, ulk_check_name(L->check));
+    ulk_text_printf(b, ",\"opcode_bits\":%d,\"system_address_bits\":%d,\"vehicle_address\":{\"bits\":%d,\"value\":%u}}}",
               L->opcode_bits, L->system_bits, L->vehicle_bits, L->vehicle_value);
 }
 

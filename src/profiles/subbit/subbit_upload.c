@@ -21,26 +21,26 @@ void ulk_subbit_upload_write_link(const ulk_link *l, ulk_jbuf *b)
     pattern_str(l->zero, l->n_subbits, pz);
     pattern_str(l->one, l->n_subbits, po);
     pattern_str(l->idle, l->n_subbits, pi);
-    ulk_jb_put(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ");
+    ulk_text_puts(b, ",\n  \"link\": {\n    \"profile\": \"subbit\",\n    \"bit_rate\": ");
     ulk_jb_ratio(b, l->bit_rate);
-    ulk_jb_printf(b, ",\n    \"subbits\": {\"zero\": \"%s\", \"one\": \"%s\", \"idle\": \"%s\"},\n", pz, po, pi);
-    ulk_jb_printf(b, "    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
+    ulk_text_printf(b, ",\n    \"subbits\": {\"zero\": \"%s\", \"one\": \"%s\", \"idle\": \"%s\"},\n", pz, po, pi);
+    ulk_text_printf(b, "    \"line_code\": \"%s\",\n    \"subcarrier\": {\"frequency\": ", ulk_line_code_name(l->line_code));
     ulk_jb_ratio(b, l->fsc);
-    ulk_jb_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
+    ulk_text_printf(b, ", \"waveform\": \"%s\", \"amplitude\": ", ulk_waveform_name(l->waveform));
     ulk_jb_double(b, l->amplitude);
-    ulk_jb_put(b, "},\n    \"pilot\": ");
+    ulk_text_puts(b, "},\n    \"pilot\": ");
     if (l->has_pilot) {
-        ulk_jb_put(b, "{\"frequency\": ");
+        ulk_text_puts(b, "{\"frequency\": ");
         ulk_jb_ratio(b, l->fp);
-        ulk_jb_put(b, ", \"amplitude\": ");
+        ulk_text_puts(b, ", \"amplitude\": ");
         ulk_jb_double(b, l->pilot_amplitude);
-        ulk_jb_put(b, "}");
+        ulk_text_puts(b, "}");
     } else {
-        ulk_jb_put(b, "null");
+        ulk_text_puts(b, "null");
     }
-    ulk_jb_printf(b, ",\n    \"framing\": {\"preamble\": %d, \"gap\": %d, \"postamble\": %d},\n", l->preamble, l->gap,
+    ulk_text_printf(b, ",\n    \"framing\": {\"preamble\": %d, \"gap\": %d, \"postamble\": %d},\n", l->preamble, l->gap,
               l->postamble);
-    ulk_jb_printf(b,
+    ulk_text_printf(b,
               "    \"word\": {\"vehicle_address\": {\"bits\": %d, \"value\": %u}, \"system_address_bits\": %d, "
               "\"opcode_bits\": %d, \"argument_bits\": %d, \"check\": \"%s\", \"word_bits\": %d}\n  },\n",
               l->vehicle_bits, l->vehicle_value, l->system_bits, l->opcode_bits, l->argument_bits,
@@ -53,7 +53,7 @@ void ulk_subbit_upload_write_unit(const ulk_link *l, const ulk_upload_cmd *c, ul
     (void)l;
     char hex[40];
     ulk_word_hex(&c->word, hex);
-    ulk_jb_printf(b, "],\n     \"word\": \"%s\"}", hex);
+    ulk_text_printf(b, "],\n     \"word\": \"%s\"}", hex);
 }
 
 /* ---------------------------------------------------------------- reader */
